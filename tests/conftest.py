@@ -1,0 +1,13 @@
+"""Shared test set-up: a clean environment for every test."""
+
+from __future__ import annotations
+
+import pytest
+
+
+@pytest.fixture(autouse=True)
+def _clean_environment(monkeypatch: pytest.MonkeyPatch, tmp_path_factory: pytest.TempPathFactory) -> None:
+    # NO_COLOR changes Textual's output and so the snapshots (toolchain.md).
+    monkeypatch.delenv("NO_COLOR", raising=False)
+    # Never touch the user's real job database from a test.
+    monkeypatch.setenv("RUNTRUE_DATA_DIR", str(tmp_path_factory.mktemp("runtrue-data")))
