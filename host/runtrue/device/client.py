@@ -1,0 +1,315 @@
+"""MeterClient: the meter's commands and its revolution records over any transport.
+
+Contract: DEVELOPERS.md, "Device client".  The client owns one :class:`FrameDecoder`, numbers
+its commands, waits for each command's ACK (matched by the command's sequence number,
+firmware/PROTOCOL.md) and keeps every other message: revolutions in a queue, the latest INFO and
+STATUS, TEXT lines in a log.
+
+Reconnection: when the transport reports :class:`TransportLost` (meter unplugged), the client
+keeps its session (queued revolutions, counters, the settings asked for) and asks the transport
+to reopen the same device while the caller's timeout lasts.  When the device is back it
+applies the settings again and restarts streaming if it was streaming, so a reading in
+progress simply carries on.  If the device is still away when the timeout ends, the call raises
+:class:`TransportLost`; calling again later resumes the same session.
+"""
+
+from __future__ import annotations
+
+import collections
+import time
+from typing import Any, Callable
+
+from runtrue.device.errors import CommandRejected, MeterError, NoAnswer, NoRevolutions
+from runtrue.protocol.errors import MessageError
+from runtrue.protocol.frames import FrameDecoder
+from runtrue.protocol.messages import (
+    CMD_IDENTIFY,
+    CMD_SELFTEST,
+    CMD_SET_CHANNELS,
+    CMD_SET_EDGE,
+    CMD_SET_RATE,
+    CMD_START,
+    CMD_STATUS,
+    CMD_STOP,
+    COMMAND_NAMES,
+    Ack,
+    CommandEncoder,
+    DeviceInfo,
+    Message,
+    Revolution,
+    SelfTest,
+    Status,
+    Text,
+    parse_message,
+    set_channels_payload,
+    set_edge_payload,
+    set_rate_payload,
+)
+from runtrue.transport.base import Transport, TransportLost
+
+READ_CHUNK = 4096
+POLL_S = 0.05
+REV_QUEUE_MAX = 100_000  # about 30 min at 3,600 rpm; the oldest go first beyond that
+
+
+def _no_answer_text(port: str) -> str:
+    return (
+        f"no answer from the meter on {port}: is the runtrue firmware installed? "
+        "try `runtrue device check`"
+    )
+
+
+class MeterClient:
+    """Commands and readings of one meter over ``transport``."""
+
+    def __init__(self, transport: Transport, port: str | None = None, *, command_timeout_s: float = 2.0) -> None:
+        self.transport = transport
+        self.port = port or transport.name
+        self.command_timeout_s = command_timeout_s
+        self.decoder = FrameDecoder()
+        self.commands = CommandEncoder()
+        self.info: DeviceInfo | None = None
+        self.last_status: Status | None = None
+        self.log: collections.deque[str] = collections.deque(maxlen=200)
+        self.message_errors = 0
+        self.reconnects = 0
+        self.connected = True
+        self.streaming = False
+        self._revs: collections.deque[Revolution] = collections.deque(maxlen=REV_QUEUE_MAX)
+        self._acks: dict[int, Ack] = {}
+        self._selftest: SelfTest | None = None
+        self._frames_seen = 0
+        # Settings asked for in this session: applied again after a reconnect.
+        self._wanted: dict[str, Any] = {}
+
+    # ---- counters ---------------------------------------------------------------------------
+
+    @property
+    def lost_frames(self) -> int:
+        """Device frames that never arrived (from sequence-number gaps)."""
+        return self.decoder.lost_frames
+
+    @property
+    def frame_errors(self) -> int:
+        """Runs dropped for bad framing, CRC or version."""
+        return self.decoder.errors
+
+    # ---- the pump ---------------------------------------------------------------------------
+
+    def _dispatch(self, message: Message) -> None:
+        if isinstance(message, Revolution):
+            self._revs.append(message)
+        elif isinstance(message, Ack):
+            self._acks[message.cmd_seq] = message
+        elif isinstance(message, DeviceInfo):
+            self.info = message
+        elif isinstance(message, Status):
+            self.last_status = message
+        elif isinstance(message, SelfTest):
+            self._selftest = message
+        elif isinstance(message, Text):
+            self.log.append(message.text)
+
+    def feed(self, data: bytes) -> None:
+        """Decode bytes from the transport and keep the messages they complete."""
+        for frame in self.decoder.feed(data):
+            self._frames_seen += 1
+            try:
+                message = parse_message(frame)
+            except MessageError as exc:
+                self.message_errors += 1
+                self.log.append(f"bad message: {exc}")
+                continue
+            self._dispatch(message)
+
+    def _pump(self, timeout_s: float, deadline: float) -> None:
+        """Read once (waiting up to ``timeout_s``); reconnect on loss while ``deadline`` allows."""
+        try:
+            data = self.transport.read(READ_CHUNK, timeout_s)
+        except TransportLost:
+            self.connected = False
+            self._reconnect(deadline)
+            return
+        if data:
+            self.feed(data)
+
+    def _reconnect(self, deadline: float) -> None:
+        """Wait for the device until ``deadline``; re-apply the session's settings when back."""
+        remaining = max(0.0, deadline - time.monotonic())
+        if not self.transport.reopen(remaining):
+            raise TransportLost(
+                f"the meter on {self.port} is unplugged or not answering; plug it back in and "
+                "the session carries on (nothing recorded is lost)"
+            )
+        self.connected = True
+        self.reconnects += 1
+        self.decoder.discard_partial()
+        self.decoder.reset_sequence()
+        self._acks.clear()
+        was_streaming = self.streaming
+        self.streaming = False
+        wanted = dict(self._wanted)
+        if "rate_hz" in wanted:
+            self._command(CMD_SET_RATE, set_rate_payload(wanted["rate_hz"]))
+        if "channel_mask" in wanted:
+            self._command(CMD_SET_CHANNELS, set_channels_payload(wanted["channel_mask"]))
+        if "edge" in wanted:
+            self._command(CMD_SET_EDGE, set_edge_payload(wanted["edge"]))
+        if was_streaming:
+            self._command(CMD_START)
+            self.streaming = True
+
+    def _wait(self, until: Callable[[], bool], timeout_s: float) -> bool:
+        deadline = time.monotonic() + timeout_s
+        while not until():
+            remaining = deadline - time.monotonic()
+            if remaining <= 0:
+                return until()
+            self._pump(min(POLL_S, remaining), deadline)
+        return True
+
+    def _command(self, cmd_type: int, payload: bytes = b"", timeout_s: float | None = None) -> Ack:
+        """Send a command and wait for its ACK; raise :class:`CommandRejected` unless ok."""
+        timeout = self.command_timeout_s if timeout_s is None else timeout_s
+        name = COMMAND_NAMES.get(cmd_type, f"command {cmd_type:#04x}")
+        seq, wire = self.commands.encode(cmd_type, payload)
+        deadline = time.monotonic() + timeout
+        try:
+            self.transport.write(wire)
+        except TransportLost:
+            self.connected = False
+            self._reconnect(deadline)
+            return self._command(cmd_type, payload, max(0.1, deadline - time.monotonic()))
+        frames_before = self._frames_seen
+        if not self._wait(lambda: seq in self._acks, timeout):
+            if self._frames_seen == frames_before and self.decoder.frames_ok == 0:
+                raise NoAnswer(_no_answer_text(self.port))
+            raise MeterError(
+                f"the meter on {self.port} did not acknowledge {name} within {timeout:g} s "
+                f"(frames lost so far: {self.lost_frames}); try again, or unplug and re-plug the meter"
+            )
+        ack = self._acks.pop(seq)
+        if not ack.ok:
+            detail = f": {ack.message}" if ack.message else ""
+            raise CommandRejected(f"the meter refused {name} ({ack.result_name}){detail}", ack.result)
+        return ack
+
+    # ---- commands ---------------------------------------------------------------------------
+
+    def identify(self) -> DeviceInfo:
+        """Ask the meter what it is (INFO) and return it."""
+        self.info = None
+        self._command(CMD_IDENTIFY)
+        if self.info is None and not self._wait(lambda: self.info is not None, self.command_timeout_s):
+            raise MeterError(f"the meter on {self.port} acknowledged IDENTIFY but sent no INFO")
+        assert self.info is not None
+        return self.info
+
+    def start(self) -> None:
+        """Start streaming revolutions (the queue is emptied first: old revolutions are stale)."""
+        self._revs.clear()
+        self._command(CMD_START)
+        self.streaming = True
+
+    def stop(self) -> None:
+        self._command(CMD_STOP)
+        self.streaming = False
+
+    def _set_and_wait_info(self, cmd_type: int, payload: bytes) -> None:
+        old = self.info
+        self.info = None
+        self._command(cmd_type, payload)
+        if not self._wait(lambda: self.info is not None, self.command_timeout_s):
+            self.info = old
+
+    def set_rate(self, hz: float) -> float:
+        """Set the per-channel sample rate; returns the rate the meter really uses (Hz)."""
+        self._set_and_wait_info(CMD_SET_RATE, set_rate_payload(int(round(hz))))
+        self._wanted["rate_hz"] = int(round(hz))
+        return self.info.rate_hz if self.info else float(hz)
+
+    def set_channels(self, mask: int) -> None:
+        """Choose the channels (bit 0 = channel 0)."""
+        self._set_and_wait_info(CMD_SET_CHANNELS, set_channels_payload(mask))
+        self._wanted["channel_mask"] = mask
+
+    def set_edge(self, edge: str) -> None:
+        """Which edge of the reference pulse marks the revolution: "rising" or "falling"."""
+        self._set_and_wait_info(CMD_SET_EDGE, set_edge_payload(edge))
+        self._wanted["edge"] = edge
+
+    def self_test(self, timeout_s: float = 10.0) -> dict[str, Any]:
+        """Run the meter's self-test (about a second of measurement); returns its JSON object."""
+        self._selftest = None
+        self._command(CMD_SELFTEST, timeout_s=timeout_s)
+        if self._selftest is None and not self._wait(lambda: self._selftest is not None, 1.0):
+            raise MeterError(f"the meter on {self.port} acknowledged SELFTEST but sent no result")
+        assert self._selftest is not None
+        return dict(self._selftest.raw)
+
+    def status(self) -> Status:
+        """Ask for a STATUS report now."""
+        self.last_status = None
+        self._command(CMD_STATUS)
+        if self.last_status is None and not self._wait(lambda: self.last_status is not None, 1.0):
+            raise MeterError(f"the meter on {self.port} acknowledged STATUS but sent no report")
+        assert self.last_status is not None
+        return self.last_status
+
+    # ---- revolutions ------------------------------------------------------------------------
+
+    @property
+    def pending(self) -> int:
+        """Revolutions received and not yet read."""
+        return len(self._revs)
+
+    def discard_revolutions(self) -> None:
+        self._revs.clear()
+
+    def read_revolution(self, timeout_s: float) -> Revolution | None:
+        """The next revolution (usable or not: see ``Revolution.usable``), or None on timeout."""
+        if not self._revs:
+            self._wait(lambda: bool(self._revs), timeout_s)
+        return self._revs.popleft() if self._revs else None
+
+    def revolutions(self, n: int, timeout_s: float = 5.0, *, usable_only: bool = False) -> list[Revolution]:
+        """The next ``n`` revolutions.  ``timeout_s`` is the longest wait for each one; if it
+        passes with none, :class:`NoRevolutions` says to check the reference sensor."""
+        out: list[Revolution] = []
+        while len(out) < n:
+            rev = self.read_revolution(timeout_s)
+            if rev is None:
+                raise NoRevolutions(
+                    f"no revolution from the meter on {self.port} within {timeout_s:g} s "
+                    f"({len(out)} of {n} so far): is the machine running, and does the reference "
+                    "sensor see its mark once per revolution (check its LED, gap and the --edge setting)?"
+                )
+            if usable_only and not rev.usable:
+                continue
+            out.append(rev)
+        return out
+
+    def close(self) -> None:
+        """Stop streaming if possible and release the port."""
+        if self.streaming and self.connected:
+            try:
+                self.stop()
+            except (MeterError, TransportLost):
+                pass
+        self.transport.close()
+
+    def __enter__(self) -> MeterClient:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+
+def open_meter(
+    port: str, seed: int | None = None, realtime: bool = False, *, command_timeout_s: float = 2.0
+) -> MeterClient:
+    """Open ``port`` (a serial device, or ``sim:NAME``) and return a client (not yet identified)."""
+    from runtrue.transport import open_transport
+
+    transport = open_transport(port, seed=seed, realtime=realtime)
+    return MeterClient(transport, port, command_timeout_s=command_timeout_s)

@@ -1,0 +1,332 @@
+"""Messages of protocol version 1: device -> host payloads parsed into dataclasses, and the
+host -> device command frames.  Implements the tables of firmware/PROTOCOL.md
+("Device -> host", "Host -> device commands"); all numbers little-endian, ``f32`` IEEE-754
+single precision.
+
+Phasors follow the project convention: ``re + j*im = amp * e^{+j*lag}``, amplitude in g
+peak, lag in degrees of rotation after the reference mark.
+"""
+
+from __future__ import annotations
+
+import json
+import struct
+from dataclasses import dataclass, field
+from typing import Any, Union
+
+from runtrue.protocol.errors import MessageError
+from runtrue.protocol.frames import SEQ_MODULO, Frame, encode_frame
+
+# Device -> host frame types.
+INFO = 0x01
+REV = 0x02
+STATUS = 0x03
+ACK = 0x04
+SELFTEST = 0x05
+TEXT = 0x06
+
+# Host -> device command types.
+CMD_IDENTIFY = 0x81
+CMD_START = 0x82
+CMD_STOP = 0x83
+CMD_SET_RATE = 0x84
+CMD_SET_CHANNELS = 0x85
+CMD_SET_EDGE = 0x86
+CMD_SELFTEST = 0x87
+CMD_STATUS = 0x88
+CMD_REPL = 0x89
+
+COMMAND_NAMES = {
+    CMD_IDENTIFY: "IDENTIFY",
+    CMD_START: "START",
+    CMD_STOP: "STOP",
+    CMD_SET_RATE: "SET_RATE",
+    CMD_SET_CHANNELS: "SET_CHANNELS",
+    CMD_SET_EDGE: "SET_EDGE",
+    CMD_SELFTEST: "SELFTEST",
+    CMD_STATUS: "STATUS",
+    CMD_REPL: "REPL",
+}
+
+# ACK results.
+ACK_OK = 0
+ACK_BAD_ARGUMENT = 1
+ACK_UNKNOWN_COMMAND = 2
+ACK_BUSY = 3
+ACK_BAD_FRAME = 4
+ACK_RESULT_NAMES = {
+    ACK_OK: "ok",
+    ACK_BAD_ARGUMENT: "bad argument",
+    ACK_UNKNOWN_COMMAND: "unknown command",
+    ACK_BUSY: "busy",
+    ACK_BAD_FRAME: "bad frame",
+}
+
+# REV flags.
+FLAG_MISSING_PULSE = 1 << 0
+FLAG_EXTRA_PULSE = 1 << 1
+FLAG_SPEED_JUMP = 1 << 2
+FLAG_CLIPPED = 1 << 3
+FLAG_DROPPED_SAMPLES = 1 << 4
+FLAG_FIRST = 1 << 5
+FLAG_CLIP_CH0 = 1 << 8
+FLAG_CLIP_CH1 = 1 << 9
+FLAG_CLIP_CH2 = 1 << 10
+UNUSABLE_FLAGS = 0x1F  # bits 0-4: do not average into a reading
+FLAG_NAMES = {
+    FLAG_MISSING_PULSE: "missing pulse",
+    FLAG_EXTRA_PULSE: "extra pulse",
+    FLAG_SPEED_JUMP: "speed jump",
+    FLAG_CLIPPED: "clipped",
+    FLAG_DROPPED_SAMPLES: "dropped samples",
+    FLAG_FIRST: "first",
+    FLAG_CLIP_CH0: "clip ch0",
+    FLAG_CLIP_CH1: "clip ch1",
+    FLAG_CLIP_CH2: "clip ch2",
+}
+
+_REV_HEAD = struct.Struct("<IfHHBB")  # 14 bytes
+_REV_CHANNEL = struct.Struct("<5f")  # 20 bytes
+_STATUS = struct.Struct("<IHIIIIB")  # 23 bytes
+_ACK = struct.Struct("<HBB")
+
+
+def channels_of_mask(mask: int) -> list[int]:
+    """Physical channel numbers in ``mask``, ascending (bit 0 = channel 0)."""
+    return [ch for ch in range(8) if mask >> ch & 1]
+
+
+@dataclass(frozen=True)
+class DeviceInfo:
+    """INFO: what the meter is and how it is set."""
+
+    fw: str
+    board: str
+    proto: int
+    channels_max: int = 3
+    channel_mask: int = 1
+    rate_hz: float = 0.0
+    adc_bits: int = 12
+    counts_per_g: list[float] = field(default_factory=list)
+    zero_code: list[float] = field(default_factory=list)
+    edge: str = "rising"
+    streaming: bool = False
+    serial: str = ""
+    raw: dict[str, Any] = field(default_factory=dict, compare=False, repr=False)
+
+
+@dataclass(frozen=True)
+class Revolution:
+    """REV: one completed revolution measured by the meter.
+
+    ``h1``/``h2`` are the 1x/2x phasors per enabled channel (ascending), in g peak, phase-lag
+    convention; ``rms_g`` the overall RMS per channel with DC removed.
+    """
+
+    rev: int
+    period_us: float
+    n_samples: int
+    flags: int
+    channel_mask: int
+    h1: list[complex]
+    h2: list[complex]
+    rms_g: list[float]
+
+    @property
+    def speed_rpm(self) -> float:
+        return 60e6 / self.period_us if self.period_us > 0 else 0.0
+
+    @property
+    def usable(self) -> bool:
+        """True unless a flag in bits 0-4 says this revolution must not be averaged."""
+        return not self.flags & UNUSABLE_FLAGS and self.period_us > 0
+
+    @property
+    def channels(self) -> list[int]:
+        return channels_of_mask(self.channel_mask)
+
+    @property
+    def flag_names(self) -> list[str]:
+        return [name for bit, name in FLAG_NAMES.items() if self.flags & bit]
+
+
+@dataclass(frozen=True)
+class Status:
+    """STATUS: is the meter keeping up."""
+
+    uptime_ms: int
+    cpu_load_permille: int
+    dropped_samples: int
+    edges_rejected: int
+    revs_sent: int
+    tx_overflows: int
+    streaming: bool
+
+
+@dataclass(frozen=True)
+class Ack:
+    """ACK: the meter's answer to the command with sequence number ``cmd_seq``."""
+
+    cmd_seq: int
+    cmd_type: int
+    result: int
+    message: str = ""
+
+    @property
+    def ok(self) -> bool:
+        return self.result == ACK_OK
+
+    @property
+    def result_name(self) -> str:
+        return ACK_RESULT_NAMES.get(self.result, f"result {self.result}")
+
+
+@dataclass(frozen=True)
+class SelfTest:
+    """SELFTEST: ``{"pass": bool, "checks": [{"name", "pass", "value", "unit", "note"}]}``."""
+
+    passed: bool
+    checks: list[dict[str, Any]]
+    raw: dict[str, Any] = field(default_factory=dict, compare=False, repr=False)
+
+
+@dataclass(frozen=True)
+class Text:
+    """TEXT: a log line from the firmware."""
+
+    text: str
+
+
+@dataclass(frozen=True)
+class Unknown:
+    """A good frame of a type this runtrue does not know (newer firmware)."""
+
+    type: int
+    payload: bytes
+
+
+Message = Union[DeviceInfo, Revolution, Status, Ack, SelfTest, Text, Unknown]
+
+
+def _json_object(payload: bytes, what: str) -> dict[str, Any]:
+    try:
+        obj = json.loads(payload.decode("utf-8"))
+    except (UnicodeDecodeError, ValueError) as exc:
+        raise MessageError(f"{what} payload is not UTF-8 JSON: {exc}") from None
+    if not isinstance(obj, dict):
+        raise MessageError(f"{what} payload is not a JSON object")
+    return obj
+
+
+def parse_info(payload: bytes) -> DeviceInfo:
+    obj = _json_object(payload, "INFO")
+    try:
+        return DeviceInfo(
+            fw=str(obj["fw"]),
+            board=str(obj["board"]),
+            proto=int(obj["proto"]),
+            channels_max=int(obj.get("channels_max", 3)),
+            channel_mask=int(obj.get("channel_mask", 1)),
+            rate_hz=float(obj.get("rate_hz", 0.0)),
+            adc_bits=int(obj.get("adc_bits", 12)),
+            counts_per_g=[float(x) for x in obj.get("counts_per_g", [])],
+            zero_code=[float(x) for x in obj.get("zero_code", [])],
+            edge=str(obj.get("edge", "rising")),
+            streaming=bool(obj.get("streaming", False)),
+            serial=str(obj.get("serial", "")),
+            raw=obj,
+        )
+    except (KeyError, TypeError, ValueError) as exc:
+        raise MessageError(f"INFO lacks or garbles a key: {exc}") from None
+
+
+def parse_rev(payload: bytes) -> Revolution:
+    if len(payload) < _REV_HEAD.size:
+        raise MessageError(f"REV payload of {len(payload)} bytes; the header alone is {_REV_HEAD.size}")
+    rev, period_us, n_samples, flags, n_ch, mask = _REV_HEAD.unpack_from(payload)
+    expected = _REV_HEAD.size + _REV_CHANNEL.size * n_ch
+    if len(payload) != expected:
+        raise MessageError(f"REV with {n_ch} channel(s) should be {expected} bytes, got {len(payload)}")
+    if bin(mask).count("1") != n_ch:
+        raise MessageError(f"REV channel mask {mask:#04x} does not match its {n_ch} channel block(s)")
+    h1: list[complex] = []
+    h2: list[complex] = []
+    rms: list[float] = []
+    for i in range(n_ch):
+        h1_re, h1_im, h2_re, h2_im, rms_g = _REV_CHANNEL.unpack_from(payload, _REV_HEAD.size + i * _REV_CHANNEL.size)
+        h1.append(complex(h1_re, h1_im))
+        h2.append(complex(h2_re, h2_im))
+        rms.append(rms_g)
+    return Revolution(rev, period_us, n_samples, flags, mask, h1, h2, rms)
+
+
+def parse_status(payload: bytes) -> Status:
+    if len(payload) != _STATUS.size:
+        raise MessageError(f"STATUS payload of {len(payload)} bytes; it should be {_STATUS.size}")
+    up, cpu, dropped, rejected, sent, overflows, streaming = _STATUS.unpack(payload)
+    return Status(up, cpu, dropped, rejected, sent, overflows, bool(streaming))
+
+
+def parse_ack(payload: bytes) -> Ack:
+    if len(payload) < _ACK.size:
+        raise MessageError(f"ACK payload of {len(payload)} bytes; it needs at least {_ACK.size}")
+    cmd_seq, cmd_type, result = _ACK.unpack_from(payload)
+    message = payload[_ACK.size :].decode("utf-8", errors="replace")
+    return Ack(cmd_seq, cmd_type, result, message)
+
+
+def parse_selftest(payload: bytes) -> SelfTest:
+    obj = _json_object(payload, "SELFTEST")
+    checks = obj.get("checks", [])
+    if "pass" not in obj or not isinstance(checks, list):
+        raise MessageError("SELFTEST needs 'pass' and a list 'checks'")
+    return SelfTest(bool(obj["pass"]), checks, obj)
+
+
+def parse_message(frame: Frame) -> Message:
+    """Parse a checked device frame into its message; raises :class:`MessageError`."""
+    if frame.type == INFO:
+        return parse_info(frame.payload)
+    if frame.type == REV:
+        return parse_rev(frame.payload)
+    if frame.type == STATUS:
+        return parse_status(frame.payload)
+    if frame.type == ACK:
+        return parse_ack(frame.payload)
+    if frame.type == SELFTEST:
+        return parse_selftest(frame.payload)
+    if frame.type == TEXT:
+        return Text(frame.payload.decode("utf-8", errors="replace"))
+    return Unknown(frame.type, frame.payload)
+
+
+# ---- host -> device -------------------------------------------------------------------------
+
+
+def set_rate_payload(rate_hz: int) -> bytes:
+    return struct.pack("<I", int(rate_hz))
+
+
+def set_channels_payload(mask: int) -> bytes:
+    if not 1 <= mask <= 0b111:
+        raise ValueError(f"channel mask {mask:#x}: use bits 0-2, at least one channel")
+    return struct.pack("<B", mask)
+
+
+def set_edge_payload(edge: str) -> bytes:
+    if edge not in ("rising", "falling"):
+        raise ValueError(f"edge {edge!r}: use 'rising' or 'falling'")
+    return struct.pack("<B", 1 if edge == "falling" else 0)
+
+
+class CommandEncoder:
+    """Numbers the host's command frames (from 0, wrapping at 65536) and encodes them."""
+
+    def __init__(self, first_seq: int = 0) -> None:
+        self.next_seq = first_seq % SEQ_MODULO
+
+    def encode(self, cmd_type: int, payload: bytes = b"") -> tuple[int, bytes]:
+        """Return ``(seq, wire bytes)`` of the next command frame."""
+        seq = self.next_seq
+        self.next_seq = (seq + 1) % SEQ_MODULO
+        return seq, encode_frame(cmd_type, seq, payload)

@@ -1,0 +1,44 @@
+"""Byte pipes to the meter: a serial port, the simulator, or a spy around either.
+
+``open_transport(port)`` picks one from the port name (DEVELOPERS.md, "Host transport"):
+``sim:NAME`` is the simulator running scenario NAME (imported only when asked for, so the
+serial path never loads numpy-heavy simulator code); anything else is a serial port or a
+pyserial URL.
+"""
+
+from __future__ import annotations
+
+from runtrue.transport.base import PortError, Transport, TransportLost
+
+__all__ = ["PortError", "Transport", "TransportLost", "open_transport", "scenario_names"]
+
+SIM_PREFIX = "sim:"
+
+
+def scenario_names() -> list[str]:
+    """Names of the simulator's scenarios (empty if the simulator is not installed)."""
+    try:
+        from runtrue.sim.scenarios import SCENARIOS
+    except ModuleNotFoundError:
+        return []
+    return sorted(SCENARIOS)
+
+
+def open_transport(port: str, *, seed: int | None = None, realtime: bool = False) -> Transport:
+    """Open ``port``: ``sim:NAME`` for a simulator scenario, else a serial device or URL.
+
+    Raises :class:`PortError` with what to do when the port cannot be opened."""
+    if port.startswith(SIM_PREFIX):
+        name = port[len(SIM_PREFIX) :]
+        try:
+            from runtrue.sim.scenarios import SCENARIOS
+            from runtrue.sim.transport import SimTransport
+        except ModuleNotFoundError as exc:
+            raise PortError(f"the simulator is not available in this installation ({exc})") from None
+        if name not in SCENARIOS:
+            choices = ", ".join(sorted(SCENARIOS)) or "none"
+            raise PortError(f"unknown scenario {name!r}: choose one of {choices} (`runtrue scenarios` lists them)")
+        return SimTransport(name, seed=seed, realtime=realtime)
+    from runtrue.transport.serial import SerialTransport
+
+    return SerialTransport(port)
