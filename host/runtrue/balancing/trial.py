@@ -1,0 +1,137 @@
+"""Trial weight sizing, and whether a trial run changed the reading enough to trust.
+
+Sizing rule (common practice, no single published source; quoted in field-balancing guides in
+several forms): choose a trial weight whose centrifugal force at running speed is about 10 % of
+the static load the rotor puts on its supports, shared between the correction planes.  Large
+enough to move the reading clearly out of its scatter, small enough to be safe to run.
+F = m * r * w^2 (``runtrue.balancing.forces``).
+
+Trial-effect check: the influence coefficient comes from the change ``trial - reference``; its
+error is the error of that difference, whose standard deviation is
+``sqrt(spread_ref^2 + spread_trial^2)`` (independent readings).  The ratio of the change to that
+standard deviation bounds the coefficient's error: at ratio 10 the coefficient is good to about
+10 % in size and 6 deg in angle (1 sd).  We ask for at least TRIAL_MIN_RATIO (our choice);
+when the ratio falls short, the suggested scale is TRIAL_MIN_RATIO / ratio (the change grows in
+proportion to the trial weight in a linear machine).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from runtrue.balancing.forces import check_radius_mm, check_speed_rpm, centrifugal_force_n
+from runtrue.balancing.model import BalancingError
+
+#: Fraction of the rotor's weight (per plane share) the trial weight's force should reach.
+TRIAL_FORCE_FRACTION = 0.10
+#: Minimum change / noise ratio for a trustworthy trial run (see module docstring).
+TRIAL_MIN_RATIO = 10.0
+#: Without spreads: the change should be at least this fraction of the reference (common practice).
+TRIAL_MIN_CHANGE_FRACTION = 0.20
+STANDARD_GRAVITY_M_S2 = 9.80665
+
+
+@dataclass(frozen=True)
+class TrialSuggestion:
+    """A trial weight: ``mass_g`` at ``radius_mm`` per plane, its force ``force_n`` at speed, and
+    the ``rule`` used (a sentence to show the user)."""
+
+    mass_g: float
+    radius_mm: float
+    force_n: float
+    rule: str
+
+
+@dataclass(frozen=True)
+class TrialVerdict:
+    """``ok``: the trial changed the reading enough.  ``ratio``: change / its noise (standard
+    deviations).  ``message``: a sentence for the user.  ``suggested_scale``: multiply the trial
+    mass by this (1.0 when ok)."""
+
+    ok: bool
+    ratio: float
+    message: str
+    suggested_scale: float
+
+
+def suggest_trial_weight(
+    rotor_mass_kg: float, speed_rpm: float, radius_mm: float, n_planes: int = 1
+) -> TrialSuggestion:
+    """Trial mass per plane so that its centrifugal force is 10 % of the rotor's weight share
+    (rotor weight / planes) at ``speed_rpm``, fitted at ``radius_mm`` (common practice)."""
+    try:
+        mass = float(rotor_mass_kg)
+    except (TypeError, ValueError):
+        raise BalancingError(f"rotor mass must be a number of kg, got {rotor_mass_kg!r}") from None
+    if not (math.isfinite(mass) and mass > 0.0):
+        raise BalancingError(f"rotor mass must be above 0 kg, got {rotor_mass_kg!r}")
+    if mass > 500_000.0:
+        raise BalancingError(f"rotor mass {mass:g} kg is implausible; check the units (kg)")
+    n = check_speed_rpm(speed_rpm)
+    r_mm = check_radius_mm(radius_mm)
+    if n_planes not in (1, 2, 3, 4) and not (isinstance(n_planes, int) and n_planes >= 1):
+        raise BalancingError(f"number of planes must be 1 or more, got {n_planes!r}")
+    w = 2.0 * math.pi * n / 60.0
+    force_n = TRIAL_FORCE_FRACTION * mass * STANDARD_GRAVITY_M_S2 / n_planes
+    mass_g = force_n / ((r_mm / 1000.0) * w * w) * 1000.0
+    rule = (
+        f"Trial weight sized so its centrifugal force at {n:g} rpm is {TRIAL_FORCE_FRACTION:.0%} of the "
+        f"rotor's weight{' per plane' if n_planes > 1 else ''} ({force_n:.3g} N) - common practice, "
+        "not a standard. Secure it for that force; if the machine is delicate, start smaller."
+    )
+    return TrialSuggestion(
+        mass_g=mass_g, radius_mm=r_mm, force_n=centrifugal_force_n(mass_g, r_mm, n), rule=rule
+    )
+
+
+def check_trial_effect(
+    reference: complex, trial: complex, spread: float, trial_spread: float | None = None
+) -> TrialVerdict:
+    """Whether the trial run changed the reading enough, given the readings' spreads.
+
+    ``spread`` is the reference reading's spread (standard deviation of the mean, same unit);
+    ``trial_spread`` the trial reading's (default: the same).  Returns a verdict with the ratio
+    of the change to its noise and, if too small, how much larger to make the trial weight.
+    """
+    ref = complex(reference)
+    tri = complex(trial)
+    s0 = float(spread)
+    s1 = s0 if trial_spread is None else float(trial_spread)
+    for v in (ref.real, ref.imag, tri.real, tri.imag, s0, s1):
+        if not math.isfinite(v):
+            raise BalancingError("trial check: readings and spreads must be finite numbers")
+    if s0 < 0 or s1 < 0:
+        raise BalancingError("trial check: spreads must be >= 0")
+    change = abs(tri - ref)
+    noise = math.hypot(s0, s1)
+    if noise == 0.0:
+        ratio = math.inf if change > 0 else 0.0
+    else:
+        ratio = change / noise
+    if ratio >= TRIAL_MIN_RATIO:
+        return TrialVerdict(
+            ok=True,
+            ratio=ratio,
+            message=f"The trial weight changed the reading by {ratio:.0f} times its scatter: enough.",
+            suggested_scale=1.0,
+        )
+    if change == 0.0:
+        return TrialVerdict(
+            ok=False,
+            ratio=0.0,
+            message="The trial weight did not change the reading at all: check that it was fitted, "
+            "and use a much larger one.",
+            suggested_scale=math.inf,
+        )
+    scale = TRIAL_MIN_RATIO / ratio
+    return TrialVerdict(
+        ok=False,
+        ratio=ratio,
+        message=(
+            f"The trial weight changed the reading by only {ratio:.1f} times its scatter (need "
+            f"{TRIAL_MIN_RATIO:g}): the coefficient would be unreliable. Make the trial weight about "
+            f"{math.ceil(scale * 10) / 10:g} times larger (or average more revolutions), and repeat."
+        ),
+        suggested_scale=scale,
+    )
