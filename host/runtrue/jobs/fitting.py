@@ -1,0 +1,161 @@
+"""From a computed weight to what the fitter bolts on: trial weights and correction placements.
+
+Uses the allocator (``runtrue.allocation``) with the machine's positions and stock or strip;
+without either, a weight is shown as computed, at the plane's radius, at any angle.
+Conventions: angles from the reference mark against rotation; planes numbered from 1.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from runtrue.jobs.model import Machine, PlaneSpec, Weight
+
+
+def positions_for(spec: PlaneSpec) -> Any:
+    """The allocator's ``Positions`` for a plane (excluded positions are 1-based in a PlaneSpec)."""
+    from runtrue.allocation import Positions
+
+    excluded = [n - 1 for n in spec.excluded]
+    if spec.continuous:
+        return Positions.groove(spec.radius_mm)
+    if spec.count is not None:
+        return Positions.equally_spaced(spec.count, spec.radius_mm, spec.first_angle_deg, excluded)
+    return Positions.at_angles(spec.angles_deg or [], spec.radius_mm, excluded)
+
+
+def _material(machine: Machine) -> dict[str, Any]:
+    from runtrue.allocation import Stock, Strip
+
+    if machine.strip is not None:
+        s = machine.strip
+        return {"strip": Strip(s.grams_per_mm, s.min_mm, s.step_mm)}
+    if machine.stock:
+        return {"stock": Stock.of([(p.mass_g, p.count) for p in machine.stock])}
+    return {}
+
+
+def first_usable_angle_deg(spec: PlaneSpec) -> float:
+    angles = spec.position_angles_deg()
+    if angles is None:
+        return 0.0
+    for n, a in enumerate(angles, start=1):
+        if n not in spec.excluded:
+            return a
+    raise ValueError("every position of this plane is excluded: free at least one to fit weights")
+
+
+def trial_weight(machine: Machine, plane: int, mass_g: float, angle_deg: float | None = None) -> Weight:
+    """A trial weight near ``mass_g`` that can really be fitted at one position of ``plane``.
+
+    The angle is the first usable position (0° in a continuous groove) unless given; the mass is
+    rounded to what the stock or strip can make there (the allocator's nearest combination).
+    """
+    spec = machine.planes[plane - 1]
+    angle = first_usable_angle_deg(spec) if angle_deg is None else angle_deg % 360.0
+    label = f"trial weight, plane {plane}"
+    material = _material(machine)
+    if not material:
+        return Weight(plane, round(mass_g, 1), angle, spec.radius_mm, label)
+    from runtrue.allocation import Positions, allocate
+
+    alloc = allocate(
+        (mass_g, angle, spec.radius_mm),
+        Positions.at_angles([angle], spec.radius_mm),
+        max_pieces_per_position=spec.max_pieces_per_position,
+        max_mass_per_position_g=spec.max_mass_per_position_g,
+        **material,
+    )
+    total = sum(p.mass_g for p in alloc.placements)
+    if total <= 0:
+        raise ValueError(
+            f"plane {plane}: the stock cannot make a trial weight near {mass_g:.3g} g; add pieces to the stock"
+        )
+    return Weight(plane, total, angle, spec.radius_mm, label)
+
+
+def plan_plane(machine: Machine, plane: int, correction_gmm: complex, kind: str, number: int) -> Any:
+    """The correction for one plane as placements and a fitting sheet (a ``PlaneCorrection``)."""
+    from runtrue.allocation import centrifugal_force_n, allocate, fitting_sheet
+    from runtrue.allocation.sheet import SheetRow
+
+    from runtrue.jobs.workflow import PlaneCorrection
+
+    spec = machine.planes[plane - 1]
+    mag = abs(correction_gmm)
+    angle = math.degrees(math_phase(correction_gmm)) % 360.0
+    correction = Weight(plane, mag / spec.radius_mm, angle, spec.radius_mm, f"{kind} plane {plane}")
+    label = f"{kind} {number}" if kind == "trim" else "correction"
+    material = _material(machine)
+    if mag == 0.0:
+        return PlaneCorrection(plane, correction, [], [], 0.0, 0.0, [])
+    if not material and spec.continuous:
+        w = Weight(plane, correction.mass_g, angle, spec.radius_mm, f"{label}, plane {plane}")
+        row = SheetRow(None, angle, spec.radius_mm, f"{w.mass_g:.3g} g", w.mass_g,
+                       centrifugal_force_n(w.mass_g, w.radius_mm, machine.speed_rpm), "fit")
+        return PlaneCorrection(plane, correction, [w], [row], 0.0, 0.0, [])
+    if not material:
+        return _split_without_stock(machine, spec, plane, correction, correction_gmm, label)
+    note: list[str] = []
+    alloc = allocate(
+        correction_gmm,
+        positions_for(spec),
+        correction_radius_mm=spec.radius_mm,
+        max_pieces_per_position=spec.max_pieces_per_position,
+        max_mass_per_position_g=spec.max_mass_per_position_g,
+        **material,
+    )
+    sheet = fitting_sheet(alloc, machine.speed_rpm)
+    fit = []
+    for p in alloc.placements:
+        where = f"position {p.position_index + 1}" if p.position_index is not None else "groove"
+        fit.append(Weight(plane, float(p.mass_g), float(p.angle_deg), float(p.radius_mm), f"{label}, plane {plane}, {where}"))
+    warnings = note + [f"Plane {plane}: {w}" for w in alloc.warnings]
+    return PlaneCorrection(
+        plane, correction, fit, list(sheet), abs(alloc.residual_gmm), float(alloc.residual_fraction), warnings
+    )
+
+
+def _split_without_stock(
+    machine: Machine, spec: PlaneSpec, plane: int, correction: Weight, correction_gmm: complex, label: str
+) -> Any:
+    """No stock described, fixed positions: the classic split between the two usable positions
+    either side of the correction angle (closed form, ``runtrue.allocation.split_two_positions``)."""
+    from runtrue.allocation import centrifugal_force_n, split_two_positions
+    from runtrue.allocation.sheet import SheetRow
+
+    from runtrue.jobs.workflow import PlaneCorrection
+
+    angles = spec.position_angles_deg() or []
+    usable = [(n, a) for n, a in enumerate(angles, start=1) if n not in spec.excluded]
+    if not usable:
+        raise ValueError(f"plane {plane}: every position is excluded; free at least one to fit weights")
+    target = correction.angle_deg
+    ahead = sorted(usable, key=lambda na: (na[1] - target) % 360.0)
+    behind = sorted(usable, key=lambda na: (target - na[1]) % 360.0)
+    a, b = behind[0], ahead[0]
+    fit: list[Weight] = []
+    rows = []
+    if a[0] == b[0] or len(usable) == 1:
+        masses = [(a, correction.mass_g * math.cos(math.radians(target - a[1])))]
+    else:
+        ma, mb = split_two_positions(correction_gmm, a[1], b[1], spec.radius_mm)
+        masses = [(a, ma), (b, mb)]
+    for (n, ang), m in masses:
+        if m <= 1e-9:
+            continue
+        fit.append(Weight(plane, m, ang, spec.radius_mm, f"{label}, plane {plane}, position {n}"))
+        rows.append(SheetRow(n, ang, spec.radius_mm, f"{m:.3g} g", m,
+                             centrifugal_force_n(m, spec.radius_mm, machine.speed_rpm), "fit"))
+    fitted = sum((w.unbalance_gmm for w in fit), 0j)
+    residual = abs(correction_gmm - fitted)
+    frac = residual / abs(correction_gmm) if correction_gmm else 0.0
+    warn = [f"Plane {plane}: no stock or strip described; masses are exact values, make up pieces to match."]
+    return PlaneCorrection(plane, correction, fit, rows, residual, frac, warn)
+
+
+def math_phase(z: complex) -> float:
+    import cmath
+
+    return cmath.phase(z)

@@ -1,0 +1,497 @@
+"""What a balancing job is made of: machines, weights, runs — plain data that round-trips to JSON.
+
+Conventions (DEVELOPERS.md, stated on every screen and report):
+
+* **Phase** is a lag in degrees of rotation after the reference mark, 0–360.
+* **Weight angles** are measured from the reference mark **against** the direction of rotation,
+  so a weight at θ adds θ to the phase of its effect; a weight is the complex unbalance
+  ``mass_g·radius_mm·e^{+jθ}`` in g·mm.
+* **Rotation** (``Machine.rotation``, ``"cw"`` or ``"ccw"``) is the direction the rotor turns **as
+  seen from the drive end** (the end where the motor or belt drive is, looking along the shaft
+  towards the rotor).  Seen from there, a ``"cw"`` rotor's weight angles are counted
+  counter-clockwise from the mark, a ``"ccw"`` rotor's clockwise.
+* **Influence coefficient** of plane p on pickup i: the change of reading (g, complex) per g·mm
+  of unbalance at 0° in plane p.  Stored as ``[pickup][plane]``.
+* Correction planes and pickups are numbered from 1 in everything a user sees and in
+  :class:`Weight` (``plane=1`` is the first plane); Python lists are indexed from 0.
+
+Nothing here imports numpy, textual or the device layer: this module is cheap to import.
+"""
+
+from __future__ import annotations
+
+import cmath
+import math
+from dataclasses import dataclass, field
+from typing import Any, Literal, Sequence
+
+Rotation = Literal["cw", "ccw"]
+RunKind = Literal["reference", "trial", "correction", "trim"]
+RUN_KINDS: tuple[str, ...] = ("reference", "trial", "correction", "trim")
+
+ANGLE_CONVENTION = (
+    "Weight angles are measured from the reference mark against the direction of rotation; "
+    "phase is a lag in degrees of rotation after the reference mark (0-360)."
+)
+
+
+def _c2j(z: complex) -> list[float]:
+    return [float(z.real), float(z.imag)]
+
+
+def _j2c(v: Sequence[float]) -> complex:
+    return complex(float(v[0]), float(v[1]))
+
+
+@dataclass
+class PlaneSpec:
+    """One correction plane and where weights can go in it.
+
+    Positions, exactly one of:
+
+    * ``count`` equally spaced positions starting at ``first_angle_deg`` (position 1 is at
+      ``first_angle_deg``, numbered on against rotation), e.g. a ring of 12 tapped holes;
+    * ``angles_deg``: an explicit list of angles (position n is ``angles_deg[n-1]``);
+    * ``continuous=True``: a groove or band where a weight can go at any angle.
+
+    ``excluded`` lists position numbers (1-based) that cannot be used (a key, a full hole).
+    Angles are degrees from the reference mark against rotation.  ``radius_mm`` is the radius at
+    which weights sit in this plane.
+    """
+
+    radius_mm: float
+    name: str = ""
+    count: int | None = None
+    first_angle_deg: float = 0.0
+    angles_deg: list[float] | None = None
+    continuous: bool = False
+    excluded: list[int] = field(default_factory=list)
+    max_pieces_per_position: int | None = None
+    max_mass_per_position_g: float | None = None
+
+    def __post_init__(self) -> None:
+        kinds = (self.count is not None) + (self.angles_deg is not None) + bool(self.continuous)
+        if kinds == 0:
+            self.continuous = True  # nothing said: any angle
+        elif kinds > 1:
+            raise ValueError(
+                "a plane has either a count of equally spaced positions, a list of angles, "
+                "or a continuous groove - give only one"
+            )
+        if not (self.radius_mm > 0 and math.isfinite(self.radius_mm)):
+            raise ValueError(f"plane radius must be a positive number of mm, got {self.radius_mm!r}")
+        if self.count is not None and self.count < 1:
+            raise ValueError(f"a plane needs at least one position, got count={self.count}")
+
+    def position_angles_deg(self) -> list[float] | None:
+        """Angle of every position (1-based numbering = list index + 1); None when continuous."""
+        if self.continuous:
+            return None
+        if self.angles_deg is not None:
+            return [a % 360.0 for a in self.angles_deg]
+        assert self.count is not None
+        return [(self.first_angle_deg + 360.0 * k / self.count) % 360.0 for k in range(self.count)]
+
+    def allocator_positions(self) -> dict[str, Any]:
+        """The ``positions`` object of the allocator's JSON contract (issue 4)."""
+        if self.continuous:
+            return {"continuous": True, "radius": self.radius_mm}
+        angles = self.position_angles_deg() or []
+        if self.excluded:
+            keep = [a for n, a in enumerate(angles, start=1) if n not in set(self.excluded)]
+            return {"angles": keep, "radius": self.radius_mm}
+        if self.count is not None:
+            return {"count": self.count, "first_angle": self.first_angle_deg, "radius": self.radius_mm}
+        return {"angles": angles, "radius": self.radius_mm}
+
+    def describe(self) -> str:
+        if self.continuous:
+            where = "any angle (continuous)"
+        elif self.count is not None:
+            where = f"{self.count} positions from {self.first_angle_deg:g}°"
+        else:
+            where = f"{len(self.angles_deg or [])} positions at listed angles"
+        if self.excluded:
+            where += f", positions {', '.join(str(n) for n in self.excluded)} not usable"
+        label = f"{self.name}: " if self.name else ""
+        return f"{label}radius {self.radius_mm:g} mm, {where}"
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "radius_mm": self.radius_mm,
+            "name": self.name,
+            "count": self.count,
+            "first_angle_deg": self.first_angle_deg,
+            "angles_deg": self.angles_deg,
+            "continuous": self.continuous,
+            "excluded": list(self.excluded),
+            "max_pieces_per_position": self.max_pieces_per_position,
+            "max_mass_per_position_g": self.max_mass_per_position_g,
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> PlaneSpec:
+        return cls(
+            radius_mm=float(d["radius_mm"]),
+            name=str(d.get("name", "")),
+            count=d.get("count"),
+            first_angle_deg=float(d.get("first_angle_deg", 0.0)),
+            angles_deg=d.get("angles_deg"),
+            continuous=bool(d.get("continuous", False)),
+            excluded=[int(n) for n in d.get("excluded", [])],
+            max_pieces_per_position=d.get("max_pieces_per_position"),
+            max_mass_per_position_g=d.get("max_mass_per_position_g"),
+        )
+
+
+@dataclass
+class StockPiece:
+    """A size of discrete weight in the shop's stock (washer, clip weight, set screw)."""
+
+    mass_g: float
+    count: int
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"mass_g": self.mass_g, "count": self.count}
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> StockPiece:
+        return cls(mass_g=float(d["mass_g"]), count=int(d["count"]))
+
+
+@dataclass
+class StripSpec:
+    """Heavy strip cut to length: mass per mm, the shortest useful piece and the cutting step."""
+
+    grams_per_mm: float
+    min_mm: float = 5.0
+    step_mm: float = 1.0
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"grams_per_mm": self.grams_per_mm, "min_mm": self.min_mm, "step_mm": self.step_mm}
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> StripSpec:
+        return cls(float(d["grams_per_mm"]), float(d.get("min_mm", 5.0)), float(d.get("step_mm", 1.0)))
+
+
+@dataclass
+class Pickup:
+    """A vibration pickup: a label the user recognises and its mounting angle (informative)."""
+
+    label: str
+    angle_deg: float = 0.0
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"label": self.label, "angle_deg": self.angle_deg}
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> Pickup:
+        return cls(label=str(d["label"]), angle_deg=float(d.get("angle_deg", 0.0)))
+
+
+@dataclass
+class StoredInfluence:
+    """Influence coefficients kept with a machine: ``coefficients[pickup][plane]`` in g per g·mm.
+
+    Valid only near ``speed_rpm`` (the machine's response, and so the coefficients, change with
+    speed); ``job_id`` is the job they were fitted in.
+    """
+
+    coefficients: list[list[complex]]
+    speed_rpm: float
+    measured_at: str = ""
+    job_id: int | None = None
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "coefficients": [[_c2j(z) for z in row] for row in self.coefficients],
+            "speed_rpm": self.speed_rpm,
+            "measured_at": self.measured_at,
+            "job_id": self.job_id,
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> StoredInfluence:
+        return cls(
+            coefficients=[[_j2c(v) for v in row] for row in d["coefficients"]],
+            speed_rpm=float(d["speed_rpm"]),
+            measured_at=str(d.get("measured_at", "")),
+            job_id=d.get("job_id"),
+        )
+
+
+@dataclass
+class Machine:
+    """A machine as the user describes it once and balances many times.
+
+    ``rotation`` is seen from the drive end (see the module docstring).  ``grade`` is an
+    ISO 21940-11 balance quality grade such as ``"G6.3"``.  Give ``stock`` (discrete pieces) or
+    ``strip`` (cut to length) or neither (then any mass is assumed possible and the correction
+    is shown as computed).  ``influence`` holds coefficients from an earlier job, so the next
+    job can go straight to the correction.  ``id`` is set by the store.
+    """
+
+    name: str
+    rotor_mass_kg: float
+    speed_rpm: float
+    planes: list[PlaneSpec]
+    rotation: Rotation = "cw"
+    grade: str = "G6.3"
+    pickups: list[Pickup] = field(default_factory=lambda: [Pickup("1")])
+    stock: list[StockPiece] = field(default_factory=list)
+    strip: StripSpec | None = None
+    influence: StoredInfluence | None = None
+    notes: str = ""
+    id: int | None = None
+
+    def __post_init__(self) -> None:
+        if not self.name.strip():
+            raise ValueError("a machine needs a name")
+        if not (self.rotor_mass_kg > 0 and math.isfinite(self.rotor_mass_kg)):
+            raise ValueError(f"rotor mass must be a positive number of kg, got {self.rotor_mass_kg!r}")
+        if not (self.speed_rpm > 0 and math.isfinite(self.speed_rpm)):
+            raise ValueError(f"running speed must be a positive number of rpm, got {self.speed_rpm!r}")
+        if self.rotation not in ("cw", "ccw"):
+            raise ValueError(f"rotation must be 'cw' or 'ccw' (seen from the drive end), got {self.rotation!r}")
+        if not 1 <= len(self.planes) <= 2:
+            raise ValueError(f"a machine has one or two correction planes, got {len(self.planes)}")
+        if not self.pickups:
+            raise ValueError("a machine needs at least one pickup")
+
+    @property
+    def n_planes(self) -> int:
+        return len(self.planes)
+
+    @property
+    def n_pickups(self) -> int:
+        return len(self.pickups)
+
+    def angle_direction_words(self) -> str:
+        """How to count weight angles on this machine, in words a fitter can follow."""
+        way = "counter-clockwise" if self.rotation == "cw" else "clockwise"
+        turn = "clockwise" if self.rotation == "cw" else "counter-clockwise"
+        return (
+            f"The rotor turns {turn} seen from the drive end; count weight angles {way} "
+            "(against rotation) from the reference mark, seen from the drive end."
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name,
+            "rotor_mass_kg": self.rotor_mass_kg,
+            "speed_rpm": self.speed_rpm,
+            "rotation": self.rotation,
+            "grade": self.grade,
+            "planes": [p.to_dict() for p in self.planes],
+            "pickups": [p.to_dict() for p in self.pickups],
+            "stock": [s.to_dict() for s in self.stock],
+            "strip": self.strip.to_dict() if self.strip else None,
+            "influence": self.influence.to_dict() if self.influence else None,
+            "notes": self.notes,
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any], id: int | None = None) -> Machine:
+        return cls(
+            name=str(d["name"]),
+            rotor_mass_kg=float(d["rotor_mass_kg"]),
+            speed_rpm=float(d["speed_rpm"]),
+            rotation=d.get("rotation", "cw"),
+            grade=str(d.get("grade", "G6.3")),
+            planes=[PlaneSpec.from_dict(p) for p in d["planes"]],
+            pickups=[Pickup.from_dict(p) for p in d.get("pickups", [{"label": "1"}])],
+            stock=[StockPiece.from_dict(s) for s in d.get("stock", [])],
+            strip=StripSpec.from_dict(d["strip"]) if d.get("strip") else None,
+            influence=StoredInfluence.from_dict(d["influence"]) if d.get("influence") else None,
+            notes=str(d.get("notes", "")),
+            id=id,
+        )
+
+
+@dataclass(frozen=True)
+class Weight:
+    """A weight on the rotor, relative to the reference state.
+
+    ``plane`` is the correction plane number (1-based); ``angle_deg`` from the reference mark
+    against rotation; the unbalance it adds is ``mass_g·radius_mm·e^{+j·angle}`` g·mm.
+    ``label`` says what it is ("trial", "correction 1 at position 4", ...).
+    """
+
+    plane: int
+    mass_g: float
+    angle_deg: float
+    radius_mm: float
+    label: str = ""
+
+    @property
+    def unbalance_gmm(self) -> complex:
+        return self.mass_g * self.radius_mm * cmath.exp(1j * math.radians(self.angle_deg))
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "plane": self.plane,
+            "mass_g": self.mass_g,
+            "angle_deg": self.angle_deg,
+            "radius_mm": self.radius_mm,
+            "label": self.label,
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> Weight:
+        return cls(
+            plane=int(d["plane"]),
+            mass_g=float(d["mass_g"]),
+            angle_deg=float(d["angle_deg"]),
+            radius_mm=float(d["radius_mm"]),
+            label=str(d.get("label", "")),
+        )
+
+
+@dataclass(frozen=True)
+class ChannelValue:
+    """One pickup's 1× vector in a run: ``mean`` in g (phase-lag convention) and its scatter."""
+
+    mean: complex
+    spread_g: float = 0.0
+    confidence_g: float = 0.0
+    h2: complex | None = None
+    rms_g: float | None = None
+
+    @property
+    def amp_g(self) -> float:
+        return abs(self.mean)
+
+    @property
+    def phase_deg(self) -> float:
+        return math.degrees(cmath.phase(self.mean)) % 360.0
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "mean": _c2j(self.mean),
+            "spread_g": self.spread_g,
+            "confidence_g": self.confidence_g,
+            "h2": _c2j(self.h2) if self.h2 is not None else None,
+            "rms_g": self.rms_g,
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> ChannelValue:
+        return cls(
+            mean=_j2c(d["mean"]),
+            spread_g=float(d.get("spread_g", 0.0)),
+            confidence_g=float(d.get("confidence_g", 0.0)),
+            h2=_j2c(d["h2"]) if d.get("h2") is not None else None,
+            rms_g=d.get("rms_g"),
+        )
+
+
+@dataclass(frozen=True)
+class RunReading:
+    """A taken reading as stored: speed and one :class:`ChannelValue` per pickup.
+
+    Build it from a live ``runtrue.readings.Reading`` with :meth:`from_reading`, or from numbers
+    read off another instrument with :meth:`manual`.
+    """
+
+    speed_rpm: float
+    channels: tuple[ChannelValue, ...]
+    speed_sd_rpm: float = 0.0
+    n_revs: int = 0
+    source: str = "meter"
+
+    @classmethod
+    def from_reading(cls, reading: Any) -> RunReading:
+        """Convert a ``runtrue.readings.Reading`` (or anything shaped like it, or a RunReading)."""
+        if isinstance(reading, RunReading):
+            return reading
+        chans = []
+        for ch in reading.channels:
+            h2 = getattr(ch, "h2", None)
+            rms = getattr(ch, "rms_g", None)
+            chans.append(
+                ChannelValue(
+                    mean=complex(ch.mean),
+                    spread_g=float(getattr(ch, "spread_g", 0.0) or 0.0),
+                    confidence_g=float(getattr(ch, "confidence_g", 0.0) or 0.0),
+                    h2=complex(h2) if isinstance(h2, (complex, float, int)) else None,
+                    rms_g=float(rms) if isinstance(rms, (float, int)) else None,
+                )
+            )
+        return cls(
+            speed_rpm=float(reading.speed_rpm),
+            channels=tuple(chans),
+            speed_sd_rpm=float(getattr(reading, "speed_sd_rpm", 0.0) or 0.0),
+            n_revs=int(getattr(reading, "n_revs", 0) or 0),
+            source="meter",
+        )
+
+    @classmethod
+    def manual(
+        cls,
+        amps: Sequence[float],
+        phases_deg: Sequence[float],
+        speed_rpm: float,
+        spreads: Sequence[float] | None = None,
+    ) -> RunReading:
+        """A reading typed in from another instrument: amplitude and phase lag per pickup."""
+        if len(amps) != len(phases_deg):
+            raise ValueError("give one phase for every amplitude")
+        chans = []
+        for i, (a, p) in enumerate(zip(amps, phases_deg)):
+            if not (math.isfinite(a) and a >= 0 and math.isfinite(p)):
+                raise ValueError(f"pickup {i + 1}: amplitude must be >= 0 and phase a number")
+            sd = float(spreads[i]) if spreads is not None else 0.0
+            chans.append(ChannelValue(mean=a * cmath.exp(1j * math.radians(p)), spread_g=sd, confidence_g=2.45 * sd))
+        return cls(speed_rpm=float(speed_rpm), channels=tuple(chans), source="manual")
+
+    def vector(self) -> list[complex]:
+        return [c.mean for c in self.channels]
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "speed_rpm": self.speed_rpm,
+            "speed_sd_rpm": self.speed_sd_rpm,
+            "n_revs": self.n_revs,
+            "source": self.source,
+            "channels": [c.to_dict() for c in self.channels],
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> RunReading:
+        return cls(
+            speed_rpm=float(d["speed_rpm"]),
+            channels=tuple(ChannelValue.from_dict(c) for c in d["channels"]),
+            speed_sd_rpm=float(d.get("speed_sd_rpm", 0.0)),
+            n_revs=int(d.get("n_revs", 0)),
+            source=str(d.get("source", "meter")),
+        )
+
+
+@dataclass(frozen=True)
+class RunRecord:
+    """A run as stored: its kind, when it was taken, the reading and every weight present then.
+
+    ``weights`` are all weights on the rotor relative to the reference state (trial weights
+    still on, corrections and trims fitted so far).  ``seq`` counts runs in the job from 1.
+    """
+
+    job_id: int
+    seq: int
+    kind: str
+    taken_at: str
+    reading: RunReading
+    weights: tuple[Weight, ...]
+    note: str = ""
+    id: int | None = None
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "job_id": self.job_id,
+            "seq": self.seq,
+            "kind": self.kind,
+            "taken_at": self.taken_at,
+            "reading": self.reading.to_dict(),
+            "weights": [w.to_dict() for w in self.weights],
+            "note": self.note,
+        }

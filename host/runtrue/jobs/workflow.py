@@ -1,0 +1,703 @@
+"""The balancing workflow: one job from the reference run to a result, independent of any UI.
+
+Method: influence-coefficient balancing with trial weights, least-squares refit of the
+coefficients over every run (Goodman's method), trim runs until the ISO 21940-11 balance
+quality grade is met; all maths comes from ``runtrue.balancing`` and ``runtrue.allocation``.
+The order of steps and the sizing of trial weights are common practice.
+
+Steps (``BalanceJob.state.step``)::
+
+    reference ──> trial (plane 1) ──> trial (plane 2, two-plane rotors) ──> correction ──> trim ... ──> done
+        │          └── trial too small: stays at "trial" with a larger suggested mass
+        └── machine has stored influence coefficients: straight to "correction"
+
+A user (the TUI, the headless demo, a test) drives it like this::
+
+    job = BalanceJob.start(store, machine)          # or BalanceJob.resume(store, job_id)
+    while job.state.step != "done":
+        show(job.instructions())                    # what to do physically, with cautions
+        fit(job.planned_weights())                  # weights that should be on for the next run
+        job.record_run(reading)                     # committed to the store before it returns
+    show(job.result())
+
+``record_run(reading, weights_present=None)``: ``weights_present`` defaults to
+``planned_weights()``; pass the real list when the user fitted something else.  Every decision
+(trial chosen, weak trial accepted, stop) is recorded too, so :meth:`BalanceJob.resume` rebuilds
+exactly the same state after a crash.
+
+Conventions: see ``runtrue.jobs.model`` (phase lag; weight angles from the mark against
+rotation; rotation seen from the drive end; planes and pickups numbered from 1).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from typing import Any, Sequence
+
+from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunReading, RunRecord, StoredInfluence, Weight
+from runtrue.jobs.store import JobStore, now_iso
+
+STANDARD = "ISO 21940-11"
+DEFAULT_MAX_TRIM_RUNS = 5
+STEPS = ("reference", "trial", "correction", "trim", "done")
+
+CAUTIONS: tuple[str, ...] = (
+    "Stop the machine and lock it out (isolate and tag the supply) before touching the rotor or fitting weights.",
+    "Never run above the rated speed of the rotor, wheel or machine.",
+    "Secure every weight for the centrifugal force shown; a loose weight is a projectile.",
+    "Stand clear of the plane of rotation when starting up; keep guards in place.",
+    "Follow the machine maker's instructions, local codes and licensed practice; they take precedence.",
+)
+
+
+def parse_grade(grade: str | float) -> float:
+    """``"G6.3"`` / ``"6.3"`` / ``6.3`` -> 6.3 (mm/s); ValueError with advice otherwise."""
+    if isinstance(grade, (int, float)):
+        value = float(grade)
+    else:
+        m = re.fullmatch(r"\s*[Gg]?\s*([0-9]+(?:\.[0-9]+)?)\s*", grade)
+        if not m:
+            raise ValueError(f"balance quality grade {grade!r} not understood: write it like G6.3 or G2.5")
+        value = float(m.group(1))
+    if not value > 0:
+        raise ValueError("balance quality grade must be positive, like G6.3")
+    return value
+
+
+@dataclass(frozen=True)
+class TrialCheck:
+    """Was the trial weight's effect big enough to trust, compared with the readings' scatter?"""
+
+    plane: int
+    ok: bool
+    ratio: float
+    message: str
+    suggested_scale: float
+    accepted_anyway: bool = False
+
+
+@dataclass
+class PlaneCorrection:
+    """What to fit in one plane: the computed correction and the allocator's placements.
+
+    ``correction`` is the weight to add now (relative to the weights already on);
+    ``fit`` are the placements as :class:`Weight` (one per position); ``sheet`` the fitting
+    sheet rows (``runtrue.allocation.SheetRow``: number, angle_deg, radius_mm, what, mass_g,
+    force_n, action); ``residual_gmm`` what the placements leave of the correction.
+    """
+
+    plane: int
+    correction: Weight
+    fit: list[Weight]
+    sheet: list[Any]
+    residual_gmm: float
+    residual_fraction: float
+    warnings: list[str] = field(default_factory=list)
+
+
+@dataclass
+class CorrectionPlan:
+    """A correction or trim step: weights to remove first, then per plane what to fit."""
+
+    kind: str  # "correction" | "trim"
+    remove: list[Weight]
+    planes: list[PlaneCorrection]
+    predicted: list[complex]
+    method: str
+    condition_number: float
+    warnings: list[str] = field(default_factory=list)
+
+    def weights_to_fit(self) -> list[Weight]:
+        return [w for pc in self.planes for w in pc.fit]
+
+
+@dataclass(frozen=True)
+class ChannelResult:
+    """One pickup before (reference run) and after (last run), complex g, phase-lag convention."""
+
+    label: str
+    before: complex
+    after: complex | None
+
+    @property
+    def before_amp_g(self) -> float:
+        return abs(self.before)
+
+    @property
+    def after_amp_g(self) -> float | None:
+        return abs(self.after) if self.after is not None else None
+
+
+@dataclass
+class JobResult:
+    """A job's outcome: before/after per channel and the grade check per plane.
+
+    ``residual_unbalance_gmm`` is the engine's estimate from the last reading and the influence
+    coefficients; ``passed`` is True only when every plane's residual is within its permissible
+    share (``None`` while no correction run has been taken).
+    """
+
+    job_id: int
+    machine_name: str
+    grade: str
+    standard: str
+    speed_rpm: float
+    channels: list[ChannelResult]
+    residual_unbalance_gmm: list[float] | None
+    permissible_unbalance_gmm: list[float]
+    permissible_total_gmm: float
+    passed: bool | None
+    runs: int
+    status: str
+    weights_on: list[Weight]
+    influence: list[list[complex]] | None
+    warnings: list[str]
+    tolerance_rule: str = ""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "job_id": self.job_id,
+            "machine": self.machine_name,
+            "grade": self.grade,
+            "standard": self.standard,
+            "speed_rpm": self.speed_rpm,
+            "initial": [c.before_amp_g for c in self.channels],
+            "final": [c.after_amp_g for c in self.channels],
+            "residual_unbalance_gmm": self.residual_unbalance_gmm,
+            "permissible_unbalance_gmm": self.permissible_unbalance_gmm,
+            "permissible_total_gmm": self.permissible_total_gmm,
+            "passed": self.passed,
+            "runs": self.runs,
+            "status": self.status,
+            "weights_on": [w.to_dict() for w in self.weights_on],
+            "warnings": list(self.warnings),
+        }
+
+
+@dataclass
+class JobState:
+    """Where a job stands.  ``step`` is one of :data:`STEPS`; ``plane`` is the trial's plane
+    during the ``trial`` step; ``trial`` the trial weight to fit; ``last_trial_check`` the verdict
+    on the last trial run; ``plan`` the correction or trim to fit; ``status`` ``open``,
+    ``passed`` or ``stopped``."""
+
+    step: str = "reference"
+    plane: int | None = None
+    trial: Weight | None = None
+    last_trial_check: TrialCheck | None = None
+    plan: CorrectionPlan | None = None
+    trims_done: int = 0
+    status: str = "open"
+    message: str = ""
+    warnings: list[str] = field(default_factory=list)
+
+
+class BalanceJob:
+    """One balancing job, recorded in a :class:`JobStore` as it happens.
+
+    Create with :meth:`start` or :meth:`resume`.  Options: ``trial_removed`` (take each trial
+    weight off before the next run, default True; else trials stay on and the correction is net
+    of them), ``use_stored_influence`` (default: when the machine has coefficients stored),
+    ``max_trim_runs`` (the job stops, not passed, after this many trim runs).
+    """
+
+    def __init__(self, store: JobStore, job_id: int, machine: Machine, options: dict[str, Any]) -> None:
+        self.store = store
+        self.job_id = job_id
+        self.machine = machine
+        self.options = options
+        self.runs: list[RunRecord] = []
+        self.state = JobState()
+        self._accepted: dict[int, RunRecord] = {}  # plane -> accepted trial run
+        self._trial_override: dict[int, Weight] = {}
+        self._influence: list[list[complex]] | None = None
+        self._influence_warnings: list[str] = []
+        self._tolerance = self._make_tolerance()
+        self._enter_reference()
+
+    # -- creating and resuming --------------------------------------------------------------------
+    @classmethod
+    def start(
+        cls,
+        store: JobStore,
+        machine: Machine,
+        *,
+        trial_removed: bool = True,
+        use_stored_influence: bool | None = None,
+        max_trim_runs: int = DEFAULT_MAX_TRIM_RUNS,
+    ) -> BalanceJob:
+        """Start and record a new job on ``machine`` (saved or not)."""
+        if use_stored_influence is None:
+            use_stored_influence = machine.influence is not None
+        if use_stored_influence and machine.influence is None:
+            raise ValueError(f"machine {machine.name!r} has no stored influence coefficients; run trial weights")
+        options = {
+            "trial_removed": bool(trial_removed),
+            "use_stored_influence": bool(use_stored_influence),
+            "max_trim_runs": int(max_trim_runs),
+        }
+        job_id = store.new_job(machine, options)
+        return cls(store, job_id, machine, options)
+
+    @classmethod
+    def resume(cls, store: JobStore, job_id: int) -> BalanceJob:
+        """Rebuild a job from the store (after a crash, or to look at a finished one)."""
+        rec = store.get_job(job_id)
+        if rec is None:
+            raise ValueError(f"there is no job {job_id}; `runtrue jobs list` shows the jobs")
+        job = cls(store, job_id, rec.machine, rec.options)
+        runs = store.runs(job_id)
+        events = store.events(job_id)
+        ei = 0
+        for k in range(len(runs) + 1):
+            while ei < len(events) and int(events[ei].data.get("n_runs", 0)) <= k:
+                job._apply_event(events[ei].kind, events[ei].data)
+                ei += 1
+            if k < len(runs):
+                job._apply_run(runs[k])
+        if rec.status != "open" and job.state.status == "open":
+            job.state.status = rec.status
+            job.state.step = "done"
+        return job
+
+    # -- what the user sees ----------------------------------------------------------------------
+    @property
+    def step(self) -> str:
+        return self.state.step
+
+    def cautions(self) -> list[str]:
+        return list(CAUTIONS)
+
+    def planned_weights(self) -> list[Weight]:
+        """Every weight that should be on the rotor (relative to the reference state) for the next run."""
+        s = self.state
+        on = list(self.runs[-1].weights) if self.runs else []
+        if s.step == "reference" or s.step == "done":
+            return on
+        if s.step == "trial":
+            assert s.trial is not None
+            kept = [w for w in on if not self._is_trial(w)] if self.options["trial_removed"] else [
+                w for w in on if not (self._is_trial(w) and w.plane == s.plane)
+            ]
+            return kept + [s.trial]
+        assert s.plan is not None
+        removed = set(s.plan.remove)
+        return [w for w in on if w not in removed] + s.plan.weights_to_fit()
+
+    def suggested_trial(self) -> Weight | None:
+        return self.state.trial if self.state.step == "trial" else None
+
+    def instructions(self) -> list[str]:
+        """What to do now, step by step, in plain sentences (conventions and cautions included)."""
+        s, m = self.state, self.machine
+        speed = f"{m.speed_rpm:g} rpm"
+        out: list[str] = []
+        if s.message:
+            out.append(s.message)
+        if s.step == "reference":
+            out += [
+                f"Reference run: run {m.name} at its working speed ({speed}) as found, with no weights added.",
+                "Stand clear of the plane of rotation when starting up; never exceed the rated speed.",
+                "Take the reading when it has settled.",
+            ]
+        elif s.step == "trial":
+            t = s.trial
+            assert t is not None and s.plane is not None
+            out.append(f"Trial run for plane {s.plane}: stop the machine and lock it out.")
+            for w in self._to_remove_before_trial():
+                out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+            out.append(
+                f"Fit a trial weight of {t.mass_g:.3g} g in plane {s.plane} at {t.angle_deg:.1f}° "
+                f"({t.label}), radius {t.radius_mm:g} mm."
+            )
+            out.append(m.angle_direction_words())
+            out.append(f"Secure it for {self._force_n(t):.0f} N at {speed}.")
+            out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
+        elif s.step in ("correction", "trim"):
+            plan = s.plan
+            assert plan is not None
+            what = "Correction" if s.step == "correction" else f"Trim run {s.trims_done + 1}"
+            out.append(f"{what}: stop the machine and lock it out.")
+            for w in plan.remove:
+                out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+            for pc in plan.planes:
+                c = pc.correction
+                out.append(
+                    f"Plane {pc.plane}: the correction is {c.mass_g:.3g} g at {c.angle_deg:.1f}°, radius {c.radius_mm:g} mm."
+                )
+                for row in pc.sheet:
+                    pos = f"position {row.number} " if row.number is not None else ""
+                    out.append(
+                        f"  Fit {row.what} at {pos}{row.angle_deg:.1f}°, radius {row.radius_mm:g} mm "
+                        f"({row.mass_g:.3g} g, secure for {row.force_n:.0f} N)."
+                    )
+            out.append(m.angle_direction_words())
+            out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
+        else:
+            r = self.result()
+            if r.passed:
+                out.append(f"Done: residual unbalance within {r.grade} ({STANDARD}). Remove the meter and tape; refit the guards.")
+            else:
+                out.append("Stopped before the grade was met. The runs so far are kept with the job.")
+        out.append(ANGLE_CONVENTION)
+        return out
+
+    # -- recording -------------------------------------------------------------------------------
+    def record_run(self, reading: Any, weights_present: Sequence[Weight] | None = None, note: str = "") -> RunRecord:
+        """Record a taken reading for the current step (written to the store first), then advance.
+
+        ``reading``: a ``runtrue.readings.Reading`` or a :class:`RunReading`; its channels must
+        match the machine's pickups.  ``weights_present`` defaults to :meth:`planned_weights`.
+        """
+        if self.state.step == "done":
+            raise ValueError("this job is finished; start a new job to balance again")
+        rr = RunReading.from_reading(reading)
+        if len(rr.channels) != self.machine.n_pickups:
+            raise ValueError(
+                f"the reading has {len(rr.channels)} channels but {self.machine.name} has "
+                f"{self.machine.n_pickups} pickups: check the channels enabled on the meter"
+            )
+        for w in weights_present or ():
+            if not 1 <= w.plane <= self.machine.n_planes:
+                raise ValueError(f"weight in plane {w.plane}, but the machine has {self.machine.n_planes} plane(s)")
+        weights = list(weights_present) if weights_present is not None else self.planned_weights()
+        kind = self.state.step
+        run = self.store.add_run(self.job_id, kind, rr, weights, note)
+        self._apply_run(run)
+        return run
+
+    def set_trial(self, mass_g: float, angle_deg: float, radius_mm: float | None = None) -> Weight:
+        """Use this trial weight instead of the suggestion (recorded)."""
+        s = self.state
+        if s.step != "trial" or s.plane is None:
+            raise ValueError("a trial weight can be chosen only at a trial step")
+        if not (mass_g > 0 and math.isfinite(mass_g)):
+            raise ValueError("the trial mass must be a positive number of grams")
+        radius = radius_mm if radius_mm is not None else self.machine.planes[s.plane - 1].radius_mm
+        data = {"plane": s.plane, "mass_g": mass_g, "angle_deg": angle_deg % 360.0, "radius_mm": radius}
+        self.store.add_event(self.job_id, "trial_set", {**data, "n_runs": len(self.runs)})
+        self._apply_event("trial_set", data)
+        assert self.state.trial is not None
+        return self.state.trial
+
+    def accept_trial_anyway(self) -> None:
+        """Go on with a trial whose effect looked too small (recorded; the warning stays)."""
+        chk = self.state.last_trial_check
+        if self.state.step != "trial" or chk is None or chk.ok:
+            raise ValueError("there is no weak trial run to accept")
+        data = {"plane": chk.plane}
+        self.store.add_event(self.job_id, "trial_accepted", {**data, "n_runs": len(self.runs)})
+        self._apply_event("trial_accepted", data)
+
+    def stop(self, reason: str = "stopped by the user") -> None:
+        """End the job here (recorded); the runs stay in the store and the report can be written."""
+        if self.state.step == "done":
+            return
+        self.store.add_event(self.job_id, "stopped", {"reason": reason, "n_runs": len(self.runs)})
+        self._apply_event("stopped", {"reason": reason})
+
+    # -- results ---------------------------------------------------------------------------------
+    @property
+    def influence(self) -> list[list[complex]] | None:
+        """The current influence coefficients ``[pickup][plane]`` (g per g·mm), or None."""
+        return self._influence
+
+    def result(self) -> JobResult:
+        ref = next((r for r in self.runs if r.kind == "reference"), None)
+        last = self.runs[-1] if self.runs else None
+        after_run = last if last is not None and last.kind in ("correction", "trim") else None
+        chans = []
+        for i, p in enumerate(self.machine.pickups):
+            before = ref.reading.channels[i].mean if ref else 0j
+            after = after_run.reading.channels[i].mean if after_run else None
+            chans.append(ChannelResult(p.label, before, after))
+        residual = None
+        passed: bool | None = None
+        if after_run is not None and self._influence is not None:
+            residual, passed = self._grade(after_run)
+        tol = self._tolerance
+        return JobResult(
+            job_id=self.job_id,
+            machine_name=self.machine.name,
+            grade=self.machine.grade,
+            standard=STANDARD,
+            speed_rpm=self.machine.speed_rpm,
+            channels=chans,
+            residual_unbalance_gmm=residual,
+            permissible_unbalance_gmm=list(tol.per_plane_gmm),
+            permissible_total_gmm=float(tol.permissible_unbalance_gmm),
+            passed=passed,
+            runs=len(self.runs),
+            status=self.state.status,
+            weights_on=list(last.weights) if last else [],
+            influence=self._influence,
+            warnings=list(self.state.warnings),
+            tolerance_rule=str(getattr(tol, "rule", "")),
+        )
+
+    # -- internals: transitions -------------------------------------------------------------------
+    def _make_tolerance(self) -> Any:
+        from runtrue.balancing import permissible_unbalance
+
+        m = self.machine
+        return permissible_unbalance(parse_grade(m.grade), m.rotor_mass_kg, m.speed_rpm, planes=m.n_planes)
+
+    def _force_n(self, w: Weight) -> float:
+        from runtrue.balancing import centrifugal_force_n
+
+        return float(centrifugal_force_n(w.mass_g, w.radius_mm, self.machine.speed_rpm))
+
+    @staticmethod
+    def _is_trial(w: Weight) -> bool:
+        return w.label.startswith("trial")
+
+    def _to_remove_before_trial(self) -> list[Weight]:
+        s = self.state
+        on = list(self.runs[-1].weights) if self.runs else []
+        if self.options["trial_removed"]:
+            return [w for w in on if self._is_trial(w)]
+        return [w for w in on if self._is_trial(w) and w.plane == s.plane]
+
+    def _enter_reference(self) -> None:
+        self.state.step = "reference"
+        self.state.plane = None
+        self.state.trial = None
+        self.state.plan = None
+
+    def _enter_trial(self, plane: int, scale: float = 1.0, previous: Weight | None = None) -> None:
+        s = self.state
+        s.step = "trial"
+        s.plane = plane
+        s.plan = None
+        if plane in self._trial_override:
+            s.trial = self._trial_override[plane]
+            return
+        s.trial = self._suggest_trial(plane, scale, previous)
+
+    def _suggest_trial(self, plane: int, scale: float, previous: Weight | None) -> Weight:
+        from runtrue.balancing import suggest_trial_weight
+
+        from runtrue.jobs import fitting
+
+        m = self.machine
+        spec = m.planes[plane - 1]
+        if previous is None:
+            sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=m.n_planes)
+            mass = float(sug.mass_g)
+            self.state.message = str(getattr(sug, "rule", ""))
+            angle = None
+        else:
+            mass = previous.mass_g * scale
+            angle = previous.angle_deg
+        w = fitting.trial_weight(m, plane, mass, angle)
+        return w
+
+    def _apply_event(self, kind: str, data: dict[str, Any]) -> None:
+        s = self.state
+        if kind == "trial_set":
+            plane = int(data["plane"])
+            w = Weight(plane, float(data["mass_g"]), float(data["angle_deg"]), float(data["radius_mm"]), f"trial weight, plane {plane}")
+            self._trial_override[plane] = w
+            if s.step == "trial" and s.plane == plane:
+                s.trial = w
+                s.message = "Trial weight chosen by the user."
+        elif kind == "trial_accepted":
+            plane = int(data["plane"])
+            chk = s.last_trial_check
+            trial_run = self.runs[-1]
+            if chk is not None:
+                s.last_trial_check = TrialCheck(chk.plane, chk.ok, chk.ratio, chk.message, chk.suggested_scale, True)
+                s.warnings.append(f"Plane {plane}: trial effect small ({chk.message}); accepted by the user.")
+            self._accepted[plane] = trial_run
+            self._after_trial_accepted(plane)
+        elif kind == "stopped":
+            self._finish("stopped", str(data.get("reason", "")))
+
+    def _apply_run(self, run: RunRecord) -> None:
+        self.runs.append(run)
+        s = self.state
+        s.message = ""
+        if run.kind == "reference":
+            if self.options.get("use_stored_influence") and self.machine.influence is not None:
+                self._influence = [list(r) for r in self.machine.influence.coefficients]
+                inf = self.machine.influence
+                if abs(inf.speed_rpm - run.reading.speed_rpm) > 0.05 * inf.speed_rpm:
+                    s.warnings.append(
+                        f"Stored influence coefficients were measured at {inf.speed_rpm:g} rpm but this run was at "
+                        f"{run.reading.speed_rpm:.0f} rpm; the machine's response changes with speed, so expect trim runs."
+                    )
+                self._enter_correction("correction")
+            else:
+                self._enter_trial(1)
+            return
+        if run.kind == "trial":
+            self._check_trial(run)
+            return
+        # correction or trim run
+        if run.kind == "trim":
+            s.trims_done += 1
+        self._refit()
+        residual, passed = self._grade(run)
+        res = self.result()
+        self.store.save_result(self.job_id, res.to_dict())
+        if passed:
+            self._finish("passed", "")
+            return
+        if s.trims_done >= int(self.options.get("max_trim_runs", DEFAULT_MAX_TRIM_RUNS)):
+            self._finish("stopped", f"trim run limit ({self.options.get('max_trim_runs')}) reached before the grade was met")
+            return
+        self._enter_correction("trim")
+        worst = max(r / p for r, p in zip(residual, self._tolerance.per_plane_gmm))
+        s.message = f"Residual unbalance is {worst:.1f} times the permissible value: a trim run is needed."
+
+    def _check_trial(self, run: RunRecord) -> None:
+        from runtrue.balancing import check_trial_effect
+
+        s = self.state
+        plane = s.plane or 1
+        trial_ws = [w for w in run.weights if self._is_trial(w) and w.plane == plane]
+        base = self._baseline_for(run, trial_ws)
+        best = None
+        for i in range(self.machine.n_pickups):
+            b, t = base.reading.channels[i], run.reading.channels[i]
+            v = check_trial_effect(b.mean, t.mean, b.spread_g, t.spread_g)
+            if best is None or v.ratio > best.ratio:
+                best = v
+        assert best is not None
+        chk = TrialCheck(plane, bool(best.ok), float(best.ratio), str(best.message), float(best.suggested_scale))
+        s.last_trial_check = chk
+        if chk.ok:
+            self._accepted[plane] = run
+            self._after_trial_accepted(plane)
+        else:
+            prev = trial_ws[0] if trial_ws else s.trial
+            self._trial_override.pop(plane, None)
+            self._enter_trial(plane, max(chk.suggested_scale, 1.5), prev)
+            s.message = f"The trial weight in plane {plane} did not change the reading enough to trust: {chk.message}"
+
+    def _baseline_for(self, run: RunRecord, trial_ws: list[Weight]) -> RunRecord:
+        """The latest earlier run with the same weights as ``run`` less its trial in this plane."""
+        target = _plane_sums(w for w in run.weights if w not in trial_ws)
+        for r in reversed(self.runs[:-1]):
+            if _same_sums(_plane_sums(r.weights), target):
+                return r
+        return self.runs[0]
+
+    def _after_trial_accepted(self, plane: int) -> None:
+        if plane < self.machine.n_planes:
+            self._enter_trial(plane + 1)
+        else:
+            self._refit()
+            self._enter_correction("correction")
+
+    def _refit(self) -> None:
+        """Least-squares influence coefficients over every run (Goodman); stored ones if too few runs."""
+        from runtrue.balancing import BalancingError, Run, solve
+
+        runs = [_engine_run(r) for r in self.runs]
+        radii = {i + 1: p.radius_mm for i, p in enumerate(self.machine.planes)}
+        try:
+            sol = solve(runs, radius_mm=radii)
+        except BalancingError as exc:
+            if self._influence is None:
+                raise
+            self._influence_warnings = [f"Influence coefficients not refitted ({exc}); using the stored ones."]
+            return
+        _ = Run
+        self._solution = sol
+        self._influence = [[complex(sol.influence[i, j]) for j in range(sol.influence.shape[1])] for i in range(sol.influence.shape[0])]
+        self._influence_warnings = list(sol.warnings)
+
+    def _enter_correction(self, kind: str) -> None:
+        from runtrue.balancing import correction_from_influence
+
+        from runtrue.jobs import fitting
+
+        s = self.state
+        s.step = kind
+        s.plane = None
+        s.trial = None
+        on = list(self.runs[-1].weights)
+        remove = [w for w in on if self._is_trial(w)] if self.options["trial_removed"] else []
+        now = [w for w in on if w not in remove]
+        radii = [p.radius_mm for p in self.machine.planes]
+        assert self._influence is not None
+        # The reading of the state the correction starts from: the latest run with exactly these weights.
+        base = next((r for r in reversed(self.runs) if _same_sums(_plane_sums(r.weights), _plane_sums(now))), None)
+        if base is None:
+            base = self.runs[-1]
+            remove, now = [], on
+        spreads = [c.spread_g for c in base.reading.channels]
+        sol = correction_from_influence(self._influence, base.reading.vector(), radii, spreads=spreads if any(spreads) else None)
+        planes = []
+        for w in sol.corrections:
+            planes.append(fitting.plan_plane(self.machine, w.plane, w.unbalance_gmm, kind, s.trims_done + 1))
+        s.plan = CorrectionPlan(
+            kind=kind,
+            remove=remove,
+            planes=planes,
+            predicted=list(sol.predicted),
+            method=str(sol.method),
+            condition_number=float(sol.condition_number),
+            warnings=list(self._influence_warnings) + list(sol.warnings) + [w for pc in planes for w in pc.warnings],
+        )
+        for w in s.plan.warnings:
+            if w not in s.warnings:
+                s.warnings.append(w)
+
+    def _grade(self, run: RunRecord) -> tuple[list[float], bool]:
+        from runtrue.balancing import check_grade
+
+        assert self._influence is not None
+        gc = check_grade(self._influence, run.reading.vector(), self._tolerance)
+        return [float(x) for x in gc.residual_gmm], bool(gc.passed)
+
+    def _finish(self, status: str, reason: str) -> None:
+        s = self.state
+        s.step = "done"
+        s.status = status
+        s.plane = None
+        s.trial = None
+        s.plan = None
+        if reason:
+            s.message = reason.capitalize() + "."
+        res = self.result()
+        if reason:
+            res.warnings.append(reason)
+        # Idempotent on resume: writing the same final status and result again changes nothing.
+        self.store.finish_job(self.job_id, status, res.to_dict())
+        if status == "passed" and self.machine.id is not None and self._influence is not None:
+            saved = self.store.get_machine(self.machine.id)
+            if saved is not None and (saved.influence is None or saved.influence.job_id != self.job_id):
+                self.store.store_influence(
+                    self.machine.id,
+                    StoredInfluence(self._influence, self.runs[-1].reading.speed_rpm, now_iso(), self.job_id),
+                )
+
+
+def _plane_sums(weights: Any) -> dict[int, complex]:
+    out: dict[int, complex] = {}
+    for w in weights:
+        out[w.plane] = out.get(w.plane, 0j) + w.unbalance_gmm
+    return out
+
+
+def _same_sums(a: dict[int, complex], b: dict[int, complex], tol_gmm: float = 1e-6) -> bool:
+    for p in set(a) | set(b):
+        if abs(a.get(p, 0j) - b.get(p, 0j)) > tol_gmm * max(1.0, abs(a.get(p, 0j)), abs(b.get(p, 0j))):
+            return False
+    return True
+
+
+def _engine_run(r: RunRecord) -> Any:
+    from runtrue.balancing import Run
+    from runtrue.balancing import Weight as EngineWeight
+
+    spreads = [c.spread_g for c in r.reading.channels]
+    return Run(
+        weights=[EngineWeight(w.plane, w.mass_g, w.angle_deg, w.radius_mm) for w in r.weights],
+        readings=r.reading.vector(),
+        spreads=spreads if any(spreads) else None,
+    )
