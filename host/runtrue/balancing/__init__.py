@@ -40,12 +40,16 @@ Trial weights (``trial``)
     TRIAL_MIN_RATIO: float
 
 Uncertainty (``uncertainty``)
-    correction_uncertainty(fit, runs_readings, spreads) -- used by solve(); see module.
+    Give ``Run.spreads`` (or ``spreads=`` to correction_from_influence) and the Solution carries
+    mass_sd_g / angle_sd_deg (1 standard deviation, first-order GUM propagation);
+    propagate(func, y, sd, c0) -> (sd along, sd across) is the general tool.
 
 Amplitude only (``four_run``)
     four_run(amplitudes: Sequence[float], trial_mass_g: float, trial_angles_deg: Sequence[float],
         radius_mm: float, plane: int = 1, correction_radius_mm: float | None = None) -> Solution
         amplitudes[0] is the reference run, then one per trial angle (3 or more angles).
+    solve_amplitude_only(runs: Sequence[Run], radius_mm: float | None = None) -> Solution
+        the same from Run objects whose readings are amplitudes (any trial masses and angles).
 
 Static / couple (``static_couple``)
     static_couple(corrections: Sequence[Weight], radius_mm: float | None = None) -> StaticCouple
@@ -86,7 +90,7 @@ from runtrue.balancing.trial import (
     check_trial_effect,
     suggest_trial_weight,
 )
-from runtrue.balancing.four_run import four_run
+from runtrue.balancing.four_run import four_run, solve_amplitude_only
 from runtrue.balancing.static_couple import StaticCouple, static_couple
 from runtrue.balancing.tolerance import (
     STANDARD_GRADES,
@@ -112,7 +116,7 @@ __all__ = [
     "BalancingError", "Run", "Solution", "Weight", "amp_phase", "phasor", "wrap_deg",
     "CONDITION_WARN", "correction_from_influence", "net_correction", "solve",
     "TRIAL_MIN_RATIO", "TrialSuggestion", "TrialVerdict", "check_trial_effect", "suggest_trial_weight",
-    "four_run", "StaticCouple", "static_couple",
+    "four_run", "solve_amplitude_only", "StaticCouple", "static_couple",
     "STANDARD_GRADES", "GradeCheck", "Tolerance", "api_limit_gmm", "check_grade",
     "permissible_unbalance", "residual_unbalance_gmm",
     "convert_1x", "g_to_oz", "gmm_to_ozin", "in_to_mm", "mm_to_in", "oz_to_g", "ozin_to_gmm",

@@ -34,6 +34,9 @@ from runtrue.balancing.model import BalancingError, Solution, Weight, phasor
 #: The circles of the graphical method then nearly coincide and the intersection is poorly
 #: defined (common practice: the trial should change the amplitude by 20-30 % or more).
 MIN_TRIAL_EFFECT_FRACTION = 0.25
+#: Warn when the fitted model leaves more than this fraction of the reference amplitude after
+#: correction: with consistent data it leaves nothing (our choice).
+INCONSISTENT_FRACTION = 0.3
 
 
 def amplitude_only(
@@ -86,6 +89,12 @@ def amplitude_only(
         )
     residual2 = c0 - s * abs(u) ** 2
     predicted_amp = math.sqrt(max(float(residual2), 0.0))
+    if v0 > 0 and predicted_amp > INCONSISTENT_FRACTION * v0:
+        warnings.append(
+            f"The amplitudes do not fit one linear machine well: the model leaves {predicted_amp:.3g} "
+            f"of the reference {v0:.3g} after correction. Check that the readings were steady, the "
+            "speed the same in every run, and the trial angles logged correctly."
+        )
     warnings.append(
         "Amplitude-only method: the influence coefficient's phase and the predicted reading's "
         "phase are unknown; confirm the result with a check run."
@@ -129,3 +138,45 @@ def four_run(
             raise BalancingError("trial angles must be finite numbers of degrees")
     t = [0j] + [phasor(m * r, float(ang)) for ang in trial_angles_deg]
     return amplitude_only(amplitudes, t, r if correction_radius_mm is None else correction_radius_mm, plane)
+
+
+def solve_amplitude_only(runs: Sequence, radius_mm: float | None = None) -> Solution:
+    """Amplitude-only solution from :class:`~runtrue.balancing.model.Run` objects whose readings
+    are amplitudes (floats): ``runs[0]`` the reference, every later run one trial weight in one
+    and the same plane (moved to three or more angles).  With several pickups each is solved
+    alone and the pickup with the largest reference amplitude is used (a warning says so)."""
+    if len(runs) < 4:
+        raise BalancingError(
+            f"{len(runs)} runs; without phase the reference run and the trial weight at three or more "
+            "angles are needed (four runs)"
+        )
+    if runs[0].weights:
+        raise BalancingError("the first run is the reference and carries no weights")
+    planes = {w.plane for run in runs[1:] for w in run.weights}
+    if len(planes) != 1 or any(len(run.weights) != 1 for run in runs[1:]):
+        raise BalancingError(
+            "without phase, every run after the reference must carry exactly one trial weight, "
+            "in one and the same plane (the amplitude-only method balances one plane)"
+        )
+    plane = planes.pop()
+    for k, run in enumerate(runs, start=1):
+        w = run.weights[0] if run.weights else None
+        if w is not None:
+            check_mass_g(w.mass_g, f"run {k} weight mass")
+            check_radius_mm(w.radius_mm)
+    t = [0j] + [run.weights[0].unbalance_gmm for run in runs[1:]]
+    r = runs[1].weights[0].radius_mm if radius_mm is None else radius_mm
+    n_pickups = len(runs[0].readings)
+    if any(len(run.readings) != n_pickups for run in runs):
+        raise BalancingError("give one reading per pickup in every run, in the same order")
+    if n_pickups == 1:
+        return amplitude_only([float(abs(run.readings[0])) for run in runs], t, r, plane)
+    refs = [float(abs(z)) for z in runs[0].readings]
+    best = int(np.argmax(refs))
+    sol = amplitude_only([float(abs(run.readings[best])) for run in runs], t, r, plane)
+    sol.warnings.insert(
+        0,
+        f"Amplitude-only method uses one pickup: pickup {best + 1}, which has the largest reference "
+        "amplitude; the others were not used.",
+    )
+    return sol

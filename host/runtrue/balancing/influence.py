@@ -31,8 +31,9 @@ from typing import Mapping, Sequence
 import numpy as np
 
 from runtrue.balancing.forces import check_mass_g, check_radius_mm
-from runtrue.balancing.model import BalancingError, Run, Solution, Weight, amp_phase
+from runtrue.balancing.model import BalancingError, Run, Solution, Weight
 from runtrue.balancing.trial import TRIAL_MIN_CHANGE_FRACTION, check_trial_effect
+from runtrue.balancing.uncertainty import propagate
 
 #: Warn when the column-normalised influence matrix has a condition number above this.  The
 #: relative error of the correction can be up to cond times the relative error of the readings
@@ -176,43 +177,6 @@ def _radii(
     return out
 
 
-def _uncertainty(
-    func, y: np.ndarray, sd: np.ndarray, c0: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """First-order propagation of independent reading errors to the correction.
-
-    ``func(y) -> C``; ``sd`` has the spread of each entry of ``y`` (real and imaginary parts
-    each with sd/sqrt(2)).  Returns (sd along C, sd across C) per plane, in g*mm.  Central
-    differences on the real and imaginary part of every reading (the map is smooth but not
-    complex-analytic, so both parts are needed).
-    """
-    n_planes = c0.shape[0]
-    cov = np.zeros((n_planes, 2, 2))
-    scale = max(float(np.max(np.abs(y))), 1e-300)
-    h = 1e-6 * scale
-    for idx in np.ndindex(y.shape):
-        sigma = float(sd[idx]) / math.sqrt(2.0)
-        if sigma == 0.0:
-            continue
-        for unit in (1.0, 1j):
-            yp = y.copy()
-            ym = y.copy()
-            yp[idx] += unit * h
-            ym[idx] -= unit * h
-            d = (func(yp) - func(ym)) / (2.0 * h)  # dC / d(part), per plane
-            v = np.stack([d.real, d.imag], axis=1)  # planes x 2
-            cov += sigma * sigma * np.einsum("pi,pj->pij", v, v)
-    along = np.zeros(n_planes)
-    across = np.zeros(n_planes)
-    for p in range(n_planes):
-        c = c0[p]
-        u = np.array([c.real, c.imag]) / abs(c) if abs(c) > 0 else np.array([1.0, 0.0])
-        n = np.array([-u[1], u[0]])
-        along[p] = math.sqrt(max(float(u @ cov[p] @ u), 0.0))
-        across[p] = math.sqrt(max(float(n @ cov[p] @ n), 0.0))
-    return along, across
-
-
 def _finish(
     a: np.ndarray,
     r: np.ndarray,
@@ -337,7 +301,7 @@ def solve(runs: Sequence[Run], radius_mm: Mapping[int, float] | None = None) -> 
             rr, aa = _fit(x, yy, wts)
             return _correct(aa, rr)
 
-        unc = _uncertainty(func, y, sd, _correct(a, r))
+        unc = propagate(func, y, sd, _correct(a, r))
     if dof > 0 and wts is not None:
         # Misfit far beyond the stated scatter means the machine is not behaving linearly.
         chi = float(np.sqrt(np.mean(np.abs(resid * wts) ** 2)))
@@ -379,7 +343,7 @@ def correction_from_influence(
         if len(spreads) != n_pickups:
             raise BalancingError(f"{len(spreads)} spread(s) for {n_pickups} pickup(s)")
         sd = np.array([[float(s) for s in spreads]])
-        unc = _uncertainty(lambda yy: _correct(a, yy[0]), r[None, :], sd, _correct(a, r))
+        unc = propagate(lambda yy: _correct(a, yy[0]), r[None, :], sd, _correct(a, r))
     return _finish(a, r, radii, [], "stored", 0.0, unc)
 
 

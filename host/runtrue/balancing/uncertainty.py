@@ -1,0 +1,55 @@
+"""Uncertainty of a balance correction from the scatter of the readings it was computed from.
+
+Source: first-order (linearised) propagation of uncertainty, JCGM 100:2008 *Evaluation of
+measurement data - Guide to the expression of uncertainty in measurement* (GUM), clause 5.1
+(law of propagation of uncertainty), applied to the real and imaginary parts of each reading
+as independent inputs with equal standard deviations (spread / sqrt(2) each; a circular
+scatter, as vector averaging of a steady 1x signal gives).  Sensitivities by central finite
+differences of the whole solution, so the same code serves every solver.  The output is split
+into the component along the correction (its size: mass uncertainty) and across it (its
+direction: angle uncertainty = across / |C| radians).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Callable
+
+import numpy as np
+
+
+def propagate(
+    func: Callable[[np.ndarray], np.ndarray], y: np.ndarray, sd: np.ndarray, c0: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """First-order propagation of independent reading errors to the correction.
+
+    ``func(y) -> C``; ``sd`` has the spread of each entry of ``y`` (real and imaginary parts
+    each with sd/sqrt(2)).  Returns (sd along C, sd across C) per plane, in g*mm.  Central
+    differences on the real and imaginary part of every reading (the map is smooth but not
+    complex-analytic, so both parts are needed).
+    """
+    n_planes = c0.shape[0]
+    cov = np.zeros((n_planes, 2, 2))
+    scale = max(float(np.max(np.abs(y))), 1e-300)
+    h = 1e-6 * scale
+    for idx in np.ndindex(y.shape):
+        sigma = float(sd[idx]) / math.sqrt(2.0)
+        if sigma == 0.0:
+            continue
+        for unit in (1.0, 1j):
+            yp = y.copy()
+            ym = y.copy()
+            yp[idx] += unit * h
+            ym[idx] -= unit * h
+            d = (func(yp) - func(ym)) / (2.0 * h)  # dC / d(part), per plane
+            v = np.stack([d.real, d.imag], axis=1)  # planes x 2
+            cov += sigma * sigma * np.einsum("pi,pj->pij", v, v)
+    along = np.zeros(n_planes)
+    across = np.zeros(n_planes)
+    for p in range(n_planes):
+        c = c0[p]
+        u = np.array([c.real, c.imag]) / abs(c) if abs(c) > 0 else np.array([1.0, 0.0])
+        n = np.array([-u[1], u[0]])
+        along[p] = math.sqrt(max(float(u @ cov[p] @ u), 0.0))
+        across[p] = math.sqrt(max(float(n @ cov[p] @ n), 0.0))
+    return along, across

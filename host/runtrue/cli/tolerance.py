@@ -1,0 +1,101 @@
+"""``runtrue tolerance``: permissible residual unbalance for an ISO 21940-11 balance quality grade.
+
+``runtrue tolerance --grade G --mass-kg M --rpm N [--planes 1|2] [--distances-mm L1 L2]
+[--journal-load-kg W]`` prints JSON: ``permissible_unbalance_gmm`` (rotor total),
+``permissible_eccentricity_um``, ``per_plane_gmm`` (a list); added keys: ``grade``,
+``mass_kg``, ``speed_rpm``, ``permissible_unbalance_ozin``, ``per_plane_ozin``, ``rule``,
+``warnings`` and, with ``--journal-load-kg``, ``api_limit_gmm`` (API-style 4W/N per journal).
+Formula and allocation: ``runtrue.balancing.tolerance`` (ISO 21940-11:2016 clauses 6 and 7).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+from typing import Any
+
+from runtrue.cli import UsageError
+
+
+def register(subparsers: Any) -> None:
+    p = subparsers.add_parser(
+        "tolerance",
+        help="permissible residual unbalance for a balance quality grade (ISO 21940-11), as JSON",
+        description="Permissible residual unbalance U_per = 9549 * G * m / n (g*mm) and specific "
+        "unbalance e_per = U_per / m (um) for balance quality grade G (mm/s), rotor mass m (kg) "
+        "and maximum service speed n (rpm), allocated to one or two tolerance planes.",
+    )
+    p.add_argument("--grade", required=True, metavar="G", help="balance quality grade in mm/s, e.g. 6.3 (G 6.3)")
+    p.add_argument("--mass-kg", required=True, metavar="M", help="rotor mass in kg")
+    p.add_argument("--rpm", required=True, metavar="N", help="maximum service speed in rpm")
+    p.add_argument("--planes", default="1", choices=["1", "2"], help="tolerance planes (default 1)")
+    p.add_argument(
+        "--distances-mm",
+        nargs=2,
+        metavar=("L1", "L2"),
+        help="distances from the rotor's centre of mass to plane 1 and to plane 2 (mm), planes on "
+        "either side of it; without it two planes share the tolerance equally",
+    )
+    p.add_argument(
+        "--journal-load-kg",
+        metavar="W",
+        help="also give the API-style limit 4W/N per journal for this static journal load (kg)",
+    )
+
+
+def _num(text: str, option: str) -> float:
+    try:
+        x = float(text)
+    except ValueError:
+        raise UsageError(f"{option} must be a number, got {text!r}") from None
+    if not math.isfinite(x):
+        raise UsageError(f"{option} must be a finite number, got {text!r}")
+    return x
+
+
+def _r(x: float) -> float:
+    return float(f"{x:.6g}")
+
+
+def run(args: argparse.Namespace) -> int:
+    from runtrue.balancing import BalancingError, api_limit_gmm, gmm_to_ozin, permissible_unbalance
+
+    grade = _num(args.grade, "--grade")
+    mass = _num(args.mass_kg, "--mass-kg")
+    rpm = _num(args.rpm, "--rpm")
+    planes = int(args.planes)
+    distances = None
+    if args.distances_mm is not None:
+        if planes != 2:
+            raise UsageError("--distances-mm needs --planes 2")
+        distances = (_num(args.distances_mm[0], "--distances-mm"), _num(args.distances_mm[1], "--distances-mm"))
+    try:
+        tol = permissible_unbalance(grade, mass, rpm, planes, distances)
+        api = None
+        if args.journal_load_kg is not None:
+            api = api_limit_gmm(_num(args.journal_load_kg, "--journal-load-kg"), rpm)
+    except BalancingError as exc:
+        raise UsageError(str(exc)) from None
+    out: dict[str, Any] = {
+        "permissible_unbalance_gmm": _r(tol.permissible_unbalance_gmm),
+        "permissible_eccentricity_um": _r(tol.permissible_eccentricity_um),
+        "per_plane_gmm": [_r(u) for u in tol.per_plane_gmm],
+        "grade": tol.grade,
+        "mass_kg": tol.mass_kg,
+        "speed_rpm": tol.speed_rpm,
+        "permissible_unbalance_ozin": _r(gmm_to_ozin(tol.permissible_unbalance_gmm)),
+        "per_plane_ozin": [_r(gmm_to_ozin(u)) for u in tol.per_plane_gmm],
+        "rule": tol.rule,
+        "warnings": list(tol.warnings),
+    }
+    if api is not None:
+        out["api_limit_gmm"] = _r(api)
+        out["api_rule"] = (
+            "API-style limit U = 4W/N oz*in per journal (W static journal load in lb, N maximum "
+            "continuous speed in rpm), shown in g*mm; use the edition your specification names"
+        )
+    json.dump(out, sys.stdout, indent=2)
+    sys.stdout.write("\n")
+    return 0
