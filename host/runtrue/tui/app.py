@@ -1,0 +1,172 @@
+"""The runtrue application: a thin App that wires the screens, the meter link and the session.
+
+Screens (one module each under ``runtrue.tui.screens``): connect -> machine -> runs (the
+balancing steps; it opens live readings and fitting over itself) -> result.  All meter I/O is in
+``runtrue.tui.link.MeterLink``'s thread, which only posts messages; the App turns them into
+session state and tells the current screen.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Callable
+
+from textual.app import App
+from textual.binding import Binding
+from textual.theme import Theme
+
+from runtrue.tui.link import MeterLink
+from runtrue.tui.messages import MeterConnected, MeterFailed, MeterLost, RevolutionsRead, SelfTestDone
+from runtrue.tui.screens.connect import ConnectScreen
+from runtrue.tui.session import MANUAL_PORT, Session
+
+# Our own palette: deep blue-grey ground, teal for what you can act on, amber for what to watch.
+RUNTRUE_THEME = Theme(
+    name="runtrue",
+    primary="#2E9C8F",
+    secondary="#C7883A",
+    accent="#E0B040",
+    foreground="#E4E7EA",
+    background="#161B22",
+    surface="#1E252E",
+    panel="#26303B",
+    success="#4CAF6A",
+    warning="#E0B040",
+    error="#E05A4F",
+    dark=True,
+)
+
+
+class RuntrueApp(App):
+    """Balance a rotor in place, from plugging in the meter to handing over the report."""
+
+    CSS_PATH = "app.tcss"
+    TITLE = "runtrue"
+    ENABLE_COMMAND_PALETTE = False
+    BINDINGS = [Binding("ctrl+q", "quit", "Quit", show=False, priority=True)]
+
+    def __init__(
+        self,
+        port: str | None = None,
+        *,
+        seed: int | None = None,
+        realtime: bool = True,
+        store_path: str | None = None,
+        revs_per_reading: int = 32,
+        opener: Callable[..., Any] | None = None,
+        post_interval_s: float = 0.25,
+    ) -> None:
+        super().__init__()
+        self.session = Session(
+            seed=seed, realtime=realtime, revs_per_reading=revs_per_reading, store_path=store_path
+        )
+        self._initial_port = port
+        self.auto_connect = port is None  # default: the first meter found
+        self._opener = opener
+        self._post_interval_s = post_interval_s
+
+    # -- start and stop -------------------------------------------------------------------------
+    def on_mount(self) -> None:
+        self.register_theme(RUNTRUE_THEME)
+        self.theme = "runtrue"
+        if self._initial_port:
+            self.use_port(self._initial_port)
+        self.push_screen(ConnectScreen())
+
+    def on_unmount(self) -> None:
+        self.session.close()
+
+    # -- the meter ------------------------------------------------------------------------------
+    def use_port(self, port: str) -> None:
+        """Use ``port`` ("sim:NAME", a serial device, or "manual") from now on."""
+        s = self.session
+        if s.port == port and (s.link is not None or port == MANUAL_PORT):
+            return
+        if s.link is not None:
+            s.link.close()
+            s.link = None
+        s.port = port
+        s.device_info = {}
+        s.self_test = None
+        if port == MANUAL_PORT:
+            s.meter_state = "manual entry"
+        else:
+            s.meter_state = "connecting ..."
+            s.link = MeterLink(
+                port,
+                self.post_message,
+                seed=s.seed,
+                realtime=s.realtime,
+                opener=self._opener,
+                post_interval_s=self._post_interval_s,
+            )
+            s.link.start()
+        self._tell_screen(None)
+
+    def _tell_screen(self, message: object) -> None:
+        screen = self.screen
+        refresh = getattr(screen, "refresh_status", None)
+        if refresh is not None:
+            refresh()
+        if message is not None and hasattr(screen, "meter_event"):
+            screen.meter_event(message)
+
+    def on_meter_connected(self, message: MeterConnected) -> None:
+        was_lost = "LOST" in self.session.meter_state
+        self.session.device_info = message.info
+        self.session.meter_state = "connected"
+        if was_lost:
+            self.notify("Meter is back. The job was kept; carry on.", title="Reconnected")
+        self._tell_screen(message)
+
+    def on_meter_lost(self, message: MeterLost) -> None:
+        s = self.session
+        if "LOST" not in s.meter_state:
+            self.notify(
+                f"Lost the meter on {message.port} ({message.reason}). Check the USB cable; "
+                "runtrue reconnects by itself. Every reading taken so far is saved.",
+                title="Meter lost",
+                severity="error",
+                timeout=8,
+            )
+        s.meter_state = "LOST - reconnecting"
+        s.live.cancel()
+        self._tell_screen(message)
+
+    def on_meter_failed(self, message: MeterFailed) -> None:
+        s = self.session
+        s.meter_state = "cannot open - retrying"
+        if s.link is not None and not getattr(s, "_failed_told", False):
+            self.notify(
+                f"Cannot open {message.port}: {message.reason}",
+                title="No meter",
+                severity="error",
+                timeout=6,
+            )
+        self._tell_screen(message)
+
+    def on_revolutions_read(self, message: RevolutionsRead) -> None:
+        self.session.live.add(message.revs, message.lost_frames)
+        self._tell_screen(message)
+
+    def on_self_test_done(self, message: SelfTestDone) -> None:
+        self.session.self_test = message.result
+        self._tell_screen(message)
+
+    # -- moving between steps -------------------------------------------------------------------
+    def show_connect(self) -> None:
+        self.switch_screen(ConnectScreen())
+
+    def show_machine(self) -> None:
+        from runtrue.tui.screens.machine import MachineScreen
+
+        self.switch_screen(MachineScreen())
+
+    def show_runs(self) -> None:
+        from runtrue.tui.screens.runs import RunsScreen
+
+        self.switch_screen(RunsScreen())
+
+    def show_result(self) -> None:
+        from runtrue.tui.screens.result import ResultScreen
+
+        self.switch_screen(ResultScreen())

@@ -1,0 +1,82 @@
+"""Display text for the screens: pure functions, no Textual, easy to test.
+
+Conventions shown to the user (DEVELOPERS.md): phase is a lag in degrees after the reference
+mark (0-360); weight angles are measured from the mark against the direction of rotation.
+"""
+
+from __future__ import annotations
+
+import cmath
+import math
+
+DEG = "\N{DEGREE SIGN}"
+PHASE_NOTE = f"phase = lag after the mark, 0-360{DEG}"
+ANGLE_NOTE = f"weight angles from the mark, against rotation"
+
+SAFETY_FIT = (
+    "STOP and LOCK OUT the machine before touching the rotor. Secure every weight for the "
+    "force shown. Follow the machine maker's instructions and local codes."
+)
+SAFETY_START = (
+    "Before starting: guards on, tools and loose weights off the rotor, everyone clear of the "
+    "plane of rotation. Never exceed the rotor's rated speed."
+)
+
+
+def amp_text(amp_g: float, unit: str = "g") -> str:
+    """Amplitude with 3 significant figures, e.g. ``0.0412 g``."""
+    if not math.isfinite(amp_g):
+        return "---"
+    if amp_g == 0:
+        return f"0 {unit}"
+    digits = max(0, 2 - int(math.floor(math.log10(abs(amp_g)))))
+    return f"{amp_g:.{min(digits, 5)}f} {unit}"
+
+
+def phase_text(phase_deg: float) -> str:
+    return f"{phase_deg % 360.0:5.1f}{DEG}"
+
+
+def vector_text(v: complex, unit: str = "g") -> str:
+    amp = abs(v)
+    phase = math.degrees(cmath.phase(v)) % 360.0
+    return f"{amp_text(amp, unit)} @ {phase_text(phase).strip()}"
+
+
+def mass_text(mass_g: float) -> str:
+    if mass_g >= 100:
+        return f"{mass_g:.0f} g"
+    if mass_g >= 10:
+        return f"{mass_g:.1f} g"
+    return f"{mass_g:.2f} g"
+
+
+def force_text(force_n: float) -> str:
+    if force_n >= 10_000:
+        return f"{force_n / 1000:.1f} kN"
+    return f"{force_n:.0f} N"
+
+
+def centrifugal_force_n(mass_g: float, radius_mm: float, speed_rpm: float) -> float:
+    """F = m r omega^2 (Newton's second law for uniform circular motion), in newtons."""
+    omega = 2 * math.pi * speed_rpm / 60.0
+    return (mass_g / 1000.0) * (radius_mm / 1000.0) * omega * omega
+
+
+def bar(fraction: float, width: int) -> str:
+    """A progress bar of ``width`` characters, e.g. ``#####.....``."""
+    f = min(1.0, max(0.0, fraction))
+    full = int(round(f * width))
+    return "\N{FULL BLOCK}" * full + "\N{LIGHT SHADE}" * (width - full)
+
+
+def time_left_text(seconds: float) -> str:
+    if not math.isfinite(seconds) or seconds < 0:
+        return "--"
+    if seconds < 60:
+        return f"{seconds:.0f} s"
+    return f"{seconds // 60:.0f} min {seconds % 60:02.0f} s"
+
+
+def rotation_words(rotation: str) -> str:
+    return "clockwise" if rotation == "cw" else "counter-clockwise"

@@ -1,0 +1,215 @@
+"""The machine form's text fields <-> ``runtrue.jobs.model.Machine``: pure parsing, with
+messages that say what is wrong and what to write instead.
+
+Field syntax (shown as placeholders on the screen):
+
+* positions: ``8`` (8 equally spaced holes), ``any`` (continuous groove or rim),
+  or a list of angles ``0, 40, 95`` (degrees from the mark, against rotation);
+* stock: ``1x6 2x6 5x4`` (mass in g x how many), or ``strip 0.8`` (strip, g per mm), or empty;
+* pickups: labels separated by ``;`` (one per meter channel, in channel order).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from typing import Any
+
+from runtrue.jobs.model import Machine, Pickup, PlaneSpec, StockPiece, StripSpec
+
+FIELDS: tuple[tuple[str, str, str], ...] = (
+    # id, label, placeholder
+    ("name", "Machine name", "e.g. Boiler-house fan 2"),
+    ("mass", "Rotor mass kg", "mass of the rotating part, kg"),
+    ("speed", "Running speed rpm", "normal working speed"),
+    ("rotation", "Rotation", "cw or ccw, seen from the drive end"),
+    ("grade", "Grade (ISO)", "e.g. G6.3 (F3 shows typical grades)"),
+    ("planes", "Planes", "1 or 2 correction planes"),
+    ("p1_radius", "Plane 1 radius mm", "radius where weights sit"),
+    ("p1_pos", "Plane 1 positions", "8 | any | 0, 40, 95"),
+    ("p1_first", "Plane 1 first at", "angle of position 1, deg (usually 0)"),
+    ("p2_radius", "Plane 2 radius mm", "(two planes only)"),
+    ("p2_pos", "Plane 2 positions", "8 | any | 0, 40, 95"),
+    ("p2_first", "Plane 2 first at", "deg"),
+    ("stock", "Weights in stock", "1x6 2x6 5x4 (g x count) | strip 0.8 (g/mm)"),
+    ("pickups", "Pickups", "labels in channel order, separated by ;"),
+)
+
+
+class FormError(ValueError):
+    """A field is wrong: ``field`` names it so the screen can put the cursor there."""
+
+    def __init__(self, field: str, message: str) -> None:
+        super().__init__(message)
+        self.field = field
+
+
+def _number(values: dict[str, str], key: str, what: str, *, positive: bool = True) -> float:
+    text = values.get(key, "").strip().replace(",", ".")
+    try:
+        v = float(text)
+    except ValueError:
+        raise FormError(key, f"{what}: write a number (got {text!r})") from None
+    if not math.isfinite(v) or (positive and v <= 0):
+        raise FormError(key, f"{what} must be a positive number")
+    return v
+
+
+def parse_positions(text: str, radius_mm: float, first_deg: float, name: str) -> PlaneSpec:
+    t = text.strip().lower()
+    if t in ("", "any", "continuous", "groove"):
+        return PlaneSpec(radius_mm=radius_mm, name=name, continuous=True)
+    parts = [p for p in re.split(r"[,\s;]+", t) if p]
+    if len(parts) == 1:
+        try:
+            count = int(parts[0])
+        except ValueError:
+            raise ValueError(f"positions: write a count like 8, 'any', or angles like 0, 40, 95 (got {text!r})") from None
+        if count < 1:
+            raise ValueError("positions: the count must be at least 1")
+        return PlaneSpec(radius_mm=radius_mm, name=name, count=count, first_angle_deg=first_deg)
+    try:
+        angles = [float(p) for p in parts]
+    except ValueError:
+        raise ValueError(f"positions: angles must be numbers in degrees, like 0, 40, 95 (got {text!r})") from None
+    return PlaneSpec(radius_mm=radius_mm, name=name, angles_deg=angles)
+
+
+def parse_stock(text: str) -> tuple[list[StockPiece], StripSpec | None]:
+    t = text.strip().lower()
+    if not t:
+        return [], None
+    m = re.fullmatch(r"strip\s+([0-9.]+)(?:\s*g/mm)?", t)
+    if m:
+        g = float(m.group(1))
+        if not g > 0:
+            raise ValueError("strip: the mass per mm must be positive")
+        return [], StripSpec(grams_per_mm=g)
+    pieces = []
+    for item in t.replace(",", " ").split():
+        mm = re.fullmatch(r"([0-9.]+)\s*g?\s*[x*]\s*([0-9]+)", item)
+        if not mm:
+            raise ValueError(f"stock: write each size as mass x count, like 2x6 (got {item!r})")
+        mass, count = float(mm.group(1)), int(mm.group(2))
+        if not mass > 0 or count < 1:
+            raise ValueError(f"stock: {item!r} needs a positive mass and a count of at least 1")
+        pieces.append(StockPiece(mass_g=mass, count=count))
+    return pieces, None
+
+
+def machine_from_fields(values: dict[str, str], machine_id: int | None = None) -> Machine:
+    """Build a Machine from the form; :class:`FormError` names the first wrong field."""
+    name = values.get("name", "").strip()
+    if not name:
+        raise FormError("name", "give the machine a name you will recognise next time")
+    mass = _number(values, "mass", "rotor mass (kg)")
+    speed = _number(values, "speed", "running speed (rpm)")
+    rotation = values.get("rotation", "").strip().lower()
+    if rotation not in ("cw", "ccw"):
+        raise FormError("rotation", "rotation: write cw or ccw, as seen from the drive end")
+    grade = values.get("grade", "").strip() or "G6.3"
+    try:
+        from runtrue.jobs.workflow import parse_grade
+
+        parse_grade(grade)
+    except ValueError as exc:
+        raise FormError("grade", str(exc)) from None
+    planes_text = values.get("planes", "").strip() or "1"
+    if planes_text not in ("1", "2"):
+        raise FormError("planes", "planes: 1 or 2")
+    planes = []
+    for p in range(1, int(planes_text) + 1):
+        radius = _number(values, f"p{p}_radius", f"plane {p} radius (mm)")
+        first_text = values.get(f"p{p}_first", "").strip() or "0"
+        try:
+            first = float(first_text)
+        except ValueError:
+            raise FormError(f"p{p}_first", f"plane {p} first position: an angle in degrees") from None
+        try:
+            planes.append(parse_positions(values.get(f"p{p}_pos", ""), radius, first, f"plane {p}"))
+        except ValueError as exc:
+            raise FormError(f"p{p}_pos", f"plane {p} {exc}") from None
+    try:
+        stock, strip = parse_stock(values.get("stock", ""))
+    except ValueError as exc:
+        raise FormError("stock", str(exc)) from None
+    labels = [s.strip() for s in values.get("pickups", "").split(";") if s.strip()] or ["1"]
+    try:
+        return Machine(
+            name=name,
+            rotor_mass_kg=mass,
+            speed_rpm=speed,
+            planes=planes,
+            rotation=rotation,  # type: ignore[arg-type]
+            grade=grade if grade.upper().startswith("G") else f"G{grade}",
+            pickups=[Pickup(label) for label in labels],
+            stock=stock,
+            strip=strip,
+            id=machine_id,
+        )
+    except ValueError as exc:
+        raise FormError("name", str(exc)) from None
+
+
+def _positions_text(p: PlaneSpec) -> str:
+    if p.continuous:
+        return "any"
+    if p.count is not None:
+        return str(p.count)
+    return ", ".join(f"{a:g}" for a in p.angles_deg or [])
+
+
+def fields_from_machine(m: Machine) -> dict[str, str]:
+    out = {
+        "name": m.name,
+        "mass": f"{m.rotor_mass_kg:g}",
+        "speed": f"{m.speed_rpm:g}",
+        "rotation": m.rotation,
+        "grade": m.grade,
+        "planes": str(m.n_planes),
+        "stock": (
+            f"strip {m.strip.grams_per_mm:g}" if m.strip else " ".join(f"{s.mass_g:g}x{s.count}" for s in m.stock)
+        ),
+        "pickups": "; ".join(p.label for p in m.pickups),
+    }
+    for i, p in enumerate(m.planes, start=1):
+        out[f"p{i}_radius"] = f"{p.radius_mm:g}"
+        out[f"p{i}_pos"] = _positions_text(p)
+        out[f"p{i}_first"] = f"{p.first_angle_deg:g}"
+    for i in range(m.n_planes + 1, 3):
+        out[f"p{i}_radius"] = out[f"p{i}_pos"] = out[f"p{i}_first"] = ""
+    return out
+
+
+def rotation_from_drive_end(rotation: str, viewed_from: str) -> str:
+    """A scenario's rotation seen from ``viewed_from`` -> seen from the drive end."""
+    v = viewed_from.lower()
+    if "drive" in v or "motor" in v:
+        return rotation
+    return "ccw" if rotation == "cw" else "cw"
+
+
+def machine_from_scenario(sc: Any) -> Machine:
+    """A new machine describing a simulator scenario (what a user would type for it)."""
+    planes = []
+    for p in sc.planes:
+        if p.positions is None:
+            planes.append(PlaneSpec(radius_mm=p.radius_mm, name=p.name, continuous=True))
+        else:
+            planes.append(
+                PlaneSpec(radius_mm=p.radius_mm, name=p.name, count=p.positions, first_angle_deg=p.first_position_deg)
+            )
+    stock = [StockPiece(1.0, 6), StockPiece(2.0, 6), StockPiece(5.0, 6), StockPiece(10.0, 4)]
+    if sc.rotor_mass_kg < 3:
+        stock = [StockPiece(0.1, 6), StockPiece(0.2, 6), StockPiece(0.5, 6), StockPiece(1.0, 4)]
+    return Machine(
+        name=f"sim {sc.name}",
+        rotor_mass_kg=round(float(sc.rotor_mass_kg), 2),
+        speed_rpm=float(sc.speed_rpm),
+        planes=planes,
+        rotation=rotation_from_drive_end(sc.rotation, sc.viewed_from),  # type: ignore[arg-type]
+        grade=f"G{sc.grade:g}",
+        pickups=[Pickup(p.name) for p in sc.pickups],
+        stock=stock,
+        notes=sc.description,
+    )

@@ -1,0 +1,202 @@
+"""Connect: choose the meter (ports found), a simulated machine, or manual entry of readings
+taken with another instrument; see the meter's details and run its self-test.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Iterable
+
+from textual import work
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.widget import Widget
+from textual.widgets import OptionList, Static
+from textual.widgets.option_list import Option
+
+from runtrue.tui.messages import MeterConnected, MeterFailed, MeterLost, SelfTestDone
+from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.session import MANUAL_PORT
+
+
+def find_sources() -> tuple[list[tuple[str, str]], list[tuple[str, str]]]:
+    """(serial ports, simulator scenarios) as (port, description) pairs.  Slow-ish: run in a thread."""
+    ports: list[tuple[str, str]] = []
+    try:
+        from runtrue.transport.serial import list_ports  # type: ignore[attr-defined]
+
+        for p in list_ports():
+            ports.append((str(getattr(p, "device", p)), str(getattr(p, "description", ""))))
+    except ImportError:
+        try:
+            from serial.tools import list_ports as _lp  # pyserial: the meter's USB serial port
+
+            # only USB devices: built-in UARTs (ttyS0...) are never the meter
+            ports = [(p.device, p.description or "") for p in _lp.comports() if p.vid is not None]
+        except ImportError:
+            ports = []
+    sims: list[tuple[str, str]] = []
+    try:
+        from runtrue.sim.scenarios import SCENARIOS
+
+        for name, sc in SCENARIOS.items():
+            sims.append((f"sim:{name}", str(getattr(sc, "description", ""))))
+    except ImportError:
+        pass
+    return ports, sims
+
+
+def _fit(text: str, width: int) -> str:
+    return text if len(text) <= width else text[: width - 1] + "\N{HORIZONTAL ELLIPSIS}"
+
+
+def device_text(info: dict[str, Any]) -> str:
+    if not info:
+        return "No meter connected."
+    chans = info.get("channel_mask", 0)
+    n_ch = bin(int(chans)).count("1") if isinstance(chans, int) else "?"
+    return (
+        f"board    {info.get('board', '?')}  serial {info.get('serial') or '-'}\n"
+        f"firmware {info.get('fw', '?')}  protocol {info.get('proto', '?')}\n"
+        f"channels {n_ch} of {info.get('channels_max', '?')}  "
+        f"rate {float(info.get('rate_hz', 0) or 0):.0f} Hz/ch\n"
+        f"ref edge {info.get('edge', '?')}  ADC {info.get('adc_bits', '?')} bit"
+    )
+
+
+def self_test_text(result: dict[str, Any] | None) -> str:
+    if result is None:
+        return "Self-test: press t (spin the machine first so reference pulses are seen)."
+    head = "Self-test PASSED" if result.get("pass") else "Self-test FAILED - see notes"
+    lines = [head]
+    for c in result.get("checks", []):
+        mark = "ok " if c.get("pass") else "BAD"
+        value = c.get("value")
+        val = f"{value:.4g}" if isinstance(value, float) else str(value)
+        note = c.get("note") or ""
+        lines.append(f" {mark} {c.get('name', '?')}: {val} {c.get('unit', '')} {note}".rstrip())
+    return "\n".join(lines)
+
+
+class ConnectScreen(StepScreen):
+    STEP = "1 Connect"
+    BINDINGS = [
+        Binding("enter", "use", "Use selected", priority=True),
+        Binding("t", "self_test", "Self-test"),
+        Binding("r", "rescan", "Rescan"),
+        Binding("n", "next", "Next: machine"),
+        Binding("q", "app.quit", "Quit"),
+    ]
+
+    def compose_body(self) -> Iterable[Widget]:
+        with Horizontal(id="connect-body"):
+            with Vertical(id="sources-pane"):
+                yield Static("Meter, simulator or manual entry", classes="pane-title")
+                yield OptionList(id="sources")
+            with Vertical(id="device-pane"):
+                yield Static("Meter", classes="pane-title")
+                yield Static(device_text({}), id="device", markup=False)
+                yield Static(self_test_text(None), id="selftest", markup=False)
+        yield Static("", id="hint", markup=False)
+
+    def on_mount(self) -> None:
+        super().on_mount()
+        self.query_one("#sources", OptionList).add_option(Option("looking for meters ...", disabled=True))
+        self._update_device()
+        self.scan()
+
+    @work(thread=True, exclusive=True, group="scan")
+    def scan(self) -> None:
+        ports, sims = find_sources()
+        self.app.call_from_thread(self._show_sources, ports, sims)
+
+    def _show_sources(self, ports: list[tuple[str, str]], sims: list[tuple[str, str]]) -> None:
+        ol = self.query_one("#sources", OptionList)
+        ol.clear_options()
+        ol.add_option(Option("-- meters found --", disabled=True))
+        if not ports:
+            ol.add_option(Option("  (none: plug in the meter, press r)", disabled=True))
+        for dev, desc in ports:
+            ol.add_option(Option(_fit(f"  {dev}  {desc}", 36), id=dev))
+        ol.add_option(Option("-- simulated machines --", disabled=True))
+        for port, desc in sims:
+            ol.add_option(Option(_fit(f"  {port[4:]}: {desc}", 36), id=port))
+        ol.add_option(Option("-- no meter --", disabled=True))
+        ol.add_option(Option("  manual entry (other instrument)", id=MANUAL_PORT))
+        want = self.session.port
+        target = want if want else (ports[0][0] if ports else None)
+        if target is not None and self._has(ol, target):
+            ol.highlighted = ol.get_option_index(target)
+        else:
+            for i in range(ol.option_count):
+                if not ol.get_option_at_index(i).disabled:
+                    ol.highlighted = i
+                    break
+        ol.focus()
+        # default: the first meter found is used straight away
+        if self.rt_app.auto_connect and target is not None and self.session.link is None:
+            self.rt_app.auto_connect = False
+            self.rt_app.use_port(target)
+
+    @staticmethod
+    def _has(ol: OptionList, option_id: str) -> bool:
+        try:
+            ol.get_option_index(option_id)
+        except Exception:
+            return False
+        return True
+
+    def action_use(self) -> None:
+        ol = self.query_one("#sources", OptionList)
+        if ol.highlighted is None:
+            return
+        opt = ol.get_option_at_index(ol.highlighted)
+        if opt.disabled or opt.id is None:
+            return
+        self.rt_app.use_port(opt.id)
+        self._update_device()
+
+    def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
+        event.stop()
+        self.action_use()
+
+    def action_rescan(self) -> None:
+        self.scan()
+
+    def action_self_test(self) -> None:
+        if self.session.link is None or not self.session.link.connected:
+            self.notify("Connect a meter or a simulated machine first.", severity="warning")
+            return
+        self.query_one("#selftest", Static).update("Self-test running (about a second) ...")
+        self.session.link.self_test()
+
+    def action_next(self) -> None:
+        if self.session.port is None:
+            self.notify("Choose a meter, a simulated machine or manual entry first (Enter).", severity="warning")
+            return
+        self.rt_app.show_machine()
+
+    def meter_event(self, message: object) -> None:
+        if isinstance(message, (MeterConnected, MeterLost, MeterFailed, SelfTestDone)):
+            self._update_device()
+
+    def _update_device(self) -> None:
+        s = self.session
+        hint = self.query_one("#hint", Static)
+        if s.manual:
+            self.query_one("#device", Static).update(
+                "Manual entry: no meter. You type each reading (1x amplitude and phase lag per "
+                "pickup) as read off another instrument."
+            )
+            self.query_one("#selftest", Static).update("")
+            hint.update("Next (n): describe the machine.")
+            return
+        self.query_one("#device", Static).update(
+            (f"port     {s.port}\n" if s.port else "") + device_text(s.device_info)
+        )
+        self.query_one("#selftest", Static).update(self_test_text(s.self_test))
+        if s.link is not None and s.link.connected:
+            hint.update("Connected. t: self-test, n: describe the machine.")
+        elif s.port:
+            hint.update(f"{s.port}: {s.meter_state}")
+        else:
+            hint.update("Up/Down to choose, Enter to use it.")

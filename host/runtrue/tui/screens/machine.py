@@ -1,0 +1,189 @@
+"""Machine: pick a saved machine (or an unfinished job to resume), or describe a new one.
+
+Saved machines keep their influence coefficients, so the next job can go straight to the
+correction.  The grade table (F3) lists typical balance quality grades by rotor type.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Iterable
+
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.widget import Widget
+from textual.widgets import Input, Label, OptionList, Static
+from textual.widgets.option_list import Option
+
+from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields, machine_from_scenario
+from runtrue.tui.screens.base import StepScreen
+
+NEW = "new"
+
+
+def tolerance_text(values: dict[str, str]) -> str:
+    """The permissible residual unbalance for what is typed so far (or what is missing)."""
+    try:
+        from runtrue.balancing import permissible_unbalance
+        from runtrue.jobs.workflow import parse_grade
+
+        grade = parse_grade(values.get("grade", "") or "G6.3")
+        mass = float(values.get("mass", "").replace(",", "."))
+        speed = float(values.get("speed", "").replace(",", "."))
+        planes = 2 if values.get("planes", "").strip() == "2" else 1
+        tol = permissible_unbalance(grade, mass, speed, planes=planes)
+    except Exception:  # noqa: BLE001 - incomplete form: say what the number needs
+        return "Permissible residual unbalance: give mass, speed and grade."
+    per = " + ".join(f"{u:.0f}" for u in tol.per_plane_gmm)
+    return (
+        f"Permissible residual unbalance (ISO 21940-11): {tol.permissible_unbalance_gmm:.0f} g.mm "
+        f"(per plane {per} g.mm), {tol.permissible_eccentricity_um:.2f} um."
+    )
+
+
+class MachineScreen(StepScreen):
+    STEP = "2 Machine"
+    BINDINGS = [
+        Binding("f2", "start_job", "Start job"),
+        Binding("f3", "grades", "Grade table"),
+        Binding("f4", "back", "Back"),
+        Binding("ctrl+q", "app.quit", "Quit"),
+    ]
+
+    def compose_body(self) -> Iterable[Widget]:
+        with Horizontal(id="machine-body"):
+            with Vertical(id="machines-pane"):
+                yield Static("Saved / resume", classes="pane-title")
+                yield OptionList(id="machines")
+            with VerticalScroll(id="form"):
+                for key, label, placeholder in FIELDS:
+                    with Horizontal(classes="field"):
+                        yield Label(label, classes="field-label")
+                        yield Input(placeholder=placeholder, id=f"f_{key}", compact=True)
+        yield Static("", id="hint", markup=False)
+
+    def on_mount(self) -> None:
+        super().on_mount()
+        self._machines: dict[str, Any] = {}
+        self._editing_id: int | None = None
+        self._fill_list()
+        # a simulated machine: start from its description
+        port = self.session.port or ""
+        if self.session.machine is not None:
+            self._load(self.session.machine)
+        elif port.startswith("sim:"):
+            try:
+                from runtrue.sim.scenarios import get_scenario
+
+                m = machine_from_scenario(get_scenario(port[4:]))
+                saved = self.session.store.get_machine(m.name)
+                self._load(saved or m)
+            except Exception as exc:  # noqa: BLE001
+                self.notify(f"Could not describe the simulated machine: {exc}", severity="warning")
+        self.query_one("#f_name", Input).focus()
+        self._update_hint()
+
+    def _fill_list(self) -> None:
+        ol = self.query_one("#machines", OptionList)
+        ol.clear_options()
+        ol.add_option(Option("+ new machine", id=NEW))
+        store = self.session.store
+        for m in store.list_machines():
+            self._machines[f"m{m.id}"] = m
+            mark = " *" if m.influence is not None else ""
+            ol.add_option(Option(f"{m.name}{mark}"[:24], id=f"m{m.id}"))
+        unfinished = store.unfinished_jobs()
+        if unfinished:
+            ol.add_option(Option("-- resume a job --", disabled=True))
+            for j in unfinished[:8]:
+                ol.add_option(Option(f"job {j.id} {j.machine_name}"[:24], id=f"j{j.id}"))
+
+    def _values(self) -> dict[str, str]:
+        return {key: self.query_one(f"#f_{key}", Input).value for key, _, _ in FIELDS}
+
+    def _load(self, machine: Any) -> None:
+        self._editing_id = machine.id
+        for key, value in fields_from_machine(machine).items():
+            self.query_one(f"#f_{key}", Input).value = value
+
+    def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
+        event.stop()
+        oid = event.option.id or ""
+        if oid == NEW:
+            self._editing_id = None
+            for key, _, _ in FIELDS:
+                self.query_one(f"#f_{key}", Input).value = ""
+            self.query_one("#f_name", Input).focus()
+        elif oid.startswith("m"):
+            self._load(self._machines[oid])
+            self.query_one("#f_name", Input).focus()
+        elif oid.startswith("j"):
+            self._resume(int(oid[1:]))
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        self._update_hint()
+
+    def _update_hint(self) -> None:
+        values = self._values()
+        text = tolerance_text(values)
+        if self._editing_id is not None:
+            m = next((m for m in self._machines.values() if m.id == self._editing_id), None)
+            if m is not None and m.influence is not None:
+                text += f" Stored influence coefficients ({m.influence.speed_rpm:.0f} rpm): straight to the correction."
+        self.query_one("#hint", Static).update(text)
+
+    def action_grades(self) -> None:
+        from runtrue.tui.screens.grades import GradeTable
+
+        def chosen(grade: str | None) -> None:
+            if grade:
+                self.query_one("#f_grade", Input).value = grade
+
+        self.app.push_screen(GradeTable(), chosen)
+
+    def action_back(self) -> None:
+        self.rt_app.show_connect()
+
+    def action_start_job(self) -> None:
+        try:
+            machine = machine_from_fields(self._values(), self._editing_id)
+        except FormError as exc:
+            self.notify(str(exc), title="Check the machine", severity="error", timeout=6)
+            self.query_one(f"#f_{exc.field}", Input).focus()
+            return
+        store = self.session.store
+        try:
+            store.save_machine(machine)
+        except ValueError as exc:
+            self.notify(str(exc), title="Check the machine", severity="error", timeout=6)
+            self.query_one("#f_name", Input).focus()
+            return
+        if self.session.manual is False and self.session.device_info:
+            n_ch = bin(int(self.session.device_info.get("channel_mask", 1))).count("1")
+            if n_ch != machine.n_pickups:
+                self.notify(
+                    f"The meter measures {n_ch} channel(s) but {machine.n_pickups} pickup(s) are described: "
+                    "give one pickup label per channel.",
+                    title="Check the pickups",
+                    severity="error",
+                    timeout=8,
+                )
+                self.query_one("#f_pickups", Input).focus()
+                return
+        from runtrue.jobs import BalanceJob
+
+        self.session.machine = machine
+        self.session.job = BalanceJob.start(store, machine)
+        self.rt_app.show_runs()
+
+    def _resume(self, job_id: int) -> None:
+        from runtrue.jobs import BalanceJob
+
+        try:
+            job = BalanceJob.resume(self.session.store, job_id)
+        except ValueError as exc:
+            self.notify(str(exc), severity="error")
+            return
+        self.session.machine = job.machine
+        self.session.job = job
+        self.notify(f"Job {job_id} resumed with {len(job.runs)} run(s) kept.", title="Resumed")
+        self.rt_app.show_runs()
