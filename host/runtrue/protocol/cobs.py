@@ -15,26 +15,23 @@ def cobs_encode(data: bytes) -> bytes:
 
     The delimiter is not included.  Each block is a code byte ``n`` (1..255) followed by
     ``n - 1`` non-zero bytes; a code below 255 stands for a zero after its bytes, except at the
-    very end.
+    very end.  A final run of exactly 254 non-zero bytes ends with its 0xFF block (no empty
+    block after it), as in the paper.
     """
-    out = bytearray(b"\x00")
-    code_index = 0
-    code = 1
-    for byte in data:
-        if byte == 0:
-            out[code_index] = code
-            code_index = len(out)
-            out.append(0)
-            code = 1
-            continue
-        out.append(byte)
-        code += 1
-        if code == 0xFF:
-            out[code_index] = code
-            code_index = len(out)
-            out.append(0)
-            code = 1
-    out[code_index] = code
+    out = bytearray()
+    chunks = bytes(data).split(b"\x00")
+    last_index = len(chunks) - 1
+    for index, chunk in enumerate(chunks):
+        pos = 0
+        while len(chunk) - pos >= 254:
+            out.append(0xFF)
+            out += chunk[pos : pos + 254]
+            pos += 254
+        rest = chunk[pos:]
+        if index == last_index and chunk and not rest:
+            break
+        out.append(len(rest) + 1)
+        out += rest
     return bytes(out)
 
 

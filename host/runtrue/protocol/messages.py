@@ -69,10 +69,15 @@ FLAG_SPEED_JUMP = 1 << 2
 FLAG_CLIPPED = 1 << 3
 FLAG_DROPPED_SAMPLES = 1 << 4
 FLAG_FIRST = 1 << 5
+FLAG_NO_FIT = 1 << 6  # set by the firmware when the phasor fit failed (not yet in PROTOCOL.md)
 FLAG_CLIP_CH0 = 1 << 8
 FLAG_CLIP_CH1 = 1 << 9
 FLAG_CLIP_CH2 = 1 << 10
-UNUSABLE_FLAGS = 0x1F  # bits 0-4: do not average into a reading
+# Bits 0-4 mean "do not average" (PROTOCOL.md).  To stay safe with newer firmware every flag
+# is taken as disqualifying except the ones known to be harmless: FIRST, and the per-channel
+# clip bits (which never come without CLIPPED anyway).
+BENIGN_FLAGS = FLAG_FIRST | (0b111 << 8)
+UNUSABLE_FLAGS = 0xFFFF & ~BENIGN_FLAGS
 FLAG_NAMES = {
     FLAG_MISSING_PULSE: "missing pulse",
     FLAG_EXTRA_PULSE: "extra pulse",
@@ -80,6 +85,7 @@ FLAG_NAMES = {
     FLAG_CLIPPED: "clipped",
     FLAG_DROPPED_SAMPLES: "dropped samples",
     FLAG_FIRST: "first",
+    FLAG_NO_FIT: "no fit",
     FLAG_CLIP_CH0: "clip ch0",
     FLAG_CLIP_CH1: "clip ch1",
     FLAG_CLIP_CH2: "clip ch2",
@@ -138,7 +144,8 @@ class Revolution:
 
     @property
     def usable(self) -> bool:
-        """True unless a flag in bits 0-4 says this revolution must not be averaged."""
+        """True unless a flag (bits 0-4, or any flag not known to be harmless) says this
+        revolution must not be averaged."""
         return not self.flags & UNUSABLE_FLAGS and self.period_us > 0
 
     @property
