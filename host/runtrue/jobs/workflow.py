@@ -215,6 +215,7 @@ class BalanceJob:
         self._influence: list[list[complex]] | None = None
         self._influence_warnings: list[str] = []
         self._tolerance = self._make_tolerance()
+        self._replaying = False  # True while resume() rebuilds the state: nothing is written then
         self._enter_reference()
 
     # -- creating and resuming --------------------------------------------------------------------
@@ -248,6 +249,7 @@ class BalanceJob:
         if rec is None:
             raise ValueError(f"there is no job {job_id}; `runtrue jobs list` shows the jobs")
         job = cls(store, job_id, rec.machine, rec.options)
+        job._replaying = True
         runs = store.runs(job_id)
         events = store.events(job_id)
         ei = 0
@@ -257,9 +259,13 @@ class BalanceJob:
                 ei += 1
             if k < len(runs):
                 job._apply_run(runs[k])
+        job._replaying = False
         if rec.status != "open" and job.state.status == "open":
             job.state.status = rec.status
             job.state.step = "done"
+        elif rec.status == "open" and job.state.status != "open":
+            # Killed between the last run and closing the job: close it now.
+            job._finish(job.state.status, "")
         return job
 
     # -- what the user sees ----------------------------------------------------------------------
@@ -302,15 +308,18 @@ class BalanceJob:
                 "Stand clear of the plane of rotation when starting up; never exceed the rated speed.",
                 "Take the reading when it has settled.",
             ]
+            if self.options.get("use_stored_influence"):
+                out.append("Stored influence coefficients will be used: the next step is the correction.")
         elif s.step == "trial":
             t = s.trial
             assert t is not None and s.plane is not None
             out.append(f"Trial run for plane {s.plane}: stop the machine and lock it out.")
             for w in self._to_remove_before_trial():
                 out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+            pos = _position_number(m, s.plane, t.angle_deg)
+            where = f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
             out.append(
-                f"Fit a trial weight of {t.mass_g:.3g} g in plane {s.plane} at {t.angle_deg:.1f}° "
-                f"({t.label}), radius {t.radius_mm:g} mm."
+                f"Fit a trial weight of {t.mass_g:.3g} g in plane {s.plane} at {where}, radius {t.radius_mm:g} mm."
             )
             out.append(m.angle_direction_words())
             out.append(f"Secure it for {self._force_n(t):.0f} N at {speed}.")
@@ -540,8 +549,8 @@ class BalanceJob:
             s.trims_done += 1
         self._refit()
         residual, passed = self._grade(run)
-        res = self.result()
-        self.store.save_result(self.job_id, res.to_dict())
+        if not self._replaying:
+            self.store.save_result(self.job_id, self.result().to_dict())
         if passed:
             self._finish("passed", "")
             return
@@ -663,10 +672,11 @@ class BalanceJob:
         s.plan = None
         if reason:
             s.message = reason.capitalize() + "."
+        if reason and reason not in s.warnings:
+            s.warnings.append(reason)
+        if self._replaying:
+            return
         res = self.result()
-        if reason:
-            res.warnings.append(reason)
-        # Idempotent on resume: writing the same final status and result again changes nothing.
         self.store.finish_job(self.job_id, status, res.to_dict())
         if status == "passed" and self.machine.id is not None and self._influence is not None:
             saved = self.store.get_machine(self.machine.id)
@@ -675,6 +685,17 @@ class BalanceJob:
                     self.machine.id,
                     StoredInfluence(self._influence, self.runs[-1].reading.speed_rpm, now_iso(), self.job_id),
                 )
+
+
+def _position_number(machine: Machine, plane: int, angle_deg: float) -> int | None:
+    """The 1-based position number at ``angle_deg`` in ``plane`` (None in a groove or between)."""
+    angles = machine.planes[plane - 1].position_angles_deg()
+    if angles is None:
+        return None
+    for n, a in enumerate(angles, start=1):
+        if abs((a - angle_deg + 180.0) % 360.0 - 180.0) < 1e-6:
+            return n
+    return None
 
 
 def _plane_sums(weights: Any) -> dict[int, complex]:

@@ -1,0 +1,119 @@
+"""``runtrue demo``: the application on the built-in simulator, or a whole job headless.
+
+``runtrue demo [--scenario NAME] [--seed N]`` opens the terminal application on the simulator.
+``runtrue demo --auto --json [--scenario NAME] [--seed N]`` runs a whole balancing job with no
+interaction and prints ONE JSON object (a contract other tools rely on; keys are only added):
+``runs``, ``initial`` and ``final`` (1x amplitude per channel, g), ``grade``,
+``permissible_unbalance_gmm`` and ``residual_unbalance_gmm`` (per correction plane; the residual
+as the engine estimates it), ``true_residual_unbalance_gmm`` (per plane, what the simulator
+knows is left) and ``passed``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+from typing import Any
+
+DEFAULT_SCENARIO = "fan"
+
+
+def register(subparsers: Any) -> None:
+    p = subparsers.add_parser(
+        "demo",
+        help="the application on the built-in simulator (--auto: a whole job, headless)",
+        description="Balance a virtual machine. Without --auto the terminal application opens on the "
+        "simulator; with --auto a whole job (reference, trial, correction, trims) runs headless.",
+    )
+    p.add_argument("--scenario", default=DEFAULT_SCENARIO, metavar="NAME",
+                   help=f"simulator scenario (default {DEFAULT_SCENARIO}; `runtrue scenarios` lists them)")
+    p.add_argument("--seed", type=int, default=None, metavar="N", help="random seed: the same seed gives the same job")
+    p.add_argument("--auto", action="store_true", help="run a whole job with no interaction")
+    p.add_argument("--json", action="store_true", help="with --auto: print one JSON object")
+    p.add_argument("--revs", type=int, default=None, metavar="N",
+                   help="with --auto: revolutions averaged per reading (default 40)")
+    p.add_argument("--max-runs", type=int, default=None, metavar="N",
+                   help="with --auto: stop after this many runs (default 12)")
+    p.add_argument("--db", default=None, metavar="FILE",
+                   help="with --auto: record the job in this job database (default: kept in memory only)")
+    p.add_argument("--resume", type=int, default=None, metavar="JOB",
+                   help="with --auto and --db: carry on with an unfinished job of that database")
+
+
+def _check_args(args: argparse.Namespace) -> None:
+    from runtrue.cli import UsageError
+    from runtrue.transport import scenario_names
+
+    names = scenario_names()
+    if args.scenario not in names:
+        raise UsageError(f"unknown scenario {args.scenario!r}; choose one of: {', '.join(names) or 'none installed'}")
+    if not args.auto and (args.json or args.revs or args.max_runs or args.db or args.resume):
+        raise UsageError("--json, --revs, --max-runs, --db and --resume go with --auto")
+    if args.revs is not None and not 2 <= args.revs <= 10_000:
+        raise UsageError("--revs must be between 2 and 10000")
+    if args.max_runs is not None and args.max_runs < 2:
+        raise UsageError("--max-runs must be at least 2 (a reference and a correction)")
+    if args.resume is not None and args.db is None:
+        raise UsageError("--resume needs --db FILE (the database holding the job)")
+
+
+def run(args: argparse.Namespace) -> int:
+    _check_args(args)
+    if not args.auto:
+        from runtrue.tui import make_app  # the Textual application, only when asked for
+
+        make_app(port="sim:" + args.scenario, seed=args.seed).run()
+        return 0
+    return _run_auto(args)
+
+
+def _run_auto(args: argparse.Namespace) -> int:
+    from runtrue.cli import UsageError
+    from runtrue.jobs.headless import DEFAULT_REVS, MAX_RUNS, run_demo
+    from runtrue.jobs.store import JobStore
+
+    store = JobStore(args.db) if args.db else None
+    try:
+        if args.resume is not None:
+            assert store is not None
+            rec = store.get_job(args.resume)
+            if rec is None:
+                raise UsageError(f"there is no job {args.resume} in {args.db}")
+            if rec.status != "open":
+                raise UsageError(f"job {args.resume} is already finished ({rec.status}); nothing to resume")
+        on_run = None if args.json else _print_progress
+        outcome = run_demo(
+            args.scenario,
+            args.seed,
+            store=store,
+            resume_job_id=args.resume,
+            revs=args.revs or DEFAULT_REVS,
+            max_runs=args.max_runs or MAX_RUNS,
+            on_run=on_run,
+        )
+        data = outcome.to_json()
+    finally:
+        if store is not None:
+            store.close()
+    if args.json:
+        print(json.dumps(data))
+    else:
+        _print_summary(data)
+    return 0
+
+
+def _print_progress(job: Any) -> None:
+    run = job.runs[-1]
+    amps = ", ".join(f"{c.amp_g:.4f} g @ {c.phase_deg:.0f}°" for c in run.reading.channels)
+    print(f"run {run.seq} ({run.kind}): {amps}", flush=True)
+
+
+def _print_summary(d: dict[str, Any]) -> None:
+    print(f"scenario {d['scenario']}: {d['runs']} runs, grade {d['grade']} ({d['standard']})")
+    for i, (a, b) in enumerate(zip(d["initial"], d["final"]), start=1):
+        print(f"  pickup {i}: 1x {a:.4f} g -> {b:.4f} g")
+    for i, (r, t, p) in enumerate(
+        zip(d["residual_unbalance_gmm"] or [], d["true_residual_unbalance_gmm"], d["permissible_unbalance_gmm"]), start=1
+    ):
+        print(f"  plane {i}: residual {r:.1f} g.mm estimated, {t:.1f} g.mm true, {p:.1f} g.mm permissible")
+    print("PASSED" if d["passed"] else f"NOT PASSED {d['stopped_reason']}".rstrip())

@@ -1,0 +1,141 @@
+"""``runtrue jobs``: the recorded balancing jobs: list, show, report (HTML), export (CSV/JSON).
+
+    runtrue jobs list [--machine NAME] [--open]
+    runtrue jobs show JOB
+    runtrue jobs report JOB [-o FILE]          (default: runtrue-job-JOB.html here)
+    runtrue jobs export JOB [--format csv|json] [-o FILE]   (default: standard output)
+
+``--db FILE`` picks a job database other than the default (``$RUNTRUE_DATA_DIR`` or the user's
+data directory).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+from typing import Any
+
+
+def register(subparsers: Any) -> None:
+    p = subparsers.add_parser("jobs", help="recorded balancing jobs: list, show, report, export",
+                              description="The balancing jobs recorded in the job database.")
+    p.add_argument("--db", default=None, metavar="FILE", help="job database (default: the user's data directory)")
+    sub = p.add_subparsers(dest="jobs_command", metavar="ACTION")
+    ls = sub.add_parser("list", help="jobs, newest first")
+    ls.add_argument("--machine", default=None, metavar="NAME", help="only this machine's jobs")
+    ls.add_argument("--open", action="store_true", help="only unfinished jobs (to resume)")
+    sh = sub.add_parser("show", help="one job: machine, runs and result")
+    sh.add_argument("job", type=int, metavar="JOB")
+    rp = sub.add_parser("report", help="write the HTML report of a job")
+    rp.add_argument("job", type=int, metavar="JOB")
+    rp.add_argument("-o", "--output", default=None, metavar="FILE", help="where to write it (- for standard output)")
+    ex = sub.add_parser("export", help="export a job's runs as CSV or JSON")
+    ex.add_argument("job", type=int, metavar="JOB")
+    ex.add_argument("--format", choices=("csv", "json"), default="csv")
+    ex.add_argument("-o", "--output", default=None, metavar="FILE", help="where to write it (default standard output)")
+
+
+def _open_store(args: argparse.Namespace) -> Any:
+    from runtrue.cli import UsageError
+    from runtrue.jobs.store import JobStore
+
+    if args.db is not None and not Path(args.db).exists():
+        raise UsageError(f"no job database at {args.db}; check the path")
+    try:
+        return JobStore(args.db)
+    except Exception as exc:  # sqlite3.DatabaseError and OSError: say which file
+        raise UsageError(f"cannot open the job database {args.db or '(default)'}: {exc}") from None
+
+
+def _job_or_fail(store: Any, job_id: int) -> Any:
+    from runtrue.cli import UsageError
+
+    rec = store.get_job(job_id)
+    if rec is None:
+        raise UsageError(f"there is no job {job_id}; `runtrue jobs list` shows the jobs")
+    return rec
+
+
+def _write(text: str, output: str | None) -> None:
+    from runtrue.cli import UsageError
+
+    if output is None or output == "-":
+        sys.stdout.write(text)
+        return
+    try:
+        Path(output).write_text(text, encoding="utf-8")
+    except OSError as exc:
+        raise UsageError(f"cannot write {output}: {exc.strerror}") from None
+    print(output)
+
+
+def run(args: argparse.Namespace) -> int:
+    from runtrue.cli import UsageError
+
+    if args.jobs_command is None:
+        raise UsageError("say what to do: list, show JOB, report JOB or export JOB")
+    store = _open_store(args)
+    try:
+        if args.jobs_command == "list":
+            return _list(store, args)
+        rec = _job_or_fail(store, args.job)
+        if args.jobs_command == "show":
+            return _show(store, rec)
+        if args.jobs_command == "report":
+            from runtrue.jobs.report import render_html
+
+            out = args.output or f"runtrue-job-{rec.id}.html"
+            _write(render_html(store, rec.id), out)
+            return 0
+        if args.jobs_command == "export":
+            from runtrue.jobs.export import job_json, runs_csv
+
+            text = runs_csv(store, rec.id) if args.format == "csv" else json.dumps(job_json(store, rec.id), indent=1) + "\n"
+            _write(text, args.output)
+            return 0
+    finally:
+        store.close()
+    return 0
+
+
+def _list(store: Any, args: argparse.Namespace) -> int:
+    from runtrue.cli import UsageError
+
+    machine_id = None
+    if args.machine is not None:
+        m = store.get_machine(args.machine)
+        if m is None:
+            names = ", ".join(x.name for x in store.list_machines()) or "none saved"
+            raise UsageError(f"no machine named {args.machine!r} (saved: {names})")
+        machine_id = m.id
+    jobs = store.list_jobs(machine_id=machine_id, status="open" if args.open else None)
+    if not jobs:
+        print("no jobs recorded" if not args.open else "no unfinished jobs")
+        return 0
+    print(f"{'job':>5}  {'started':20}  {'status':8}  {'runs':>4}  machine")
+    for j in jobs:
+        print(f"{j.id:>5}  {j.started_at:20}  {j.status:8}  {j.n_runs:>4}  {j.machine_name}")
+    return 0
+
+
+def _show(store: Any, rec: Any) -> int:
+    from runtrue.jobs.export import weights_text
+
+    m = rec.machine
+    print(f"job {rec.id}: {m.name}, {rec.status}, started {rec.started_at}"
+          + (f", finished {rec.finished_at}" if rec.finished_at else ""))
+    print(f"machine: {m.rotor_mass_kg:g} kg, {m.speed_rpm:g} rpm, {m.rotation} seen from the drive end, grade {m.grade}")
+    for i, p in enumerate(m.planes, start=1):
+        print(f"  plane {i}: {p.describe()}")
+    print("runs (1x g @ phase lag after the mark; weights from the mark against rotation):")
+    for run in store.runs(rec.id):
+        amps = "  ".join(f"{c.amp_g:.4g} g @ {c.phase_deg:.0f}°" for c in run.reading.channels)
+        ws = weights_text(run.weights) or "no weights"
+        print(f"  {run.seq:>2} {run.kind:10} {run.reading.speed_rpm:7.0f} rpm  {amps}  [{ws}]")
+    res = rec.result
+    if res:
+        print(f"result: passed={res.get('passed')}, residual {res.get('residual_unbalance_gmm')} g.mm, "
+              f"permissible {res.get('permissible_unbalance_gmm')} g.mm ({res.get('standard', '')} {res.get('grade', '')})")
+    return 0

@@ -1,0 +1,149 @@
+"""A whole balancing job on the simulator with nobody at the keyboard (``runtrue demo --auto``).
+
+The same :class:`~runtrue.jobs.workflow.BalanceJob` the application uses, fed by the same
+``MeterClient`` over ``SimTransport``: reference run, trial run(s), correction, trim runs until
+the grade is met.  Every weight the workflow asks for is fitted to the virtual rotor by its
+physical geometry (``machine.add_weight`` at the placement's angle, from the mark against
+rotation, and radius), never by the convention under test; so a wrong angle convention anywhere
+shows up as vibration that does not drop.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from runtrue.jobs.model import Weight
+from runtrue.jobs.store import JobStore
+from runtrue.jobs.workflow import BalanceJob
+
+DEFAULT_REVS = 40  # revolutions averaged per reading (enough for steadiness on every scenario)
+SETTLE_REVS = 4  # revolutions skipped after the weights change
+MAX_RUNS = 12  # the demo stops (not passed) after this many runs
+
+
+@dataclass
+class DemoOutcome:
+    """What ``runtrue demo --auto --json`` prints (``to_json``) plus the job for a caller."""
+
+    scenario: str
+    seed: int | None
+    job: BalanceJob
+    true_residual_gmm: list[float]
+    wall_s: float
+    max_runs: int
+    stopped_reason: str = ""
+    log: list[str] = field(default_factory=list)
+
+    def to_json(self) -> dict[str, Any]:
+        res = self.job.result()
+        last = self.job.runs[-1] if self.job.runs else None
+        final = [abs(c.mean) for c in last.reading.channels] if last else []
+        return {
+            "scenario": self.scenario,
+            "seed": self.seed,
+            "job_id": self.job.job_id,
+            "runs": len(self.job.runs),
+            "run_kinds": [r.kind for r in self.job.runs],
+            "initial": [c.before_amp_g for c in res.channels],
+            "final": final,
+            "unit": "g",
+            "grade": res.grade,
+            "standard": res.standard,
+            "permissible_unbalance_gmm": res.permissible_unbalance_gmm,
+            "residual_unbalance_gmm": res.residual_unbalance_gmm,
+            "true_residual_unbalance_gmm": self.true_residual_gmm,
+            "passed": bool(res.passed),
+            "status": res.status,
+            "max_runs": self.max_runs,
+            "stopped_reason": self.stopped_reason,
+            "weights_fitted": [w.to_dict() for w in res.weights_on],
+            "wall_s": round(self.wall_s, 3),
+        }
+
+
+class VirtualRotorFitter:
+    """Keeps the virtual rotor's weights equal to a list of :class:`Weight` (planes from 1)."""
+
+    def __init__(self, machine: Any) -> None:
+        self.machine = machine
+        self.fitted: list[tuple[Weight, int]] = []
+
+    def fit(self, wanted: list[Weight]) -> None:
+        remaining = list(wanted)
+        keep: list[tuple[Weight, int]] = []
+        for w, wid in self.fitted:
+            if w in remaining:
+                remaining.remove(w)
+                keep.append((w, wid))
+            else:
+                self.machine.remove_weight(wid)
+        for w in remaining:
+            wid = self.machine.add_weight(w.plane - 1, w.mass_g, w.angle_deg, w.radius_mm)
+            keep.append((w, wid))
+        self.fitted = keep
+
+
+def take_reading(client: Any, revs: int) -> Any:
+    """Skip the revolutions in flight, then vector-average ``revs`` usable ones."""
+    from runtrue.readings import vector_average
+
+    client.discard_revolutions()
+    client.revolutions(SETTLE_REVS)
+    return vector_average(client.revolutions(revs, usable_only=True))
+
+
+def run_demo(
+    scenario: str,
+    seed: int | None = None,
+    *,
+    store: JobStore | None = None,
+    resume_job_id: int | None = None,
+    revs: int = DEFAULT_REVS,
+    max_runs: int = MAX_RUNS,
+    on_run: Callable[[BalanceJob], None] | None = None,
+) -> DemoOutcome:
+    """Run (or resume) a whole job on simulator ``scenario``; returns the outcome.
+
+    ``store`` defaults to an in-memory store (a demo does not fill the user's machine history).
+    With ``resume_job_id`` the job is rebuilt from ``store`` and the weights of its last run are
+    put back on a fresh virtual rotor (as they would still be on a real one).
+    """
+    from runtrue.device import open_meter
+    from runtrue.jobs.demo_machine import machine_for_scenario
+
+    t0 = time.perf_counter()
+    own_store = store is None
+    store = store if store is not None else JobStore(":memory:")
+    if resume_job_id is not None:
+        job = BalanceJob.resume(store, resume_job_id)
+    else:
+        machine = machine_for_scenario(scenario)
+        job = BalanceJob.start(store, machine)
+    client = open_meter("sim:" + scenario, seed=seed)
+    stopped = ""
+    try:
+        client.identify()
+        n_pickups = job.machine.n_pickups
+        client.set_channels((1 << n_pickups) - 1)
+        fitter = VirtualRotorFitter(client.transport.machine)
+        if job.runs:
+            fitter.fit(list(job.runs[-1].weights))
+        client.start()
+        while job.step != "done":
+            if len(job.runs) >= max_runs:
+                stopped = f"run limit reached: the demo stops after {max_runs} runs"
+                job.stop(stopped)
+                break
+            fitter.fit(job.planned_weights())
+            job.record_run(take_reading(client, revs))
+            if on_run is not None:
+                on_run(job)
+        true_res = [float(x) for x in client.transport.machine.true_residual_unbalance_gmm()]
+    finally:
+        client.close()
+    out = DemoOutcome(scenario, seed, job, true_res, time.perf_counter() - t0, max_runs, stopped)
+    if own_store:
+        pass  # the in-memory store lives as long as the job object refers to it
+    return out

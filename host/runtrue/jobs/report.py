@@ -1,0 +1,258 @@
+"""The balancing report: one self-contained HTML page a customer or auditor can read and print.
+
+Contents: machine, dates, the conventions used, before/after 1x per pickup, a polar diagram of
+every run (inline SVG), the weights fitted with the centrifugal force each must withstand, the
+grade check against ISO 21940-11 (balance quality grade -> permissible residual unbalance), the
+run log, warnings and the safety cautions.  No scripts, no external files: it prints as it shows.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+from typing import Any
+
+from runtrue import __version__
+from runtrue.jobs.model import ANGLE_CONVENTION, RunRecord
+from runtrue.jobs.store import JobStore, now_iso
+from runtrue.jobs.workflow import CAUTIONS, STANDARD, BalanceJob, JobResult
+
+_CSS = """
+body { font-family: system-ui, -apple-system, "Segoe UI", sans-serif; color: #1b1b1b; margin: 2em auto;
+       max-width: 52em; line-height: 1.4; padding: 0 1em; }
+h1 { font-size: 1.5em; margin-bottom: 0.2em; } h2 { font-size: 1.15em; border-bottom: 1px solid #999;
+     margin-top: 1.6em; }
+table { border-collapse: collapse; margin: 0.5em 0; } th, td { border: 1px solid #bbb; padding: 0.2em 0.5em;
+     text-align: right; } th { background: #eee; } td.l, th.l { text-align: left; }
+.verdict { display: inline-block; padding: 0.2em 0.8em; font-weight: bold; border: 2px solid; }
+.pass { color: #0a5a1e; border-color: #0a5a1e; } .fail { color: #9b1111; border-color: #9b1111; }
+.open { color: #5a4a00; border-color: #5a4a00; }
+.note { font-size: 0.9em; color: #444; } ul.cautions li { margin-bottom: 0.2em; }
+figure { margin: 0.5em 0; } figcaption { font-size: 0.9em; color: #444; }
+@media print { body { margin: 0; max-width: none; } h2 { break-after: avoid; } table, figure { break-inside: avoid; } }
+"""
+
+_RUN_COLOURS = {"reference": "#b23a3a", "trial": "#8a6d00", "correction": "#1f5fa8", "trim": "#1f7a4a"}
+
+
+def _e(x: Any) -> str:
+    return html.escape(str(x), quote=True)
+
+
+def _amp_phase(z: complex) -> tuple[float, float]:
+    return abs(z), math.degrees(math.atan2(z.imag, z.real)) % 360.0
+
+
+def _nice_ceiling(x: float) -> float:
+    if x <= 0 or not math.isfinite(x):
+        return 1.0
+    exp = math.floor(math.log10(x))
+    for m in (1.0, 2.0, 2.5, 5.0, 10.0):
+        if m * 10**exp >= x:
+            return m * 10**exp
+    return 10.0 ** (exp + 1)
+
+
+def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300) -> str:
+    """An inline SVG polar diagram of one pickup's 1x vector in every run.
+
+    0° (the reference mark) at the top; phase lag increases clockwise on the page; the radius
+    is the 1x amplitude in g.  Reference and last run are drawn as arrows, the others as dots,
+    each labelled with its run number.
+    """
+    c = size_px / 2.0
+    r_px = c - 34.0
+    vals = [r.reading.channels[pickup].mean for r in runs]
+    full = _nice_ceiling(max((abs(v) for v in vals), default=0.0) * 1.05)
+    parts = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="{size_px}" height="{size_px}" '
+        f'viewBox="0 0 {size_px} {size_px}" role="img" aria-label="polar diagram, pickup {pickup + 1}">',
+        f"<title>{_e(label)}: 1x vector of every run</title>",
+    ]
+    for k in range(1, 5):
+        rr = r_px * k / 4
+        parts.append(f'<circle cx="{c:.1f}" cy="{c:.1f}" r="{rr:.1f}" fill="none" stroke="#ccc"/>')
+        parts.append(
+            f'<text x="{c + 3:.1f}" y="{c - rr + 11:.1f}" font-size="9" fill="#666">{full * k / 4:.3g} g</text>'
+        )
+    for deg in range(0, 360, 30):
+        a = math.radians(deg)
+        x, y = c + r_px * math.sin(a), c - r_px * math.cos(a)
+        parts.append(f'<line x1="{c:.1f}" y1="{c:.1f}" x2="{x:.1f}" y2="{y:.1f}" stroke="#e2e2e2"/>')
+        tx, ty = c + (r_px + 14) * math.sin(a), c - (r_px + 14) * math.cos(a) + 3
+        parts.append(f'<text x="{tx:.1f}" y="{ty:.1f}" font-size="10" text-anchor="middle" fill="#444">{deg}°</text>')
+    parts.append(
+        '<defs><marker id="ah" viewBox="0 0 10 10" refX="9" refY="5" markerWidth="7" markerHeight="7" '
+        'orient="auto-start-reverse"><path d="M0,0 L10,5 L0,10 z" fill="context-stroke"/></marker></defs>'
+    )
+    for i, (run, v) in enumerate(zip(runs, vals)):
+        amp, ph = _amp_phase(v)
+        rr = r_px * amp / full
+        a = math.radians(ph)
+        x, y = c + rr * math.sin(a), c - rr * math.cos(a)
+        colour = _RUN_COLOURS.get(run.kind, "#333")
+        if i == 0 or i == len(runs) - 1:
+            parts.append(
+                f'<line x1="{c:.1f}" y1="{c:.1f}" x2="{x:.1f}" y2="{y:.1f}" stroke="{colour}" '
+                f'stroke-width="2" marker-end="url(#ah)"><title>run {run.seq} ({run.kind}): '
+                f"{amp:.4g} g at {ph:.0f}°</title></line>"
+            )
+        else:
+            parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3.5" fill="{colour}"/>')
+        parts.append(f'<text x="{x + 5:.1f}" y="{y - 4:.1f}" font-size="10" fill="{colour}">{run.seq}</text>')
+    parts.append("</svg>")
+    return "".join(parts)
+
+
+def _verdict(result: JobResult) -> tuple[str, str]:
+    if result.passed is True:
+        return "pass", f"PASSED: residual unbalance within {result.grade} ({STANDARD})"
+    if result.passed is False:
+        return "fail", f"NOT PASSED: residual unbalance above {result.grade} ({STANDARD})"
+    return "open", "NOT CHECKED: no correction run yet"
+
+
+def render_html(store: JobStore, job_id: int) -> str:
+    """The report of job ``job_id`` as a complete HTML document (UTF-8 text)."""
+    from runtrue.balancing import centrifugal_force_n
+
+    rec = store.get_job(job_id)
+    if rec is None:
+        raise ValueError(f"there is no job {job_id}; `runtrue jobs list` shows the jobs")
+    job = BalanceJob.resume(store, job_id)
+    res = job.result()
+    m = job.machine
+    runs = job.runs
+    cls, verdict = _verdict(res)
+    out: list[str] = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        f"<title>Balancing report: {_e(m.name)} (job {job_id})</title>",
+        f"<style>{_CSS}</style></head><body>",
+        f"<h1>Balancing report: {_e(m.name)}</h1>",
+        f'<p>Job {job_id}; started {_e(rec.started_at)}; finished {_e(rec.finished_at or "not finished")}; '
+        f"report written {_e(now_iso())}.</p>",
+        f'<p class="verdict {cls}" id="verdict">{_e(verdict)}</p>',
+    ]
+    # Machine
+    out += [
+        '<h2 id="machine">Machine</h2><table>',
+        f'<tr><th class="l">Name</th><td class="l">{_e(m.name)}</td></tr>',
+        f'<tr><th class="l">Rotor mass</th><td class="l">{m.rotor_mass_kg:g} kg</td></tr>',
+        f'<tr><th class="l">Running speed</th><td class="l">{m.speed_rpm:g} rpm</td></tr>',
+        f'<tr><th class="l">Rotation</th><td class="l">{"clockwise" if m.rotation == "cw" else "counter-clockwise"}'
+        " seen from the drive end</td></tr>",
+        f'<tr><th class="l">Balance quality grade</th><td class="l">{_e(m.grade)} ({STANDARD})</td></tr>',
+    ]
+    for i, p in enumerate(m.planes, start=1):
+        out.append(f'<tr><th class="l">Correction plane {i}</th><td class="l">{_e(p.describe())}</td></tr>')
+    for i, pk in enumerate(m.pickups, start=1):
+        out.append(f'<tr><th class="l">Pickup {i}</th><td class="l">{_e(pk.label)}</td></tr>')
+    out.append("</table>")
+    if m.notes:
+        out.append(f'<p class="note">{_e(m.notes)}</p>')
+    # Conventions
+    out += [
+        '<h2 id="conventions">Conventions</h2><ul>',
+        "<li>Vibration: 1x (once per revolution) component, peak acceleration in g.</li>",
+        "<li>Phase: lag in degrees of rotation after the reference mark, 0-360.</li>",
+        "<li>Weight angles: degrees from the reference mark, measured against the direction of rotation.</li>",
+        f"<li>{_e(m.angle_direction_words())}</li>",
+        "<li>Unbalance: mass x radius, g·mm.  Planes and pickups are numbered from 1.</li>",
+        "</ul>",
+    ]
+    # Before / after
+    out += [
+        '<h2 id="before-after">Before and after</h2><table>',
+        '<tr><th class="l">Pickup</th><th>Before (g)</th><th>Phase</th><th>After (g)</th><th>Phase</th>'
+        "<th>Reduction</th></tr>",
+    ]
+    for i, ch in enumerate(res.channels, start=1):
+        ba, bp = _amp_phase(ch.before)
+        if ch.after is not None:
+            aa, ap = _amp_phase(ch.after)
+            red = f"{100.0 * (1 - aa / ba):.0f} %" if ba > 0 else "-"
+            after = f"<td>{aa:.4g}</td><td>{ap:.0f}°</td><td>{red}</td>"
+        else:
+            after = "<td>-</td><td>-</td><td>-</td>"
+        out.append(f'<tr><td class="l">{i}: {_e(ch.label)}</td><td>{ba:.4g}</td><td>{bp:.0f}°</td>{after}</tr>')
+    out.append("</table>")
+    # Polar diagrams
+    if runs:
+        out.append('<h2 id="polar">Polar diagram</h2>')
+        for i, pk in enumerate(m.pickups):
+            out.append(
+                f"<figure>{polar_svg(runs, i, pk.label)}<figcaption>Pickup {i + 1} ({_e(pk.label)}): 1x vector "
+                "of every run, numbered in order; reference mark (0°) at the top, phase lag increasing "
+                "clockwise on the page; arrows from the centre show the first and the last run.</figcaption></figure>"
+            )
+    # Grade check
+    out += ['<h2 id="grade">Grade check</h2>']
+    out.append(
+        f"<p>Standard: {STANDARD}, balance quality grade {_e(m.grade)}, rotor mass {m.rotor_mass_kg:g} kg at "
+        f"{m.speed_rpm:g} rpm: permissible residual unbalance {res.permissible_total_gmm:.4g} g·mm in total.</p>"
+    )
+    if res.tolerance_rule:
+        out.append(f'<p class="note">{_e(res.tolerance_rule)}</p>')
+    out.append('<table><tr><th class="l">Plane</th><th>Residual (g·mm), estimated</th>'
+               "<th>Permissible (g·mm)</th><th>Ratio</th><th>Result</th></tr>")
+    residual = res.residual_unbalance_gmm or []
+    for i, perm in enumerate(res.permissible_unbalance_gmm, start=1):
+        if i <= len(residual):
+            r = residual[i - 1]
+            ok = r <= perm
+            out.append(f'<tr><td class="l">{i}</td><td>{r:.4g}</td><td>{perm:.4g}</td><td>{r / perm:.2f}</td>'
+                       f'<td>{"pass" if ok else "fail"}</td></tr>')
+        else:
+            out.append(f'<tr><td class="l">{i}</td><td>-</td><td>{perm:.4g}</td><td>-</td><td>-</td></tr>')
+    out.append("</table>")
+    out.append(
+        '<p class="note">The residual unbalance is estimated from the last reading and the influence '
+        "coefficients fitted to every run of this job (least squares).</p>"
+    )
+    # Weights fitted
+    out += ['<h2 id="weights">Weights fitted</h2>']
+    if res.weights_on:
+        out.append('<table><tr><th class="l">Plane</th><th class="l">What</th><th>Mass (g)</th>'
+                   "<th>Angle</th><th>Radius (mm)</th><th>Force at speed (N)</th></tr>")
+        for w in res.weights_on:
+            f_n = centrifugal_force_n(w.mass_g, w.radius_mm, m.speed_rpm)
+            out.append(
+                f'<tr><td class="l">{w.plane}</td><td class="l">{_e(w.label)}</td><td>{w.mass_g:.4g}</td>'
+                f"<td>{w.angle_deg:.1f}°</td><td>{w.radius_mm:g}</td><td>{f_n:.0f}</td></tr>"
+            )
+        out.append("</table>")
+        out.append('<p class="note">Force: centrifugal force F = m·r·ω² at the running speed; every weight must '
+                   "be secured to hold it with margin.</p>")
+    else:
+        out.append("<p>No weights are on the rotor.</p>")
+    # Run log
+    out += ['<h2 id="runs">Runs</h2><table><tr><th>Run</th><th class="l">Kind</th><th class="l">Taken</th>'
+            "<th>Speed (rpm)</th>"]
+    for i in range(m.n_pickups):
+        out.append(f"<th>Pickup {i + 1} (g @ lag)</th>")
+    out.append('<th class="l">Weights on (relative to the reference run)</th></tr>')
+    from runtrue.jobs.export import weights_text
+
+    for run in runs:
+        cells = "".join(
+            f"<td>{ch.amp_g:.4g} @ {ch.phase_deg:.0f}° ± {ch.confidence_g:.2g}</td>" for ch in run.reading.channels
+        )
+        out.append(
+            f'<tr><td>{run.seq}</td><td class="l">{_e(run.kind)}</td><td class="l">{_e(run.taken_at)}</td>'
+            f'<td>{run.reading.speed_rpm:.0f}</td>{cells}<td class="l">{_e(weights_text(run.weights)) or "none"}</td></tr>'
+        )
+    out.append("</table>")
+    out.append('<p class="note">± is the 95 % confidence radius of each reading.</p>')
+    # Warnings
+    if res.warnings:
+        out.append('<h2 id="warnings">Warnings</h2><ul>')
+        out += [f"<li>{_e(w)}</li>" for w in res.warnings]
+        out.append("</ul>")
+    # Cautions
+    out.append('<h2 id="cautions">Safety</h2><ul class="cautions">')
+    out += [f"<li>{_e(c)}</li>" for c in CAUTIONS]
+    out.append("</ul>")
+    out.append(f'<p class="note">{_e(ANGLE_CONVENTION)} Written by runtrue {_e(__version__)}.</p>')
+    out.append("</body></html>")
+    return "\n".join(out)
