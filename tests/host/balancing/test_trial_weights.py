@@ -1,0 +1,62 @@
+"""Trial weight sizing (common practice rule) and the trial-effect check."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from runtrue.balancing import (
+    TRIAL_MIN_RATIO,
+    BalancingError,
+    centrifugal_force_n,
+    check_trial_effect,
+    phasor,
+    suggest_trial_weight,
+)
+
+
+def test_trial_force_is_ten_percent_of_rotor_weight() -> None:
+    s = suggest_trial_weight(rotor_mass_kg=50, speed_rpm=1500, radius_mm=200)
+    # By hand: F = 0.1 * 50 * 9.80665 = 49.03 N; w = 157.08 rad/s; m = F / (r w^2).
+    w = 2 * math.pi * 1500 / 60
+    assert s.force_n == pytest.approx(0.1 * 50 * 9.80665)
+    assert s.mass_g == pytest.approx(49.03325 / (0.2 * w * w) * 1000, rel=1e-9)
+    assert s.mass_g == pytest.approx(9.94, abs=0.01)
+    assert "common practice" in s.rule
+    assert centrifugal_force_n(s.mass_g, 200, 1500) == pytest.approx(s.force_n)
+
+
+def test_two_planes_share_the_trial_force() -> None:
+    one = suggest_trial_weight(80, 3000, 100)
+    two = suggest_trial_weight(80, 3000, 100, n_planes=2)
+    assert two.mass_g == pytest.approx(one.mass_g / 2)
+    assert "per plane" in two.rule
+
+
+@pytest.mark.parametrize("bad", [0, -5, math.nan, "heavy"])
+def test_nonsense_rotor_mass_is_refused(bad) -> None:
+    with pytest.raises(BalancingError, match="rotor mass"):
+        suggest_trial_weight(bad, 1500, 100)
+
+
+def test_trial_well_above_scatter_is_ok() -> None:
+    v = check_trial_effect(phasor(8, 40), phasor(5, 100), spread=0.1)
+    assert v.ok and v.suggested_scale == 1.0
+    assert v.ratio == pytest.approx(abs(phasor(5, 100) - phasor(8, 40)) / math.hypot(0.1, 0.1))
+
+
+def test_trial_lost_in_scatter_says_how_much_larger() -> None:
+    ref, tri = phasor(8, 40), phasor(8.3, 41)
+    v = check_trial_effect(ref, tri, spread=0.2, trial_spread=0.2)
+    ratio = abs(tri - ref) / math.hypot(0.2, 0.2)
+    assert not v.ok
+    assert v.ratio == pytest.approx(ratio)
+    assert v.suggested_scale == pytest.approx(TRIAL_MIN_RATIO / ratio)
+    assert "times larger" in v.message
+
+
+def test_trial_with_no_effect_at_all() -> None:
+    v = check_trial_effect(3 + 1j, 3 + 1j, spread=0.1)
+    assert not v.ok and math.isinf(v.suggested_scale)
+    assert "fitted" in v.message
