@@ -1,10 +1,133 @@
-"""The weight allocator's exact search (filled in below; API fixed)."""
+"""The weight allocator: a correction vector turned into pieces that can be fitted.
+
+Objective (issue 4), compared lexicographically, residuals rounded to 1e-9·|correction|:
+
+1. the residual ``|correction − change|`` in g·mm, where any residual at or below the
+   good-enough value ``g`` counts as ``g`` (``g = 0`` when none is given: smallest residual);
+2. (with ``prefer_fewer_positions``: the fewest positions receiving weight;)
+3. the fewest pieces on the rotor afterwards (new pieces and strip pieces, plus old weights
+   that stay or are moved);
+4. the least mass on the rotor afterwards (with no old weights: the least added mass);
+5. the smaller actual residual; then the fewest positions.
+
+Fixed positions are solved by the exact branch and bound of :mod:`runtrue.allocation.search`
+(its docstring gives the argument for optimality and the bound stated when the node budget runs
+out); a continuous groove by the closed forms of :mod:`runtrue.allocation.groove`.
+
+Old weights (``existing``): the correction is what must be *added* to the rotor as it is now,
+so an old weight's effect is already in it.  Removing one adds −(its unbalance) to the change;
+moving one removes it and refits it as a piece of its own mass.  Removal choices are tried
+exhaustively (each removable-only weight: stay or go); movable weights become pieces of the
+search (a movable weight that may not be removed must be refitted somewhere).
+"""
 
 from __future__ import annotations
 
+import itertools
+import math
 from typing import Sequence
 
-from runtrue.allocation.model import Allocation, ExistingWeight, Positions, Stock, Strip
+import numpy as np
+
+from runtrue.allocation.model import (
+    Allocation,
+    AllocationError,
+    ExistingWeight,
+    Placement,
+    Positions,
+    Stock,
+    Strip,
+    angle_of_deg,
+    weight_gmm,
+)
+from runtrue.allocation.search import SearchProblem, SearchResult, search
+
+UNLIMITED = 10**6
+MAX_REMOVABLE_OLD_WEIGHTS = 8
+MAX_STRIP_LENGTHS = 2000
+#: a best fit leaving more than this fraction of the correction gets a plain warning (our choice)
+POOR_FIT_FRACTION = 0.25
+
+
+def correction_vector(
+    correction: complex | tuple[float, float, float] | Sequence[float],
+    correction_radius_mm: float | None,
+    default_radius_mm: float,
+) -> tuple[complex, float]:
+    """(unbalance g·mm, radius mm) from a complex g·mm or a (mass_g, angle_deg, radius_mm) triple."""
+    if isinstance(correction, (complex, int, float)) and not isinstance(correction, bool):
+        r = correction_radius_mm if correction_radius_mm is not None else default_radius_mm
+        if not r > 0:
+            raise AllocationError(f"correction radius {r} mm is not positive")
+        return complex(correction), float(r)
+    try:
+        mass_g, angle_deg, radius_mm = (float(x) for x in correction)  # type: ignore[union-attr]
+    except (TypeError, ValueError):
+        raise AllocationError("the correction must be a complex g·mm or (mass_g, angle_deg, radius_mm)") from None
+    if mass_g < 0:
+        raise AllocationError(f"correction mass {mass_g:g} g is negative; give the angle of the weight instead")
+    if not radius_mm > 0:
+        raise AllocationError(f"correction radius {radius_mm:g} mm is not positive")
+    if not all(math.isfinite(x) for x in (mass_g, angle_deg, radius_mm)):
+        raise AllocationError("the correction has a value that is not a finite number")
+    return weight_gmm(mass_g, angle_deg, radius_mm), radius_mm
+
+
+def _strip_ladder(strip: Strip, target_gmm: float, r_min: float, mass_limit: float) -> list[float]:
+    for name, v in (("grams_per_mm", strip.grams_per_mm), ("min_mm", strip.min_mm), ("step_mm", strip.step_mm)):
+        if not (math.isfinite(v) and v > 0):
+            raise AllocationError(f"strip {name} = {v:g} must be a positive number")
+    if strip.max_mm is not None:
+        max_mm = float(strip.max_mm)
+        if max_mm < strip.min_mm:
+            raise AllocationError(f"strip max_mm {max_mm:g} is shorter than min_mm {strip.min_mm:g}")
+    else:
+        # no longest piece given: a piece that alone carries twice the correction is the limit
+        max_mm = max(strip.min_mm, 2.0 * target_gmm / (strip.grams_per_mm * r_min) + strip.step_mm)
+    if math.isfinite(mass_limit):
+        max_mm = min(max_mm, mass_limit / strip.grams_per_mm)
+    n = int(math.floor((max_mm - strip.min_mm) / strip.step_mm + 1e-9)) + 1
+    if n > MAX_STRIP_LENGTHS:
+        raise AllocationError(
+            f"the strip allows {n} different lengths; give a coarser step_mm or a max_mm "
+            f"(at most {MAX_STRIP_LENGTHS} lengths)"
+        )
+    return [strip.min_mm + i * strip.step_mm for i in range(max(0, n))]
+
+
+def _validate_common(
+    stock: Stock | None,
+    strip: Strip | None,
+    max_pieces_per_position: int | None,
+    max_mass_per_position_g: float | None,
+    good_enough_gmm: float | None,
+    existing: Sequence[ExistingWeight],
+) -> None:
+    if stock is None and strip is None and not any(w.may_move for w in existing):
+        raise AllocationError("no stock and no strip given: list the pieces you have (mass and count) or a strip")
+    if stock is not None and strip is not None:
+        raise AllocationError("give either a stock of pieces or a strip, not both")
+    if stock is not None:
+        for it in stock.items:
+            if not (math.isfinite(it.mass_g) and it.mass_g > 0):
+                raise AllocationError(f"stock piece mass {it.mass_g:g} g must be a positive number")
+            if it.count is not None and it.count < 0:
+                raise AllocationError(f"stock count {it.count} for {it.mass_g:g} g pieces is negative")
+        if not any(it.count is None or it.count > 0 for it in stock.items) and not any(w.may_move for w in existing):
+            raise AllocationError("the stock is empty: give at least one piece with a count above zero")
+    if max_pieces_per_position is not None and max_pieces_per_position < 1:
+        raise AllocationError("max_pieces_per_position must be at least 1")
+    if max_mass_per_position_g is not None and not max_mass_per_position_g > 0:
+        raise AllocationError("max_mass_per_position_g must be positive")
+    if good_enough_gmm is not None and not (math.isfinite(good_enough_gmm) and good_enough_gmm >= 0):
+        raise AllocationError("good_enough_gmm must be zero or a positive number")
+    for i, w in enumerate(existing):
+        if not (math.isfinite(w.mass_g) and w.mass_g >= 0):
+            raise AllocationError(f"old weight #{i + 1}: mass {w.mass_g:g} g must be zero or positive")
+        if not w.radius_mm > 0:
+            raise AllocationError(f"old weight #{i + 1}: radius {w.radius_mm:g} mm must be positive")
+        if w.may_move and w.position_index is None:
+            raise AllocationError(f"old weight #{i + 1}: give its position_index so it can be moved")
 
 
 def allocate(
@@ -21,7 +144,213 @@ def allocate(
     existing: Sequence[ExistingWeight] = (),
     max_nodes: int = 200_000,
 ) -> Allocation:
-    raise NotImplementedError
+    """Turn a correction into placements; see the module docstring for the objective."""
+    existing = tuple(existing)
+    _validate_common(stock, strip, max_pieces_per_position, max_mass_per_position_g, good_enough_gmm, existing)
+    if positions.continuous:
+        from runtrue.allocation.groove import allocate_groove
+
+        T, r_c = correction_vector(correction, correction_radius_mm, positions.groove_radius_mm)
+        if existing:
+            raise AllocationError("old weights in a continuous groove: remove them and include their effect instead")
+        return allocate_groove(
+            T, r_c, positions.groove_radius_mm, stock=stock, strip=strip,
+            good_enough_gmm=good_enough_gmm or 0.0,
+        )
+    usable = positions.usable()
+    if not usable:
+        raise AllocationError("no usable positions: give at least one position that is not excluded")
+    T, r_c = correction_vector(correction, correction_radius_mm, positions.radii_mm[usable[0]])
+    g = float(good_enough_gmm or 0.0)
+    P = len(usable)
+    local = {pi: j for j, pi in enumerate(usable)}
+    u = np.array([weight_gmm(1.0, positions.angles_deg[pi], positions.radii_mm[pi]) for pi in usable])
+    for i, w in enumerate(existing):
+        if w.position_index is not None and not 0 <= w.position_index < len(positions.angles_deg):
+            raise AllocationError(f"old weight #{i + 1}: position {w.position_index} does not exist")
+    mass_lim = float(max_mass_per_position_g) if max_mass_per_position_g is not None else math.inf
+
+    # piece sizes: stock (or strip lengths), then movable old weights
+    size_kind: list[tuple[str, float]] = []  # ("stock", mass) | ("strip", length_mm) | ("old", index)
+    sizes: list[float] = []
+    counts: list[int] = []
+    if stock is not None:
+        merged: dict[float, int] = {}
+        for it in stock.items:
+            c = UNLIMITED if it.count is None else it.count
+            merged[it.mass_g] = min(UNLIMITED, merged.get(it.mass_g, 0) + c)
+        for m_g in sorted(merged):
+            if merged[m_g] > 0:
+                size_kind.append(("stock", m_g))
+                sizes.append(m_g)
+                counts.append(merged[m_g])
+    if strip is not None:
+        r_min = min(positions.radii_mm[pi] for pi in usable)
+        for length in _strip_ladder(strip, abs(T), r_min, mass_lim):
+            size_kind.append(("strip", length))
+            sizes.append(strip.grams_per_mm * length)
+            counts.append(UNLIMITED)
+    movable = [i for i, w in enumerate(existing) if w.may_move]
+    for i in movable:
+        size_kind.append(("old", float(i)))
+        sizes.append(existing[i].mass_g)
+        counts.append(1)
+    must = np.array([kind == "old" and not existing[int(v)].may_remove for kind, v in size_kind], dtype=bool)
+
+    if strip is not None:
+        stack_default = 1 if max_pieces_per_position is None else max_pieces_per_position
+    else:
+        stack_default = UNLIMITED if max_pieces_per_position is None else max_pieces_per_position
+    removable_only = [i for i, w in enumerate(existing) if w.may_remove and not w.may_move]
+    if len(removable_only) > MAX_REMOVABLE_OLD_WEIGHTS:
+        raise AllocationError(
+            f"{len(removable_only)} old weights may be removed; at most {MAX_REMOVABLE_OLD_WEIGHTS} "
+            "can be weighed up at once (mark the rest to stay)"
+        )
+    fixed = [i for i, w in enumerate(existing) if not w.may_remove and not w.may_move]
+    quantum = 1e-9 * max(abs(T), 1.0)
+
+    best = None
+    best_meta = None
+    nodes_left = max_nodes
+    total_nodes = 0
+    all_optimal = True
+    complete_min = None
+    relax_min = math.inf
+    for r in range(len(removable_only) + 1):
+        for removed in itertools.combinations(removable_only, r):
+            kept = [i for i in fixed + removable_only if i not in removed]
+            target = T + sum((existing[i].unbalance_gmm for i in list(removed) + movable), 0j)
+            stack = np.full(P, stack_default, dtype=np.int64)
+            mlim = np.full(P, mass_lim)
+            for i in kept:
+                pi = existing[i].position_index
+                if pi is not None and pi in local:
+                    stack[local[pi]] -= 1
+                    mlim[local[pi]] -= existing[i].mass_g
+            stack = np.maximum(stack, 0)
+            mlim = np.maximum(mlim, 0.0)
+            prob = SearchProblem(
+                target_gmm=target,
+                u=u,
+                sizes_g=np.array(sizes, dtype=float),
+                counts=np.array(counts, dtype=np.int64),
+                stack_limit=stack,
+                mass_limit_g=mlim,
+                must_use=must,
+                good_enough_gmm=g,
+                prefer_fewer_positions=prefer_fewer_positions,
+                base_pieces=len(kept),
+                base_mass_g=sum(existing[i].mass_g for i in kept),
+                quantum_gmm=quantum,
+            )
+            res = search(prob, max_nodes=max(1, nodes_left), incumbent=best[0] if best else None)
+            nodes_left -= res.nodes
+            total_nodes += res.nodes
+            all_optimal &= res.optimal
+            complete_min = res.complete_pieces if complete_min is None else min(complete_min, res.complete_pieces)
+            relax_min = min(relax_min, res.relaxation_bound_gmm)
+            if res.found and res.key and (best is None or res.key < best[0]):
+                best = (res.key, res)
+                best_meta = (removed, kept)
+            if nodes_left <= 0:
+                all_optimal = False
+                break
+        if nodes_left <= 0:
+            break
+    if best is None or best_meta is None:
+        raise AllocationError("no allocation satisfies the limits (old weights that must be refitted do not fit)")
+    res = best[1]
+    removed, kept = best_meta
+    return _build(
+        T, r_c, positions, usable, size_kind, sizes, existing, res, list(removed), list(kept), movable,
+        all_optimal, complete_min or 0, relax_min, total_nodes, g,
+    )
+
+
+def _build(
+    T: complex,
+    r_c: float,
+    positions: Positions,
+    usable: list[int],
+    size_kind: list[tuple[str, float]],
+    sizes: list[float],
+    existing: tuple[ExistingWeight, ...],
+    res: SearchResult,
+    removed: list[int],
+    kept: list[int],
+    movable: list[int],
+    optimal: bool,
+    complete_pieces: int,
+    relax_bound: float,
+    nodes: int,
+    g: float,
+) -> Allocation:
+    by_pos: dict[int, dict] = {}
+    placed_old: set[int] = set()
+    for (p_local, k), n in sorted(res.counts_per_slot.items()):
+        pi = usable[p_local]
+        d = by_pos.setdefault(pi, {"pieces": [], "length": None, "old": [], "strip_mass": 0.0})
+        kind, v = size_kind[k]
+        if kind == "stock":
+            d["pieces"].extend([v] * n)
+        elif kind == "strip":
+            d["length"] = v
+            d["strip_mass"] = sizes[k]
+        else:
+            i = int(v)
+            placed_old.add(i)
+            if existing[i].position_index == pi:
+                kept.append(i)  # refitted where it was: it simply stays
+            else:
+                d["old"].append(i)
+    placements = []
+    moved_mass = 0.0
+    fitted = 0j
+    for pi in sorted(by_pos):
+        d = by_pos[pi]
+        pieces = tuple(sorted(d["pieces"], reverse=True))
+        mass = sum(pieces) + sum(existing[i].mass_g for i in d["old"])
+        length = d["length"]
+        mass += d["strip_mass"]
+        moved_mass += sum(existing[i].mass_g for i in d["old"])
+        if not pieces and length is None and not d["old"]:
+            continue
+        ub = weight_gmm(mass, positions.angles_deg[pi], positions.radii_mm[pi])
+        fitted += ub
+        placements.append(Placement(pi, positions.angles_deg[pi], positions.radii_mm[pi], pieces, length,
+                                    mass, tuple(d["old"]), ub))
+    removed_all = sorted(set(removed) | {i for i in movable if i not in placed_old})
+    change = fitted - sum((existing[i].unbalance_gmm for i in removed_all), 0j)
+    change -= sum((existing[i].unbalance_gmm for i in movable if i in placed_old and i not in kept), 0j)
+    residual = T - change
+    warnings: list[str] = []
+    rho = abs(residual)
+    if not optimal:
+        warnings.append(
+            f"search stopped after {nodes} steps: this is the best of all allocations with up to "
+            f"{complete_pieces} pieces; the residual cannot be below {min(rho, relax_bound):.4g} g·mm"
+        )
+    if abs(T) > 0 and rho / abs(T) > POOR_FIT_FRACTION:
+        msg = (f"the best fit leaves {100 * rho / abs(T):.0f}% of the correction "
+               f"({rho / r_c:.3g} g at {angle_of_deg(residual):.1f}° at radius {r_c:g} mm)")
+        if relax_bound > 0.01 * abs(T):
+            msg += "; these positions and pieces cannot carry the whole correction"
+        msg += ": add stock, allow more pieces per position, or use another radius"
+        warnings.append(msg)
+    return Allocation(
+        correction_gmm=T,
+        correction_radius_mm=r_c,
+        placements=tuple(placements),
+        residual_gmm=residual,
+        optimal=optimal,
+        bound_gmm=rho if optimal else min(rho, relax_bound),
+        warnings=tuple(warnings),
+        kept_existing=tuple(sorted(set(kept))),
+        removed_existing=tuple(removed_all),
+        nodes=nodes,
+        _moved_mass_g=moved_mass,
+    )
 
 
 def allocate_planes(
@@ -29,6 +358,36 @@ def allocate_planes(
     positions: Positions | Sequence[Positions],
     *,
     stock: Stock | None = None,
-    **options: object,
+    **options,
 ) -> list[Allocation]:
-    raise NotImplementedError
+    """Allocate each plane of a multi-plane correction in turn, sharing one stock.
+
+    Planes are allocated in the order given; pieces used in one plane are taken out of the
+    stock for the next (so the combination is optimal plane by plane, not jointly).
+    """
+    if isinstance(positions, Positions):
+        plane_positions = [positions] * len(corrections)
+    else:
+        plane_positions = list(positions)
+        if len(plane_positions) != len(corrections):
+            raise AllocationError(f"{len(corrections)} corrections but {len(plane_positions)} position sets")
+    out: list[Allocation] = []
+    remaining = stock
+    for corr, pos in zip(corrections, plane_positions):
+        a = allocate(corr, pos, stock=remaining, **options)  # type: ignore[arg-type]
+        out.append(a)
+        if remaining is not None:
+            used: dict[float, int] = {}
+            for p in a.placements:
+                for m in p.pieces:
+                    used[m] = used.get(m, 0) + 1
+            items = []
+            for it in remaining.items:
+                take = min(used.get(it.mass_g, 0), it.count if it.count is not None else UNLIMITED)
+                used[it.mass_g] = used.get(it.mass_g, 0) - take
+                items.append((it.mass_g, None if it.count is None else it.count - take))
+            remaining = Stock.of(items)
+    return out
+
+
+__all__ = ["allocate", "allocate_planes", "correction_vector"]
