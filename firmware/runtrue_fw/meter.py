@@ -1,0 +1,505 @@
+"""Meter: the portable meter device (commands, revolutions, frames, status).
+
+Implements the device side of firmware/PROTOCOL.md and the Meter/board contract in
+DEVELOPERS.md.  Imports no hardware: a board object `hw` drives it (board_rp2040 on the
+device, runtrue.sim.board.SimBoard in the simulator).
+
+Sampling path (may run in interrupt context, allocates nothing, proven under
+`micropython.heap_lock()` by tests/micropython): `feed_samples` copies a block into a ring of
+RING_FRAMES frames per channel; `feed_edge` queues an edge position.  Everything else happens in
+`service()`: edge logic (edges.py), one least-squares fit per revolution and channel
+(phasor.py, Rife and Boorstyn 1974), frames (frames.py), STATUS once a second, the self-test.
+
+Timebase: frame i (one sample of every enabled channel) is at position i·256 in 1/256 sample,
+modulo 2**30, counted from START.  If the board reports `round_robin: True` in `info()`, the
+k-th enabled channel of a frame was converted k/n_ch of a sample period after the first (ADC
+round robin), and its phasors are corrected for that.
+"""
+
+import json
+import struct
+from array import array
+from math import pi
+
+from runtrue_fw import FW_VERSION
+from runtrue_fw import frames as fr
+from runtrue_fw import phasor
+from runtrue_fw.edges import EdgeTracker, Q8_MASK, wrap_diff_q8
+
+try:
+    from runtrue_fw.kernels_viper import deinterleave, fit_sums, ring_stats
+    KERNELS = "viper"
+except (SyntaxError, ImportError):   # CPython, or a port without viper (WebAssembly)
+    from runtrue_fw.kernels import deinterleave, fit_sums, ring_stats
+    KERNELS = "portable"
+
+try:
+    from micropython import const
+except ImportError:  # CPython
+    def const(x):  # type: ignore[no-redef]
+        return x
+
+RING_FRAMES = const(8192)          # ring per channel (power of two); 48 KiB for 3 channels
+_RING_MASK = const(8191)
+FRAME_MASK = const(0x3FFFFF)       # frame index modulo 2**22 (its q8 position fits 2**30)
+_FRAME_HALF = const(0x200000)
+MAX_REV_SAMPLES = const(4096)      # longest revolution fitted: 58.6 rpm at 4 kHz
+MIN_REV_SAMPLES = const(8)         # shortest: 30,000 rpm at 4 kHz (2x at a quarter of the rate)
+_EDGE_QUEUE = const(64)            # edges waiting for service(); more are counted as rejected
+_EQ_MASK = const(63)
+_EQ_COUNTER_MASK = const(1023)
+_PENDING_MAX = const(16)           # completed revolutions waiting for their samples
+_STALE_Q8 = const(1 << 28)         # no accepted edge for 2**20 frames: the reference is lost
+STATUS_PERIOD_MS = const(1000)
+SELFTEST_MS = const(1000)
+RATE_MIN_HZ = const(500)
+RATE_MAX_HZ = const(10000)
+DEFAULT_RATE_HZ = const(4000)
+_MS_MASK = const(0x3FFFFFFF)       # ticks_ms wraps at 2**30 on MicroPython
+_TWO_PI = 2.0 * pi
+
+
+def _wrap_frames(d: int) -> int:
+    d &= FRAME_MASK
+    if d >= _FRAME_HALF:
+        d = d - FRAME_MASK - 1
+    return d
+
+
+class Meter:
+    """The meter.  See DEVELOPERS.md ("Firmware: Meter and board") for the board contract."""
+
+    def __init__(self, hw) -> None:
+        self._hw = hw
+        info = hw.info()
+        self._board = str(info.get("board", ""))
+        self._adc_bits = int(info.get("adc_bits", 12))
+        self._full_code = (1 << self._adc_bits) - 1
+        self._channels_max = int(info.get("channels_max", 1))
+        if not 1 <= self._channels_max <= 3:
+            raise ValueError("channels_max must be 1..3")
+        self._counts_per_g = [float(v) for v in info.get("counts_per_g", [1.0] * self._channels_max)]
+        self._zero_code = [float(v) for v in info.get("zero_code", [0.0] * self._channels_max)]
+        self._serial = str(info.get("serial", ""))
+        self._round_robin = bool(info.get("round_robin", False))
+
+        self._ring = array("H", bytes(2 * RING_FRAMES * self._channels_max))
+        self._pfeed = array("i", [0, 0, 0, RING_FRAMES])
+        self._pstats = array("i", [0, 0, 0, _RING_MASK, 0, 0, 0])
+        self._eq = array("i", [0] * _EDGE_QUEUE)
+        self._eq_head = 0
+        self._eq_tail = 0
+        self._eq_overflow = 0
+        self._frames = 0
+        self._running = False       # board sampling, revolutions analysed
+        self._streaming = False     # REV frames sent (after START)
+        self._tracker = EdgeTracker()
+        self._pending = []          # (e0_q8, e1_q8, flags, rev)
+        self._rev_index = 0
+        self._drop_seen = 0
+        self._drop_active = False
+        self._drop_lo_q8 = 0
+        self._drop_hi_q8 = 0
+        self._revs_sent = 0
+        self._tx_overflows = 0
+        self._writer = fr.FrameWriter()
+        self._reader = fr.FrameReader()
+        self._t0_ms = hw.ticks_ms()
+        self._last_status_ms = self._t0_ms
+        self._st_active = False
+        self._st_seq = 0
+        self._st_t0_ms = 0
+        self._st_frames0 = 0
+        self._st_dropped0 = 0
+        self._st_revs0 = 0
+        self._st_own_sampling = False
+        self.repl_requested = False
+
+        self._channel_mask = (1 << self._channels_max) - 1
+        self._falling = False
+        self._rate_hz = 0.0
+        self._slots = []
+        self._apply_channels(self._channel_mask, DEFAULT_RATE_HZ)
+        hw.set_edge(False)
+
+    # ----------------------------------------------------------------- sampling path
+    def feed_samples(self, block, n_frames: int) -> None:
+        """`n_frames` interleaved frames (enabled channels ascending) from `block` (array('H')).
+
+        Allocates nothing.  Samples are ADC codes of `adc_bits` bits.  If the board lost
+        samples it must still feed the right number of frames (placeholders), so that the
+        frame count stays the timebase, and count them in `dropped_samples()`.
+        """
+        if not self._running or n_frames <= 0:
+            return
+        start = self._frames
+        p = self._pfeed
+        p[0] = n_frames
+        p[2] = start & _RING_MASK
+        deinterleave(block, self._ring, p)
+        end = (start + n_frames) & FRAME_MASK
+        self._frames = end
+        d = self._hw.dropped_samples()
+        if d != self._drop_seen:
+            self._drop_seen = d
+            if not self._drop_active:
+                self._drop_lo_q8 = start << 8
+                self._drop_active = True
+            self._drop_hi_q8 = end << 8
+
+    def feed_edge(self, pos_q8: int) -> None:
+        """Queue an active reference edge at `pos_q8` (1/256 sample since START, mod 2**30).
+
+        Allocates nothing.  A full queue (service() not called for 64 edges) drops the edge;
+        it is counted in STATUS edges_rejected and the revolution shows MISSING_PULSE.
+        """
+        if not self._running:
+            return
+        t = self._eq_tail
+        if ((t - self._eq_head) & _EQ_COUNTER_MASK) >= _EDGE_QUEUE:
+            self._eq_overflow += 1
+            return
+        self._eq[t & _EQ_MASK] = pos_q8 & Q8_MASK
+        self._eq_tail = (t + 1) & _EQ_COUNTER_MASK
+
+    # ----------------------------------------------------------------- host side
+    def feed_command_bytes(self, data) -> None:
+        """Bytes from the host; each complete command frame is executed at once."""
+        self._reader.feed(data, self._on_frame)
+
+    def service(self) -> None:
+        """Pending work: edges, completed revolutions, STATUS, the self-test."""
+        if self._running:
+            self._process_edges()
+            self._analyse_pending()
+            tr = self._tracker
+            if tr.have_edge and wrap_diff_q8(self._frames << 8, tr.last_q8) > _STALE_Q8:
+                tr.restart()
+        now = self._hw.ticks_ms()
+        if self._streaming and ((now - self._last_status_ms) & _MS_MASK) >= STATUS_PERIOD_MS:
+            self._last_status_ms = now
+            self._send_status()
+        if self._st_active and ((now - self._st_t0_ms) & _MS_MASK) >= SELFTEST_MS:
+            self._finish_selftest(now)
+
+    # ----------------------------------------------------------------- state
+    @property
+    def streaming(self) -> bool:
+        return self._streaming
+
+    @property
+    def rate_hz(self) -> float:
+        return self._rate_hz
+
+    @property
+    def channel_mask(self) -> int:
+        return self._channel_mask
+
+    def _apply_channels(self, mask: int, rate_hz: int) -> None:
+        actual = float(self._hw.configure(mask, rate_hz))
+        self._channel_mask = mask
+        self._slots = [ch for ch in range(3) if mask & (1 << ch)]
+        self._pfeed[1] = len(self._slots)
+        self._rate_hz = actual
+        self._requested_rate_hz = rate_hz
+
+    def _begin_sampling(self) -> None:
+        self._frames = 0
+        self._eq_head = 0
+        self._eq_tail = 0
+        self._tracker.restart()
+        self._pending = []
+        self._rev_index = 0
+        self._drop_seen = self._hw.dropped_samples()
+        self._drop_active = False
+        self._running = True
+        self._hw.start()
+
+    def _end_sampling(self) -> None:
+        self._hw.stop()
+        self._running = False
+        self._streaming = False
+        self._pending = []
+
+    # ----------------------------------------------------------------- revolutions
+    def _process_edges(self) -> None:
+        tr = self._tracker
+        while self._eq_head != self._eq_tail and len(self._pending) < _PENDING_MAX:
+            h = self._eq_head
+            pos = self._eq[h & _EQ_MASK]
+            self._eq_head = (h + 1) & _EQ_COUNTER_MASK
+            if tr.edge(pos):
+                self._pending.append((tr.rev_start_q8, tr.rev_end_q8, tr.rev_flags, self._rev_index))
+                self._rev_index += 1
+
+    def _analyse_pending(self) -> None:
+        while self._pending:
+            e0, e1, flags, rev = self._pending[0]
+            length_q8 = wrap_diff_q8(e1, e0)
+            first_off_q8 = (256 - (e0 & 255)) & 255
+            n = (length_q8 - first_off_q8 - 1) // 256 + 1 if length_q8 > first_off_q8 else 0
+            i0 = ((e0 >> 8) + (1 if e0 & 255 else 0)) & FRAME_MASK
+            if n <= MAX_REV_SAMPLES and _wrap_frames(self._frames - ((i0 + n) & FRAME_MASK)) < 0:
+                return      # its samples are not all in yet
+            self._pending.pop(0)
+            self._finish_revolution(e0, e1, length_q8, first_off_q8, i0, n, flags, rev)
+
+    def _finish_revolution(self, e0, e1, length_q8, first_off_q8, i0, n, flags, rev) -> None:
+        if self._drop_active:
+            if wrap_diff_q8(self._drop_lo_q8, e1) < 0 and wrap_diff_q8(self._drop_hi_q8, e0) > 0:
+                flags |= fr.F_DROPPED_SAMPLES
+            if wrap_diff_q8(e0, self._drop_hi_q8) >= 0:
+                self._drop_active = False
+        if _wrap_frames(self._frames - i0) > RING_FRAMES:
+            flags |= fr.F_NO_FIT | fr.F_DROPPED_SAMPLES     # overwritten before service() ran
+        if n > MAX_REV_SAMPLES or n < MIN_REV_SAMPLES:
+            flags |= fr.F_NO_FIT
+        n_slots = len(self._slots)
+        buf = self._writer.payload
+        if not flags & fr.F_NO_FIT:
+            a0 = _TWO_PI * first_off_q8 / length_q8
+            d = _TWO_PI * 256.0 / length_q8
+            ps = self._pstats
+            pfit = ps      # fit_sums reads p[0..3] only
+            for k in range(n_slots):
+                ch = self._slots[k]
+                ps[0] = k * RING_FRAMES
+                ps[1] = i0 & _RING_MASK
+                ps[2] = n
+                ring_stats(self._ring, ps)
+                total = ps[4]
+                if ps[5] <= 0 or ps[6] >= self._full_code:
+                    flags |= fr.F_CLIPPED | (fr.F_CLIP_CH0 << ch)
+                dc = (total + n // 2) // n
+                sums = fit_sums(self._ring, pfit, dc, a0, d)
+                x = phasor.fit(sums, n, a0, d)
+                scale = 1.0 / self._counts_per_g[ch]
+                if self._round_robin and n_slots > 1:
+                    delta = d * k / n_slots
+                    h1 = phasor.rotate(x[1], x[2], delta)
+                    h2 = phasor.rotate(x[3], x[4], 2.0 * delta)
+                else:
+                    h1 = (x[1], x[2])
+                    h2 = (x[3], x[4])
+                struct.pack_into(fr.REV_CHANNEL_FMT, buf, 14 + 20 * k,
+                                 h1[0] * scale, h1[1] * scale, h2[0] * scale, h2[1] * scale,
+                                 phasor.rms(sums, n) * scale)
+        else:
+            for k in range(n_slots):
+                struct.pack_into(fr.REV_CHANNEL_FMT, buf, 14 + 20 * k, 0.0, 0.0, 0.0, 0.0, 0.0)
+        if not self._streaming:
+            return
+        period_us = length_q8 / 256.0 / self._rate_hz * 1e6
+        struct.pack_into(fr.REV_HEADER_FMT, buf, 0, rev & 0xFFFFFFFF, period_us,
+                         n if n < 65535 else 65535, flags, n_slots, self._channel_mask)
+        self._send(fr.T_REV, buf, 14 + 20 * n_slots)
+        self._revs_sent += 1
+
+    # ----------------------------------------------------------------- frames out
+    def _send(self, ftype: int, payload, n: int = -1) -> None:
+        wire = self._writer.encode(ftype, payload, n)
+        r = self._hw.write(bytes(wire))
+        if isinstance(r, int) and r < len(wire):
+            self._tx_overflows += 1
+
+    def _ack(self, seq: int, ctype: int, result: int, msg: str = "") -> None:
+        m = msg.encode()[:fr.MAX_PAYLOAD - 4]
+        self._send(fr.T_ACK, struct.pack(fr.ACK_FMT, seq & 0xFFFF, ctype & 0xFF, result) + m)
+
+    def info_dict(self, digits: int = 6) -> dict:
+        """INFO fields (PROTOCOL.md); calibration floats rounded to `digits` significant digits."""
+        return {
+            "fw": FW_VERSION,
+            "board": self._board,
+            "proto": fr.PROTO_VERSION,
+            "channels_max": self._channels_max,
+            "channel_mask": self._channel_mask,
+            "rate_hz": _sig(self._rate_hz, 7),
+            "adc_bits": self._adc_bits,
+            "counts_per_g": [_sig(v, digits) for v in self._counts_per_g],
+            "zero_code": [_sig(v, digits) for v in self._zero_code],
+            "edge": "falling" if self._falling else "rising",
+            "streaming": self._streaming,
+            "serial": self._serial,
+        }
+
+    def info_payload(self) -> bytes:
+        """INFO as UTF-8 JSON of at most 240 bytes (fewer digits if it would not fit)."""
+        for digits in (6, 5, 4, 3):
+            data = _dumps(self.info_dict(digits)).encode()
+            if len(data) <= fr.MAX_PAYLOAD:
+                return data
+        info = self.info_dict(3)
+        info["serial"] = info["serial"][:8]
+        return _dumps(info).encode()[:fr.MAX_PAYLOAD]
+
+    def _send_info(self) -> None:
+        self._send(fr.T_INFO, self.info_payload())
+
+    def status_fields(self) -> tuple:
+        hw = self._hw
+        uptime = (hw.ticks_ms() - self._t0_ms) & _MS_MASK
+        cpu = max(0, min(65535, int(hw.cpu_load_permille())))
+        return (uptime, cpu, int(hw.dropped_samples()) & 0xFFFFFFFF,
+                (self._tracker.rejected + self._eq_overflow) & 0xFFFFFFFF,
+                self._revs_sent & 0xFFFFFFFF, self._tx_overflows & 0xFFFFFFFF,
+                1 if self._streaming else 0)
+
+    def _send_status(self) -> None:
+        self._send(fr.T_STATUS, struct.pack(fr.STATUS_FMT, *self.status_fields()))
+
+    # ----------------------------------------------------------------- commands
+    def _on_frame(self, kind: int, ctype: int, seq: int, payload: bytes) -> None:
+        if kind == fr.FrameReader.BAD:
+            self._ack(0xFFFF, 0, fr.ACK_BAD_FRAME, "bad frame: CRC or framing error")
+            return
+        if kind == fr.FrameReader.VERSION:
+            self._ack(seq, ctype, fr.ACK_BAD_FRAME,
+                      "protocol version %d not supported; this meter speaks version %d"
+                      % (payload[0], fr.PROTO_VERSION))
+            return
+        self._command(ctype, seq, payload)
+
+    def _command(self, ctype: int, seq: int, payload: bytes) -> None:
+        no_payload = (fr.C_IDENTIFY, fr.C_START, fr.C_STOP, fr.C_SELFTEST, fr.C_STATUS, fr.C_REPL)
+        if ctype in no_payload and payload:
+            self._ack(seq, ctype, fr.ACK_BAD_ARGUMENT, "this command takes no payload")
+            return
+        if ctype == fr.C_IDENTIFY:
+            self._send_info()
+            self._ack(seq, ctype, fr.ACK_OK)
+        elif ctype == fr.C_START:
+            if self._st_active:
+                self._ack(seq, ctype, fr.ACK_BUSY, "self-test in progress")
+            elif self._streaming:
+                self._ack(seq, ctype, fr.ACK_OK, "already streaming")
+            else:
+                self._begin_sampling()
+                self._streaming = True
+                self._last_status_ms = self._hw.ticks_ms()
+                self._ack(seq, ctype, fr.ACK_OK)
+        elif ctype == fr.C_STOP:
+            if self._st_active:
+                self._ack(seq, ctype, fr.ACK_BUSY, "self-test in progress")
+            else:
+                if self._running:
+                    self._end_sampling()
+                self._ack(seq, ctype, fr.ACK_OK)
+        elif ctype in (fr.C_SET_RATE, fr.C_SET_CHANNELS, fr.C_SET_EDGE):
+            self._configure(ctype, seq, payload)
+        elif ctype == fr.C_SELFTEST:
+            if self._st_active:
+                self._ack(seq, ctype, fr.ACK_BUSY, "self-test already in progress")
+                return
+            self._st_own_sampling = not self._running
+            if self._st_own_sampling:
+                self._begin_sampling()
+            self._st_active = True
+            self._st_seq = seq
+            self._st_t0_ms = self._hw.ticks_ms()
+            self._st_frames0 = self._frames
+            self._st_dropped0 = int(self._hw.dropped_samples())
+            self._st_revs0 = self._rev_index
+        elif ctype == fr.C_STATUS:
+            self._send_status()
+            self._ack(seq, ctype, fr.ACK_OK)
+        elif ctype == fr.C_REPL:
+            self._ack(seq, ctype, fr.ACK_OK, "returning to the MicroPython REPL")
+            if self._running:
+                self._end_sampling()
+            self._st_active = False
+            self.repl_requested = True
+            self._hw.enter_repl()
+        else:
+            self._ack(seq, ctype, fr.ACK_UNKNOWN_COMMAND, "unknown command 0x%02x" % ctype)
+
+    def _configure(self, ctype: int, seq: int, payload: bytes) -> None:
+        if self._running:
+            self._ack(seq, ctype, fr.ACK_BUSY, "stop streaming (and wait for the self-test) first")
+            return
+        if ctype == fr.C_SET_RATE:
+            if len(payload) != 4:
+                self._ack(seq, ctype, fr.ACK_BAD_ARGUMENT, "SET_RATE needs rate_hz:u32")
+                return
+            rate = struct.unpack("<I", payload)[0]
+            if not RATE_MIN_HZ <= rate <= RATE_MAX_HZ:
+                self._ack(seq, ctype, fr.ACK_BAD_ARGUMENT,
+                          "rate %d Hz outside %d-%d Hz" % (rate, RATE_MIN_HZ, RATE_MAX_HZ))
+                return
+            self._apply_channels(self._channel_mask, rate)
+        elif ctype == fr.C_SET_CHANNELS:
+            if len(payload) != 1:
+                self._ack(seq, ctype, fr.ACK_BAD_ARGUMENT, "SET_CHANNELS needs mask:u8")
+                return
+            mask = payload[0]
+            allowed = (1 << self._channels_max) - 1
+            if mask == 0 or mask & ~allowed:
+                self._ack(seq, ctype, fr.ACK_BAD_ARGUMENT,
+                          "channel mask 0x%02x: use bits 0-%d, at least one"
+                          % (mask, self._channels_max - 1))
+                return
+            self._apply_channels(mask, self._requested_rate_hz)
+        else:
+            if len(payload) != 1 or payload[0] > 1:
+                self._ack(seq, ctype, fr.ACK_BAD_ARGUMENT, "SET_EDGE needs edge:u8, 0 rising or 1 falling")
+                return
+            self._falling = payload[0] == 1
+            self._hw.set_edge(self._falling)
+        self._ack(seq, ctype, fr.ACK_OK)
+        self._send_info()
+
+    # ----------------------------------------------------------------- self-test
+    def _finish_selftest(self, now: int) -> None:
+        from runtrue_fw.selftest import run_checks
+        elapsed_ms = (now - self._st_t0_ms) & _MS_MASK
+        frames = _wrap_frames(self._frames - self._st_frames0)
+        result = run_checks(
+            ring=self._ring, ring_frames=RING_FRAMES, end_frame=self._frames, frames=frames,
+            elapsed_ms=elapsed_ms, rate_hz=self._rate_hz, slots=self._slots,
+            full_code=self._full_code, counts_per_g=self._counts_per_g,
+            zero_code=self._zero_code,
+            dropped=int(self._hw.dropped_samples()) - self._st_dropped0,
+            revs=self._rev_index - self._st_revs0, cpu_permille=int(self._hw.cpu_load_permille()),
+            ring_stats=ring_stats, fit_sums=fit_sums)
+        self._st_active = False
+        if self._st_own_sampling:
+            self._end_sampling()
+        for part in selftest_frames(result):
+            self._send(fr.T_SELFTEST, part)
+        self._ack(self._st_seq, fr.C_SELFTEST, fr.ACK_OK)
+
+
+def _sig(v: float, digits: int) -> float:
+    return float("%.*g" % (digits, v))
+
+
+def _dumps(obj) -> str:
+    try:
+        return json.dumps(obj, separators=(",", ":"))
+    except TypeError:   # a MicroPython without the separators argument
+        return json.dumps(obj)
+
+
+def selftest_frames(result: dict) -> list:
+    """SELFTEST payloads, each at most 240 bytes (PROTOCOL.md: split into parts if needed).
+
+    Each part is {"pass": overall, "checks": [...some...], "part": i, "parts": n}; the host
+    joins the checks of parts 0..n-1.
+    """
+    checks = result["checks"]
+    groups = []
+    cur = []
+    for c in checks:
+        trial = cur + [c]
+        probe = {"pass": result["pass"], "checks": trial, "part": 99, "parts": 99}
+        if cur and len(_dumps(probe).encode()) > fr.MAX_PAYLOAD:
+            groups.append(cur)
+            cur = [c]
+        else:
+            cur = trial
+    groups.append(cur)
+    out = []
+    for i in range(len(groups)):
+        body = {"pass": result["pass"], "checks": groups[i], "part": i, "parts": len(groups)}
+        out.append(_dumps(body).encode()[:fr.MAX_PAYLOAD])
+    return out
