@@ -11,6 +11,8 @@ REAL firmware ``runtrue_fw.meter.Meter``:
 * edges stamped to a whole microsecond (as ``time.ticks_us`` does) and converted to a position
   on the sample timebase in 1/256 frame since START, modulo 2**30, fed before the frames of the
   same pass, all of them (the Meter does debounce and glitch logic);
+* one analog channel per pickup of the scenario (``channels_max`` = pickups, at most 3): the
+  simulated meter has as many inputs wired as the machine has pickups;
 * blocks of up to 256 frames, interleaved, enabled channels ascending, as ``array('H')``;
 * 12-bit codes from :func:`runtrue.sim.frontend.quantise` (rounding, clipping at the end stops).
 
@@ -63,7 +65,8 @@ class SimBoard:
         self._serial = serial
         self._out = bytearray()
         n_pickups = len(machine.scenario.pickups)
-        self._mask = (1 << min(n_pickups, CHANNELS_MAX)) - 1
+        self.channels_max = min(n_pickups, CHANNELS_MAX)
+        self._mask = (1 << self.channels_max) - 1
         self._rate_hz = 5000.0
         self._channels: list[int] = []
         self.configure(self._mask, 5000.0)
@@ -100,6 +103,8 @@ class SimBoard:
         if not mask:
             raise ValueError("no channel enabled")
         channels = [c for c in range(CHANNELS_MAX) if mask >> c & 1]
+        if channels[-1] >= self.channels_max:
+            raise ValueError(f"channel {channels[-1]} not fitted: this board has {self.channels_max}")
         rate = actual_rate_hz(float(rate_hz), len(channels))
         self._mask = mask
         self._channels = channels
@@ -108,7 +113,7 @@ class SimBoard:
         delays = [0.0] * CHANNELS_MAX
         for rank, c in enumerate(channels):
             delays[c] = rank / (len(channels) * rate)
-        self.machine.set_channel_delays(delays)
+        self.machine.set_channel_delays(delays, corrected_by_meter=True)
         if getattr(self, "streaming", False):  # as the RP2040 board: stop, reconfigure, restart
             self.start()
         return rate
@@ -130,14 +135,15 @@ class SimBoard:
 
     def info(self) -> dict:
         fe = self.machine.scenario.front_end
-        n_pickups = len(self.machine.scenario.pickups)
+        n = self.channels_max
         return {
             "board": "sim",
             "adc_bits": fe.adc_bits,
-            "channels_max": CHANNELS_MAX,
-            "counts_per_g": [fe.counts_per_g] * CHANNELS_MAX,
-            "zero_code": [float(fe.zero_code)] * CHANNELS_MAX,
-            "serial": f"{self._serial}-{self.machine.scenario.name}-{n_pickups}ch",
+            "channels_max": n,
+            "counts_per_g": [fe.counts_per_g] * n,
+            "zero_code": [float(fe.zero_code)] * n,
+            "serial": f"{self._serial}-{self.machine.scenario.name}",
+            "round_robin": True,  # channel k of a frame converted k/n_ch sample later; the Meter corrects
         }
 
     def cpu_load_permille(self) -> int:

@@ -19,7 +19,9 @@ dynamics during fast speed changes are not modelled).
 
 Convention of :meth:`VirtualMachine.expected_1x`: the meter's (PROTOCOL.md): ``amp e^{+j lag}``
 with ``lag`` the phase lag after the ACTIVE reference edge as the meter detects it, including the
-anti-alias filter and the sampling offset of the channel within the ADC's round-robin.
+anti-alias filter and the reference conditioning delay; the sampling offset of a channel within
+the ADC's round-robin is included only if the meter does not correct it (it does when the
+board's ``info()`` says ``round_robin``, as SimBoard's does).
 """
 
 from __future__ import annotations
@@ -82,6 +84,7 @@ class VirtualMachine:
         self._omega_dot = 0.0
         self._falling = False
         self._channel_delay_s = [0.0] * len(sc.pickups)
+        self._skew_corrected = True
         self._line_phase = self._rng.uniform(0.0, TWO_PI, size=len(sc.pickups))
         self._missed_next = False
 
@@ -150,9 +153,12 @@ class VirtualMachine:
     def set_active_edge(self, falling: bool) -> None:
         self._falling = bool(falling)
 
-    def set_channel_delays(self, delays_s: list[float]) -> None:
-        """Sampling instant of each physical channel after its frame's nominal time (ADC round-robin)."""
+    def set_channel_delays(self, delays_s: list[float], corrected_by_meter: bool = True) -> None:
+        """Sampling instant of each physical channel after its frame's nominal time (ADC
+        round-robin).  ``corrected_by_meter``: the meter rotates each channel's phasor back by
+        this known delay, so :meth:`expected_1x` leaves it out."""
         with self._lock:
+            self._skew_corrected = bool(corrected_by_meter)
             self._channel_delay_s = [float(d) for d in delays_s[: len(self.scenario.pickups)]]
             self._channel_delay_s += [0.0] * (len(self.scenario.pickups) - len(self._channel_delay_s))
 
@@ -199,10 +205,8 @@ class VirtualMachine:
             shift = omega * self.scenario.front_end.ref_delay_us * 1e-6
             if self._falling:
                 shift += math.radians(self.scenario.mark_width_deg)
-            return [
-                complex(np.conj(p_i)) * cmath.exp(-1j * (shift + omega * d))
-                for p_i, d in zip(p, self._channel_delay_s)
-            ]
+            delays = [0.0] * len(p) if self._skew_corrected else self._channel_delay_s
+            return [complex(np.conj(p_i)) * cmath.exp(-1j * (shift + omega * d)) for p_i, d in zip(p, delays)]
 
     def influence_coefficients(self) -> np.ndarray:
         """True influence coefficients at the current speed: change of expected_1x (g) per g.mm
