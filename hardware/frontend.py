@@ -60,7 +60,7 @@ class FrontEnd:
     noise_ug_rthz: float = 300.0  # sensor noise density, ug/sqrt(Hz)
     adc_bits: int = 12
     adc_enob: float = 9.0
-    rate_hz: float = 5000.0  # design per-channel sample rate (protocol allows 500-10,000 Hz)
+    rate_hz: float = 4000.0  # per-channel sample rate: the Meter's default (protocol allows 500-10,000 Hz)
     n_channels: int = 3
     speed_min_rpm: float = 120.0
     speed_max_rpm: float = 15000.0

@@ -26,8 +26,8 @@ Sources (register names and bit positions are those of the datasheet):
 Timebase.  Sample frame n (one conversion of every enabled channel, ascending) holds channel c's
 conversion number ``n*n_ch + c``; conversion j is sampled at ``t_start + (j + 1) * P`` (assumed, see
 ``_FIRST_SAMPLE_PERIODS``) where P
-is the conversion period in clk_adc cycles (so channel c lags channel 0 by c*P: the Meter or the
-host corrects that known delay; see hardware/FRONTEND.md).  An edge stamped at ``t_us`` is at
+is the conversion period in clk_adc cycles (so channel c lags channel 0 by c*P: ``info()`` says
+``round_robin`` and the Meter corrects that known delay; see hardware/FRONTEND.md).  An edge stamped at ``t_us`` is at
 frame position ``(t_us - t_start_us) * 48 / (P * n_ch) - 1/n_ch``, reported in 1/256 frame,
 modulo 2**30.  Error budget: the 1 us stamp (+-0.5 us), the time from the pin change to the
 stamp in the hard interrupt handler (a few microseconds, more when a USB interrupt is being
@@ -200,7 +200,7 @@ class Board:
         self._n_ch = 0
         self._period_q8 = 0
         self._rate_hz = 0.0
-        self.configure(0b001, 5000)
+        self.configure(0b001, 4000)
         self._running = False
         self._dropped = 0
         self._produced = 0
@@ -212,8 +212,9 @@ class Board:
         self._load_permille = 0
 
     # ------------------------------------------------------------------ hw interface
-    def write(self, buf) -> None:
-        self._out.write(buf)
+    def write(self, buf) -> int:
+        n = self._out.write(buf)
+        return len(buf) if n is None else n
 
     def configure(self, channel_mask: int, rate_hz: float) -> float:
         """Select channels (bits 0-2) and the per-channel rate; returns the actual rate in Hz."""
@@ -338,6 +339,7 @@ class Board:
             "counts_per_g": list(self._counts_per_g),
             "zero_code": list(self._zero_code),
             "serial": serial,
+            "round_robin": True,  # channel k of a frame is converted k conversion periods late
         }
 
     def cpu_load_permille(self) -> int:
