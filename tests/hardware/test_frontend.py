@@ -68,8 +68,8 @@ def test_noise_bandwidth_of_one_section_is_pi_over_two_times_cutoff() -> None:
 
 
 def test_round_robin_skew_is_a_pure_time_delay() -> None:
-    # 3 channels at 5 kHz: conversions 66.7 us apart; channel 2 lags by 133.3 us: 2.4 deg at 50 Hz
-    assert fe.channel_skew_lag_deg(3000, 2) == pytest.approx(360 * 50 * 2 / 15000)
+    # 3 channels at 4 kHz: conversions 83.3 us apart; channel 2 lags by 166.7 us: 3.0 deg at 50 Hz
+    assert fe.channel_skew_lag_deg(3000, 2) == pytest.approx(360 * 50 * 2 / 12000)
 
 
 def test_adc_scale_is_ratiometric_and_velocity_follows_a_over_omega() -> None:
