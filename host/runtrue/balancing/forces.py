@@ -26,6 +26,10 @@ MIN_SPEED_RPM = 30.0
 MAX_WEIGHT_G = 50_000.0
 #: Radii beyond this (10 m) are not a rotor a hand-held meter balances.
 MAX_RADIUS_MM = 10_000.0
+#: A weight closer to the axis than 1 mm corrects nothing measurable.
+MIN_RADIUS_MM = 1.0
+#: Lighter than 1 mg is below any balance weight or shop scale.
+MIN_WEIGHT_G = 0.001
 
 
 def _number(value: float, what: str) -> float:
@@ -64,6 +68,8 @@ def check_mass_g(mass_g: float, what: str = "mass") -> float:
             f"{what} must be above 0 g, got {m:g} g; give the mass as a positive number and "
             "put the direction in the angle"
         )
+    if m < MIN_WEIGHT_G:
+        raise BalancingError(f"{what} {m:g} g is below {MIN_WEIGHT_G:g} g; check the units (grams)")
     if m > MAX_WEIGHT_G:
         raise BalancingError(f"{what} {m:g} g is above {MAX_WEIGHT_G:g} g; check the units (grams)")
     return m
@@ -74,6 +80,8 @@ def check_radius_mm(radius_mm: float) -> float:
     r = _number(radius_mm, "radius")
     if r <= 0.0:
         raise BalancingError(f"radius must be above 0 mm, got {r:g} mm; measure from the shaft axis")
+    if r < MIN_RADIUS_MM:
+        raise BalancingError(f"radius {r:g} mm is below {MIN_RADIUS_MM:g} mm; check the units (millimetres)")
     if r > MAX_RADIUS_MM:
         raise BalancingError(f"radius {r:g} mm is above {MAX_RADIUS_MM:g} mm; check the units (millimetres)")
     return r

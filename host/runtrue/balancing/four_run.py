@@ -48,6 +48,23 @@ def amplitude_only(
     """General amplitude-only solution: ``amplitudes[k]`` measured with trial unbalance
     ``trial_gmm[k]`` (g*mm, weight convention; 0 for the reference run) present.  The correction
     is expressed at ``radius_mm``.  Needs at least three distinct non-zero trial positions."""
+    try:
+        with np.errstate(all="ignore"):
+            sol = _amplitude_only(amplitudes, trial_gmm, radius_mm, plane)
+    except np.linalg.LinAlgError:
+        raise BalancingError("the amplitudes could not be solved (numbers out of range)") from None
+    values = [sol.corrections[0].mass_g, sol.corrections[0].angle_deg, abs(sol.predicted[0])]
+    if not all(math.isfinite(v) for v in values):
+        raise BalancingError("the numbers are out of range (too large or too small); check units and readings")
+    return sol
+
+
+def _amplitude_only(
+    amplitudes: Sequence[float],
+    trial_gmm: Sequence[complex],
+    radius_mm: float,
+    plane: int,
+) -> Solution:
     v = np.array([float(x) for x in amplitudes])
     t = np.array([complex(z) for z in trial_gmm])
     if v.shape != t.shape:
@@ -69,7 +86,7 @@ def amplitude_only(
         )
     c0, s, qr, qi = np.linalg.lstsq(x, v**2, rcond=None)[0]
     warnings: list[str] = []
-    if not s > 0:
+    if not (s > 0 and math.isfinite(s)):
         raise BalancingError(
             "the amplitudes are inconsistent with a linear machine (the trial weight appears to have "
             "no effect); use a larger trial weight and steadier readings"

@@ -187,6 +187,12 @@ def _finish(
     unc: tuple[np.ndarray, np.ndarray] | None,
 ) -> Solution:
     n_pickups, n_planes = a.shape
+    for p in range(n_planes):
+        if not np.any(np.abs(a[:, p]) > 0):
+            raise BalancingError(
+                f"plane {p + 1}'s trial weight changed no reading at all; check that it was fitted, "
+                "that the pickups are connected, and use a larger trial weight"
+            )
     cond = normalised_condition(a)
     if cond > CONDITION_REFUSE:
         raise BalancingError(
@@ -277,11 +283,29 @@ def solve(runs: Sequence[Run], radius_mm: Mapping[int, float] | None = None) -> 
     ``radius_mm``: per plane (1-based), the radius to express the correction at; default the
     radius of the first weight seen in that plane (the trial radius).
     """
+    try:
+        with np.errstate(all="ignore"):
+            sol = _solve(runs, radius_mm)
+    except np.linalg.LinAlgError:
+        raise BalancingError("the runs could not be solved (numbers out of range); check the readings") from None
+    _check_finite(sol)
+    return sol
+
+
+def _check_finite(sol: Solution) -> None:
+    values = [*sol.correction_gmm, *sol.predicted, *np.ravel(sol.influence)]
+    if not all(math.isfinite(abs(complex(v))) for v in values):
+        raise BalancingError("the numbers are out of range (too large or too small); check units and readings")
+
+
+def _solve(runs: Sequence[Run], radius_mm: Mapping[int, float] | None) -> Solution:
+    """The unguarded body of :func:`solve`."""
     n_pickups, n_planes = _check_runs(runs)
     radii = _radii(n_planes, radius_mm, runs)
     x = _design(runs, n_planes)
-    sv = np.linalg.svd(x / np.linalg.norm(x, axis=0), compute_uv=False)
-    if sv[-1] < 1e-9 * sv[0]:
+    norms = np.linalg.norm(x, axis=0)
+    sv = np.linalg.svd(x / np.where(norms > 0, norms, 1.0), compute_uv=False)
+    if np.any(norms == 0) or not np.all(np.isfinite(sv)) or sv[-1] < 1e-9 * sv[0]:
         raise BalancingError(
             "the runs do not separate the planes (the same weights, or weights in fixed proportion, "
             "in every run); give each plane a trial run of its own"
@@ -338,6 +362,17 @@ def correction_from_influence(
         )
     r = np.array([_check_reading(z, f"pickup {i + 1} reading") for i, z in enumerate(reading)])
     radii = _radii(n_planes, radius_mm, None)
+    try:
+        with np.errstate(all="ignore"):
+            sol = _stored(a, r, radii, spreads)
+    except np.linalg.LinAlgError:
+        raise BalancingError("the stored coefficients could not be used (numbers out of range)") from None
+    _check_finite(sol)
+    return sol
+
+
+def _stored(a: np.ndarray, r: np.ndarray, radii: list[float], spreads: Sequence[float] | None) -> Solution:
+    n_pickups = a.shape[0]
     unc = None
     if spreads is not None:
         if len(spreads) != n_pickups:
