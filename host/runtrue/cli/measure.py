@@ -1,0 +1,192 @@
+"""``runtrue measure``: the 1x vibration vector of each pickup, vector-averaged over N
+revolutions.
+
+``--json`` prints ONE JSON object (a contract other tools rely on; change it only by adding
+keys)::
+
+    {"rpm": 1473.2,
+     "channels": [{"amp": 0.409, "phase": 207.6, "spread": 0.0005, ...}],
+     "expected": [{"amp": 0.409, "phase": 207.6}]}        # sim:NAME ports only
+
+* ``amp``: g, 1x peak; ``phase``: lag in degrees after the reference mark, 0-360;
+  ``spread``: the standard deviation of the mean vector, g (see runtrue.readings.average).
+* Added keys: ``rpm_sd``, ``revs``, ``rejected``, ``lost_frames``, ``port``, ``conventions``;
+  per channel ``channel`` (physical number), ``confidence`` (95 % radius, g), ``velocity_mm_s_rms``.
+* ``expected`` (simulator only): each channel's noise-free 1x vector from the virtual machine
+  (``transport.machine.expected_1x()``), sampled as each averaged revolution arrived and
+  averaged like the measurement, so it is the truth for the same revolutions even while the
+  speed wanders.  Same order as ``channels``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+from typing import Any
+
+from runtrue.cli import UsageError
+
+CONVENTIONS = "amp: g, 1x peak; phase: lag in degrees after the reference mark (0-360); spread: standard deviation of the mean vector, g"
+
+
+def _channels_mask(text: str) -> int:
+    if text == "all":
+        return 0b111
+    mask = 0
+    for part in text.split(","):
+        part = part.strip()
+        if not part.isdigit() or int(part) > 2:
+            raise argparse.ArgumentTypeError(f"{text!r}: give channel numbers 0-2 separated by commas, e.g. 0,1")
+        mask |= 1 << int(part)
+    return mask
+
+
+def register(subparsers: Any) -> None:
+    p = subparsers.add_parser(
+        "measure",
+        help="measure the 1x vibration vector (amplitude, phase lag) of each pickup",
+        description="Measure the 1x vibration of each pickup, vector-averaged over N revolutions. "
+        "Amplitude in g 1x peak, phase as a lag in degrees after the reference mark. "
+        "CAUTION: rotating machinery can kill; keep clear of the plane of rotation.",
+    )
+    p.add_argument("--port", help="serial port of the meter (e.g. /dev/ttyACM0), or sim:NAME for the "
+                   "simulator (`runtrue scenarios`); default: the first meter found")
+    p.add_argument("--revs", type=int, default=20, help="usable revolutions to average (default 20)")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    p.add_argument("--seed", type=int, default=None, help="simulator only: make the run repeatable")
+    p.add_argument("--rate", type=int, default=None, metavar="HZ", help="sample rate per channel, 500-10000 Hz")
+    p.add_argument("--edge", choices=("rising", "falling"), default=None, help="active edge of the reference pulse")
+    p.add_argument("--channels", type=_channels_mask, default=None, metavar="LIST",
+                   help="channels to measure, e.g. 0 or 0,1 or all (default: as the meter is set)")
+    p.add_argument("--timeout", type=float, default=5.0, metavar="S",
+                   help="longest wait for one revolution, seconds (default 5)")
+
+
+def _pick_port(port: str | None) -> str:
+    if port:
+        return port
+    from runtrue.transport.serial import find_meter_ports
+
+    candidates = find_meter_ports()
+    if not candidates:
+        raise UsageError(
+            "no meter found: plug it in, or name the port with --port /dev/ttyACM0 "
+            "(or --port sim:NAME for the simulator; `runtrue scenarios` lists them)"
+        )
+    return candidates[0].device
+
+
+def _measure(args: Any, port: str) -> dict[str, Any]:
+    from runtrue.device import MeterError, open_meter
+    from runtrue.readings import amp_phase, vector_average
+    from runtrue.readings.units import convert_1x
+    from runtrue.transport import PortError, TransportLost
+
+    try:
+        client = open_meter(port, seed=args.seed)
+    except PortError as exc:
+        raise UsageError(str(exc)) from None
+    machine = getattr(client.transport, "machine", None)
+    try:
+        client.identify()
+        if args.rate is not None:
+            client.set_rate(args.rate)
+        if args.channels is not None:
+            client.set_channels(args.channels)
+        if args.edge is not None:
+            client.set_edge(args.edge)
+        client.start()
+        usable = []
+        seen = 0
+        truth: list[list[complex]] = []
+        flags_seen: set[str] = set()
+        limit = 10 * args.revs + 20
+        while len(usable) < args.revs:
+            rev = client.read_revolution(args.timeout)
+            if rev is None:
+                raise UsageError(
+                    f"no revolution from {port} within {args.timeout:g} s ({len(usable)} of {args.revs} so far): "
+                    "are the reference pulses missing? Check the machine is running and the reference "
+                    "sensor sees its mark once per revolution (its gap, its LED, --edge), or give a longer --timeout"
+                )
+            seen += 1
+            if rev.usable:
+                usable.append(rev)
+                if machine is not None:
+                    truth.append(list(machine.expected_1x()))
+            else:
+                flags_seen.update(rev.flag_names)
+            if seen >= limit:
+                raise UsageError(
+                    f"only {len(usable)} of {seen} revolutions were usable ({', '.join(sorted(flags_seen))}): "
+                    "steady the speed, check the reference mark and the pickup's range, then measure again"
+                )
+        client.stop()
+    except (MeterError, TransportLost) as exc:
+        raise UsageError(str(exc)) from None
+    finally:
+        client.close()
+    reading = vector_average(usable)
+    out: dict[str, Any] = {
+        "rpm": reading.speed_rpm,
+        "channels": [
+            {
+                "amp": ch.amp_g,
+                "phase": ch.phase_deg,
+                "spread": ch.spread_g,
+                "channel": ch.channel,
+                "confidence": ch.confidence_g if math.isfinite(ch.confidence_g) else None,
+                "velocity_mm_s_rms": convert_1x(ch.amp_g, reading.speed_rpm, "mm/s", "rms"),
+            }
+            for ch in reading.channels
+        ],
+        "rpm_sd": reading.speed_sd_rpm,
+        "revs": reading.n_revs,
+        "rejected": seen - reading.n_revs,
+        "lost_frames": client.lost_frames,
+        "port": port,
+        "conventions": CONVENTIONS,
+    }
+    if machine is not None and truth:
+        expected = []
+        for ch in reading.channels:
+            samples = [t[ch.channel] if ch.channel < len(t) else complex("nan") for t in truth]
+            amp, phase = amp_phase(sum(samples) / len(samples))
+            expected.append({"amp": amp, "phase": phase})
+        out["expected"] = expected
+    return out
+
+
+def _table(result: dict[str, Any]) -> str:
+    lines = [
+        f"{result['port']}: {result['revs']} revolutions averaged ({result['rejected']} rejected, "
+        f"{result['lost_frames']} frames lost), {result['rpm']:.1f} rpm (sd {result['rpm_sd']:.1f})",
+        "1x amplitude in g peak; phase = lag in degrees after the reference mark",
+        f"{'ch':>3} {'amp g':>9} {'phase':>7} {'spread g':>9} {'95% g':>9} {'mm/s rms':>9}",
+    ]
+    expected = result.get("expected")
+    for i, ch in enumerate(result["channels"]):
+        conf = f"{ch['confidence']:9.4f}" if ch["confidence"] is not None else f"{'-':>9}"
+        line = (f"{ch['channel']:>3} {ch['amp']:9.4f} {ch['phase']:7.1f} {ch['spread']:9.4f} {conf} "
+                f"{ch['velocity_mm_s_rms']:9.2f}")
+        if expected:
+            line += f"   simulator truth {expected[i]['amp']:.4f} g at {expected[i]['phase']:.1f}"
+        lines.append(line)
+    return "\n".join(lines)
+
+
+def run(args: Any) -> int:
+    if args.revs < 2:
+        raise UsageError(f"--revs {args.revs}: average at least 2 revolutions (20 or more is usual)")
+    if args.timeout <= 0:
+        raise UsageError("--timeout must be a positive number of seconds")
+    if args.rate is not None and not 500 <= args.rate <= 10_000:
+        raise UsageError(f"--rate {args.rate}: the meter samples at 500-10000 Hz per channel")
+    port = _pick_port(args.port)
+    result = _measure(args, port)
+    if args.json:
+        print(json.dumps(result))
+    else:
+        print(_table(result))
+    return 0
