@@ -194,7 +194,7 @@ class VirtualMachine:
             [pk.axial_mm for pk in sc.pickups], [pk.angle_deg for pk in sc.pickups],
         )
         fe = sc.front_end
-        return p / G0_M_PER_S2 * lowpass_response(omega / TWO_PI, fe.lowpass_hz, fe.lowpass_order)
+        return p / G0_M_PER_S2 * lowpass_response(omega / TWO_PI, fe.lowpass_a1_s, fe.lowpass_a2_s2)
 
     def expected_1x(self) -> list[complex]:
         """Noise-free 1x of each physical channel (pickup) in g, ``amp e^{+j lag}``, lag after the
@@ -258,7 +258,7 @@ class VirtualMachine:
         nominal_w = TWO_PI * sc.speed_rpm / 60.0
         harm_scale = (w_mid / nominal_w) ** 2 if nominal_w > 0 else 0.0
         f_line = 2.0 * sc.line_hz
-        h_line = lowpass_response(f_line, fe.lowpass_hz, fe.lowpass_order)
+        h_line = lowpass_response(f_line, fe.lowpass_a1_s, fe.lowpass_a2_s2)
         base_tau = np.arange(n_frames) / rate_hz
         out = np.empty((n_frames, len(channels)))
         for col, ch in enumerate(channels):
@@ -273,7 +273,7 @@ class VirtualMachine:
             sig = (phasor * e1).real
             for order, h in pk.harmonics_g:
                 if harm_scale > 0.0:
-                    g = lowpass_response(order * w_mid / TWO_PI, fe.lowpass_hz, fe.lowpass_order)
+                    g = lowpass_response(order * w_mid / TWO_PI, fe.lowpass_a1_s, fe.lowpass_a2_s2)
                     sig += harm_scale * (np.conj(h) * g * e1**order).real
             if pk.line_g:
                 t_abs = self.t_s + tau

@@ -23,6 +23,7 @@ import cmath
 import math
 from dataclasses import dataclass, field
 
+from runtrue.sim.frontend import METER_A1_S, METER_A2_S2, METER_COUNTS_PER_G
 from runtrue.sim.rotor import RigidRotor, support_for
 
 
@@ -54,14 +55,14 @@ class Pickup:
 
 @dataclass(frozen=True)
 class FrontEnd:
-    """Accelerometer + analog front end + ADC, as the meter's INFO reports them."""
+    """Accelerometer + analog front end + ADC (defaults: the meter's design, hardware/FRONTEND.md)."""
 
-    counts_per_g: float  # ratiometric accelerometer sensitivity at the ADC, counts per g
-    zero_code: int  # ADC code at 0 g (half the reference for a ratiometric part)
+    counts_per_g: float = METER_COUNTS_PER_G  # ratiometric sensitivity at the ADC, counts per g
+    zero_code: int = 2048  # ADC code at 0 g (half the reference for a ratiometric part)
     adc_bits: int = 12
-    lowpass_hz: float = 1000.0  # anti-alias low-pass corner frequency
-    lowpass_order: int = 1  # 1 (RC) or 2 (Butterworth)
-    ref_delay_us: float = 0.0  # delay of the reference-sensor conditioning (comparator, filter)
+    lowpass_a1_s: float = METER_A1_S  # anti-alias filter H = 1/(1 + s a1 + s^2 a2)
+    lowpass_a2_s2: float = METER_A2_S2
+    ref_delay_us: float = 3.0  # reference conditioning + edge-interrupt latency (a few us)
 
 
 @dataclass(frozen=True)
@@ -87,7 +88,7 @@ class Scenario:
     missed_per_rev: float = 0.0  # probability that the mark is not seen on a revolution
     glitch_width_us: float = 30.0
     edge_jitter_us: float = 0.5  # RMS timing jitter of the reference edges
-    front_end: FrontEnd = field(default_factory=lambda: FrontEnd(counts_per_g=372.4, zero_code=2048))
+    front_end: FrontEnd = field(default_factory=FrontEnd)
     tolerance_note: str = ""
 
     @property
@@ -135,7 +136,6 @@ def _fan() -> Scenario:
         ref_angle_deg=90.0, grade=6.3, line_hz=50.0,
         speed_drift_frac=0.002, speed_drift_tau_s=2.0, coast_down_rpm_per_s=60.0,
         glitch_per_rev=0.002, missed_per_rev=0.002,
-        front_end=FrontEnd(counts_per_g=372.4, zero_code=2048, lowpass_hz=1000.0, ref_delay_us=4.0),
         tolerance_note="fans: G 6.3 is usual (ISO 21940-11 table, common practice)",
     )
 
@@ -159,7 +159,6 @@ def _sander() -> Scenario:
         ref_angle_deg=0.0, grade=6.3, line_hz=60.0,
         speed_drift_frac=0.008, speed_drift_tau_s=0.5, coast_down_rpm_per_s=400.0,
         glitch_per_rev=0.01, missed_per_rev=0.003,
-        front_end=FrontEnd(counts_per_g=372.4, zero_code=2048, lowpass_hz=1000.0, ref_delay_us=4.0),
         tolerance_note="G 6.3 for general machinery drums (common practice)",
     )
 
@@ -191,7 +190,6 @@ def _roller() -> Scenario:
         ref_angle_deg=270.0, grade=6.3, line_hz=50.0,
         speed_drift_frac=0.003, speed_drift_tau_s=3.0, coast_down_rpm_per_s=50.0,
         glitch_per_rev=0.002, missed_per_rev=0.002,
-        front_end=FrontEnd(counts_per_g=372.4, zero_code=2048, lowpass_hz=1000.0, ref_delay_us=4.0),
         tolerance_note="rolls: G 6.3 (common practice; check the machine maker's figure)",
     )
 
@@ -208,13 +206,12 @@ def _spindle() -> Scenario:
         name="spindle",
         description="small high-speed spindle, one plane at the nose ring, 12 tapped holes, 24000 rpm",
         rotor=rotor, speed_rpm=24000.0, rotation="cw", viewed_from="tool end",
-        planes=(Plane("nose ring", -40.0, 22.0, 12, "12 tapped holes M3 for set screws", _gmm(4.5, 200.0)),),
+        planes=(Plane("nose ring", -40.0, 22.0, 12, "12 tapped holes M3 for set screws", _gmm(2.5, 200.0)),),
         pickups=(Pickup("front housing, radial", 0.0, 45.0, noise_g=0.05, line_g=0.02,
                         harmonics_g=((2, _gmm(0.05, 10.0)),)),),
         ref_angle_deg=180.0, grade=2.5, line_hz=50.0,
         speed_drift_frac=0.001, speed_drift_tau_s=1.0, coast_down_rpm_per_s=2000.0,
         glitch_per_rev=0.0005, missed_per_rev=0.0005, mark_width_deg=30.0,
-        front_end=FrontEnd(counts_per_g=124.1, zero_code=2048, lowpass_hz=2000.0, ref_delay_us=2.0),
         tolerance_note="spindles: G 2.5 or finer (ISO 21940-11 table, common practice)",
     )
 

@@ -59,7 +59,7 @@ def _isotropic_static_rotor(natural_hz: float):
     sup = support_for(19.0, natural_hz, 0.001)
     rotor = dataclasses.replace(sc.rotor, support_a=sup, support_b=sup, cg_mm=650.0)
     plane = dataclasses.replace(sc.planes[0], axial_mm=650.0, initial_unbalance_gmm=0j)
-    fe = dataclasses.replace(sc.front_end, lowpass_hz=1e9, ref_delay_us=0.0)
+    fe = dataclasses.replace(sc.front_end, lowpass_a1_s=0.0, lowpass_a2_s2=0.0, ref_delay_us=0.0)
     return dataclasses.replace(sc, rotor=rotor, planes=(plane,), front_end=fe)
 
 

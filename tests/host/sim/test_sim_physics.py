@@ -97,13 +97,25 @@ def test_anti_alias_filter_lag_is_in_expected_1x():
     fe = sc.front_end
     m = VirtualMachine(sc, seed=1)
     no_filter = VirtualMachine(
-        dataclasses.replace(sc, front_end=dataclasses.replace(fe, lowpass_hz=1e12)), seed=1
+        dataclasses.replace(sc, front_end=dataclasses.replace(fe, lowpass_a1_s=0.0, lowpass_a2_s2=0.0)), seed=1
     )
     ratio = m.expected_1x()[0] / no_filter.expected_1x()[0]
     f_1x = sc.speed_rpm / 60.0
-    assert ratio == pytest.approx(np.conj(lowpass_response(f_1x, fe.lowpass_hz, fe.lowpass_order)), rel=1e-9)
-    # first-order RC: lag atan(f/fc) (Horowitz and Hill, The Art of Electronics, 3rd ed., 1.7.8 (from memory))
-    assert math.degrees(np.angle(ratio)) == pytest.approx(math.degrees(math.atan(f_1x / fe.lowpass_hz)))
+    assert ratio == pytest.approx(np.conj(lowpass_response(f_1x, fe.lowpass_a1_s, fe.lowpass_a2_s2)), rel=1e-9)
+
+
+def test_meter_front_end_matches_its_design_figures():
+    # hardware/FRONTEND.md (generated table): -3 dB cut-off 872 Hz; 1x lag under 3.5 deg up to
+    # 3,000 rpm.  A single RC section has lag atan(f/fc) (Horowitz and Hill, 3rd ed., 1.7).
+    from runtrue.sim.frontend import METER_A1_S, METER_A2_S2, single_rc_a1
+
+    f = np.linspace(600.0, 1200.0, 60001)
+    gain = np.abs(lowpass_response(f, METER_A1_S, METER_A2_S2))
+    assert f[np.argmin(np.abs(gain - 1 / math.sqrt(2)))] == pytest.approx(872.0, abs=1.0)
+    assert -math.degrees(np.angle(lowpass_response(50.0, METER_A1_S, METER_A2_S2))) < 3.5
+    assert -math.degrees(np.angle(lowpass_response(100.0, single_rc_a1(1000.0)))) == pytest.approx(
+        math.degrees(math.atan(0.1))
+    )
 
 
 def test_edges_come_once_a_revolution_at_the_mark_and_its_trailing_edge():
@@ -154,8 +166,8 @@ def test_speed_drifts_around_nominal_and_coasts_down_at_its_rate():
 
 
 def test_adc_quantises_to_whole_codes_and_clips_at_the_end_stops():
-    a = np.array([0.0, 1.0 / 372.4, 0.4 / 372.4, 0.6 / 372.4, 10.0, -10.0])
-    codes = quantise(a, counts_per_g=372.4, zero_code=2048, adc_bits=12)
+    a = np.array([0.0, 1.0 / 409.6, 0.4 / 409.6, 0.6 / 409.6, 10.0, -10.0])
+    codes = quantise(a, counts_per_g=409.6, zero_code=2048, adc_bits=12)
     assert codes.dtype == np.uint16
     assert codes.tolist() == [2048, 2049, 2048, 2049, 4095, 0]
 
