@@ -24,7 +24,7 @@ No revolution is averaged or merged here: each one is reported with its flags.
 try:
     from micropython import const
 except ImportError:  # CPython
-    def const(x):  # type: ignore[no-redef]
+    def const(x):  # type: ignore[no-redef,misc]
         return x
 
 Q8_MASK = const(0x3FFFFFFF)    # positions are modulo 2**30

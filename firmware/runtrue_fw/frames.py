@@ -18,7 +18,7 @@ import struct
 try:
     from micropython import const
 except ImportError:  # CPython
-    def const(x):  # type: ignore[no-redef]
+    def const(x):  # type: ignore[no-redef,misc]
         return x
 
 PROTO_VERSION = const(1)

@@ -36,7 +36,7 @@ except (SyntaxError, ImportError):   # CPython, or a port without viper (WebAsse
 try:
     from micropython import const
 except ImportError:  # CPython
-    def const(x):  # type: ignore[no-redef]
+    def const(x):  # type: ignore[no-redef,misc]
         return x
 
 RING_FRAMES = const(8192)          # ring per channel (power of two); 48 KiB for 3 channels
@@ -94,7 +94,7 @@ class Meter:
         self._running = False       # board sampling, revolutions analysed
         self._streaming = False     # REV frames sent (after START)
         self._tracker = EdgeTracker()
-        self._pending = []          # (e0_q8, e1_q8, flags, rev)
+        self._pending: list = []    # (e0_q8, e1_q8, flags, rev)
         self._rev_index = 0
         self._drop_seen = 0
         self._drop_active = False
@@ -118,7 +118,7 @@ class Meter:
         self._channel_mask = (1 << self._channels_max) - 1
         self._falling = False
         self._rate_hz = 0.0
-        self._slots = []
+        self._slots: list = []
         self._apply_channels(self._channel_mask, DEFAULT_RATE_HZ)
         hw.set_edge(False)
 
@@ -459,7 +459,8 @@ class Meter:
             full_code=self._full_code, counts_per_g=self._counts_per_g,
             zero_code=self._zero_code,
             dropped=int(self._hw.dropped_samples()) - self._st_dropped0,
-            revs=self._rev_index - self._st_revs0, cpu_permille=int(self._hw.cpu_load_permille()),
+            revs=self._rev_index - self._st_revs0, ref_period_q8=self._tracker.ref_q8,
+            cpu_permille=int(self._hw.cpu_load_permille()),
             ring_stats=ring_stats, fit_sums=fit_sums)
         self._st_active = False
         if self._st_own_sampling:
@@ -487,8 +488,8 @@ def selftest_frames(result: dict) -> list:
     joins the checks of parts 0..n-1.
     """
     checks = result["checks"]
-    groups = []
-    cur = []
+    groups: list = []
+    cur: list = []
     for c in checks:
         trial = cur + [c]
         probe = {"pass": result["pass"], "checks": trial, "part": 99, "parts": 99}

@@ -20,7 +20,7 @@ def _round(v: float, digits: int) -> float:
 
 def run_checks(*, ring, ring_frames: int, end_frame: int, frames: int, elapsed_ms: int,
                rate_hz: float, slots: list, full_code: int, counts_per_g: list,
-               zero_code: list, dropped: int, revs: int, cpu_permille: int,
+               zero_code: list, dropped: int, revs: int, ref_period_q8: int, cpu_permille: int,
                ring_stats, fit_sums) -> dict:
     """Return {"pass": bool, "checks": [...]} (PROTOCOL.md, SELFTEST)."""
     checks = []
@@ -59,7 +59,7 @@ def run_checks(*, ring, ring_frames: int, end_frame: int, frames: int, elapsed_m
             checks.append(_check(name, False, 0.0, "g", "flat: sensor unplugged?"))
         else:
             checks.append(_check(name, True, _round(rms_g, 4), "g"))
-    rpm = revs * 60000.0 / elapsed_ms if elapsed_ms > 0 else 0.0
+    rpm = 60.0 * rate_hz * 256.0 / ref_period_q8 if revs > 0 and ref_period_q8 > 0 else 0.0
     checks.append(_check("reference", True, _round(rpm, 5), "rpm",
                          "" if revs > 0 else "no edges: machine stopped or mark not seen"))
     ok_all = True
