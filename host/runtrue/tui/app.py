@@ -8,6 +8,7 @@ session state and tells the current screen.
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any, Callable
 
 from textual.app import App
@@ -54,6 +55,8 @@ class RuntrueApp(App):
         revs_per_reading: int = 32,
         opener: Callable[..., Any] | None = None,
         post_interval_s: float = 0.25,
+        auto_take: bool = False,
+        report_dir: str | None = None,
     ) -> None:
         super().__init__()
         self.session = Session(
@@ -63,6 +66,10 @@ class RuntrueApp(App):
         self.auto_connect = port is None  # default: the first meter found
         self._opener = opener
         self._post_interval_s = post_interval_s
+        self.report_dir = report_dir or str(Path.cwd() / "reports")
+        self.auto_take = auto_take  # live screen takes each reading by itself once steady
+        self.ticked: set[str] = set()  # fitting list items ticked off for the coming run
+        self._fitter: Any = None  # runtrue.jobs.headless.VirtualRotorFitter for a simulated rotor
 
     # -- start and stop -------------------------------------------------------------------------
     def on_mount(self) -> None:
@@ -101,6 +108,46 @@ class RuntrueApp(App):
             )
             s.link.start()
         self._tell_screen(None)
+
+    def use_channels(self, n_pickups: int) -> bool:
+        """Make the meter measure one channel per pickup; False (and a message) if it cannot."""
+        s = self.session
+        if s.manual or s.link is None:
+            return True
+        info = s.device_info
+        channels_max = int(info.get("channels_max", 3) or 3)
+        if n_pickups > channels_max:
+            self.notify(
+                f"The meter has {channels_max} channel(s) but {n_pickups} pickups are described: "
+                "describe at most one pickup per channel.",
+                title="Check the pickups",
+                severity="error",
+                timeout=8,
+            )
+            return False
+        mask = (1 << n_pickups) - 1
+        if int(info.get("channel_mask", 0) or 0) != mask:
+
+            def set_channels(client: Any) -> None:
+                client.set_channels(mask)
+
+            s.link.call(set_channels)
+            info["channel_mask"] = mask
+        return True
+
+    def fit_on_simulator(self, wanted: list[Any]) -> int:
+        """Put exactly ``wanted`` (job weights) on the simulated rotor, by their geometry, in the
+        link's thread; returns the epoch of the revolutions measured after the change."""
+
+        def fit(client: Any) -> None:
+            from runtrue.jobs.headless import VirtualRotorFitter
+
+            rotor = client.transport.machine
+            if self._fitter is None or self._fitter.machine is not rotor:
+                self._fitter = VirtualRotorFitter(rotor)
+            self._fitter.fit(list(wanted))
+
+        return self.session.link.call(fit)
 
     def _tell_screen(self, message: object) -> None:
         screen = self.screen
@@ -145,7 +192,7 @@ class RuntrueApp(App):
         self._tell_screen(message)
 
     def on_revolutions_read(self, message: RevolutionsRead) -> None:
-        self.session.live.add(message.revs, message.lost_frames)
+        self.session.live.add(message.revs, message.lost_frames, message.epoch)
         self._tell_screen(message)
 
     def on_self_test_done(self, message: SelfTestDone) -> None:

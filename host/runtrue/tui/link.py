@@ -72,6 +72,9 @@ class MeterLink:
         self.info: dict[str, Any] = {}
         self.connected = False
         self._thread: threading.Thread | None = None
+        self._epoch_lock = threading.Lock()
+        self._epoch_requested = 0
+        self.epoch = 0
 
     # ---- requests from the interface (any thread) ----
     def start(self) -> None:
@@ -86,9 +89,16 @@ class MeterLink:
     def self_test(self) -> None:
         self._requests.put(("selftest", None))
 
-    def call(self, fn: Callable[[Any], object]) -> None:
-        """Run ``fn(client)`` in the worker thread (e.g. change weights on a simulated rotor)."""
-        self._requests.put(("call", fn))
+    def call(self, fn: Callable[[Any], object]) -> int:
+        """Run ``fn(client)`` in the worker thread (e.g. change weights on a simulated rotor).
+
+        Returns the epoch that revolutions read after ``fn`` will carry: the revolutions
+        already queued are thrown away, so a reading never mixes states of the rotor."""
+        with self._epoch_lock:
+            self._epoch_requested += 1
+            epoch = self._epoch_requested
+        self._requests.put(("call", (fn, epoch)))
+        return epoch
 
     def close(self, timeout_s: float = 2.0) -> None:
         self._stop.set()
@@ -201,16 +211,25 @@ class MeterLink:
                 if was:
                     client.start()
             elif kind == "call":
-                arg(client)
+                fn, epoch = arg
+                if batch:
+                    batch = []  # measured before the change: never mixed into a reading
+                try:
+                    fn(client)
+                finally:
+                    discard = getattr(client, "discard_revolutions", None)
+                    if discard is not None:
+                        discard()
+                    self.epoch = epoch
             if self._streaming:
                 rev = client.read_revolution(timeout_s=0.1)
                 if rev is not None:
                     batch.append(rev)
                 now = time.monotonic()
                 if batch and (now - last_post >= self.post_interval_s or len(batch) >= 200):
-                    self._post(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0))))
+                    self._post(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0)), self.epoch))
                     batch = []
                     last_post = now
             elif batch:
-                self._post(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0))))
+                self._post(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0)), self.epoch))
                 batch = []

@@ -32,9 +32,20 @@ class LiveState:
         self.started_at = 0.0
         self._rate_window: deque[float] = deque(maxlen=40)
         self.done: Any = None  # the Reading when complete
+        self.min_epoch = 0  # batches from before the rotor last changed are ignored
 
     # -- feeding ----------------------------------------------------------------------------------
-    def add(self, revs: list[Any], lost_frames: int = 0) -> None:
+    def reset(self, min_epoch: int | None = None) -> None:
+        """Forget the recent revolutions (the rotor changed); keep counters."""
+        self.recent.clear()
+        self.cancel()
+        self.done = None
+        if min_epoch is not None:
+            self.min_epoch = min_epoch
+
+    def add(self, revs: list[Any], lost_frames: int = 0, epoch: int = 0) -> None:
+        if epoch < self.min_epoch:
+            return
         now = self.clock()
         self.lost_frames = lost_frames
         for rev in revs:

@@ -13,8 +13,6 @@ from __future__ import annotations
 
 import math
 import re
-from typing import Any
-
 from runtrue.jobs.model import Machine, Pickup, PlaneSpec, StockPiece, StripSpec
 
 FIELDS: tuple[tuple[str, str, str], ...] = (
@@ -179,37 +177,3 @@ def fields_from_machine(m: Machine) -> dict[str, str]:
     for i in range(m.n_planes + 1, 3):
         out[f"p{i}_radius"] = out[f"p{i}_pos"] = out[f"p{i}_first"] = ""
     return out
-
-
-def rotation_from_drive_end(rotation: str, viewed_from: str) -> str:
-    """A scenario's rotation seen from ``viewed_from`` -> seen from the drive end."""
-    v = viewed_from.lower()
-    if "drive" in v or "motor" in v:
-        return rotation
-    return "ccw" if rotation == "cw" else "cw"
-
-
-def machine_from_scenario(sc: Any) -> Machine:
-    """A new machine describing a simulator scenario (what a user would type for it)."""
-    planes = []
-    for p in sc.planes:
-        if p.positions is None:
-            planes.append(PlaneSpec(radius_mm=p.radius_mm, name=p.name, continuous=True))
-        else:
-            planes.append(
-                PlaneSpec(radius_mm=p.radius_mm, name=p.name, count=p.positions, first_angle_deg=p.first_position_deg)
-            )
-    stock = [StockPiece(1.0, 6), StockPiece(2.0, 6), StockPiece(5.0, 6), StockPiece(10.0, 4)]
-    if sc.rotor_mass_kg < 3:
-        stock = [StockPiece(0.1, 6), StockPiece(0.2, 6), StockPiece(0.5, 6), StockPiece(1.0, 4)]
-    return Machine(
-        name=f"sim {sc.name}",
-        rotor_mass_kg=round(float(sc.rotor_mass_kg), 2),
-        speed_rpm=float(sc.speed_rpm),
-        planes=planes,
-        rotation=rotation_from_drive_end(sc.rotation, sc.viewed_from),  # type: ignore[arg-type]
-        grade=f"G{sc.grade:g}",
-        pickups=[Pickup(p.name) for p in sc.pickups],
-        stock=stock,
-        notes=sc.description,
-    )

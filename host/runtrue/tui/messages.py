@@ -31,6 +31,7 @@ class RevolutionsRead(_Msg):
 
     revs: list[Any] = field(default_factory=list)
     lost_frames: int = 0
+    epoch: int = 0  # bumped by every MeterLink.call (e.g. weights changed on a simulated rotor)
 
 
 @dataclass(eq=False)

@@ -14,7 +14,7 @@ from textual.widget import Widget
 from textual.widgets import Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
-from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields, machine_from_scenario
+from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields
 from runtrue.tui.screens.base import StepScreen
 
 NEW = "new"
@@ -72,9 +72,9 @@ class MachineScreen(StepScreen):
             self._load(self.session.machine)
         elif port.startswith("sim:"):
             try:
-                from runtrue.sim.scenarios import get_scenario
+                from runtrue.jobs.demo_machine import machine_for_scenario
 
-                m = machine_from_scenario(get_scenario(port[4:]))
+                m = machine_for_scenario(port[4:])
                 saved = self.session.store.get_machine(m.name)
                 self._load(saved or m)
             except Exception as exc:  # noqa: BLE001
@@ -157,18 +157,9 @@ class MachineScreen(StepScreen):
             self.notify(str(exc), title="Check the machine", severity="error", timeout=6)
             self.query_one("#f_name", Input).focus()
             return
-        if self.session.manual is False and self.session.device_info:
-            n_ch = bin(int(self.session.device_info.get("channel_mask", 1))).count("1")
-            if n_ch != machine.n_pickups:
-                self.notify(
-                    f"The meter measures {n_ch} channel(s) but {machine.n_pickups} pickup(s) are described: "
-                    "give one pickup label per channel.",
-                    title="Check the pickups",
-                    severity="error",
-                    timeout=8,
-                )
-                self.query_one("#f_pickups", Input).focus()
-                return
+        if not self.rt_app.use_channels(machine.n_pickups):
+            self.query_one("#f_pickups", Input).focus()
+            return
         from runtrue.jobs import BalanceJob
 
         self.session.machine = machine
@@ -182,6 +173,8 @@ class MachineScreen(StepScreen):
             job = BalanceJob.resume(self.session.store, job_id)
         except ValueError as exc:
             self.notify(str(exc), severity="error")
+            return
+        if not self.rt_app.use_channels(job.machine.n_pickups):
             return
         self.session.machine = job.machine
         self.session.job = job

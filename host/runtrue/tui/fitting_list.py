@@ -1,0 +1,73 @@
+"""What the fitter must do before the next run, as a tick-off list: weights to take off, then
+weights to fit, each with where (position, angle against rotation from the mark, radius), what
+(pieces or strip), and the centrifugal force it must withstand at running speed.
+
+Derived from the job (``runtrue.jobs.BalanceJob``): the weights on the rotor now (its last run)
+against ``planned_weights()`` for the next run; for a correction or trim, the allocator's
+fitting sheet gives the pieces.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from runtrue.tui.format import DEG, centrifugal_force_n, force_text, mass_text
+
+
+@dataclass(frozen=True)
+class FitItem:
+    key: str  # stable id for the tick-off list
+    plane: int
+    letter: str  # shown on the dial
+    angle_deg: float
+    remove: bool
+    text: str
+
+
+def _multiset_minus(a: list[Any], b: list[Any]) -> list[Any]:
+    rest = list(b)
+    out = []
+    for x in a:
+        if x in rest:
+            rest.remove(x)
+        else:
+            out.append(x)
+    return out
+
+
+def fit_items(job: Any) -> list[FitItem]:
+    on = list(job.runs[-1].weights) if job.runs else []
+    planned = list(job.planned_weights())
+    remove = _multiset_minus(on, planned)
+    add = _multiset_minus(planned, on)
+    speed = job.machine.speed_rpm
+    sheet_rows: dict[int, list[Any]] = {}
+    plan = job.state.plan
+    if plan is not None:
+        for pc in plan.planes:
+            sheet_rows[pc.plane] = [r for r in pc.sheet if getattr(r, "action", "fit") == "fit"]
+    items: list[FitItem] = []
+    for k, w in enumerate(remove):
+        items.append(
+            FitItem(f"r{k}", w.plane, "x", w.angle_deg, True,
+                    f"TAKE OFF {mass_text(w.mass_g)}: {w.label or 'weight'}\n"
+                    f"  plane {w.plane} at {w.angle_deg:.1f}{DEG}, r {w.radius_mm:g} mm")
+        )
+    letters = "ABCDEFGHIJKLMNOPQRSTUVWXYZ"
+    used: dict[int, int] = {}
+    for k, w in enumerate(add):
+        rows = sheet_rows.get(w.plane, [])
+        n = used.get(w.plane, 0)
+        row = rows[n] if n < len(rows) else None
+        used[w.plane] = n + 1
+        force = centrifugal_force_n(w.mass_g, w.radius_mm, speed)
+        where = f"pos {row.number} " if row is not None and row.number is not None else ""
+        what = f" = {row.what}" if row is not None and row.what else ""
+        items.append(
+            FitItem(f"a{k}", w.plane, letters[k % 26], w.angle_deg, False,
+                    f"{letters[k % 26]} FIT {mass_text(w.mass_g)}{what}\n"
+                    f"  plane {w.plane} {where}at {w.angle_deg:.1f}{DEG}, r {w.radius_mm:g} mm\n"
+                    f"  secure for {force_text(force)}")
+        )
+    return items

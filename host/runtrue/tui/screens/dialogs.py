@@ -1,0 +1,114 @@
+"""Small pop-ups: a reading typed in from another instrument, and choosing the trial weight."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Input, Label, Static
+
+from runtrue.tui.format import DEG
+
+
+def parse_float(text: str, what: str, *, minimum: float | None = 0.0) -> float:
+    t = text.strip().replace(",", ".")
+    try:
+        v = float(t)
+    except ValueError:
+        raise ValueError(f"{what}: write a number (got {t!r})") from None
+    if v != v or v in (float("inf"), float("-inf")):
+        raise ValueError(f"{what}: write a finite number")
+    if minimum is not None and v < minimum:
+        raise ValueError(f"{what} must be at least {minimum:g}")
+    return v
+
+
+class _Form(ModalScreen[Any]):
+    """A titled column of labelled one-line inputs; Enter submits, Esc cancels."""
+
+    BINDINGS = [Binding("escape", "dismiss(None)", "Cancel"), Binding("enter", "submit", "OK", priority=True)]
+    TITLE_TEXT = ""
+    NOTE = ""
+
+    def fields(self) -> list[tuple[str, str, str]]:  # (id, label, initial value)
+        return []
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="form-box"):
+            yield Static(self.TITLE_TEXT, classes="pane-title", markup=False)
+            for fid, label, value in self.fields():
+                with Horizontal(classes="field"):
+                    yield Label(label, classes="field-label")
+                    yield Input(value=value, id=fid, compact=True)
+            yield Static(self.NOTE + "\nEnter: OK   Esc: cancel", classes="note", markup=False)
+
+    def value(self, fid: str) -> str:
+        return self.query_one(f"#{fid}", Input).value
+
+    def action_submit(self) -> None:
+        try:
+            result = self.build()
+        except ValueError as exc:
+            self.notify(str(exc), severity="error", title="Check the numbers")
+            return
+        self.dismiss(result)
+
+    def build(self) -> Any:
+        raise NotImplementedError
+
+
+class ManualReadingForm(_Form):
+    """Readings read off another instrument: 1x amplitude and phase lag per pickup, and speed."""
+
+    TITLE_TEXT = "Type the reading (from another instrument)"
+    NOTE = (
+        f"Amplitude: 1x peak, any one unit, the same for every run. Phase: lag after the reference "
+        f"mark, 0-360{DEG}, as your instrument shows it with the same mark."
+    )
+
+    def __init__(self, labels: list[str], speed_rpm: float) -> None:
+        super().__init__()
+        self.labels = labels
+        self.speed_rpm = speed_rpm
+
+    def fields(self) -> list[tuple[str, str, str]]:
+        out = [("speed", "Speed rpm", f"{self.speed_rpm:g}")]
+        for i, label in enumerate(self.labels):
+            out.append((f"amp{i}", f"{i + 1} {label[:10]} amp", ""))
+            out.append((f"phase{i}", f"{i + 1} {label[:10]} phase", ""))
+        return out
+
+    def build(self) -> Any:
+        from runtrue.jobs.model import RunReading
+
+        speed = parse_float(self.value("speed"), "speed (rpm)", minimum=1.0)
+        amps = [parse_float(self.value(f"amp{i}"), f"pickup {i + 1} amplitude") for i in range(len(self.labels))]
+        phases = [
+            parse_float(self.value(f"phase{i}"), f"pickup {i + 1} phase", minimum=None) % 360.0
+            for i in range(len(self.labels))
+        ]
+        return RunReading.manual(amps, phases, speed)
+
+
+class TrialWeightForm(_Form):
+    """Choose the trial weight's mass and angle (instead of the suggestion)."""
+
+    TITLE_TEXT = "Trial weight"
+    NOTE = "Angle: degrees from the reference mark, against rotation."
+
+    def __init__(self, mass_g: float, angle_deg: float) -> None:
+        super().__init__()
+        self.mass_g = mass_g
+        self.angle_deg = angle_deg
+
+    def fields(self) -> list[tuple[str, str, str]]:
+        return [("mass", "Mass g", f"{self.mass_g:g}"), ("angle", f"Angle {DEG}", f"{self.angle_deg:g}")]
+
+    def build(self) -> tuple[float, float]:
+        mass = parse_float(self.value("mass"), "trial mass (g)")
+        if mass <= 0:
+            raise ValueError("trial mass must be more than 0 g")
+        return mass, parse_float(self.value("angle"), "angle", minimum=None) % 360.0

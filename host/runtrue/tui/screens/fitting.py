@@ -1,0 +1,95 @@
+"""Fitting: where each weight goes, on a dial of the rotor face with the reference mark and the
+direction of rotation, and a list to tick off as each weight is taken off or fitted.
+
+Convention (said on the screen): angles from the reference mark against rotation; the dial is
+drawn as seen from the drive end.
+"""
+
+from __future__ import annotations
+
+from typing import Iterable
+
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.widget import Widget
+from textual.widgets import SelectionList, Static
+from textual.widgets.selection_list import Selection
+
+from runtrue.tui.fitting_list import FitItem, fit_items
+from runtrue.tui.format import SAFETY_FIT, rotation_words
+from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.widgets.dial import DialData, FittingDial
+
+
+class FittingScreen(StepScreen):
+    STEP = "5 Fitting"
+    BINDINGS = [
+        Binding("p", "plane", "Next plane"),
+        Binding("escape", "back", "Back to runs"),
+    ]
+
+    def compose_body(self) -> Iterable[Widget]:
+        with Horizontal(id="fit-body"):
+            with Vertical(id="fit-left"):
+                yield Static("", id="fit-plane", classes="pane-title", markup=False)
+                yield FittingDial(id="fit-dial")
+            with Vertical(id="fit-right"):
+                yield Static("Tick each one off (Space)", classes="pane-title")
+                yield SelectionList[str](id="fit-list")
+                yield Static("", id="fit-convention", classes="note", markup=False)
+        yield Static(SAFETY_FIT, id="caution", classes="caution", markup=False)
+
+    def on_mount(self) -> None:
+        super().on_mount()
+        job = self.session.job
+        self.items: list[FitItem] = fit_items(job) if job is not None else []
+        self.ticked: set[str] = self.rt_app.ticked
+        self.plane = min((i.plane for i in self.items), default=1)
+        sl = self.query_one("#fit-list", SelectionList)
+        for item in self.items:
+            sl.add_option(Selection(item.text, item.key, item.key in self.ticked))
+        if not self.items:
+            sl.add_option(Selection("Nothing to fit or take off for this run.", "none", disabled=True))
+        m = job.machine if job is not None else None
+        if m is not None:
+            self.query_one("#fit-convention", Static).update(
+                f"Angles from the mark, against rotation. Rotor turns {rotation_words(m.rotation)} "
+                "seen from the drive end (dial drawn from there)."
+            )
+        sl.focus()
+        self._draw_dial()
+
+    def _draw_dial(self) -> None:
+        job = self.session.job
+        if job is None:
+            return
+        m = job.machine
+        spec = m.planes[self.plane - 1]
+        placements = [
+            (i.letter, i.angle_deg, i.key in self.ticked) for i in self.items if i.plane == self.plane
+        ]
+        where = "any angle" if spec.continuous else f"{len(spec.position_angles_deg() or [])} positions"
+        self.query_one("#fit-plane", Static).update(
+            f"Plane {self.plane}/{m.n_planes}: r {spec.radius_mm:g} mm, {where}"
+        )
+        self.query_one(FittingDial).show(
+            DialData(m.rotation, spec.position_angles_deg() or [], placements)
+        )
+
+    def on_selection_list_selected_changed(self, event: SelectionList.SelectedChanged) -> None:
+        self.ticked.clear()
+        self.ticked.update(str(v) for v in event.selection_list.selected)
+        self._draw_dial()
+        if self.items and len(self.ticked & {i.key for i in self.items}) == len(self.items):
+            self.notify("All done. Tools and loose parts off the rotor, guards on, stand clear, then take the reading.",
+                        title="Ready to run", timeout=5)
+
+    def action_plane(self) -> None:
+        job = self.session.job
+        if job is None:
+            return
+        self.plane = self.plane % job.machine.n_planes + 1
+        self._draw_dial()
+
+    def action_back(self) -> None:
+        self.dismiss(None)

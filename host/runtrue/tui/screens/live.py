@@ -1,0 +1,166 @@
+"""Live readings: per pickup the 1x amplitude and phase lag, speed, steadiness, the scatter of
+recent revolutions on a polar plot, 2x and overall values; and taking a reading - on a key, or
+automatically once the readings have settled - with progress and time left.
+
+The screen redraws from the session on a timer (four times a second at most: light over SSH);
+revolutions arrive from the meter link's thread as messages handled by the App.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Iterable
+
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.widget import Widget
+from textual.widgets import Static
+
+from runtrue.tui.format import DEG, PHASE_NOTE, amp_text, bar, time_left_text
+from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.widgets.polar import PolarData, PolarPlot
+
+REFRESH_S = 0.25  # redraw period: a few times a second is enough, and kind to a Pi over SSH
+
+
+def channel_rows(reading: Any) -> list[str]:
+    """One line per pickup: 1x amp and phase, 1x velocity, 2x, overall (RMS x sqrt 2)."""
+    from runtrue.readings.units import accel_g_to_velocity_mm_s
+
+    rows = [f"{'ch':<2} {'1x amp':>9} {'phase':>6} {'mm/s':>6} {'2x':>8} {'overall':>8}"]
+    if reading is None:
+        rows.append("(no revolutions yet)")
+        return rows
+    for i, ch in enumerate(reading.channels):
+        vel = accel_g_to_velocity_mm_s(ch.amp_g, reading.speed_rpm) if reading.speed_rpm > 0 else math.nan
+        rows.append(
+            f"{i + 1:<2} {amp_text(ch.amp_g):>9} {ch.phase_deg:5.1f}{DEG} {vel:6.2f} "
+            f"{amp_text(abs(ch.h2)):>8} {amp_text(ch.rms_g * math.sqrt(2)):>8}"
+        )
+    return rows
+
+
+class LiveScreen(StepScreen):
+    """Shows the meter live; dismisses with the taken ``Reading`` (or None when backed out)."""
+
+    STEP = "3 Live readings"
+    BINDINGS = [
+        Binding("space", "take", "Take reading"),
+        Binding("a", "auto", "Take when steady"),
+        Binding("c", "channel", "Next channel"),
+        Binding("escape", "back", "Back"),
+    ]
+
+    def __init__(self, purpose: str = "", *, marks: list[list[tuple[str, complex]]] | None = None,
+                 auto: bool = False) -> None:
+        super().__init__()
+        self.purpose = purpose
+        self.marks = marks or []
+        self.channel = 0
+        self._auto = auto
+
+    def _title_text(self) -> str:
+        return f" runtrue | {self.STEP}" + (f": {self.purpose}" if self.purpose else "")
+
+    def compose_body(self) -> Iterable[Widget]:
+        yield Static("", id="live-status", markup=False)
+        with Horizontal(id="live-body"):
+            with Vertical(id="live-left"):
+                yield Static("", id="live-table", markup=False)
+                yield Static("", id="live-notes", classes="note", markup=False)
+            yield PolarPlot(id="live-polar")
+        yield Static("", id="live-progress", markup=False)
+
+    def on_mount(self) -> None:
+        super().on_mount()
+        s = self.session
+        if s.link is not None:
+            s.link.stream(True)
+        if self._auto:
+            self.action_auto()
+        self._redraw()
+        self.set_interval(REFRESH_S, self._tick)
+
+    def on_unmount(self) -> None:
+        s = self.session
+        s.live.cancel()
+        if s.link is not None:
+            s.link.stream(False)
+
+    def _tick(self) -> None:
+        live = self.session.live
+        if live.done is not None:
+            reading, live.done = live.done, None
+            self.dismiss(reading)
+            return
+        self._redraw()
+
+    def _labels(self) -> list[str]:
+        m = self.session.machine
+        return [p.label for p in m.pickups] if m is not None else []
+
+    def _redraw(self) -> None:
+        s = self.session
+        live = s.live
+        reading = live.window_reading()
+        speed = live.speed_rpm()
+        st = live.steadiness()
+        speed_txt = f"{speed:7.1f} rpm" if math.isfinite(speed) else "  --- rpm"
+        steady_txt = "STEADY" if st.steady else "settling"
+        self.query_one("#live-status", Static).update(
+            f"{speed_txt}  steadiness {bar(st.score, 8)} {steady_txt:<8}  revs {live.total_revs}"
+            f"  flagged {live.unusable_revs}  lost {live.lost_frames}"
+        )
+        self.query_one("#live-table", Static).update("\n".join(channel_rows(reading)))
+        notes = [f"ch {i + 1}: {label}" for i, label in enumerate(self._labels())]
+        notes.append(PHASE_NOTE + "; amplitudes are peak; overall = RMS x 1.414.")
+        if not st.steady:
+            notes.append(f"Not steady yet: {st.reason}.")
+        if "LOST" in s.meter_state:
+            notes.append("METER LOST: check the USB cable. The job is kept; it reconnects by itself.")
+        self.query_one("#live-notes", Static).update("\n".join(notes))
+        n_ch = live.n_channels()
+        if n_ch:
+            self.channel %= n_ch
+            ch_marks = self.marks[self.channel] if self.channel < len(self.marks) else []
+            mean = reading.channels[self.channel].mean if reading is not None else None
+            self.query_one(PolarPlot).show(PolarData(live.scatter(self.channel), mean, ch_marks))
+        self.query_one("#live-progress", Static).update(self._progress_text())
+
+    def _progress_text(self) -> str:
+        live = self.session.live
+        if live.waiting_for_steady:
+            return "Waiting for steady readings, then the reading is taken by itself (Esc: back)."
+        if live.collecting:
+            n, target, left = live.progress()
+            return f"Taking reading {bar(n / target, 20)} {n}/{target} revs  time left {time_left_text(left)}"
+        return f"Space: take a reading of {self.session.revs_per_reading} revolutions now; a: when steady."
+
+    def action_take(self) -> None:
+        if not self._can_take():
+            return
+        self.session.live.start_taking(self.session.revs_per_reading)
+        self._redraw()
+
+    def action_auto(self) -> None:
+        if not self._can_take():
+            return
+        self.session.live.start_taking(self.session.revs_per_reading, when_steady=True)
+        self._redraw()
+
+    def _can_take(self) -> bool:
+        s = self.session
+        if s.link is None or not s.link.connected:
+            self.notify("No meter: wait for it to reconnect (see the title bar).", severity="warning")
+            return False
+        return True
+
+    def action_channel(self) -> None:
+        self.channel += 1
+        self._redraw()
+
+    def action_back(self) -> None:
+        self.dismiss(None)
+
+    def meter_event(self, message: object) -> None:
+        pass  # redrawn by the timer

@@ -1,0 +1,116 @@
+"""Result: before and after per pickup, residual unbalance against the permissible value per
+plane with pass or fail, the weights left on the rotor; write the HTML report and the CSV/JSON
+export of the runs (both from ``runtrue.jobs``).
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from pathlib import Path
+from typing import Iterable
+
+from textual.binding import Binding
+from textual.containers import VerticalScroll
+from textual.widget import Widget
+from textual.widgets import Static
+
+from runtrue.tui.format import ANGLE_NOTE, PHASE_NOTE
+from runtrue.tui.result_text import channel_lines, plane_lines, verdict, weights_lines
+from runtrue.tui.screens.base import StepScreen
+
+
+def _slug(name: str) -> str:
+    return re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-").lower() or "machine"
+
+
+class ResultScreen(StepScreen):
+    STEP = "6 Result"
+    BINDINGS = [
+        Binding("h", "report", "HTML report"),
+        Binding("e", "export", "Export CSV+JSON"),
+        Binding("b", "back", "Back to runs"),
+        Binding("n", "new_job", "New job"),
+        Binding("q", "app.quit", "Quit"),
+    ]
+
+    def compose_body(self) -> Iterable[Widget]:
+        yield Static("", id="verdict", markup=False)
+        with VerticalScroll(id="result-body"):
+            yield Static("", id="result-text", markup=False)
+        yield Static("", id="hint", markup=False)
+
+    def on_mount(self) -> None:
+        super().on_mount()
+        self.redraw()
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        job = self.session.job
+        if action == "back":
+            return True if job is not None and job.state.step != "done" else None
+        return True
+
+    def redraw(self) -> None:
+        job = self.session.job
+        if job is None:
+            self.query_one("#result-text", Static).update("No job yet.")
+            return
+        res = job.result()
+        cls, sentence = verdict(res)
+        v = self.query_one("#verdict", Static)
+        v.update(f" {sentence}")
+        v.set_classes(cls)
+        lines = [f"{res.machine_name}, job {res.job_id}: {res.runs} run(s), {res.speed_rpm:g} rpm, status {res.status}"]
+        lines += [""] + channel_lines(res)
+        lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res)
+        lines += ["", "Weights added (on the rotor now):"] + weights_lines(res)
+        if res.warnings:
+            lines += ["", "Notes:"] + [f"- {w}" for w in res.warnings]
+        lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}. Amplitudes 1x peak."]
+        self.query_one("#result-text", Static).update("\n".join(lines))
+        self.query_one("#hint", Static).update("h: write the HTML report   e: CSV + JSON export of the runs")
+
+    def _out_path(self, suffix: str) -> Path:
+        job = self.session.job
+        folder = Path(self.rt_app.report_dir)
+        folder.mkdir(parents=True, exist_ok=True)
+        return folder / f"job-{job.job_id}-{_slug(job.machine.name)}{suffix}"
+
+    def action_report(self) -> None:
+        from runtrue.jobs.report import render_html
+
+        job = self.session.job
+        if job is None:
+            return
+        try:
+            path = self._out_path(".html")
+            path.write_text(render_html(self.session.store, job.job_id), encoding="utf-8")
+        except (OSError, ValueError) as exc:
+            self.notify(f"Report not written: {exc}", severity="error", timeout=8)
+            return
+        self.query_one("#hint", Static).update(f"Report written: {path}")
+        self.notify(f"Report written: {path}", title="Report", timeout=6)
+
+    def action_export(self) -> None:
+        from runtrue.jobs.export import job_json, runs_csv
+
+        job = self.session.job
+        if job is None:
+            return
+        try:
+            csv_path = self._out_path("-runs.csv")
+            csv_path.write_text(runs_csv(self.session.store, job.job_id), encoding="utf-8")
+            json_path = self._out_path(".json")
+            json_path.write_text(json.dumps(job_json(self.session.store, job.job_id), indent=2), encoding="utf-8")
+        except (OSError, ValueError) as exc:
+            self.notify(f"Export not written: {exc}", severity="error", timeout=8)
+            return
+        self.query_one("#hint", Static).update(f"Written: {csv_path.name}, {json_path.name} in {csv_path.parent}")
+        self.notify(f"Exported to {csv_path.parent}", title="Export", timeout=6)
+
+    def action_back(self) -> None:
+        self.rt_app.show_runs()
+
+    def action_new_job(self) -> None:
+        self.session.job = None
+        self.rt_app.show_machine()

@@ -1,0 +1,242 @@
+"""Balancing runs: reference -> trial (per plane) -> correction -> trims, one step at a time.
+
+Every step says what to do physically (from ``BalanceJob.instructions()``, which carries the
+angle convention and the cautions), shows the runs taken so far, and takes the next reading
+(live from the meter, or typed in from another instrument).  On the simulator the weights the
+user is told to fit are put on the virtual rotor, by their geometry, before each reading.
+"""
+
+from __future__ import annotations
+
+import time
+from typing import Any, Iterable
+
+from rich.text import Text
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.widget import Widget
+from textual.widgets import Static
+
+from runtrue.tui.format import DEG, SAFETY_FIT, SAFETY_START, amp_text
+from runtrue.tui.screens.base import StepScreen
+
+RUN_LETTER = {"reference": "R", "trial": "T", "correction": "C", "trim": "t"}
+
+
+def step_names(n_planes: int) -> list[str]:
+    trials = ["trial"] if n_planes == 1 else [f"trial {p}" for p in range(1, n_planes + 1)]
+    return ["reference", *trials, "correction", "trim", "done"]
+
+
+def current_step_name(job: Any) -> str:
+    s = job.state
+    if s.step == "trial" and job.machine.n_planes > 1:
+        return f"trial {s.plane}"
+    return str(s.step)
+
+
+def step_bar(job: Any) -> Text:
+    names = step_names(job.machine.n_planes)
+    now = current_step_name(job)
+    idx = names.index(now) if now in names else 0
+    text = Text(" ")
+    for i, name in enumerate(names):
+        if i:
+            text.append(" > ", "dim")
+        if i < idx:
+            text.append(name, "green")
+        elif i == idx:
+            text.append(f" {name} ", "bold reverse")
+        else:
+            text.append(name, "dim")
+    return text
+
+
+def runs_lines(job: Any) -> list[str]:
+    """The runs so far: number, kind, and each pickup's 1x as amp@phase."""
+    lines = []
+    for r in job.runs:
+        head = f"{r.seq:>2} {r.kind[:5]:<5}"
+        for i, ch in enumerate(r.reading.channels):
+            prefix = head if i == 0 else " " * len(head)
+            lines.append(f"{prefix} {amp_text(ch.amp_g)} {ch.phase_deg:3.0f}{DEG}")
+    return lines or ["(no runs yet)"]
+
+
+def polar_marks(job: Any) -> list[list[tuple[str, complex]]]:
+    """Earlier runs as letters on each channel's polar plot (R reference, T trial, C correction, t trim)."""
+    out: list[list[tuple[str, complex]]] = [[] for _ in range(job.machine.n_pickups)]
+    for r in job.runs:
+        for i, ch in enumerate(r.reading.channels[: len(out)]):
+            out[i].append((RUN_LETTER.get(r.kind, "?"), ch.mean))
+    return out
+
+
+class RunsScreen(StepScreen):
+    STEP = "4 Balancing runs"
+    BINDINGS = [
+        Binding("r", "reading", "Take reading"),
+        Binding("f", "fitting", "Fitting"),
+        Binding("w", "trial", "Trial weight"),
+        Binding("a", "accept", "Accept trial"),
+        Binding("x", "stop", "Stop job"),
+        Binding("v", "result", "Result"),
+    ]
+
+    def _title_text(self) -> str:
+        job = self.session.job
+        return f" runtrue | {self.STEP}: {job.machine.name[:22]}" if job is not None else super()._title_text()
+
+    def compose_body(self) -> Iterable[Widget]:
+        yield Static("", id="stepbar")
+        with Horizontal(id="runs-body"):
+            with VerticalScroll(id="todo-pane"):
+                yield Static("", id="todo", markup=False)
+            with Vertical(id="runs-pane"):
+                yield Static("Runs (1x)", classes="pane-title")
+                yield Static("", id="runs-list", markup=False)
+        yield Static("", id="caution", classes="caution", markup=False)
+
+    def on_mount(self) -> None:
+        super().on_mount()
+        self._stop_armed = 0.0
+        self.redraw()
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        job = self.session.job
+        if job is None:
+            return None
+        step = job.state.step
+        if action == "trial":
+            return True if step == "trial" else None
+        if action == "accept":
+            chk = job.state.last_trial_check
+            return True if step == "trial" and chk is not None and not chk.ok and not chk.accepted_anyway else None
+        if action in ("reading", "stop"):
+            return True if step != "done" else None
+        if action == "fitting":
+            return True if step in ("trial", "correction", "trim") else None
+        return True
+
+    def redraw(self) -> None:
+        job = self.session.job
+        if job is None:
+            return
+        self.refresh_status()
+        self.query_one("#stepbar", Static).update(step_bar(job))
+        lines = job.instructions()
+        self.query_one("#todo", Static).update("\n".join(f"- {line}" for line in lines))
+        self.query_one("#runs-list", Static).update("\n".join(runs_lines(job)))
+        step = job.state.step
+        caution = SAFETY_FIT if step in ("trial", "correction", "trim") else SAFETY_START if step == "reference" else ""
+        self.query_one("#caution", Static).update(caution)
+        self.refresh_bindings()
+
+    # -- actions ----------------------------------------------------------------------------------
+    def action_reading(self) -> None:
+        s = self.session
+        job = s.job
+        if job is None or job.state.step == "done":
+            return
+        if s.manual:
+            from runtrue.tui.screens.dialogs import ManualReadingForm
+
+            self.app.push_screen(
+                ManualReadingForm([p.label for p in job.machine.pickups], job.machine.speed_rpm), self._record
+            )
+            return
+        if s.link is None or not s.link.connected:
+            self.notify("The meter is not connected: wait for it (title bar) or pick it on the Connect screen.",
+                        severity="warning")
+            return
+        epoch = None
+        if s.simulated:
+            epoch = self._fit_on_simulator(job.planned_weights())
+        s.live.reset(epoch)
+        from runtrue.tui.screens.live import LiveScreen
+
+        self.app.push_screen(
+            LiveScreen(current_step_name(job) + " run", marks=polar_marks(job), auto=self.rt_app.auto_take),
+            self._record,
+        )
+
+    def _fit_on_simulator(self, wanted: list[Any]) -> int:
+        epoch = self.rt_app.fit_on_simulator(wanted)
+        if wanted:
+            self.notify(
+                f"Simulator: the virtual rotor carries the {len(wanted)} weight(s) listed for this run.",
+                title="Simulated machine",
+                timeout=3,
+            )
+        return epoch
+
+    def _record(self, reading: Any) -> None:
+        if reading is None:
+            return
+        job = self.session.job
+        try:
+            run = job.record_run(reading)
+        except Exception as exc:  # noqa: BLE001 - shown to the user, nothing recorded is lost
+            self.notify(f"Reading not recorded: {exc}", severity="error", title="Not recorded", timeout=8)
+            return
+        self.rt_app.ticked.clear()
+        self.notify(f"Run {run.seq} ({run.kind}) saved.", timeout=2)
+        chk = job.state.last_trial_check
+        if run.kind == "trial" and chk is not None and not chk.ok:
+            self.notify(chk.message + " Fit the larger trial shown, or press a to go on anyway.",
+                        title="Trial too small?", severity="warning", timeout=10)
+        if job.state.step == "done":
+            self.rt_app.show_result()
+            return
+        self.redraw()
+
+    def action_fitting(self) -> None:
+        from runtrue.tui.screens.fitting import FittingScreen
+
+        self.app.push_screen(FittingScreen())
+
+    def action_trial(self) -> None:
+        job = self.session.job
+        t = job.suggested_trial() if job is not None else None
+        if t is None:
+            return
+        from runtrue.tui.screens.dialogs import TrialWeightForm
+
+        def chosen(value: tuple[float, float] | None) -> None:
+            if value is None:
+                return
+            try:
+                job.set_trial(value[0], value[1])
+            except ValueError as exc:
+                self.notify(str(exc), severity="error")
+            self.redraw()
+
+        self.app.push_screen(TrialWeightForm(t.mass_g, t.angle_deg), chosen)
+
+    def action_accept(self) -> None:
+        job = self.session.job
+        try:
+            job.accept_trial_anyway()
+        except ValueError as exc:
+            self.notify(str(exc), severity="warning")
+            return
+        self.notify("Weak trial accepted; the warning stays with the job.", severity="warning")
+        if job.state.step == "done":
+            self.rt_app.show_result()
+        else:
+            self.redraw()
+
+    def action_stop(self) -> None:
+        now = time.monotonic()
+        if now - self._stop_armed > 4.0:
+            self._stop_armed = now
+            self.notify("Press x again to stop the job here (the runs are kept).", severity="warning", timeout=4)
+            return
+        self.session.job.stop()
+        self.rt_app.show_result()
+
+    def action_result(self) -> None:
+        self.rt_app.show_result()
+
+    def meter_event(self, message: object) -> None:
+        pass
