@@ -36,6 +36,14 @@ def _material(machine: Machine) -> dict[str, Any]:
     return {}
 
 
+def _round_up_2sig(mass_g: float) -> float:
+    """Round a trial mass up to two significant figures (a trial a little heavier is harmless)."""
+    if mass_g <= 0:
+        return mass_g
+    step = 10 ** (math.floor(math.log10(mass_g)) - 1)
+    return round(math.ceil(mass_g / step - 1e-9) * step, 12)
+
+
 def first_usable_angle_deg(spec: PlaneSpec) -> float:
     angles = spec.position_angles_deg()
     if angles is None:
@@ -57,7 +65,7 @@ def trial_weight(machine: Machine, plane: int, mass_g: float, angle_deg: float |
     label = f"trial weight, plane {plane}"
     material = _material(machine)
     if not material:
-        return Weight(plane, round(mass_g, 1), angle, spec.radius_mm, label)
+        return Weight(plane, _round_up_2sig(mass_g), angle, spec.radius_mm, label)
     from runtrue.allocation import Positions, allocate
 
     alloc = allocate(
@@ -75,8 +83,29 @@ def trial_weight(machine: Machine, plane: int, mass_g: float, angle_deg: float |
     return Weight(plane, total, angle, spec.radius_mm, label)
 
 
-def plan_plane(machine: Machine, plane: int, correction_gmm: complex, kind: str, number: int) -> Any:
-    """The correction for one plane as placements and a fitting sheet (a ``PlaneCorrection``)."""
+#: Placements stop improving once the residual they leave is below this share of the plane's
+#: permissible residual unbalance (margin for measurement error; common practice).
+GOOD_ENOUGH_FRACTION = 0.2
+
+
+#: Bound on the allocator's search so a screen never waits long (it then states its bound).
+MAX_SEARCH_NODES = 20_000
+
+
+def plan_plane(
+    machine: Machine,
+    plane: int,
+    correction_gmm: complex,
+    kind: str,
+    number: int,
+    permissible_gmm: float | None = None,
+) -> Any:
+    """The correction for one plane as placements and a fitting sheet (a ``PlaneCorrection``).
+
+    With ``permissible_gmm`` (the plane's share of the permissible residual unbalance) the
+    allocator may stop at a residual of :data:`GOOD_ENOUGH_FRACTION` of it, preferring fewer
+    positions.
+    """
     from runtrue.allocation import centrifugal_force_n, allocate, fitting_sheet
     from runtrue.allocation.sheet import SheetRow
 
@@ -104,6 +133,9 @@ def plan_plane(machine: Machine, plane: int, correction_gmm: complex, kind: str,
         correction_radius_mm=spec.radius_mm,
         max_pieces_per_position=spec.max_pieces_per_position,
         max_mass_per_position_g=spec.max_mass_per_position_g,
+        good_enough_gmm=GOOD_ENOUGH_FRACTION * permissible_gmm if permissible_gmm else None,
+        prefer_fewer_positions=permissible_gmm is not None,
+        max_nodes=MAX_SEARCH_NODES,
         **material,
     )
     sheet = fitting_sheet(alloc, machine.speed_rpm)

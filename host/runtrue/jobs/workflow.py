@@ -583,7 +583,9 @@ class BalanceJob:
         else:
             prev = trial_ws[0] if trial_ws else s.trial
             self._trial_override.pop(plane, None)
-            self._enter_trial(plane, max(chk.suggested_scale, 1.5), prev)
+            scale = chk.suggested_scale if math.isfinite(chk.suggested_scale) else 4.0
+            # 20 % margin over the bare minimum: the next reading's scatter is random too.
+            self._enter_trial(plane, max(scale * 1.2, 1.5), prev)
             s.message = f"The trial weight in plane {plane} did not change the reading enough to trust: {chk.message}"
 
     def _baseline_for(self, run: RunRecord, trial_ws: list[Weight]) -> RunRecord:
@@ -642,7 +644,9 @@ class BalanceJob:
         sol = correction_from_influence(self._influence, base.reading.vector(), radii, spreads=spreads if any(spreads) else None)
         planes = []
         for w in sol.corrections:
-            planes.append(fitting.plan_plane(self.machine, w.plane, w.unbalance_gmm, kind, s.trims_done + 1))
+            planes.append(
+                fitting.plan_plane(self.machine, w.plane, w.unbalance_gmm, kind, s.trims_done + 1, self._plane_permissible(w.plane))
+            )
         s.plan = CorrectionPlan(
             kind=kind,
             remove=remove,
@@ -655,6 +659,12 @@ class BalanceJob:
         for w in s.plan.warnings:
             if w not in s.warnings:
                 s.warnings.append(w)
+
+    def _plane_permissible(self, plane: int) -> float:
+        per = list(self._tolerance.per_plane_gmm)
+        if len(per) == self.machine.n_planes:
+            return float(per[plane - 1])
+        return float(self._tolerance.permissible_unbalance_gmm) / self.machine.n_planes
 
     def _grade(self, run: RunRecord) -> tuple[list[float], bool]:
         from runtrue.balancing import check_grade
