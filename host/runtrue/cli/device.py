@@ -1,0 +1,92 @@
+"""``runtrue device``: put the firmware on a meter (``install``) and check a meter (``check``).
+
+Both take ``--port`` (a serial device, or ``sim:NAME`` for the simulator); without it the one
+USB board that looks like a meter is used.  See hardware/BRINGUP.md.
+"""
+
+from __future__ import annotations
+
+import argparse
+from typing import Any
+
+
+def register(subparsers: Any) -> None:
+    parser = subparsers.add_parser(
+        "device",
+        help="install the firmware on a meter, or check a meter",
+        description="Put the meter firmware on a board running MicroPython, or run the meter's self-test.",
+    )
+    sub = parser.add_subparsers(dest="device_command", metavar="ACTION")
+    inst = sub.add_parser("install", help="copy the firmware to the board (mpremote) and verify it answers")
+    inst.add_argument("--port", help="serial port of the board (default: the one USB board found), or sim:NAME")
+    chk = sub.add_parser("check", help="run the meter's self-test and explain each result")
+    chk.add_argument("--port", help="serial port of the meter (default: the one USB board found), or sim:NAME")
+    chk.add_argument("--revs", type=int, default=20, metavar="N",
+                     help="revolutions to stream for the reference-pulse check (0: skip, e.g. machine stopped)")
+    chk.add_argument("--seed", type=int, default=None, help=argparse.SUPPRESS)
+    parser.set_defaults(device_parser=parser)
+
+
+def resolve_port(port: str | None) -> str:
+    """The port to use: the one given, or the single USB board that looks like a meter."""
+    from runtrue.cli import UsageError
+
+    if port:
+        return port
+    from runtrue.transport.serial import find_meter_ports
+
+    try:
+        candidates = find_meter_ports()
+    except Exception as exc:  # listing ports depends on the OS; say so instead of a traceback
+        raise UsageError(f"cannot list serial ports ({exc}); name the board with --port") from None
+    likely = [c for c in candidates if c.score > 10]
+    if len(likely) == 1:
+        return likely[0].device
+    if not likely:
+        others = ", ".join(c.device for c in candidates)
+        seen = f" (serial ports seen: {others})" if others else ""
+        raise UsageError(f"no USB board that looks like a meter is plugged in{seen}: plug it in, or name it "
+                         "with --port (e.g. --port /dev/ttyACM0, --port COM3, or --port sim:fan)")
+    names = ", ".join(f"{c.device} ({c.reason})" for c in likely)
+    raise UsageError(f"several boards found: {names}; choose one with --port")
+
+
+def _check_port_name(port: str) -> None:
+    from runtrue.cli import UsageError
+
+    if port.startswith("sim:"):
+        from runtrue.transport import scenario_names
+
+        names = scenario_names()
+        if port[4:] not in names:
+            raise UsageError(f"unknown simulator scenario {port[4:]!r}: choose one of "
+                             f"{', '.join(names) or 'none'} (`runtrue scenarios` lists them)")
+
+
+def run(args: argparse.Namespace) -> int:
+    from runtrue.cli import UsageError
+
+    action = getattr(args, "device_command", None)
+    if action is None:
+        args.device_parser.print_help()
+        return 0
+    port = resolve_port(args.port)
+    _check_port_name(port)
+    if action == "check" and args.revs < 0:
+        raise UsageError("--revs must be 0 or more")
+    try:
+        if action == "install":
+            from runtrue.deploy import install
+
+            return install(port)
+        if action == "check":
+            from runtrue.deploy import check
+
+            return check(port, stream_revs=args.revs, seed=args.seed)
+    except (UsageError, KeyboardInterrupt):
+        raise
+    except Exception as exc:  # a bug or an unforeseen device state: one clear line, never a traceback
+        print(f"runtrue device {action}: unexpected error ({type(exc).__name__}: {exc}); "
+              "please report it with the output of `runtrue --version`")
+        return 1
+    raise UsageError(f"unknown device action {action!r}: use install or check")
