@@ -57,6 +57,8 @@ def fitting_sheet(allocation: Allocation, speed_rpm: float, existing: tuple = ()
         for i in p.moved_existing:
             parts.append(f"old weight #{i + 1} moved here")
         number = None if p.position_index is None else p.position_index + 1
+        # the force follows the unbalance m·r_cm (a strip along an arc has its centroid inside r)
+        r_cm = abs(p.unbalance_gmm) / p.mass_g if p.mass_g > 0 and p.unbalance_gmm != 0 else p.radius_mm
         rows.append(SheetRow(number, p.angle_deg, p.radius_mm, ", ".join(parts), p.mass_g,
-                             centrifugal_force_n(p.mass_g, p.radius_mm, speed_rpm), "fit"))
+                             centrifugal_force_n(p.mass_g, r_cm, speed_rpm), "fit"))
     return rows

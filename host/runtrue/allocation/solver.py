@@ -3,7 +3,11 @@
 Objective (issue 4), compared lexicographically, residuals rounded to 1e-9·|correction|:
 
 1. the residual ``|correction − change|`` in g·mm, where any residual at or below the
-   good-enough value ``g`` counts as ``g`` (``g = 0`` when none is given: smallest residual);
+   good-enough value ``g`` counts as ``g``.  Without one, ``g`` is 1 % of the correction
+   (:data:`DEFAULT_GOOD_ENOUGH_FRACTION`): a measured correction is rarely known better than
+   a few per cent (influence coefficients move with speed and temperature; common practice),
+   and a strictly smallest residual buys invisible gains with many more pieces.  Pass
+   ``good_enough_gmm=0`` for the strictly smallest residual;
 2. (with ``prefer_fewer_positions``: the fewest positions receiving weight;)
 3. the fewest pieces on the rotor afterwards (new pieces and strip pieces, plus old weights
    that stay or are moved);
@@ -45,6 +49,8 @@ from runtrue.allocation.search import SearchProblem, SearchResult, search
 UNLIMITED = 10**6
 MAX_REMOVABLE_OLD_WEIGHTS = 8
 MAX_STRIP_LENGTHS = 2000
+#: good-enough residual, as a fraction of the correction, when the caller gives none
+DEFAULT_GOOD_ENOUGH_FRACTION = 0.01
 #: a best fit leaving more than this fraction of the correction gets a plain warning (our choice)
 POOR_FIT_FRACTION = 0.25
 
@@ -95,6 +101,12 @@ def _strip_ladder(strip: Strip, target_gmm: float, r_min: float, mass_limit: flo
     return [strip.min_mm + i * strip.step_mm for i in range(max(0, n))]
 
 
+def _good_enough(good_enough_gmm: float | None, T: complex) -> float:
+    if good_enough_gmm is None:
+        return DEFAULT_GOOD_ENOUGH_FRACTION * abs(T)
+    return float(good_enough_gmm)
+
+
 def _validate_common(
     stock: Stock | None,
     strip: Strip | None,
@@ -142,7 +154,7 @@ def allocate(
     good_enough_gmm: float | None = None,
     prefer_fewer_positions: bool = False,
     existing: Sequence[ExistingWeight] = (),
-    max_nodes: int = 200_000,
+    max_nodes: int = 30_000,
 ) -> Allocation:
     """Turn a correction into placements; see the module docstring for the objective."""
     existing = tuple(existing)
@@ -155,13 +167,13 @@ def allocate(
             raise AllocationError("old weights in a continuous groove: remove them and include their effect instead")
         return allocate_groove(
             T, r_c, positions.groove_radius_mm, stock=stock, strip=strip,
-            good_enough_gmm=good_enough_gmm or 0.0,
+            good_enough_gmm=_good_enough(good_enough_gmm, T),
         )
     usable = positions.usable()
     if not usable:
         raise AllocationError("no usable positions: give at least one position that is not excluded")
     T, r_c = correction_vector(correction, correction_radius_mm, positions.radii_mm[usable[0]])
-    g = float(good_enough_gmm or 0.0)
+    g = _good_enough(good_enough_gmm, T)
     P = len(usable)
     local = {pi: j for j, pi in enumerate(usable)}
     u = np.array([weight_gmm(1.0, positions.angles_deg[pi], positions.radii_mm[pi]) for pi in usable])
@@ -327,9 +339,12 @@ def _build(
     warnings: list[str] = []
     rho = abs(residual)
     if not optimal:
+        lower = min(rho, relax_bound)
         warnings.append(
             f"search stopped after {nodes} steps: this is the best of all allocations with up to "
-            f"{complete_pieces} pieces; the residual cannot be below {min(rho, relax_bound):.4g} g·mm"
+            f"{complete_pieces} pieces; "
+            + (f"no allocation can leave less than {lower:.4g} g·mm" if lower > 0
+               else "more pieces might lower the residual further (set a good-enough residual)")
         )
     if abs(T) > 0 and rho / abs(T) > POOR_FIT_FRACTION:
         msg = (f"the best fit leaves {100 * rho / abs(T):.0f}% of the correction "

@@ -1,0 +1,299 @@
+"""``runtrue allocate FILE|-``: turn a correction into pieces that can be fitted (JSON in, JSON out).
+
+Input (a contract; see issue 4)::
+
+    {"correction": {"mass": 9.4, "angle": 212.5, "radius": 120},
+     "positions": {"count": 12, "first_angle": 0, "radius": 120},
+     "stock": [{"mass": 1, "count": 6}, {"mass": 2, "count": 6}, {"mass": 5, "count": 4}],
+     "max_pieces_per_position": 3}
+
+``positions`` may instead be ``{"angles": [...], "radius": R}`` (or ``"radii": [...]``), a list
+of ``{"angle", "radius"}``, or ``{"continuous": true, "radius": R}``; an ``"exclude"`` list of
+position numbers (1 = the first angle) marks positions that cannot be used.  Instead of
+``stock``: ``"strip": {"grams_per_mm", "min_mm", "step_mm"[, "max_mm"]}``.  Optional:
+``max_mass_per_position`` (g), ``good_enough`` (residual to stop at, g·mm),
+``good_enough_fraction`` (of the correction), ``prefer_fewer_positions``, ``speed_rpm`` (adds the
+centrifugal force of each placement, ``force_n``), ``existing`` (old weights: ``{"mass",
+"angle", "radius"[, "position", "may_move", "may_remove"]}``), ``max_nodes``.
+
+Output: ``placements`` (``{"angle", "radius", "pieces": [masses]}`` or ``"length_mm"``; added
+``position``, ``mass``, ``moved_existing``, ``force_n``), ``residual`` ``{"mass", "angle",
+"radius"}`` at the correction radius, ``residual_fraction``; added ``optimal``,
+``residual_bound_gmm``, ``pieces``, ``added_mass``, ``kept_existing``, ``removed_existing``,
+``warnings``, ``conventions``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+from typing import Any
+
+from runtrue.cli import UsageError
+
+CONVENTIONS = (
+    "weight angles in degrees from the reference mark against the direction of rotation; "
+    "masses in g, radii in mm; positions numbered from 1 at the first angle given; "
+    "residual = correction minus what is fitted, as a mass at the correction radius"
+)
+
+SAFETY = (
+    "Stop and lock out the machine before fitting weights; secure each weight for the force shown; "
+    "follow the machine maker's instructions and local codes."
+)
+
+
+def register(subparsers: Any) -> None:
+    p = subparsers.add_parser(
+        "allocate",
+        help="turn a correction into pieces at the rotor's positions (JSON in, JSON out)",
+        description="Read a correction, the positions and the stock as JSON from FILE (or - for "
+        "standard input) and print the placements and the residual as JSON. " + CONVENTIONS + ".",
+    )
+    p.add_argument("file", metavar="FILE", help="JSON file, or - for standard input")
+
+
+def _reject_constant(name: str) -> float:
+    raise UsageError(f"{name} is not a number; give finite numbers only")
+
+
+def _load(path: str) -> Any:
+    try:
+        if path == "-":
+            text = sys.stdin.read()
+        else:
+            with open(path, encoding="utf-8") as f:
+                text = f.read()
+    except OSError as exc:
+        raise UsageError(f"cannot read {path}: {exc.strerror or exc}") from None
+    except UnicodeDecodeError:
+        raise UsageError(f"{path} is not UTF-8 text; give a JSON file") from None
+    try:
+        return json.loads(text, parse_constant=_reject_constant)
+    except json.JSONDecodeError as exc:
+        raise UsageError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno} column {exc.colno}") from None
+
+
+def _num(obj: Any, key: str, where: str, required: bool = True, default: float | None = None) -> float | None:
+    if not isinstance(obj, dict):
+        raise UsageError(f"{where} must be an object with \"{key}\"")
+    if key not in obj or obj[key] is None:
+        if required:
+            raise UsageError(f"{where}: missing \"{key}\"")
+        return default
+    v = obj[key]
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(float(v)):
+        raise UsageError(f"{where}: \"{key}\" must be a finite number, got {json.dumps(v)}")
+    return float(v)
+
+
+def _int(obj: dict, key: str, where: str) -> int | None:
+    v = _num(obj, key, where, required=False)
+    if v is None:
+        return None
+    if v != int(v):
+        raise UsageError(f"{where}: \"{key}\" must be a whole number, got {v:g}")
+    return int(v)
+
+
+def _positive(v: float, what: str) -> float:
+    if v < 0:
+        raise UsageError(f"{what} is negative ({v:g}); give a positive value")
+    if v == 0:
+        raise UsageError(f"{what} is zero; give a positive value")
+    return v
+
+
+def _positions(spec: Any) -> Any:
+    from runtrue.allocation import Positions
+
+    where = "positions"
+    exclude: list[int] = []
+    if isinstance(spec, list):
+        if not spec:
+            raise UsageError("no positions: give at least one position")
+        angles = [_num(p, "angle", f"positions[{i}]") for i, p in enumerate(spec)]
+        radii = [_positive(_num(p, "radius", f"positions[{i}]"), f"positions[{i}] radius") for i, p in enumerate(spec)]
+        return Positions.at_angles(angles, radii)  # type: ignore[arg-type]
+    if not isinstance(spec, dict):
+        raise UsageError("\"positions\" must be an object or a list of {\"angle\", \"radius\"}")
+    if "exclude" in spec:
+        ex = spec["exclude"]
+        if not isinstance(ex, list) or not all(isinstance(x, int) and not isinstance(x, bool) for x in ex):
+            raise UsageError("positions: \"exclude\" must be a list of position numbers (1 = first)")
+        exclude = [x - 1 for x in ex]
+    if spec.get("continuous"):
+        return Positions.groove(_positive(_num(spec, "radius", where), "positions radius"))
+    if "count" in spec:
+        count = _int(spec, "count", where)
+        if count is None or count < 1:
+            raise UsageError("no positions: \"count\" must be at least 1")
+        radius = _positive(_num(spec, "radius", where), "positions radius")
+        first = _num(spec, "first_angle", where, required=False, default=0.0)
+        pos = Positions.equally_spaced(count, radius, first)  # type: ignore[arg-type]
+    elif "angles" in spec:
+        angles = spec["angles"]
+        if not isinstance(angles, list) or not angles:
+            raise UsageError("no positions: \"angles\" must be a non-empty list of angles in degrees")
+        vals = [_num({"a": a}, "a", "positions angles") for a in angles]
+        if "radii" in spec:
+            radii_raw = spec["radii"]
+            if not isinstance(radii_raw, list):
+                raise UsageError("positions: \"radii\" must be a list with one radius per angle")
+            radii: Any = [_positive(_num({"r": r}, "r", "positions radii"), "a position radius") for r in radii_raw]
+        else:
+            radii = _positive(_num(spec, "radius", where), "positions radius")
+        pos = Positions.at_angles(vals, radii)  # type: ignore[arg-type]
+    else:
+        raise UsageError("positions: give \"count\" and \"radius\", \"angles\" and \"radius\", a list, "
+                         "or {\"continuous\": true, \"radius\": R}")
+    for i in exclude:
+        if not 0 <= i < len(pos.angles_deg):
+            raise UsageError(f"positions: excluded position {i + 1} does not exist (1..{len(pos.angles_deg)})")
+    return pos.excluding(exclude)
+
+
+def _build(data: Any) -> tuple[dict, Any]:
+    from runtrue.allocation import ExistingWeight, Stock, Strip
+
+    if not isinstance(data, dict):
+        raise UsageError("the input must be a JSON object with \"correction\", \"positions\" and \"stock\" or \"strip\"")
+    if "correction" not in data:
+        raise UsageError("missing \"correction\": give {\"mass\", \"angle\", \"radius\"}")
+    c = data["correction"]
+    mass = _num(c, "mass", "correction")
+    angle = _num(c, "angle", "correction")
+    radius = _num(c, "radius", "correction")
+    assert mass is not None and angle is not None and radius is not None
+    if mass < 0:
+        raise UsageError(f"correction mass is negative ({mass:g} g); give a positive mass and its angle")
+    _positive(radius, "correction radius")
+    if "positions" not in data:
+        raise UsageError("no positions: give \"positions\" (count and radius, angles, a list, or continuous)")
+    positions = _positions(data["positions"])
+    opts: dict[str, Any] = {}
+    if "stock" in data and data["stock"] is not None:
+        st = data["stock"]
+        if not isinstance(st, list) or not st:
+            raise UsageError("the stock is empty: list pieces as [{\"mass\": g, \"count\": n}, ...]")
+        pairs = []
+        for i, item in enumerate(st):
+            m = _num(item, "mass", f"stock[{i}]")
+            assert m is not None
+            if m <= 0:
+                raise UsageError(f"stock[{i}]: mass {m:g} g must be positive")
+            n = _int(item, "count", f"stock[{i}]")
+            if n is not None and n < 0:
+                raise UsageError(f"stock[{i}]: count {n} is negative")
+            pairs.append((m, n))
+        if all(n == 0 for _, n in pairs):
+            raise UsageError("the stock is empty: every count is zero")
+        opts["stock"] = Stock.of(pairs)
+    if "strip" in data and data["strip"] is not None:
+        s = data["strip"]
+        vals = {k: _num(s, k, "strip") for k in ("grams_per_mm", "min_mm", "step_mm")}
+        for k, v in vals.items():
+            _positive(v, f"strip {k}")  # type: ignore[arg-type]
+        max_mm = _num(s, "max_mm", "strip", required=False)
+        opts["strip"] = Strip(vals["grams_per_mm"], vals["min_mm"], vals["step_mm"], max_mm)  # type: ignore[arg-type]
+    existing = []
+    old = data.get("existing") or []
+    if not isinstance(old, list):
+        raise UsageError("\"existing\" must be a list of {\"mass\", \"angle\", \"radius\"}")
+    for i, w in enumerate(old):
+        where = f"existing[{i}]"
+        m = _num(w, "mass", where)
+        assert m is not None
+        if m < 0:
+            raise UsageError(f"{where}: mass {m:g} g is negative")
+        pos_no = _int(w, "position", where)
+        existing.append(ExistingWeight(
+            m, _num(w, "angle", where), _positive(_num(w, "radius", where), f"{where} radius"),  # type: ignore[arg-type]
+            None if pos_no is None else pos_no - 1, bool(w.get("may_move", False)), bool(w.get("may_remove", False)),
+        ))
+    if "stock" not in opts and "strip" not in opts and not any(w.may_move for w in existing):
+        raise UsageError("no pieces: give \"stock\" (masses and counts) or \"strip\"")
+    opts["existing"] = existing
+    mp = _int(data, "max_pieces_per_position", "input")
+    if mp is not None:
+        if mp < 1:
+            raise UsageError("max_pieces_per_position must be at least 1")
+        opts["max_pieces_per_position"] = mp
+    mm = _num(data, "max_mass_per_position", "input", required=False)
+    if mm is not None:
+        opts["max_mass_per_position_g"] = _positive(mm, "max_mass_per_position")
+    ge = _num(data, "good_enough", "input", required=False)
+    gf = _num(data, "good_enough_fraction", "input", required=False)
+    if ge is not None and ge < 0 or gf is not None and gf < 0:
+        raise UsageError("good_enough must be zero or positive")
+    corr_gmm = mass * radius
+    g = max(ge or 0.0, (gf or 0.0) * corr_gmm)
+    if g > 0:
+        opts["good_enough_gmm"] = g
+    opts["prefer_fewer_positions"] = bool(data.get("prefer_fewer_positions", False))
+    mn = _int(data, "max_nodes", "input")
+    if mn is not None:
+        opts["max_nodes"] = max(1, mn)
+    speed = _num(data, "speed_rpm", "input", required=False)
+    if speed is not None and speed < 0:
+        raise UsageError("speed_rpm is negative; give the running speed in rev/min")
+    return {"correction": (mass, angle, radius), "positions": positions, "options": opts, "speed_rpm": speed}, existing
+
+
+def _r(x: float, nd: int = 6) -> float:
+    return float(round(x, nd))
+
+
+def run(args: argparse.Namespace) -> int:
+    from runtrue.allocation import AllocationError, allocate, centrifugal_force_n
+
+    data = _load(args.file)
+    try:
+        spec, _existing = _build(data)
+        a = allocate(spec["correction"], spec["positions"], **spec["options"])
+    except AllocationError as exc:
+        raise UsageError(str(exc)) from None
+    speed = spec["speed_rpm"]
+    placements = []
+    for p in a.placements:
+        item: dict[str, Any] = {
+            "position": None if p.position_index is None else p.position_index + 1,
+            "angle": _r(p.angle_deg, 4),
+            "radius": _r(p.radius_mm, 4),
+        }
+        if p.length_mm is not None:
+            item["length_mm"] = _r(p.length_mm, 4)
+        else:
+            item["pieces"] = [_r(m) for m in p.pieces]
+        if p.moved_existing:
+            item["moved_existing"] = [i + 1 for i in p.moved_existing]
+        item["mass"] = _r(p.mass_g)
+        if speed is not None:
+            r_cm = abs(p.unbalance_gmm) / p.mass_g if p.mass_g > 0 else p.radius_mm
+            item["force_n"] = _r(centrifugal_force_n(p.mass_g, r_cm, speed), 3)
+        placements.append(item)
+    out = {
+        "placements": placements,
+        "residual": {"mass": _r(a.residual_mass_g), "angle": _r(a.residual_angle_deg, 4),
+                     "radius": _r(a.correction_radius_mm, 4)},
+        "residual_fraction": _r(a.residual_fraction, 6),
+        "optimal": a.optimal,
+        "residual_bound_gmm": _r(a.bound_gmm, 6),
+        "pieces": a.piece_count,
+        "added_mass": _r(a.added_mass_g),
+        "kept_existing": [i + 1 for i in a.kept_existing],
+        "removed_existing": [i + 1 for i in a.removed_existing],
+        "warnings": list(a.warnings),
+        "conventions": CONVENTIONS,
+        "safety": SAFETY,
+    }
+    try:
+        sys.stdout.write(json.dumps(out, indent=2) + "\n")
+        sys.stdout.flush()
+    except BrokenPipeError:  # output piped into a reader that stopped early (head)
+        return 0
+    for w in a.warnings:
+        print(f"runtrue allocate: warning: {w}", file=sys.stderr)
+    return 0
