@@ -78,7 +78,7 @@ def _pick_port(port: str | None) -> str:
 
 
 def _measure(args: Any, port: str) -> dict[str, Any]:
-    from runtrue.device import MeterError, open_meter
+    from runtrue.device import MeterError, Revolution, open_meter
     from runtrue.readings import amp_phase, vector_average
     from runtrue.readings.units import convert_1x
     from runtrue.transport import PortError, TransportLost
@@ -97,7 +97,7 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         if args.edge is not None:
             client.set_edge(args.edge)
         client.start()
-        usable = []
+        usable: list[Revolution] = []
         seen = 0
         truth: list[list[complex]] = []
         flags_seen: set[str] = set()

@@ -79,6 +79,7 @@ class MeterClient:
         self._acks: dict[int, Ack] = {}
         self._selftest: SelfTest | None = None
         self._frames_seen = 0
+        self._flush_next = True  # start with a lone 0x00: the meter drops any half-received frame
         # Settings asked for in this session: applied again after a reconnect.
         self._wanted: dict[str, Any] = {}
 
@@ -146,6 +147,7 @@ class MeterClient:
         self.decoder.discard_partial()
         self.decoder.reset_sequence()
         self._acks.clear()
+        self._flush_next = True
         was_streaming = self.streaming
         self.streaming = False
         wanted = dict(self._wanted)
@@ -173,6 +175,9 @@ class MeterClient:
         timeout = self.command_timeout_s if timeout_s is None else timeout_s
         name = COMMAND_NAMES.get(cmd_type, f"command {cmd_type:#04x}")
         seq, wire = self.commands.encode(cmd_type, payload)
+        if self._flush_next:
+            wire = b"\x00" + wire
+            self._flush_next = False
         deadline = time.monotonic() + timeout
         try:
             self.transport.write(wire)
