@@ -13,6 +13,7 @@ import pytest
 from runtrue.protocol.cobs import cobs_encode
 from runtrue.protocol.errors import CrcError, FrameLengthError, VersionError
 from runtrue.protocol.frames import MAX_PAYLOAD, MAX_WIRE_FRAME, Frame, FrameDecoder, decode_frame, encode_frame
+from runtrue.protocol.messages import Ack, DeviceInfo, Revolution, SelfTest, Status, Text, parse_message
 
 VECTORS = Path(__file__).resolve().parents[2] / "vectors" / "frames.json"
 
@@ -108,17 +109,75 @@ def test_back_to_back_delimiters_are_idle_not_errors() -> None:
 
 
 # ---- the shared vectors (generated from the firmware encoder) --------------------------------
+# tests/vectors/frames.json is written by tests/firmware/make_frame_vectors.py from the firmware's
+# own encoder: the host must read every device frame in it and write every host frame the same.
 
 
-def _load_vectors() -> list[dict]:
-    data = json.loads(VECTORS.read_text())
-    return data["vectors"] if isinstance(data, dict) else data
+def _vectors() -> list[dict]:
+    return json.loads(VECTORS.read_text())["vectors"]
 
 
-@pytest.mark.skipif(not VECTORS.exists(), reason="tests/vectors/frames.json not generated yet")
-def test_decoder_reads_every_shared_vector() -> None:
-    for vector in _load_vectors():
-        wire = bytes.fromhex(vector["wire"])
-        decoder = FrameDecoder()
-        frames = decoder.feed(wire)
-        assert frames == [Frame(1, vector["type"], vector["seq"], bytes.fromhex(vector["payload"]))], vector
+def _ids(vectors: list[dict]) -> list[str]:
+    return [v["name"] for v in vectors]
+
+
+SHARED = _vectors()
+
+
+def test_shared_vectors_cover_both_directions_and_every_message() -> None:
+    device_types = {v["type"] for v in SHARED if v["direction"] == "device"}
+    host_types = {v["type"] for v in SHARED if v["direction"] == "host"}
+    assert device_types == {0x01, 0x02, 0x03, 0x04, 0x05, 0x06}
+    assert host_types == set(range(0x81, 0x8A))
+
+
+@pytest.mark.parametrize("vector", SHARED, ids=_ids(SHARED))
+def test_host_encoder_writes_each_shared_vector_byte_for_byte(vector: dict) -> None:
+    wire = encode_frame(vector["type"], vector["seq"], bytes.fromhex(vector["payload"]))
+    assert wire.hex() == vector["wire"]
+
+
+@pytest.mark.parametrize("vector", SHARED, ids=_ids(SHARED))
+def test_decoder_reads_each_shared_vector(vector: dict) -> None:
+    decoder = FrameDecoder()
+    frames = decoder.feed(bytes.fromhex(vector["wire"]))
+    assert frames == [Frame(1, vector["type"], vector["seq"], bytes.fromhex(vector["payload"]))]
+    assert decoder.errors == 0
+
+
+@pytest.mark.parametrize("vector", [v for v in SHARED if v["direction"] == "device"],
+                         ids=_ids([v for v in SHARED if v["direction"] == "device"]))
+def test_device_messages_parse_to_the_shared_fields(vector: dict) -> None:
+    fields = vector["fields"]
+    message = parse_message(FrameDecoder().feed(bytes.fromhex(vector["wire"]))[0])
+    if isinstance(message, DeviceInfo):
+        assert message.raw == fields
+        assert (message.fw, message.board, message.proto, message.channel_mask, message.rate_hz, message.edge,
+                message.serial) == (fields["fw"], fields["board"], fields["proto"], fields["channel_mask"],
+                                    fields["rate_hz"], fields["edge"], fields["serial"])
+    elif isinstance(message, Revolution):
+        assert (message.rev, message.period_us, message.n_samples, message.flags, message.channel_mask) == (
+            fields["rev"], fields["period_us"], fields["n_samples"], fields["flags"], fields["channel_mask"])
+        assert len(message.h1) == fields["n_ch"]
+        for i, ch in enumerate(fields["channels"]):  # floats exactly representable in f32
+            assert message.h1[i] == complex(ch["h1_re"], ch["h1_im"])
+            assert message.h2[i] == complex(ch["h2_re"], ch["h2_im"])
+            assert message.rms_g[i] == ch["rms"]
+        assert message.usable == (fields["flags"] & 0x1F == 0 and fields["flags"] & 0x40 == 0 and fields["period_us"] > 0)
+    elif isinstance(message, Status):
+        assert message == Status(**{**fields, "streaming": bool(fields["streaming"])})
+    elif isinstance(message, Ack):
+        assert message == Ack(**fields)
+    elif isinstance(message, SelfTest):
+        assert message.passed == fields["pass"] and message.checks == fields["checks"]
+    elif isinstance(message, Text):
+        assert message.text == fields["text"]
+    else:
+        pytest.fail(f"unexpected message {message!r}")
+
+
+def test_shared_device_stream_decodes_in_one_go_with_the_wrap_not_counted_as_loss() -> None:
+    decoder = FrameDecoder()
+    stream = bytes.fromhex("".join(v["wire"] for v in SHARED if v["name"] in ("seq_before_wrap", "seq_after_wrap")))
+    assert [f.seq for f in decoder.feed(stream)] == [65535, 0]
+    assert decoder.lost_frames == 0
