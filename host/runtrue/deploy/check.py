@@ -143,7 +143,7 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
              f"speed steady to {100 * spread:.2f} %"]
     if flagged:
         words.append("flags: " + ", ".join(f"{k} x{v}" for k, v in sorted(flagged.items())))
-    ok = len(usable) >= max(1, int(0.8 * len(revs)))
+    ok = len(usable) >= max(1, math.ceil(0.9 * len(revs)))  # common practice: nine in ten clean
     if flagged.get("missing pulse"):
         words.append("missed pulses: move the sensor closer, enlarge or clean the mark, or try the other edge")
     if flagged.get("extra pulse"):

@@ -32,7 +32,7 @@ WIPE_OLD_FIRMWARE = (
     "import os\n"
     "try:\n"
     "    for n in os.listdir('runtrue_fw'):\n"
-    "        os.remove('runtrue_fw/' + n)\n"
+    "        os.remove('runtrue_fw/%s' % n)\n"
     "except OSError:\n"
     "    pass\n"
 )
