@@ -10,7 +10,9 @@ keeps its session (queued revolutions, counters, the settings asked for) and ask
 to reopen the same device while the caller's timeout lasts.  When the device is back it
 applies the settings again and restarts streaming if it was streaming, so a reading in
 progress simply carries on.  If the device is still away when the timeout ends, the call raises
-:class:`TransportLost`; calling again later resumes the same session.
+:class:`TransportLost`; calling again later resumes the same session.  A caller may also reopen
+the transport itself (``client.transport.reopen(...)``): the next command then starts a fresh
+stream and applies the session's settings again (streaming is left for the caller to restart).
 """
 
 from __future__ import annotations
@@ -80,6 +82,8 @@ class MeterClient:
         self._selftest: SelfTest | None = None
         self._frames_seen = 0
         self._flush_next = True  # start with a lone 0x00: the meter drops any half-received frame
+        self._resync_pending = False
+        self._was_streaming = False
         # Settings asked for in this session: applied again after a reconnect.
         self._wanted: dict[str, Any] = {}
 
@@ -125,31 +129,37 @@ class MeterClient:
 
     def _pump(self, timeout_s: float, deadline: float) -> None:
         """Read once (waiting up to ``timeout_s``); reconnect on loss while ``deadline`` allows."""
+        if self._resync_pending and self.transport_is_back():
+            self._resync()
         try:
             data = self.transport.read(READ_CHUNK, timeout_s)
         except TransportLost:
-            self.connected = False
+            self._lost()
             self._reconnect(deadline)
             return
         if data:
             self.feed(data)
 
-    def _reconnect(self, deadline: float) -> None:
-        """Wait for the device until ``deadline``; re-apply the session's settings when back."""
-        remaining = max(0.0, deadline - time.monotonic())
-        if not self.transport.reopen(remaining):
-            raise TransportLost(
-                f"the meter on {self.port} is unplugged or not answering; plug it back in and "
-                "the session carries on (nothing recorded is lost)"
-            )
+    def transport_is_back(self) -> bool:
+        """After a loss: has the transport been reopened (by this client or by its owner)?"""
+        return bool(getattr(self.transport, "is_open", True))
+
+    def _lost(self) -> None:
+        if self.connected:
+            self._was_streaming = self.streaming
+        self.connected = False
+        self.streaming = False
+        self._resync_pending = True
+
+    def _resync(self) -> None:
+        """The device is back (possibly restarted): start a fresh stream and apply again the
+        settings asked for in this session.  Streaming is not restarted here."""
+        self._resync_pending = False
         self.connected = True
-        self.reconnects += 1
         self.decoder.discard_partial()
         self.decoder.reset_sequence()
         self._acks.clear()
         self._flush_next = True
-        was_streaming = self.streaming
-        self.streaming = False
         wanted = dict(self._wanted)
         if "rate_hz" in wanted:
             self._command(CMD_SET_RATE, set_rate_payload(wanted["rate_hz"]))
@@ -157,7 +167,18 @@ class MeterClient:
             self._command(CMD_SET_CHANNELS, set_channels_payload(wanted["channel_mask"]))
         if "edge" in wanted:
             self._command(CMD_SET_EDGE, set_edge_payload(wanted["edge"]))
-        if was_streaming:
+
+    def _reconnect(self, deadline: float) -> None:
+        """Wait for the device until ``deadline``; when back, resynchronise and resume streaming."""
+        remaining = max(0.0, deadline - time.monotonic())
+        if not self.transport.reopen(remaining):
+            raise TransportLost(
+                f"the meter on {self.port} is unplugged or not answering; plug it back in and "
+                "the session carries on (nothing recorded is lost)"
+            )
+        self.reconnects += 1
+        self._resync()
+        if self._was_streaming:
             self._command(CMD_START)
             self.streaming = True
 
@@ -174,6 +195,8 @@ class MeterClient:
         """Send a command and wait for its ACK; raise :class:`CommandRejected` unless ok."""
         timeout = self.command_timeout_s if timeout_s is None else timeout_s
         name = COMMAND_NAMES.get(cmd_type, f"command {cmd_type:#04x}")
+        if self._resync_pending and self.transport_is_back():
+            self._resync()  # reopened by the caller: same session, settings applied again
         seq, wire = self.commands.encode(cmd_type, payload)
         if self._flush_next:
             wire = b"\x00" + wire
@@ -182,7 +205,7 @@ class MeterClient:
         try:
             self.transport.write(wire)
         except TransportLost:
-            self.connected = False
+            self._lost()
             self._reconnect(deadline)
             return self._command(cmd_type, payload, max(0.1, deadline - time.monotonic()))
         frames_before = self._frames_seen

@@ -214,3 +214,9 @@ class SerialTransport(Transport):
 
     def close(self) -> None:
         self._close_quietly()
+
+
+def list_ports() -> list[PortCandidate]:
+    """The system's ports that may be a meter, best first (each has ``device`` and
+    ``description``)."""
+    return find_meter_ports()

@@ -12,6 +12,7 @@ import pytest
 from fake_meter import PtyMeter
 
 from runtrue.device import MeterClient
+from runtrue.transport.base import TransportLost
 from runtrue.transport.serial import SerialTransport
 
 pytestmark = pytest.mark.skipif(not hasattr(__import__("os"), "openpty"), reason="needs ptys")
@@ -55,6 +56,31 @@ def test_unplug_and_replug_resumes_the_session(tmp_path: Path) -> None:
         # The meter came back power-cycled: the client set it up again and restarted streaming.
         assert device.meter.rate_hz == 2500 and device.meter.streaming
         assert after[0].rev == 0  # a fresh START on the restarted meter
+        client.close()
+    finally:
+        device.close()
+
+
+def test_owner_reopening_the_port_gets_the_same_session_back(tmp_path: Path) -> None:
+    # An application may run its own reconnect loop: reopen the transport, identify, start.
+    link = tmp_path / "meter"
+    device = PtyMeter(link)
+    try:
+        client = MeterClient(SerialTransport(str(link)), str(link))
+        client.identify()
+        client.set_channels(0b011)
+        client.start()
+        client.revolutions(3, timeout_s=2.0)
+        device.unplug()
+        with pytest.raises(TransportLost):
+            client.read_revolution(0.2)
+        assert not client.connected
+        device.plug_in()
+        assert client.transport.reopen(2.0)
+        assert client.identify().channel_mask == 0b011  # settings applied again before IDENTIFY
+        client.start()
+        revs = client.revolutions(3, timeout_s=2.0)
+        assert all(r.channels == [0, 1] for r in revs) and client.connected
         client.close()
     finally:
         device.close()
