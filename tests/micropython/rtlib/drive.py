@@ -1,0 +1,99 @@
+"""Drive the real Meter with a FakeBoard and a synthetic Shaft; decode what it sends.
+
+Runs under CPython and MicroPython (the same scenario gives the same revolutions in both).
+"""
+
+import struct
+
+from runtrue_fw import frames as fr
+from runtrue_fw.meter import Meter
+
+from rtlib.fakeboard import FakeBoard, Shaft
+
+
+class Host:
+    """The host side of the link, just enough for tests."""
+
+    def __init__(self, meter, hw):
+        self.meter = meter
+        self.hw = hw
+        self.writer = fr.FrameWriter()
+
+    def command(self, ctype, payload=b""):
+        seq = self.writer.seq
+        self.meter.feed_command_bytes(bytes(self.writer.encode(ctype, payload)))
+        return seq
+
+    def frames(self):
+        """Decoded (type, seq, payload) of everything the meter wrote since the last call."""
+        out = []
+        for chunk in self.hw.take_output().split(b"\x00")[:-1]:
+            _, t, seq, p = fr.decode_frame(chunk + b"\x00")
+            out.append((t, seq, p))
+        return out
+
+
+def parse_rev(p):
+    rev, period_us, n, flags, nch, mask = struct.unpack_from(fr.REV_HEADER_FMT, p)
+    chans = []
+    for k in range(nch):
+        h1r, h1i, h2r, h2i, rms = struct.unpack_from(fr.REV_CHANNEL_FMT, p, 14 + 20 * k)
+        chans.append({"h1": (h1r, h1i), "h2": (h2r, h2i), "rms": rms})
+    return {"rev": rev, "period_us": period_us, "n_samples": n, "flags": flags,
+            "channel_mask": mask, "channels": chans}
+
+
+def revs_of(frames):
+    return [parse_rev(p) for t, _, p in frames if t == fr.T_REV]
+
+
+def stream(meter, hw, shaft, n_frames, block=64, slots=None, edges=None, edges_late=0,
+           drop_at=None, ms_per_block=0):
+    """Feed n_frames of the shaft's signal in blocks, its edges (or `edges`) as they fall.
+
+    edges_late: feed each edge this many blocks after its block (0: before the block's samples).
+    drop_at: frame index at which the board reports one dropped sample.
+    """
+    full = (1 << hw.adc_bits) - 1
+    if edges is None:
+        edges = shaft.edges_q8(n_frames)
+    ei = 0
+    f = 0
+    queue = []
+    while f < n_frames:
+        n = block if f + block <= n_frames else n_frames - f
+        while ei < len(edges) and edges[ei] < (f + n) * 256:
+            queue.append((f // block + edges_late, edges[ei]))
+            ei += 1
+        while queue and queue[0][0] <= f // block:
+            meter.feed_edge(queue.pop(0)[1])
+        if drop_at is not None and f <= drop_at < f + n:
+            hw.dropped += 1
+        meter.feed_samples(shaft.block(f, n, hw.counts_per_g, hw.zero_code, full, slots), n)
+        hw.ms += ms_per_block
+        meter.service()
+        f += n
+    for _, e in queue:
+        meter.feed_edge(e)
+    meter.service()
+
+
+def scenario(rate_hz=4000, rpm=2466.42, channels=None, n_frames=1200, round_robin=False,
+             noise_codes=0.0, block=64, adc_bits=12, counts_per_g=400.0):
+    """A started meter fed with a shaft; returns the revolutions it reported."""
+    if channels is None:
+        channels = [(0.5, 30.0, 0.1, 200.0, 0.2), (0.25, 300.0, 0.05, 10.0, -0.1),
+                    (1.0, 181.0, 0.0, 0.0, 0.0)]
+    nch = len(channels)
+    zero = float(1 << (adc_bits - 1))
+    hw = FakeBoard(channels_max=nch, adc_bits=adc_bits, counts_per_g=[counts_per_g] * nch,
+                   zero_code=[zero] * nch, round_robin=round_robin)
+    m = Meter(hw)
+    host = Host(m, hw)
+    host.command(fr.C_SET_RATE, struct.pack("<I", rate_hz))
+    host.command(fr.C_START)
+    host.frames()
+    sh = Shaft(rate_hz, rpm, channels, t0_samples=0.375, round_robin=round_robin,
+               noise_codes=noise_codes)
+    stream(m, hw, sh, n_frames, block=block)
+    return revs_of(host.frames())
