@@ -32,7 +32,8 @@ Influence coefficients (``influence``)
     CONDITION_WARN: float  (warning threshold on Solution.condition_number)
 
 Trial weights (``trial``)
-    suggest_trial_weight(rotor_mass_kg, speed_rpm, radius_mm, n_planes=1) -> TrialSuggestion
+    suggest_trial_weight(rotor_mass_kg, speed_rpm, radius_mm, n_planes=1, grade=None) -> TrialSuggestion
+        10 % rotor-weight force (common practice); with grade, at least 5x the allowance (ours)
         TrialSuggestion: mass_g, radius_mm, force_n, rule (sentence, marked common practice)
     check_trial_effect(reference: complex, trial: complex, spread: float,
         trial_spread: float | None = None) -> TrialVerdict

@@ -4,7 +4,8 @@ Sizing rule (common practice, no single published source; quoted in field-balanc
 several forms): choose a trial weight whose centrifugal force at running speed is about 10 % of
 the static load the rotor puts on its supports, shared between the correction planes.  Large
 enough to move the reading clearly out of its scatter, small enough to be safe to run.
-F = m * r * w^2 (``runtrue.balancing.forces``).
+F = m * r * w^2 (``runtrue.balancing.forces``).  With a target grade, a second floor of our own
+choice: TRIAL_GRADE_MULTIPLE times the ISO 21940-11 allowance (see ``suggest_trial_weight``).
 
 Trial-effect check: the influence coefficient comes from the change ``trial - reference``; its
 error is the error of that difference, whose standard deviation is
@@ -25,6 +26,8 @@ from runtrue.balancing.model import BalancingError
 
 #: Fraction of the rotor's weight (per plane share) the trial weight's force should reach.
 TRIAL_FORCE_FRACTION = 0.10
+#: With a target grade: the trial unbalance is at least this many times the plane's allowance.
+TRIAL_GRADE_MULTIPLE = 5.0
 #: Minimum change / noise ratio for a trustworthy trial run (see module docstring).
 TRIAL_MIN_RATIO = 10.0
 #: Without spreads: the change should be at least this fraction of the reference (common practice).
@@ -56,10 +59,22 @@ class TrialVerdict:
 
 
 def suggest_trial_weight(
-    rotor_mass_kg: float, speed_rpm: float, radius_mm: float, n_planes: int = 1
+    rotor_mass_kg: float,
+    speed_rpm: float,
+    radius_mm: float,
+    n_planes: int = 1,
+    grade: float | None = None,
 ) -> TrialSuggestion:
-    """Trial mass per plane so that its centrifugal force is 10 % of the rotor's weight share
-    (rotor weight / planes) at ``speed_rpm``, fitted at ``radius_mm`` (common practice)."""
+    """Trial mass per plane, fitted at ``radius_mm``.
+
+    Rule 1 (common practice): its centrifugal force at ``speed_rpm`` is 10 % of the rotor's
+    weight share (rotor weight / planes).  Rule 2, only when the target ``grade`` (G, mm/s) is
+    given (our choice): its unbalance is at least TRIAL_GRADE_MULTIPLE times the plane's share of
+    the ISO 21940-11 permissible residual unbalance -- a rotor that needs balancing is usually
+    several to tens of times over its allowance, and a trial much smaller than the unbalance is
+    lost in the readings' scatter (fast, light rotors are where rule 1 falls short).  The larger
+    of the two is suggested; the rule sentence says which, and the force it must withstand.
+    """
     try:
         mass = float(rotor_mass_kg)
     except (TypeError, ValueError):
@@ -70,16 +85,32 @@ def suggest_trial_weight(
         raise BalancingError(f"rotor mass {mass:g} kg is implausible; check the units (kg)")
     n = check_speed_rpm(speed_rpm)
     r_mm = check_radius_mm(radius_mm)
-    if n_planes not in (1, 2, 3, 4) and not (isinstance(n_planes, int) and n_planes >= 1):
-        raise BalancingError(f"number of planes must be 1 or more, got {n_planes!r}")
+    if isinstance(n_planes, bool) or not isinstance(n_planes, int) or n_planes < 1:
+        raise BalancingError(f"number of planes must be a whole number from 1, got {n_planes!r}")
     w = 2.0 * math.pi * n / 60.0
-    force_n = TRIAL_FORCE_FRACTION * mass * STANDARD_GRAVITY_M_S2 / n_planes
+    weight_share_n = mass * STANDARD_GRAVITY_M_S2 / n_planes
+    force_n = TRIAL_FORCE_FRACTION * weight_share_n
     mass_g = force_n / ((r_mm / 1000.0) * w * w) * 1000.0
+    per_plane = " per plane" if n_planes > 1 else ""
     rule = (
         f"Trial weight sized so its centrifugal force at {n:g} rpm is {TRIAL_FORCE_FRACTION:.0%} of the "
-        f"rotor's weight{' per plane' if n_planes > 1 else ''} ({force_n:.3g} N) - common practice, "
-        "not a standard. Secure it for that force; if the machine is delicate, start smaller."
+        f"rotor's weight{per_plane} ({force_n:.3g} N) - common practice, not a standard."
     )
+    if grade is not None:
+        from runtrue.balancing.tolerance import permissible_unbalance
+
+        u_per = permissible_unbalance(grade, mass, n).permissible_unbalance_gmm / n_planes
+        grade_mass_g = TRIAL_GRADE_MULTIPLE * u_per / r_mm
+        if grade_mass_g > mass_g:
+            mass_g = grade_mass_g
+            force_n = centrifugal_force_n(mass_g, r_mm, n)
+            rule = (
+                f"Trial weight sized to {TRIAL_GRADE_MULTIPLE:g} times the G {grade:g} allowance{per_plane} "
+                f"({TRIAL_GRADE_MULTIPLE * u_per:.3g} g*mm), larger than the 10 %-of-weight rule gives at "
+                f"{n:g} rpm (our choice). Its force is {force_n:.3g} N, "
+                f"{force_n / weight_share_n:.0%} of the rotor's weight{per_plane}."
+            )
+    rule += " Secure it for that force; if the machine is delicate, start smaller."
     return TrialSuggestion(
         mass_g=mass_g, radius_mm=r_mm, force_n=centrifugal_force_n(mass_g, r_mm, n), rule=rule
     )

@@ -60,3 +60,20 @@ def test_trial_with_no_effect_at_all() -> None:
     v = check_trial_effect(3 + 1j, 3 + 1j, spread=0.1)
     assert not v.ok and math.isinf(v.suggested_scale)
     assert "fitted" in v.message
+
+
+def test_with_a_grade_a_fast_light_rotor_gets_a_trial_of_five_allowances() -> None:
+    # 3 kg spindle at 24000 rpm, G 2.5: allowance 9549 * 2.5 * 3 / 24000 = 2.98 g*mm.  The force
+    # rule gives far less (0.1 * 3 * 9.80665 N / (0.03 m * w^2) = 0.0155 g at 30 mm).
+    s = suggest_trial_weight(3, 24000, 30, grade=2.5)
+    u_per = 30000 / math.pi * 2.5 * 3 / 24000
+    assert s.mass_g * 30 == pytest.approx(5 * u_per, rel=1e-9)
+    assert "allowance" in s.rule and "our choice" in s.rule
+    assert s.force_n == pytest.approx(centrifugal_force_n(s.mass_g, 30, 24000))
+
+
+def test_with_a_grade_a_slow_heavy_rotor_keeps_the_force_rule() -> None:
+    plain = suggest_trial_weight(200, 600, 300)
+    graded = suggest_trial_weight(200, 600, 300, grade=6.3)
+    assert graded.mass_g == pytest.approx(plain.mass_g)
+    assert "common practice" in graded.rule
