@@ -6,6 +6,7 @@ from __future__ import annotations
 import cmath
 import json
 import math
+from pathlib import Path
 
 import pytest
 
@@ -102,7 +103,7 @@ def test_missing_reference_pulses_are_reported(capsys: pytest.CaptureFixture[str
     from runtrue.device import MeterClient
     from runtrue.transport import open_transport
 
-    def blind_meter(port: str, seed: int | None = None, realtime: bool = False) -> MeterClient:
+    def blind_meter(port: str, seed: int | None = None, realtime: bool = False, **_: object) -> MeterClient:
         return MeterClient(NoPulses(open_transport(port, seed=seed)), port)
 
     monkeypatch.setattr(runtrue.device, "open_meter", blind_meter)
@@ -125,3 +126,13 @@ def test_scenarios_lists_name_space_description(capsys: pytest.CaptureFixture[st
     for line in lines:
         name, description = line.split(" ", 1)
         assert SCENARIOS[name].description == description
+
+
+def test_spy_writes_a_hex_dump_of_the_traffic(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    dump = tmp_path / "link.txt"
+    code, out, err = run_cli(capsys, "measure", "--port", "sim:fan", "--revs", "3", "--json", "--seed", "1",
+                             "--spy", str(dump))
+    assert code == 0, err
+    text = dump.read_text()
+    assert " TX 0000  00 " in text  # the session opens with a lone 0x00 delimiter
+    assert text.count(" RX ") > 3

@@ -59,6 +59,7 @@ def register(subparsers: Any) -> None:
     p.add_argument("--edge", choices=("rising", "falling"), default=None, help="active edge of the reference pulse")
     p.add_argument("--channels", type=_channels_mask, default=None, metavar="LIST",
                    help="channels to measure, e.g. 0 or 0,1 or all (default: as the meter is set)")
+    p.add_argument("--spy", default=None, metavar="FILE", help="also write a hex dump of the link traffic to FILE")
     p.add_argument("--timeout", type=float, default=5.0, metavar="S",
                    help="longest wait for one revolution, seconds (default 5)")
 
@@ -84,7 +85,7 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
     from runtrue.transport import PortError, TransportLost
 
     try:
-        client = open_meter(port, seed=args.seed)
+        client = open_meter(port, seed=args.seed, spy=args.spy)
     except PortError as exc:
         raise UsageError(str(exc)) from None
     machine = getattr(client.transport, "machine", None)

@@ -334,10 +334,16 @@ class MeterClient:
 
 
 def open_meter(
-    port: str, seed: int | None = None, realtime: bool = False, *, command_timeout_s: float = 2.0
+    port: str,
+    seed: int | None = None,
+    realtime: bool = False,
+    *,
+    command_timeout_s: float = 2.0,
+    spy: str | None = None,
 ) -> MeterClient:
-    """Open ``port`` (a serial device, or ``sim:NAME``) and return a client (not yet identified)."""
+    """Open ``port`` (a serial device, or ``sim:NAME``) and return a client (not yet identified).
+    ``spy``: a file to hex-dump the traffic into."""
     from runtrue.transport import open_transport
 
-    transport = open_transport(port, seed=seed, realtime=realtime)
+    transport = open_transport(port, seed=seed, realtime=realtime, spy=spy)
     return MeterClient(transport, port, command_timeout_s=command_timeout_s)

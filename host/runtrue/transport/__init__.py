@@ -24,10 +24,26 @@ def scenario_names() -> list[str]:
     return sorted(SCENARIOS)
 
 
-def open_transport(port: str, *, seed: int | None = None, realtime: bool = False) -> Transport:
+def open_transport(
+    port: str, *, seed: int | None = None, realtime: bool = False, spy: str | None = None
+) -> Transport:
     """Open ``port``: ``sim:NAME`` for a simulator scenario, else a serial device or URL.
+    With ``spy`` (a file path) every byte each way is also hex-dumped to that file.
 
     Raises :class:`PortError` with what to do when the port cannot be opened."""
+    transport = _open(port, seed=seed, realtime=realtime)
+    if spy:
+        from runtrue.transport.spy import SpyTransport
+
+        try:
+            return SpyTransport(transport, spy)
+        except OSError as exc:
+            transport.close()
+            raise PortError(f"cannot write the traffic dump {spy}: {exc.strerror or exc}") from None
+    return transport
+
+
+def _open(port: str, *, seed: int | None, realtime: bool) -> Transport:
     if port.startswith(SIM_PREFIX):
         name = port[len(SIM_PREFIX) :]
         try:
