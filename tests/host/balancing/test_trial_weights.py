@@ -73,7 +73,9 @@ def test_with_a_grade_a_fast_light_rotor_gets_a_trial_of_five_allowances() -> No
 
 
 def test_with_a_grade_a_slow_heavy_rotor_keeps_the_force_rule() -> None:
-    plain = suggest_trial_weight(200, 600, 300)
-    graded = suggest_trial_weight(200, 600, 300, grade=6.3)
+    # 200 kg at 250 rpm, G 6.3: 5 allowances = 5 * 9549 * 6.3 * 200 / 250 = 240,600 g*mm, while the
+    # force rule gives 0.1 * 200 * 9.80665 / (26.18 rad/s)^2 = 0.2861 kg*m = 286,100 g*mm: it wins.
+    plain = suggest_trial_weight(200, 250, 300)
+    graded = suggest_trial_weight(200, 250, 300, grade=6.3)
     assert graded.mass_g == pytest.approx(plain.mass_g)
     assert "common practice" in graded.rule
