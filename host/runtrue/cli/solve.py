@@ -114,13 +114,13 @@ def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
                 raise UsageError(f"{wh}: \"plane\" must be a whole number from 1, got {json.dumps(plane)}")
             mass = _number(w, "mass", wh)
             angle = _number(w, "angle", wh)
-            radius = _number(w, "radius", wh)
-            assert mass is not None and angle is not None and radius is not None
+            radius_mm = _number(w, "radius", wh)
+            assert mass is not None and angle is not None and radius_mm is not None
             if mass <= 0:
                 raise UsageError(f"{wh}: \"mass\" must be above 0 g (put the direction in the angle), got {mass:g}")
-            if radius <= 0:
-                raise UsageError(f"{wh}: \"radius\" must be above 0 mm, got {radius:g}")
-            weights.append(Weight(plane, mass, angle, radius))
+            if radius_mm <= 0:
+                raise UsageError(f"{wh}: \"radius\" must be above 0 mm, got {radius_mm:g}")
+            weights.append(Weight(plane, mass, angle, radius_mm))
         readings_in = run.get("readings")
         if not isinstance(readings_in, list) or not readings_in:
             raise UsageError(f"{where}: \"readings\" must be a list with one reading per pickup")
