@@ -14,6 +14,8 @@ with the channel set of the first usable one.  Per channel:
   circular T^2, see :mod:`runtrue.readings.confidence`), ``spread_g * sqrt(F(2, 2N-2; 0.95))``;
   infinite below 2 revolutions.  ``ellipse`` holds Hotelling's T^2 ellipse, valid for any shape
   of scatter;
+* ``scatter_g``: the standard deviation of the single revolutions about the mean,
+  ``sqrt(sum |z_i - zbar|^2 / (N-1))`` (how much one revolution wanders; ``spread_g * sqrt(N)``);
 * ``h2``: the mean 2x vector; ``rms_g``: the quadratic mean of the per-revolution RMS.
 
 Speed: mean and sample standard deviation of the per-revolution speeds in rpm.
@@ -45,6 +47,7 @@ class ChannelReading:
     h2: complex
     rms_g: float
     ellipse: ConfidenceEllipse = field(repr=False, compare=False, default=ConfidenceEllipse(math.inf, math.inf, 0.0, 0.95))
+    scatter_g: float = math.inf
 
 
 @dataclass(frozen=True)
@@ -105,6 +108,7 @@ def vector_average(revs: Iterable[Revolution], level: float = 0.95) -> Reading:
                 h2=complex(h2[:, i].mean()),
                 rms_g=float(math.sqrt(np.mean(rms[:, i] ** 2))),
                 ellipse=ellipse,
+                scatter_g=spread * math.sqrt(n) if n > 1 else math.inf,
             )
         )
     return Reading(

@@ -26,6 +26,8 @@ def test_average_recovers_a_known_vector_per_channel() -> None:
     for ch, t in zip(reading.channels, truth):
         assert abs(ch.mean - t) < 4 * ch.spread_g
         assert ch.spread_g == pytest.approx(0.01 * math.sqrt(2) / math.sqrt(400), rel=0.15)
+        # One revolution scatters by sqrt(2) * sigma (sigma per component, circular noise).
+        assert ch.scatter_g == pytest.approx(0.01 * math.sqrt(2), rel=0.1)
     assert reading.channels[0].phase_deg == pytest.approx(30.0, abs=0.5)
     assert reading.channels[1].phase_deg == pytest.approx(275.0, abs=1.0)
     assert reading.channels[0].amp_g == pytest.approx(0.25, rel=0.01)
