@@ -201,3 +201,25 @@ def test_amplitude_only_inputs_never_raise(amps, angles, mass, monkeypatch, caps
     assert code in (0, 2)
     if code == 2:
         assert err.count("\n") == 1
+
+
+def test_phases_wrap_so_minus_319_is_41(monkeypatch, capsys) -> None:
+    doc = json.loads(json.dumps(ISSUE_EXAMPLE))
+    doc["runs"][0]["readings"][0]["phase"] = -319
+    doc["runs"][1]["readings"][0]["phase"] = 97 + 720
+    code, out, _ = _run(monkeypatch, capsys, json.dumps(doc))
+    assert code == 0
+    assert json.loads(out)["corrections"][0]["angle"] == pytest.approx(35.595, abs=1e-3)
+
+
+def test_speed_gives_the_force_on_each_correction_and_the_cautions(monkeypatch, capsys) -> None:
+    doc = dict(ISSUE_EXAMPLE, speed_rpm=1500)
+    code, out, _ = _run(monkeypatch, capsys, json.dumps(doc))
+    assert code == 0
+    data = json.loads(out)
+    c = data["corrections"][0]
+    # F = m r w^2 by hand: mass (kg) * 0.12 m * (2 pi 25 /s)^2.
+    assert c["force_n"] == pytest.approx(c["mass"] / 1000 * 0.12 * (2 * math.pi * 25) ** 2, rel=1e-4)
+    assert "lock out" in data["safety"]
+    code, _, err = _run(monkeypatch, capsys, json.dumps(dict(ISSUE_EXAMPLE, speed_rpm=-5)))
+    assert code == 2 and "speed" in err

@@ -264,7 +264,7 @@ def _trial_warnings(runs: Sequence[Run], y: np.ndarray) -> list[str]:
         elif ref_size > 0 and float(np.max(np.abs(delta))) < TRIAL_MIN_CHANGE_FRACTION * ref_size:
             out.append(
                 f"Run {k + 1}: the weights changed the readings by less than "
-                f"{TRIAL_MIN_CHANGE_FRACTION:.0%} of the reference (common practice asks for more); the "
+                f"{TRIAL_MIN_CHANGE_FRACTION:.0%} of the reference (the common-practice minimum); the "
                 "coefficients may be swamped by scatter. Repeat with a larger trial weight, or give "
                 "the readings' spreads so the engine can judge."
             )

@@ -30,8 +30,10 @@ TRIAL_FORCE_FRACTION = 0.10
 TRIAL_GRADE_MULTIPLE = 5.0
 #: Minimum change / noise ratio for a trustworthy trial run (see module docstring).
 TRIAL_MIN_RATIO = 10.0
-#: Without spreads: the change should be at least this fraction of the reference (common practice).
-TRIAL_MIN_CHANGE_FRACTION = 0.20
+#: Without spreads: the change should be at least this fraction of the reference.  The trade's
+#: rule of thumb asks the trial to change the amplitude by 30 % or the phase by 30 deg (common
+#: practice); either way the reading moves by at least 30 % of the reference as a vector.
+TRIAL_MIN_CHANGE_FRACTION = 0.30
 STANDARD_GRAVITY_M_S2 = 9.80665
 
 

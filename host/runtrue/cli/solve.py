@@ -14,7 +14,9 @@ from 1, mass g, angle deg from the mark against rotation, radius mm) and one rea
 standard deviation of the reading in the amp unit, gives uncertainties).  Without ``phase`` the
 amplitude-only (four-run) method is used.  Output: ``corrections``, ``influence`` (per pickup,
 per plane), ``predicted``, ``warnings``; added keys: ``method``, ``condition_number``,
-``uncertainty``, ``static_couple`` (two planes), ``conventions``.
+``uncertainty``, ``static_couple`` (two planes), ``conventions``, and, when the input gives
+``speed_rpm`` (the highest speed the rotor will run), ``force_n`` on each correction (the
+centrifugal force the weight must withstand) and a ``safety`` sentence.
 """
 
 from __future__ import annotations
@@ -26,6 +28,13 @@ import sys
 from typing import Any
 
 from runtrue.cli import UsageError
+
+SAFETY = (
+    "Rotating machinery can kill: stop and lock out the machine before fitting weights, secure "
+    "each weight for the force shown, never exceed the rotor's rated speed, and stand clear of "
+    "the plane of rotation on start-up. Local codes, the machine maker's instructions and "
+    "licensed practice come first."
+)
 
 CONVENTIONS = (
     "phase: lag in degrees after the reference mark; weight angle: from the mark against the "
@@ -216,11 +225,24 @@ def solution_json(sol: Any) -> dict[str, Any]:
     return out
 
 
+def _speed(data: dict) -> float | None:
+    from runtrue.balancing import BalancingError, check_speed_rpm
+
+    speed = _number(data, "speed_rpm", "input", required=False)
+    if speed is None:
+        return None
+    try:
+        return check_speed_rpm(speed)
+    except BalancingError as exc:
+        raise UsageError(f"\"speed_rpm\": {exc}") from None
+
+
 def run(args: argparse.Namespace) -> int:
-    from runtrue.balancing import BalancingError, solve, solve_amplitude_only
+    from runtrue.balancing import BalancingError, centrifugal_force_n, solve, solve_amplitude_only
 
     data = _load(args.file)
     runs, radius, amplitude_only = parse_runs(data)
+    speed = _speed(data)
     try:
         if amplitude_only:
             r = None
@@ -231,6 +253,11 @@ def run(args: argparse.Namespace) -> int:
             sol = solve(runs, radius)
     except BalancingError as exc:
         raise UsageError(str(exc)) from None
-    json.dump(solution_json(sol), sys.stdout, indent=2)
+    out = solution_json(sol)
+    if speed is not None:
+        for entry, w in zip(out["corrections"], sol.corrections):
+            entry["force_n"] = _r(centrifugal_force_n(w.mass_g, w.radius_mm, speed)) if w.mass_g > 0 else 0.0
+        out["safety"] = SAFETY
+    json.dump(out, sys.stdout, indent=2)
     sys.stdout.write("\n")
     return 0
