@@ -48,6 +48,13 @@ def rig(monkeypatch: pytest.MonkeyPatch) -> Iterator[Rig]:
     micropython = types.ModuleType("micropython")
     micropython.const = lambda x: x  # type: ignore[attr-defined]
     micropython.kbd_intr = kbd.append  # type: ignore[attr-defined]
+
+    def no_emitters(name: str) -> None:  # like the WebAssembly port: no viper/native code here
+        if name in ("viper", "native"):
+            raise ImportError(f"fake micropython has no {name}")
+        raise AttributeError(name)
+
+    micropython.__getattr__ = no_emitters  # type: ignore[attr-defined]
     uctypes = types.ModuleType("uctypes")
     uctypes.addressof = lambda obj: RAM_ADDRESS_OF_RING  # type: ignore[attr-defined]
 
