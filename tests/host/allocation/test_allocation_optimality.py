@@ -1,0 +1,99 @@
+"""The allocator is exactly optimal: equal to exhaustive search on small cases, never worse than a
+mixed-integer reference (scipy.optimize.milp, HiGHS) on larger ones (issue 4)."""
+
+from __future__ import annotations
+
+import math
+import random
+
+import pytest
+from allocation_reference import Case, brute_force, milp_reference
+
+from runtrue.allocation import Positions, Stock, allocate
+
+
+def _random_case(rng: random.Random, max_positions: int = 4, max_sizes: int = 3) -> Case:
+    P = rng.randint(1, max_positions)
+    if rng.random() < 0.5:
+        first = rng.uniform(0, 360)
+        angles = [(first + 360 * i / P) % 360 for i in range(P)]
+        radii = [100.0] * P
+    else:
+        angles = [rng.uniform(0, 360) for _ in range(P)]
+        radii = [rng.choice([80.0, 100.0, 125.0]) for _ in range(P)]
+    K = rng.randint(1, max_sizes)
+    sizes = sorted(rng.sample([0.5, 1.0, 2.0, 2.5, 3.0, 5.0, 7.0], K))
+    counts = [rng.choice([None, 1, 2, 3, 0]) for _ in range(K)]
+    if all(c == 0 for c in counts):
+        counts[0] = 1
+    stack = rng.choice([1, 2, 3])
+    mass_limit = rng.choice([None, None, 4.0, 6.0])
+    target = rng.uniform(1, 12) * 100 * complex(math.cos(t := rng.uniform(0, 2 * math.pi)), math.sin(t))
+    g = rng.choice([0.0, 0.0, 0.02, 0.1, 0.3]) * abs(target)
+    return Case(target, angles, radii, sizes, counts, stack, mass_limit, g)
+
+
+def _allocate(case: Case, prefer: bool = False, max_nodes: int = 10**7):
+    return allocate(
+        case.target,
+        Positions.at_angles(case.angles_deg, case.radii_mm),
+        stock=Stock.of(list(zip(case.sizes_g, case.counts))),
+        correction_radius_mm=100.0,
+        max_pieces_per_position=case.stack,
+        max_mass_per_position_g=case.mass_limit_g,
+        good_enough_gmm=case.good_enough_gmm,
+        prefer_fewer_positions=prefer,
+        max_nodes=max_nodes,
+    )
+
+
+def _summary(a) -> tuple[float, int, float, int]:
+    return (abs(a.residual_gmm), a.piece_count, a.added_mass_g, len(a.placements))
+
+
+@pytest.mark.parametrize("seed", range(60))
+def test_equal_to_exhaustive_search_on_small_random_cases(seed: int) -> None:
+    rng = random.Random(seed)
+    case = _random_case(rng)
+    prefer = seed % 5 == 0
+    a = _allocate(case, prefer)
+    rho, pieces, mass, npos = _summary(a)
+    b_rho, b_pieces, b_mass, b_npos = brute_force(case, prefer)
+    assert a.optimal
+    tol = 1e-6 * max(abs(case.target), 1.0)
+    g = case.good_enough_gmm
+    assert max(rho, g) == pytest.approx(max(b_rho, g), abs=tol)
+    if prefer:
+        assert npos == b_npos
+    assert pieces == b_pieces
+    assert mass == pytest.approx(b_mass, abs=1e-6)
+    assert rho == pytest.approx(b_rho, abs=tol)
+
+
+@pytest.mark.parametrize("seed", [0, 2, 3])
+def test_never_worse_than_milp_reference_on_larger_cases(seed: int) -> None:
+    rng = random.Random(1000 + seed)
+    P = rng.choice([8, 12])
+    K = rng.choice([4, 6])
+    first = rng.uniform(0, 30)
+    angles = [(first + 360 * i / P) % 360 for i in range(P)]
+    sizes = sorted(rng.sample([0.5, 1.0, 1.5, 2.0, 3.0, 4.0, 5.0, 7.5, 10.0, 15.0], K))
+    counts = [rng.choice([2, 3, 4, None]) for _ in range(K)]
+    t = rng.uniform(0, 2 * math.pi)
+    target = rng.uniform(5, 20) * 120 * complex(math.cos(t), math.sin(t))
+    g = rng.choice([0.01, 0.02, 0.05]) * abs(target)
+    case = Case(target, angles, [120.0] * P, sizes, counts, rng.choice([2, 3]), None, g)
+    a = allocate(case.target, Positions.at_angles(angles, 120.0), stock=Stock.of(list(zip(sizes, counts))),
+                 max_pieces_per_position=case.stack, good_enough_gmm=g, max_nodes=10**6)
+    # any MILP-feasible point is a valid allocation, so a time-limited MILP is still a fair bar
+    ref = milp_reference(case, time_limit_s=2.0)
+    assert ref is not None
+    m_rho, m_pieces, m_mass = ref
+    assert a.optimal
+    rho, pieces, mass = abs(a.residual_gmm), a.piece_count, a.added_mass_g
+    if m_rho <= g:
+        # the MILP met the good-enough residual: so must we, with no more pieces, then no more mass
+        assert rho <= g * (1 + 1e-9)
+        assert (pieces, round(mass, 6)) <= (m_pieces, round(m_mass, 6))
+    else:
+        assert max(rho, g) <= max(m_rho, g) * (1 + 1e-9)
