@@ -149,10 +149,12 @@ class RuntrueApp(App):
 
         return self.session.link.call(fit)
 
-    def _tell_screen(self, message: object) -> None:
+    def _tell_screen(self, message: object, *, status: bool = True) -> None:
+        if not self._screen_stack:  # starting up or shutting down
+            return
         screen = self.screen
         refresh = getattr(screen, "refresh_status", None)
-        if refresh is not None:
+        if status and refresh is not None:
             refresh()
         if message is not None and hasattr(screen, "meter_event"):
             screen.meter_event(message)
@@ -193,7 +195,7 @@ class RuntrueApp(App):
 
     def on_revolutions_read(self, message: RevolutionsRead) -> None:
         self.session.live.add(message.revs, message.lost_frames, message.epoch)
-        self._tell_screen(message)
+        self._tell_screen(message, status=False)
 
     def on_self_test_done(self, message: SelfTestDone) -> None:
         self.session.self_test = message.result

@@ -7,6 +7,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Iterable
 
 from textual.app import ComposeResult
+from textual.css.query import NoMatches
 from textual.screen import Screen
 from textual.widget import Widget
 from textual.widgets import Footer, Static
@@ -45,7 +46,10 @@ class StepScreen(Screen):
 
     def refresh_status(self) -> None:
         """Redraw the title bar (meter state changes come through here)."""
-        bar = self.query_one("#titlebar", Static)
+        try:
+            bar = self.query_one("#titlebar", Static)
+        except NoMatches:  # not composed yet, or going away
+            return
         state = self.session.meter_state
         width = max(20, self.size.width or 80)
         left = self._title_text()

@@ -12,8 +12,8 @@ from typing import Iterable
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.widget import Widget
-from textual.widgets import SelectionList, Static
-from textual.widgets.selection_list import Selection
+from textual.widgets import OptionList, Static
+from textual.widgets.option_list import Option
 
 from runtrue.tui.fitting_list import FitItem, fit_items
 from runtrue.tui.format import SAFETY_FIT, rotation_words
@@ -24,6 +24,7 @@ from runtrue.tui.widgets.dial import DialData, FittingDial
 class FittingScreen(StepScreen):
     STEP = "5 Fitting"
     BINDINGS = [
+        Binding("space", "tick", "Tick off / untick"),
         Binding("p", "plane", "Next plane"),
         Binding("escape", "back", "Back to runs"),
     ]
@@ -35,7 +36,7 @@ class FittingScreen(StepScreen):
                 yield FittingDial(id="fit-dial")
             with Vertical(id="fit-right"):
                 yield Static("Tick each one off (Space)", classes="pane-title")
-                yield SelectionList[str](id="fit-list")
+                yield OptionList(id="fit-list")
                 yield Static("", id="fit-convention", classes="note", markup=False)
         yield Static(SAFETY_FIT, id="caution", classes="caution", markup=False)
 
@@ -45,17 +46,19 @@ class FittingScreen(StepScreen):
         self.items: list[FitItem] = fit_items(job) if job is not None else []
         self.ticked: set[str] = self.rt_app.ticked
         self.plane = min((i.plane for i in self.items), default=1)
-        sl = self.query_one("#fit-list", SelectionList)
+        sl = self.query_one("#fit-list", OptionList)
         for item in self.items:
-            sl.add_option(Selection(item.text, item.key, item.key in self.ticked))
+            sl.add_option(Option(self._prompt(item), id=item.key))
         if not self.items:
-            sl.add_option(Selection("Nothing to fit or take off for this run.", "none", disabled=True))
+            sl.add_option(Option("Nothing to fit or take off for this run.", disabled=True))
         m = job.machine if job is not None else None
         if m is not None:
             self.query_one("#fit-convention", Static).update(
                 f"Angles from the mark, against rotation. Rotor turns {rotation_words(m.rotation)} "
                 "seen from the drive end (dial drawn from there)."
             )
+        if self.items:
+            sl.highlighted = 0
         sl.focus()
         self._draw_dial()
 
@@ -76,9 +79,27 @@ class FittingScreen(StepScreen):
             DialData(m.rotation, spec.position_angles_deg() or [], placements)
         )
 
-    def on_selection_list_selected_changed(self, event: SelectionList.SelectedChanged) -> None:
-        self.ticked.clear()
-        self.ticked.update(str(v) for v in event.selection_list.selected)
+    def _prompt(self, item: FitItem) -> str:
+        box = "(x)" if item.key in self.ticked else "( )"
+        return f"{box} {item.text}"
+
+    def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
+        event.stop()
+        self.action_tick()
+
+    def action_tick(self) -> None:
+        sl = self.query_one("#fit-list", OptionList)
+        if sl.highlighted is None or not self.items:
+            return
+        key = sl.get_option_at_index(sl.highlighted).id
+        item = next((i for i in self.items if i.key == key), None)
+        if item is None:
+            return
+        if key in self.ticked:
+            self.ticked.discard(key)
+        else:
+            self.ticked.add(key)
+        sl.replace_option_prompt(key, self._prompt(item))
         self._draw_dial()
         if self.items and len(self.ticked & {i.key for i in self.items}) == len(self.items):
             self.notify("All done. Tools and loose parts off the rotor, guards on, stand clear, then take the reading.",

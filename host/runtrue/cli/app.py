@@ -1,0 +1,49 @@
+"""``runtrue app [--port PORT] [--seed N]``: open the terminal application.
+
+Without ``--port`` the application uses the first meter found; with none plugged in it opens
+on the picker (meters, simulated machines, manual entry).  ``PORT`` is a serial device,
+``sim:NAME`` for a simulated machine (``runtrue scenarios`` lists them) or ``manual`` for
+readings typed in from another instrument.  Imports nothing heavy until it runs.
+"""
+
+from __future__ import annotations
+
+import argparse
+from typing import Any
+
+
+def register(subparsers: Any) -> None:
+    p = subparsers.add_parser(
+        "app",
+        help="open the terminal application (meter, simulator or manual entry)",
+        description="Open the balancing application. Without --port: the first meter found, "
+        "else the picker.",
+    )
+    p.add_argument("--port", default=None, metavar="PORT",
+                   help="serial device, sim:NAME (a simulated machine) or manual (type readings in)")
+    p.add_argument("--seed", type=int, default=None, metavar="N",
+                   help="random seed of a simulated machine (the same seed gives the same machine)")
+
+
+def _check_port(port: str) -> None:
+    from runtrue.cli import UsageError
+
+    if not port.strip():
+        raise UsageError("--port is empty: give a serial device, sim:NAME or manual")
+    if port.startswith("sim:"):
+        from runtrue.transport import scenario_names
+
+        names = scenario_names()
+        if port[4:] not in names:
+            raise UsageError(
+                f"unknown simulated machine {port[4:]!r}; choose one of: {', '.join(names) or 'none installed'}"
+            )
+
+
+def run(args: argparse.Namespace) -> int:
+    if args.port is not None:
+        _check_port(args.port)
+    from runtrue.tui import make_app  # the Textual application, only when asked for
+
+    make_app(args.port, seed=args.seed).run()
+    return 0

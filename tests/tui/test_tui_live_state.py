@@ -1,0 +1,77 @@
+"""Taking a reading from the revolutions as they arrive: progress, time left, settling, and
+never mixing revolutions from before the rotor changed."""
+
+from __future__ import annotations
+
+import cmath
+import math
+
+import pytest
+
+from runtrue.protocol.messages import Revolution
+from runtrue.tui.live_state import LiveState
+
+
+def rev(n: int, h1: complex, speed_rpm: float = 1500.0, flags: int = 0) -> Revolution:
+    return Revolution(rev=n, period_us=60e6 / speed_rpm, n_samples=160, flags=flags, channel_mask=1,
+                      h1=[h1], h2=[0j], rms_g=[abs(h1)])
+
+
+class Clock:
+    def __init__(self) -> None:
+        self.t = 0.0
+
+    def __call__(self) -> float:
+        return self.t
+
+
+def test_reading_of_target_revolutions_with_progress_and_time_left() -> None:
+    clock = Clock()
+    live = LiveState(clock=clock)
+    live.start_taking(10)
+    for n in range(4):  # 25 rev/s
+        clock.t = n * 0.04
+        live.add([rev(n, 0.5 + 0.01j * (n % 2))])
+    done, target, left = live.progress()
+    assert (done, target) == (4, 10)
+    assert left == pytest.approx(6 / 25, rel=0.01)
+    for n in range(4, 12):
+        clock.t = n * 0.04
+        live.add([rev(n, 0.5 + 0.01j * (n % 2))])
+    assert live.done is not None and not live.collecting
+    assert live.done.n_revs == 10
+    assert live.done.channels[0].amp_g == pytest.approx(abs(0.5 + 0.005j), rel=1e-6)
+
+
+def test_flagged_revolutions_are_not_averaged() -> None:
+    live = LiveState()
+    live.start_taking(3)
+    live.add([rev(0, 1.0), rev(1, 9.0, flags=1), rev(2, 1.0), rev(3, 1.0)])
+    assert live.done is not None
+    assert live.done.channels[0].amp_g == pytest.approx(1.0)
+    assert live.unusable_revs == 1
+
+
+def test_revolutions_from_before_the_rotor_changed_are_ignored() -> None:
+    live = LiveState()
+    live.reset(min_epoch=2)
+    live.start_taking(2)
+    live.add([rev(0, 5.0), rev(1, 5.0)], epoch=1)  # still in flight when the weights changed
+    assert live.done is None and not live.recent
+    live.add([rev(2, 1.0), rev(3, 1.0)], epoch=2)
+    assert live.done is not None and live.done.channels[0].amp_g == pytest.approx(1.0)
+
+
+def test_automatic_reading_waits_until_steady() -> None:
+    live = LiveState()
+    live.start_taking(8, when_steady=True)
+    # running up: speed rising 3 % a revolution, not steady
+    for n in range(12):
+        live.add([rev(n, cmath.rect(0.5, 1.0), speed_rpm=1000 * 1.03**n)])
+    assert live.waiting_for_steady and not live.collected
+    # at speed: settles, then 8 revolutions are averaged
+    for n in range(12, 40):
+        live.add([rev(n, cmath.rect(0.5, 1.0) + 0.001 * (-1) ** n, speed_rpm=1500.0)])
+    assert live.done is not None
+    assert live.done.speed_rpm == pytest.approx(1500.0)
+    assert math.degrees(cmath.phase(live.done.channels[0].mean)) == pytest.approx(math.degrees(1.0), abs=0.2)

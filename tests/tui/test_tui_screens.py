@@ -1,0 +1,198 @@
+"""Each screen driven with Textual's pilot at 80x24."""
+
+from __future__ import annotations
+
+import cmath
+import math
+from pathlib import Path
+
+from textual.widgets import Input, OptionList
+from tui_fakes import FakeRotor, fake_opener
+from tui_helpers import FAN_FIELDS, fill, screen_name, screen_text, wait_until
+
+from runtrue.tui import make_app
+
+SIZE = (80, 24)
+
+
+async def test_connect_lists_simulated_machines_and_manual_entry() -> None:
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        ol = app.screen.query_one("#sources", OptionList)
+        await wait_until(pilot, lambda: ol.option_count > 3, what="sources listed")
+        text = screen_text(app)
+        assert "fan:" in text and "roller:" in text and "manual entry" in text
+        ol.highlighted = ol.get_option_index("manual")
+        await pilot.press("enter")
+        assert app.session.port == "manual"
+        assert "Manual entry" in screen_text(app)
+        await pilot.press("n")
+        assert screen_name(app) == "MachineScreen"
+
+
+async def test_connect_shows_device_and_self_test() -> None:
+    app = make_app("sim:fan", seed=1, realtime=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
+        await pilot.press("t")
+        await wait_until(pilot, lambda: app.session.self_test is not None, what="self-test")
+        text = screen_text(app)
+        assert "board    sim" in text
+        assert "Self-test PASSED" in text and "reference" in text
+
+
+async def test_machine_form_names_the_wrong_field_and_starts_a_job() -> None:
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        screen = app.screen
+        fill(screen, dict(FAN_FIELDS, mass="heavy"))
+        await pilot.press("f2")
+        assert screen_name(app) == "MachineScreen"
+        assert app.focused is screen.query_one("#f_mass", Input)
+        assert app.session.job is None
+        fill(screen, {"mass": "14"})
+        await pilot.pause()
+        assert "Permissible residual unbalance" in screen_text(app)
+        await pilot.press("f2")
+        await pilot.pause()
+        assert screen_name(app) == "RunsScreen"
+        job = app.session.job
+        assert job is not None and job.state.step == "reference"
+        assert app.session.store.get_machine("Boiler-house fan 2") is not None
+
+
+async def test_grade_table_picks_a_grade() -> None:
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n", "f3")
+        assert "ISO 21940-11:2016" in screen_text(app)
+        await pilot.press("down", "down", "down", "down", "enter")  # 4th row: motors above ~950 rpm
+        assert app.screen.query_one("#f_grade", Input).value == "G2.5"
+
+
+async def test_live_screen_shows_readings_and_takes_one(tmp_path: Path) -> None:
+    app = make_app("sim:fake", opener=fake_opener(), realtime=False, revs_per_reading=12,
+                   post_interval_s=0.05, report_dir=str(tmp_path))
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected")
+        from runtrue.tui.screens.live import LiveScreen
+
+        taken: list[object] = []
+        app.push_screen(LiveScreen("test"), taken.append)
+        await wait_until(pilot, lambda: app.session.live.total_revs > 20, what="revolutions")
+        await pilot.pause(0.3)
+        text = screen_text(app)
+        assert "rpm" in text and "1x amp" in text and "phase" in text
+        assert "0\N{DEGREE SIGN} top, lag clockwise" in text or "ring" in text
+        await pilot.press("space")
+        await wait_until(pilot, lambda: bool(taken), what="reading taken")
+        reading = taken[0]
+        expected = FakeRotor().expected_1x()[0]
+        assert reading.n_revs == 12
+        assert abs(reading.channels[0].mean - expected) < 0.01
+
+
+def _typed(app: object, amp: float, phase: float) -> dict[str, str]:
+    return {"speed": "1470", "amp0": f"{amp:.5f}", "phase0": f"{phase:.3f}"}
+
+
+async def test_manual_job_reference_trial_correction_result(tmp_path: Path) -> None:
+    """Readings typed in from another instrument, on a linear rotor we know: the correction the
+    application asks for is the one that cancels the unbalance."""
+    rotor = FakeRotor()
+    influence = rotor.influence[0][0]
+    u0 = rotor.initial_gmm[0]
+
+    def reading_for(weights: list[complex]) -> tuple[float, float]:
+        v = influence * (u0 + sum(weights))
+        return abs(v), math.degrees(cmath.phase(v)) % 360
+
+    app = make_app("manual", report_dir=str(tmp_path))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2")
+        assert "Reference run" in screen_text(app)
+        # reference
+        await pilot.press("r")
+        fill(app.screen, _typed(app, *reading_for([])), prefix="#")
+        await pilot.press("enter")
+        job = app.session.job
+        assert job.state.step == "trial"
+        trial = job.suggested_trial()
+        # fitting screen: the trial weight with its force
+        await pilot.press("f")
+        text = screen_text(app)
+        assert "FIT" in text and "secure for" in text and "MARK" in text
+        await pilot.press("space")  # tick it off
+        assert app.ticked
+        await pilot.press("escape")
+        # trial run
+        await pilot.press("r")
+        fill(app.screen, _typed(app, *reading_for([trial.unbalance_gmm])), prefix="#")
+        await pilot.press("enter")
+        assert job.state.step == "correction", screen_text(app)
+        plan = job.state.plan
+        fitted = sum(w.unbalance_gmm for w in plan.weights_to_fit())
+        # the allocation cancels the unbalance within its stated residual (plus the rounding of
+        # the typed readings: 5 decimals of amplitude, 3 of phase)
+        assert abs(u0 + fitted) <= plan.planes[0].residual_gmm + 0.01 * abs(u0)
+        assert abs(u0 + fitted) < 0.05 * abs(u0)
+        assert "Correction" in screen_text(app)
+        # correction run: the allocated weights (trial removed)
+        await pilot.press("r")
+        fill(app.screen, _typed(app, *reading_for([fitted])), prefix="#")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert screen_name(app) == "ResultScreen"
+        text = screen_text(app)
+        assert "PASS" in text and "permissible" in text
+        await pilot.press("h", "e")
+        names = sorted(p.name for p in tmp_path.iterdir())
+        assert any(n.endswith(".html") for n in names)
+        assert any(n.endswith("-runs.csv") for n in names) and any(n.endswith(".json") for n in names)
+        html = next(tmp_path.glob("*.html")).read_text()
+        assert "Boiler-house fan 2" in html
+
+
+async def test_bad_typed_reading_is_refused_and_nothing_is_lost() -> None:
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "lots", "phase0": "10"}, prefix="#")
+        await pilot.press("enter")
+        assert screen_name(app) == "ManualReadingForm"
+        await pilot.press("escape")
+        assert app.session.job.runs == []
+        assert app.session.job.state.step == "reference"
+
+
+async def test_pulled_cable_shows_a_message_keeps_the_job_and_reconnects() -> None:
+    rotor = FakeRotor()
+    opened: list[object] = []
+
+    def opener(port: str, seed: object = None, realtime: bool = False) -> object:
+        from tui_fakes import FakeMeter
+
+        m = FakeMeter(rotor)
+        if not opened:
+            m.fail_after = 40
+        opened.append(m)
+        return m
+
+    app = make_app("sim:fake", opener=opener, realtime=False, revs_per_reading=8, post_interval_s=0.05)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected")
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        await wait_until(pilot, lambda: "LOST" in app.session.meter_state, what="cable pulled")
+        assert "LOST" in screen_text(app)
+        assert app.session.job is not None and app.session.job.state.step == "reference"
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="reconnected")
+        await pilot.press("space")
+        await wait_until(pilot, lambda: app.session.job.runs != [], what="reading after reconnect")
+        assert app.session.job.state.step == "trial"

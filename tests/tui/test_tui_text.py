@@ -1,0 +1,76 @@
+"""Display text: forces, amounts, and the machine form's parsing."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from runtrue.tui.format import amp_text, bar, centrifugal_force_n, force_text, time_left_text
+from runtrue.tui.machine_form import FormError, fields_from_machine, machine_from_fields, parse_stock
+
+FAN = {
+    "name": "Boiler-house fan 2", "mass": "14", "speed": "1470", "rotation": "cw", "grade": "G6.3",
+    "planes": "1", "p1_radius": "160", "p1_pos": "8", "p1_first": "0", "stock": "1x6 2x6 5x4",
+    "pickups": "fan-end bearing",
+}
+
+
+def test_centrifugal_force_of_a_weight() -> None:
+    # F = m r w^2 (Newton's second law, uniform circular motion): 10 g at 100 mm, 3000 rpm.
+    omega = 2 * math.pi * 3000 / 60
+    assert centrifugal_force_n(10, 100, 3000) == pytest.approx(0.010 * 0.100 * omega**2)
+    assert centrifugal_force_n(10, 100, 3000) == pytest.approx(98.7, abs=0.05)
+    assert force_text(98.7) == "99 N"
+    assert force_text(25_000) == "25.0 kN"
+
+
+def test_amplitudes_keep_three_significant_figures() -> None:
+    assert amp_text(0.48213) == "0.482 g"
+    assert amp_text(0.0063) == "0.00630 g"
+    assert amp_text(12.345) == "12.3 g"
+    assert amp_text(math.nan) == "---"
+
+
+def test_progress_bar_and_time_left() -> None:
+    assert bar(0.5, 10).count("\N{FULL BLOCK}") == 5
+    assert bar(2.0, 4).count("\N{FULL BLOCK}") == 4
+    assert time_left_text(3.2) == "3 s"
+    assert time_left_text(75) == "1 min 15 s"
+    assert time_left_text(math.nan) == "--"
+
+
+def test_machine_form_round_trip() -> None:
+    m = machine_from_fields(FAN)
+    assert m.rotor_mass_kg == 14 and m.speed_rpm == 1470 and m.rotation == "cw"
+    assert m.planes[0].count == 8 and m.planes[0].radius_mm == 160
+    assert [(s.mass_g, s.count) for s in m.stock] == [(1, 6), (2, 6), (5, 4)]
+    again = machine_from_fields(fields_from_machine(m))
+    assert again.to_dict() == m.to_dict()
+
+
+def test_two_planes_groove_and_strip() -> None:
+    values = dict(FAN, planes="2", p2_radius="95", p2_pos="any", p2_first="", stock="strip 0.8",
+                  pickups="drive end; far end")
+    m = machine_from_fields(values)
+    assert m.n_planes == 2 and m.planes[1].continuous
+    assert m.strip is not None and m.strip.grams_per_mm == 0.8
+    assert [p.label for p in m.pickups] == ["drive end", "far end"]
+
+
+@pytest.mark.parametrize(
+    "field, value",
+    [("mass", "heavy"), ("speed", "-5"), ("rotation", "left"), ("grade", "good"), ("p1_pos", "eight"),
+     ("stock", "2 grams"), ("name", " ")],
+)
+def test_bad_field_is_named_with_advice(field: str, value: str) -> None:
+    with pytest.raises(FormError) as err:
+        machine_from_fields(dict(FAN, **{field: value}))
+    assert err.value.field == field
+    assert str(err.value)
+
+
+def test_stock_syntax() -> None:
+    assert parse_stock("") == ([], None)
+    pieces, strip = parse_stock("0.5x10, 1x4")
+    assert [(p.mass_g, p.count) for p in pieces] == [(0.5, 10), (1, 4)] and strip is None
