@@ -6,7 +6,7 @@ import math
 
 import numpy as np
 import pytest
-from revs import make_revs
+from readings_revs import make_revs
 from scipy import stats
 
 from runtrue.readings import NoUsableRevolutions, phasor, vector_average

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
-from revs import make_revs
+from readings_revs import make_revs
 
 from runtrue.protocol.messages import Revolution
 from runtrue.readings import SteadinessDetector, phasor, steadiness
