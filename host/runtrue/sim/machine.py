@@ -200,13 +200,21 @@ class VirtualMachine:
         """Noise-free 1x of each physical channel (pickup) in g, ``amp e^{+j lag}``, lag after the
         active edge as the meter detects it, at the current unbalance and speed (see module doc)."""
         with self._lock:
-            omega = self._omega
-            p = self._pickup_phasors_g(omega, 0.0, self.unbalance_gmm())
-            shift = omega * self.scenario.front_end.ref_delay_us * 1e-6
-            if self._falling:
-                shift += math.radians(self.scenario.mark_width_deg)
-            delays = [0.0] * len(p) if self._skew_corrected else self._channel_delay_s
-            return [complex(np.conj(p_i)) * cmath.exp(-1j * (shift + omega * d)) for p_i, d in zip(p, delays)]
+            return self._expected_at(self._omega)
+
+    def expected_1x_at(self, speed_rpm: float, speed_change_rpm_per_s: float = 0.0) -> list[complex]:
+        """As :meth:`expected_1x`, at the current unbalance but at ``speed_rpm``, steady or
+        changing at ``speed_change_rpm_per_s`` (the tangential part of the unbalance force)."""
+        with self._lock:
+            return self._expected_at(TWO_PI * speed_rpm / 60.0, TWO_PI * speed_change_rpm_per_s / 60.0)
+
+    def _expected_at(self, omega: float, omega_dot: float = 0.0) -> list[complex]:
+        p = self._pickup_phasors_g(omega, omega_dot, self.unbalance_gmm())
+        shift = omega * self.scenario.front_end.ref_delay_us * 1e-6
+        if self._falling:
+            shift += math.radians(self.scenario.mark_width_deg)
+        delays = [0.0] * len(p) if self._skew_corrected else self._channel_delay_s
+        return [complex(np.conj(p_i)) * cmath.exp(-1j * (shift + omega * d)) for p_i, d in zip(p, delays)]
 
     def influence_coefficients(self) -> np.ndarray:
         """True influence coefficients at the current speed: change of expected_1x (g) per g.mm
