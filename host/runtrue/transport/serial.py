@@ -195,13 +195,14 @@ class SerialTransport(Transport):
             return False
         deadline = time.monotonic() + timeout_s
         while True:
-            device = self.port
+            device: str | None = self.port
             if self.serial_number:
+                # The same meter, wherever the OS put it now; never another board at the old path.
                 try:
-                    device = _device_with_serial_number(self.serial_number) or self.port
+                    device = _device_with_serial_number(self.serial_number)
                 except Exception:
                     device = self.port
-            if os.path.exists(device):
+            if device is not None and os.path.exists(device):
                 try:
                     self._open(device)
                     self.name = device

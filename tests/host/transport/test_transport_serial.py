@@ -134,3 +134,31 @@ def test_unknown_scenario_lists_the_choices() -> None:
     pytest.importorskip("runtrue.sim.transport")
     with pytest.raises(PortError, match="unknown scenario 'no-such-machine'.*runtrue scenarios"):
         open_transport("sim:no-such-machine")
+
+
+def test_reopen_follows_the_usb_serial_number_to_a_new_path(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # Re-plugged, the meter may come back as /dev/ttyACM1 while another board takes ttyACM0.
+    master_a, slave_a = os.openpty()
+    transport = SerialTransport(os.ttyname(slave_a))
+    transport.serial_number = "E6614103E7"
+    master_b, slave_b = os.openpty()  # the old path stays open too: "another board" (pty A)
+    new_path = os.ttyname(slave_b)
+    try:
+        transport.close()
+        monkeypatch.setattr("runtrue.transport.serial._device_with_serial_number", lambda sn: None)
+        assert transport.reopen(0.2) is False  # not back yet: the old path is NOT taken instead
+        monkeypatch.setattr("runtrue.transport.serial._device_with_serial_number",
+                            lambda sn: new_path if sn == "E6614103E7" else None)
+        assert transport.reopen(1.0) is True
+        assert transport.name == new_path
+        os.write(master_b, b"hi")
+        got = b""
+        for _ in range(50):
+            got += transport.read(10, 0.05)
+            if len(got) >= 2:
+                break
+        assert got == b"hi"
+    finally:
+        transport.close()
+        for fd in (master_a, slave_a, master_b, slave_b):
+            os.close(fd)
