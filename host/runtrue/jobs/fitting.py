@@ -89,7 +89,7 @@ GOOD_ENOUGH_FRACTION = 0.2
 
 
 #: Bound on the allocator's search so a screen never waits long (it then states its bound).
-MAX_SEARCH_NODES = 20_000
+MAX_SEARCH_NODES = 5_000
 
 
 def plan_plane(

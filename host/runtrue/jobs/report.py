@@ -81,10 +81,13 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
         parts.append(f'<line x1="{c:.1f}" y1="{c:.1f}" x2="{x:.1f}" y2="{y:.1f}" stroke="#e2e2e2"/>')
         tx, ty = c + (r_px + 14) * math.sin(a), c - (r_px + 14) * math.cos(a) + 3
         parts.append(f'<text x="{tx:.1f}" y="{ty:.1f}" font-size="10" text-anchor="middle" fill="#444">{deg}°</text>')
-    parts.append(
-        '<defs><marker id="ah" viewBox="0 0 10 10" refX="9" refY="5" markerWidth="7" markerHeight="7" '
-        'orient="auto-start-reverse"><path d="M0,0 L10,5 L0,10 z" fill="context-stroke"/></marker></defs>'
-    )
+    parts.append("<defs>")
+    for kind, colour in _RUN_COLOURS.items():
+        parts.append(
+            f'<marker id="ah-{pickup}-{kind}" viewBox="0 0 10 10" refX="9" refY="5" markerWidth="7" '
+            f'markerHeight="7" orient="auto"><path d="M0,0 L10,5 L0,10 z" fill="{colour}"/></marker>'
+        )
+    parts.append("</defs>")
     for i, (run, v) in enumerate(zip(runs, vals)):
         amp, ph = _amp_phase(v)
         rr = r_px * amp / full
@@ -94,7 +97,7 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
         if i == 0 or i == len(runs) - 1:
             parts.append(
                 f'<line x1="{c:.1f}" y1="{c:.1f}" x2="{x:.1f}" y2="{y:.1f}" stroke="{colour}" '
-                f'stroke-width="2" marker-end="url(#ah)"><title>run {run.seq} ({run.kind}): '
+                f'stroke-width="2" marker-end="url(#ah-{pickup}-{run.kind})"><title>run {run.seq} ({run.kind}): '
                 f"{amp:.4g} g at {ph:.0f}°</title></line>"
             )
         else:
@@ -184,7 +187,10 @@ def render_html(store: JobStore, job_id: int) -> str:
             out.append(
                 f"<figure>{polar_svg(runs, i, pk.label)}<figcaption>Pickup {i + 1} ({_e(pk.label)}): 1x vector "
                 "of every run, numbered in order; reference mark (0°) at the top, phase lag increasing "
-                "clockwise on the page; arrows from the centre show the first and the last run.</figcaption></figure>"
+                "clockwise on the page; arrows from the centre show the first and the last run. Colours: "
+                '<span style="color:#b23a3a">reference</span>, <span style="color:#8a6d00">trial</span>, '
+                '<span style="color:#1f5fa8">correction</span>, <span style="color:#1f7a4a">trim</span>.'
+                "</figcaption></figure>"
             )
     # Grade check
     out += ['<h2 id="grade">Grade check</h2>']

@@ -216,6 +216,7 @@ class BalanceJob:
         self._influence_warnings: list[str] = []
         self._tolerance = self._make_tolerance()
         self._replaying = False  # True while resume() rebuilds the state: nothing is written then
+        self._plan_pending: str | None = None
         self._enter_reference()
 
     # -- creating and resuming --------------------------------------------------------------------
@@ -260,6 +261,8 @@ class BalanceJob:
             if k < len(runs):
                 job._apply_run(runs[k])
         job._replaying = False
+        if job._plan_pending is not None and job.state.step == job._plan_pending:
+            job._enter_correction(job._plan_pending)
         if rec.status != "open" and job.state.status == "open":
             job.state.status = rec.status
             job.state.step = "done"
@@ -630,6 +633,12 @@ class BalanceJob:
         s.step = kind
         s.plane = None
         s.trial = None
+        if self._replaying:
+            # Only the last step's plan matters after a resume: work it out once, at the end.
+            s.plan = None
+            self._plan_pending = kind
+            return
+        self._plan_pending = None
         on = list(self.runs[-1].weights)
         remove = [w for w in on if self._is_trial(w)] if self.options["trial_removed"] else []
         now = [w for w in on if w not in remove]
