@@ -78,7 +78,7 @@ def _check_runs(runs: Sequence[Run]) -> tuple[int, int]:
             if len(run.spreads) != n_pickups:
                 raise BalancingError(f"run {k} has {len(run.spreads)} spread(s) for {n_pickups} pickup(s)")
             for i, s in enumerate(run.spreads, start=1):
-                if not (math.isfinite(float(s)) and float(s) >= 0.0):
+                if math.isnan(float(s)) or float(s) < 0.0:
                     raise BalancingError(f"run {k}, pickup {i}: spread must be a number >= 0, got {s!r}")
         for w in run.weights:
             if not isinstance(w.plane, int) or isinstance(w.plane, bool) or w.plane < 1:
@@ -298,9 +298,29 @@ def _check_finite(sol: Solution) -> None:
         raise BalancingError("the numbers are out of range (too large or too small); check units and readings")
 
 
+def _known_spreads(runs: Sequence[Run]) -> tuple[list[Run], list[str]]:
+    """Runs with an infinite spread (scatter unknown: fewer than two revolutions) lose their
+    spreads, so the fit falls back to equal weights; a warning says so."""
+    out: list[Run] = []
+    unknown = []
+    for k, run in enumerate(runs, start=1):
+        if run.spreads is not None and not all(math.isfinite(float(v)) for v in run.spreads):
+            out.append(Run(run.weights, run.readings, None))
+            unknown.append(str(k))
+        else:
+            out.append(run)
+    if not unknown:
+        return out, []
+    return out, [
+        f"The scatter of run(s) {', '.join(unknown)} is unknown (too few revolutions): all runs were "
+        "weighted equally and no uncertainty could be given. Measure more revolutions."
+    ]
+
+
 def _solve(runs: Sequence[Run], radius_mm: Mapping[int, float] | None) -> Solution:
     """The unguarded body of :func:`solve`."""
     n_pickups, n_planes = _check_runs(runs)
+    runs, spread_warnings = _known_spreads(runs)
     radii = _radii(n_planes, radius_mm, runs)
     x = _design(runs, n_planes)
     norms = np.linalg.norm(x, axis=0)
@@ -316,7 +336,7 @@ def _solve(runs: Sequence[Run], radius_mm: Mapping[int, float] | None) -> Soluti
     resid = y - (r[None, :] + x[:, 1:] @ a.T)
     dof = len(runs) - (n_planes + 1)
     fit_rms = float(np.sqrt(np.mean(np.abs(resid) ** 2))) if dof > 0 else 0.0
-    warnings = _trial_warnings(runs, y)
+    warnings = spread_warnings + _trial_warnings(runs, y)
     unc = None
     if wts is not None:
         sd = np.array([[float(v) for v in run.spreads] for run in runs])  # type: ignore[union-attr]
@@ -374,12 +394,19 @@ def correction_from_influence(
 def _stored(a: np.ndarray, r: np.ndarray, radii: list[float], spreads: Sequence[float] | None) -> Solution:
     n_pickups = a.shape[0]
     unc = None
+    warnings: list[str] = []
     if spreads is not None:
         if len(spreads) != n_pickups:
             raise BalancingError(f"{len(spreads)} spread(s) for {n_pickups} pickup(s)")
+        if any(math.isnan(float(v)) or float(v) < 0 for v in spreads):
+            raise BalancingError("spreads must be numbers >= 0")
+        if not all(math.isfinite(float(v)) for v in spreads):
+            warnings.append("The reading's scatter is unknown (too few revolutions): no uncertainty could be given.")
+            spreads = None
+    if spreads is not None:
         sd = np.array([[float(s) for s in spreads]])
         unc = propagate(lambda yy: _correct(a, yy[0]), r[None, :], sd, _correct(a, r))
-    return _finish(a, r, radii, [], "stored", 0.0, unc)
+    return _finish(a, r, radii, warnings, "stored", 0.0, unc)
 
 
 def net_correction(

@@ -124,19 +124,32 @@ def check_trial_effect(
     """Whether the trial run changed the reading enough, given the readings' spreads.
 
     ``spread`` is the reference reading's spread (standard deviation of the mean, same unit);
-    ``trial_spread`` the trial reading's (default: the same).  Returns a verdict with the ratio
+    ``trial_spread`` the trial reading's (default: the same).  An infinite spread means the
+    scatter is unknown: the verdict then uses the 30 % rule of thumb (``ratio`` 0).  Returns a verdict with the ratio
     of the change to its noise and, if too small, how much larger to make the trial weight.
     """
     ref = complex(reference)
     tri = complex(trial)
     s0 = float(spread)
     s1 = s0 if trial_spread is None else float(trial_spread)
-    for v in (ref.real, ref.imag, tri.real, tri.imag, s0, s1):
+    for v in (ref.real, ref.imag, tri.real, tri.imag):
         if not math.isfinite(v):
-            raise BalancingError("trial check: readings and spreads must be finite numbers")
-    if s0 < 0 or s1 < 0:
-        raise BalancingError("trial check: spreads must be >= 0")
+            raise BalancingError("trial check: readings must be finite numbers")
+    if math.isnan(s0) or math.isnan(s1) or s0 < 0 or s1 < 0:
+        raise BalancingError("trial check: spreads must be numbers >= 0")
     change = abs(tri - ref)
+    if math.isinf(s0) or math.isinf(s1):
+        # Scatter unknown (too few revolutions): fall back on the 30 % rule of thumb.
+        frac = change / abs(ref) if abs(ref) > 0 else math.inf
+        ok = frac >= TRIAL_MIN_CHANGE_FRACTION
+        scale = 1.0 if ok else (TRIAL_MIN_CHANGE_FRACTION / frac if frac > 0 else math.inf)
+        msg = (
+            f"The reading's scatter is unknown; the trial moved it by {frac:.0%} of the reference "
+            f"({'enough' if ok else 'under'} the {TRIAL_MIN_CHANGE_FRACTION:.0%} rule of thumb)."
+        )
+        if not ok:
+            msg += f" Make the trial weight about {math.ceil(scale * 10) / 10:g} times larger, or measure more revolutions."
+        return TrialVerdict(ok=ok, ratio=0.0, message=msg, suggested_scale=scale)
     noise = math.hypot(s0, s1)
     if noise == 0.0:
         ratio = math.inf if change > 0 else 0.0

@@ -240,3 +240,12 @@ def test_net_correction_when_the_trial_weight_stays_on() -> None:
     (net,) = net_correction(corr, trial)
     assert net.unbalance_gmm + trial[0].unbalance_gmm == pytest.approx(corr[0].unbalance_gmm)
     assert net.mass_g >= 0
+
+
+def test_unknown_scatter_drops_weighting_and_says_so() -> None:
+    runs = [Run([], [phasor(7.9, 41)], [math.inf]), Run([Weight(1, 15, 0, 120)], [phasor(4.6, 97)], [0.1])]
+    sol = solve(runs)
+    assert sol.mass_sd_g is None
+    assert "unknown" in sol.warnings[0]
+    plain = solve([Run(r.weights, r.readings) for r in runs])
+    assert sol.correction_gmm == pytest.approx(plain.correction_gmm)

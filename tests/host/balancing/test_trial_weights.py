@@ -79,3 +79,10 @@ def test_with_a_grade_a_slow_heavy_rotor_keeps_the_force_rule() -> None:
     graded = suggest_trial_weight(200, 250, 300, grade=6.3)
     assert graded.mass_g == pytest.approx(plain.mass_g)
     assert "common practice" in graded.rule
+
+
+def test_unknown_scatter_falls_back_on_the_thirty_percent_rule() -> None:
+    big = check_trial_effect(10 + 0j, 6 + 0j, spread=math.inf)
+    small = check_trial_effect(10 + 0j, 9 + 0j, spread=math.inf)
+    assert big.ok and "unknown" in big.message
+    assert not small.ok and small.suggested_scale == pytest.approx(3.0)
