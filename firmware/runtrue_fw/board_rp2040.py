@@ -300,7 +300,7 @@ class Board:
         cs = _ADC_CS_EN | (first << _ADC_CS_AINSEL_LSB) | (rrobin << _ADC_CS_RROBIN_LSB)
         mem[adc + _ADC_CS] = cs
         state = machine.disable_irq()
-        t0 = self._ticks_us()
+        t0: int = self._ticks_us()  # type: ignore[assignment]  # stubs: _TicksUs, an int at run time
         mem[adc + _ADC_CS] = cs | _ADC_CS_START_MANY
         machine.enable_irq(state)
         self._t_start_us = t0
@@ -325,7 +325,7 @@ class Board:
         self._led.value(0)
 
     def ticks_ms(self) -> int:
-        return time.ticks_ms()
+        return time.ticks_ms()  # type: ignore[return-value]  # stubs: _TicksMs, an int at run time
 
     def info(self) -> dict:
         try:
@@ -393,7 +393,7 @@ class Board:
             meter.feed_command_bytes(bytes(buf[:n]))
         if not self._streaming:
             return
-        now = self._ticks_us()
+        now: int = self._ticks_us()  # type: ignore[assignment]  # stubs: _TicksUs
         self._anchor_elapsed_us += self._ticks_diff(now, self._anchor_us)
         self._anchor_us = now
         self._feed_edges(meter)
@@ -411,7 +411,7 @@ class Board:
         if i - self._edge_tail >= _EDGE_SLOTS:
             self._edge_lost += 1
             return
-        self._edge_t[i & _EDGE_MASK] = self._ticks_us()
+        self._edge_t[i & _EDGE_MASK] = self._ticks_us()  # type: ignore[call-overload]  # stubs: _TicksUs
         self._edge_head = i + 1
 
     def edge_position_q8(self, t_us: int) -> int:
