@@ -42,7 +42,8 @@ Trial weights (``trial``)
 
 Uncertainty (``uncertainty``)
     Give ``Run.spreads`` (or ``spreads=`` to correction_from_influence) and the Solution carries
-    mass_sd_g / angle_sd_deg (1 standard deviation, first-order GUM propagation);
+    mass_sd_g / angle_sd_deg (1 standard deviation, first-order GUM propagation); a spread of
+    math.inf means "scatter unknown" (equal weights, no uncertainty, a warning);
     propagate(func, y, sd, c0) -> (sd along, sd across) is the general tool.
 
 Amplitude only (``four_run``)
@@ -51,6 +52,8 @@ Amplitude only (``four_run``)
         amplitudes[0] is the reference run, then one per trial angle (3 or more angles).
     solve_amplitude_only(runs: Sequence[Run], radius_mm: float | None = None) -> Solution
         the same from Run objects whose readings are amplitudes (any trial masses and angles).
+        NOTE: a four-run Solution's influence holds |a| only (phase unknown, shown as 0) and its
+        predicted reading is an amplitude: never save it as a machine's stored coefficients.
 
 Static / couple (``static_couple``)
     static_couple(corrections: Sequence[Weight], radius_mm: float | None = None) -> StaticCouple
