@@ -231,7 +231,7 @@ def decode_frame(wire) -> tuple:
     data = bytes(wire)
     if data and data[-1] == 0:
         data = data[:-1]
-    if 0 in data:
+    if data.find(b"\x00") >= 0:
         raise ValueError("zero byte inside a COBS frame")
     body = bytearray(len(data))
     m = cobs_decode_into(data, len(data), body)

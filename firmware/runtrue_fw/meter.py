@@ -136,7 +136,7 @@ class Meter:
         p = self._pfeed
         p[0] = n_frames
         p[2] = start & _RING_MASK
-        deinterleave(block, self._ring, p)
+        deinterleave(block, self._ring, p)  # type: ignore[arg-type]  # viper ptr args take arrays
         end = (start + n_frames) & FRAME_MASK
         self._frames = end
         d = self._hw.dropped_samples()
@@ -266,7 +266,7 @@ class Meter:
                 ps[0] = k * RING_FRAMES
                 ps[1] = i0 & _RING_MASK
                 ps[2] = n
-                ring_stats(self._ring, ps)
+                ring_stats(self._ring, ps)  # type: ignore[arg-type]
                 total = ps[4]
                 if ps[5] <= 0 or ps[6] >= self._full_code:
                     flags |= fr.F_CLIPPED | (fr.F_CLIP_CH0 << ch)
