@@ -62,7 +62,7 @@ class SimBoard:
     def __init__(self, machine: VirtualMachine, serial: str = "sim-0001") -> None:
         self.machine = machine
         self.meter: MeterLike | None = None
-        self._serial = serial
+        self.serial = serial
         self._out = bytearray()
         n_pickups = len(machine.scenario.pickups)
         self.channels_max = min(n_pickups, CHANNELS_MAX)
@@ -142,7 +142,7 @@ class SimBoard:
             "channels_max": n,
             "counts_per_g": [fe.counts_per_g] * n,
             "zero_code": [float(fe.zero_code)] * n,
-            "serial": f"{self._serial}-{self.machine.scenario.name}",
+            "serial": f"{self.serial}-{self.machine.scenario.name}",
             "round_robin": True,  # channel k of a frame converted k/n_ch sample later; the Meter corrects
         }
 

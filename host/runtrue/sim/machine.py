@@ -283,7 +283,7 @@ class VirtualMachine:
                 if harm_scale > 0.0:
                     g = lowpass_response(order * w_mid / TWO_PI, fe.lowpass_a1_s, fe.lowpass_a2_s2)
                     sig += harm_scale * (np.conj(h) * g * e1**order).real
-            if pk.line_g:
+            if pk.line_g and self._target_rpm > 0.0:  # electrical: gone once the drive is switched off
                 t_abs = self.t_s + tau
                 sig += pk.line_g * abs(h_line) * np.cos(
                     TWO_PI * f_line * t_abs + self._line_phase[ch] + cmath.phase(h_line)

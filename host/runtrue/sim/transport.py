@@ -6,6 +6,11 @@ and edges from the :class:`runtrue.sim.machine.VirtualMachine`) until the firmwa
 something, and returns those bytes.  With ``realtime=False`` simulated time runs as fast as the
 computer allows and ``timeout_s`` is simulated time; with ``realtime=True`` it is paced to the
 wall clock, like a device on a cable.
+
+:meth:`SimTransport.unplug` pulls the simulated cable: reads and writes raise
+:class:`TransportLost` until :meth:`SimTransport.reopen`, which plugs it back in.  As with a real
+USB meter, the meter restarts on power-up (new firmware state, sequence numbers from 0, not
+streaming) while the machine keeps running with its weights.
 """
 
 from __future__ import annotations
@@ -34,6 +39,7 @@ class SimTransport(Transport):
         self.meter = Meter(self.board)
         self.board.attach(self.meter)
         self._closed = False
+        self._unplugged = False
         self._banner_sent = False
         self._wall0 = time.monotonic()
         self._sim0 = self.machine.t_s
@@ -68,10 +74,30 @@ class SimTransport(Transport):
     def close(self) -> None:
         self._closed = True
 
+    def unplug(self) -> None:
+        """Pull the cable: the host sees TransportLost until :meth:`reopen`."""
+        self._unplugged = True
+
+    def reopen(self, timeout_s: float) -> bool:
+        """Plug the meter back in (it restarts); False if this transport was closed."""
+        if self._closed:
+            return False
+        if self._unplugged:
+            from runtrue_fw.meter import Meter
+
+            self._unplugged = False
+            self.board = SimBoard(self.machine, serial=self.board.serial)
+            self.meter = Meter(self.board)
+            self.board.attach(self.meter)
+            self._banner_sent = False
+        return True
+
     # ---- internals -----------------------------------------------------------------------------
     def _check_open(self) -> None:
         if self._closed:
             raise TransportLost(f"{self.name} is closed")
+        if self._unplugged:
+            raise TransportLost(f"{self.name}: the simulated meter was unplugged")
 
     def _after_repl(self) -> None:
         if self.board.repl_requested and not self._banner_sent:

@@ -116,3 +116,30 @@ def test_weights_change_while_it_streams():
     assert t.machine.expected_1x()[0] != before
     t.machine.remove_weight(wid)
     assert t.machine.expected_1x()[0] == before
+
+
+def test_unplugged_meter_is_lost_then_comes_back_restarted():
+    t = SimTransport(quiet("fan"), seed=1)
+    t.write(encode_frame(START, 0))
+    assert any(f.type == T_REV for f in _frames(t, 0.5))
+    t.unplug()
+    with pytest.raises(TransportLost):
+        t.read(100, 0.1)
+    assert t.reopen(1.0)
+    # a restarted meter: not streaming, numbering its frames from 0 again
+    assert t.read(100, 0.5) == b""
+    t.write(encode_frame(IDENTIFY, 1))
+    frames = FrameDecoder().feed(t.read(4096, 0.1))
+    assert frames[0].type == T_INFO and frames[0].seq == 0
+
+
+def test_host_client_rides_through_an_unplug_of_the_simulated_meter():
+    from runtrue.device.client import MeterClient
+
+    t = SimTransport(quiet("fan"), seed=1)
+    client = MeterClient(t, port=t.name)
+    client.start()
+    client.revolutions(5)
+    t.unplug()
+    revs = client.revolutions(5, timeout_s=2.0)
+    assert len(revs) == 5 and client.reconnects >= 1
