@@ -64,6 +64,12 @@ def test_options_reach_the_meter(capsys: pytest.CaptureFixture[str]) -> None:
     assert abs(vec(result["channels"][0]) - vec(result["expected"][0])) < 4 * result["channels"][0]["spread"]
 
 
+def test_all_channels_means_every_channel_the_meter_has(capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, err = run_cli(capsys, "measure", "--port", "sim:roller", "--revs", "3", "--json", "--channels", "all")
+    assert code == 0, err
+    assert [ch["channel"] for ch in json.loads(out)["channels"]] == [0, 1]  # the roller has two pickups
+
+
 def test_unknown_scenario_is_a_usage_error(capsys: pytest.CaptureFixture[str]) -> None:
     code, out, err = run_cli(capsys, "measure", "--port", "sim:no-such", "--json")
     assert code == 2 and out == ""

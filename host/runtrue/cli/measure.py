@@ -27,12 +27,13 @@ from typing import Any
 
 from runtrue.cli import UsageError
 
+ALL_CHANNELS = -1  # --channels all: every channel the meter has
 CONVENTIONS = "amp: g, 1x peak; phase: lag in degrees after the reference mark (0-360); spread: standard deviation of the mean vector, g"
 
 
 def _channels_mask(text: str) -> int:
     if text == "all":
-        return 0b111
+        return ALL_CHANNELS
     mask = 0
     for part in text.split(","):
         part = part.strip()
@@ -90,11 +91,12 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         raise UsageError(str(exc)) from None
     machine = getattr(client.transport, "machine", None)
     try:
-        client.identify()
+        info = client.identify()
         if args.rate is not None:
             client.set_rate(args.rate)
         if args.channels is not None:
-            client.set_channels(args.channels)
+            mask = (1 << max(1, info.channels_max)) - 1 if args.channels == ALL_CHANNELS else args.channels
+            client.set_channels(mask)
         if args.edge is not None:
             client.set_edge(args.edge)
         client.start()
