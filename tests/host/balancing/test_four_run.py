@@ -12,6 +12,8 @@ import cmath
 import math
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from runtrue.balancing import BalancingError, Run, Weight, four_run, phasor, solve_amplitude_only
 
@@ -108,3 +110,14 @@ def test_amplitude_only_from_runs_uses_the_loudest_pickup() -> None:
     assert "pickup 2" in sol.warnings[0]
     with pytest.raises(BalancingError, match="exactly one trial weight"):
         solve_amplitude_only(runs[:3] + [Run([Weight(2, 12, 240, 100)], [1.0, 1.0])])
+
+
+@settings(max_examples=60, deadline=None)
+@given(a_amp=st.floats(1e-4, 1e-1), a_ph=st.floats(0, 360), u_amp=st.floats(50, 5000), u_ph=st.floats(0, 360),
+       t_gmm=st.floats(100, 5000), start=st.floats(0, 360), step=st.floats(40, 140))
+def test_noise_free_amplitudes_recover_any_unbalance(a_amp, a_ph, u_amp, u_ph, t_gmm, start, step) -> None:
+    a, u = phasor(a_amp, a_ph), phasor(u_amp, u_ph)
+    angs = [start, start + step, start + 2 * step]
+    t = [0j] + [phasor(t_gmm, x) for x in angs]
+    sol = four_run(_amps(a, u, t), t_gmm / 50, angs, 50)
+    assert sol.corrections[0].unbalance_gmm == pytest.approx(-u, rel=1e-6, abs=1e-6 * u_amp)

@@ -249,3 +249,16 @@ def test_unknown_scatter_drops_weighting_and_says_so() -> None:
     assert "unknown" in sol.warnings[0]
     plain = solve([Run(r.weights, r.readings) for r in runs])
     assert sol.correction_gmm == pytest.approx(plain.correction_gmm)
+
+
+def test_more_planes_than_pickups_gives_the_smallest_weights_and_says_so() -> None:
+    o = [phasor(4, 20)]
+    r1 = [phasor(4, 20) + phasor(2, 100)]
+    r2 = [phasor(4, 20) + phasor(1, 250)]
+    sol = solve([Run([], o), Run([Weight(1, 10, 0, 100)], r1), Run([Weight(2, 10, 0, 100)], r2)])
+    assert abs(sol.predicted[0]) == pytest.approx(0, abs=1e-12)
+    assert any("smallest set of weights" in w for w in sol.warnings)
+    # Minimum norm: C is a multiple of conj(a) (the row's pseudo-inverse direction).
+    a = sol.influence[0]
+    c = np.array(sol.correction_gmm)
+    assert c == pytest.approx(-np.conj(a) * o[0] / np.vdot(a, a), rel=1e-9)
