@@ -85,6 +85,7 @@ _ADC_DIV_INT_MAX = const(0xFFFF)
 _DMA_BASE = const(0x50000000)
 _DMA_CH_STRIDE = const(0x40)
 _DMA_CH_TRANS_COUNT = const(0x08)
+_DMA_CH_AL1_CTRL = const(0x10)  # CTRL alias that does not trigger
 _DMA_CH_AL1_TRANS_COUNT_TRIG = const(0x1C)
 _DMA_CHAN_ABORT = const(0x444)
 _DREQ_ADC = const(36)
@@ -314,6 +315,10 @@ class Board:
         mem = self._mem
         mem[_ADC_BASE + _ADC_CS] = _ADC_CS_EN
         self._ref_pin.irq(handler=None)
+        # Clear EN on both channels before the abort: aborting a channel that chains can trigger
+        # the chained one (RP2040 erratum RP2040-E13, from memory; its workaround).
+        mem[self._dma_regs + _DMA_CH_AL1_CTRL] = 0
+        mem[_DMA_BASE + _DMA_CH_STRIDE * self._dma_reload.channel + _DMA_CH_AL1_CTRL] = 0
         abort = (1 << self._dma.channel) | (1 << self._dma_reload.channel)
         mem[_DMA_BASE + _DMA_CHAN_ABORT] = abort
         for _ in range(1000):
