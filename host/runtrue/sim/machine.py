@@ -266,7 +266,7 @@ class VirtualMachine:
         nominal_w = TWO_PI * sc.speed_rpm / 60.0
         harm_scale = (w_mid / nominal_w) ** 2 if nominal_w > 0 else 0.0
         f_line = 2.0 * sc.line_hz
-        h_line = lowpass_response(f_line, fe.lowpass_a1_s, fe.lowpass_a2_s2)
+        h_line = complex(lowpass_response(f_line, fe.lowpass_a1_s, fe.lowpass_a2_s2))
         base_tau = np.arange(n_frames) / rate_hz
         out = np.empty((n_frames, len(channels)))
         for col, ch in enumerate(channels):
@@ -281,7 +281,7 @@ class VirtualMachine:
             sig = (phasor * e1).real
             for order, h in pk.harmonics_g:
                 if harm_scale > 0.0:
-                    g = lowpass_response(order * w_mid / TWO_PI, fe.lowpass_a1_s, fe.lowpass_a2_s2)
+                    g = complex(lowpass_response(order * w_mid / TWO_PI, fe.lowpass_a1_s, fe.lowpass_a2_s2))
                     sig += harm_scale * (np.conj(h) * g * e1**order).real
             if pk.line_g and self._target_rpm > 0.0:  # electrical: gone once the drive is switched off
                 t_abs = self.t_s + tau

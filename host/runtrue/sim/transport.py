@@ -30,7 +30,7 @@ class SimTransport(Transport):
 
     def __init__(self, scenario: str | Scenario, seed: int | None = None, realtime: bool = False) -> None:
         sc = get_scenario(scenario) if isinstance(scenario, str) else scenario
-        from runtrue_fw.meter import Meter  # the real firmware logic
+        from runtrue_fw.meter import Meter  # type: ignore[import-not-found,unused-ignore]  # the real firmware
 
         self.name = f"sim:{sc.name}"
         self.realtime = bool(realtime)
@@ -83,7 +83,7 @@ class SimTransport(Transport):
         if self._closed:
             return False
         if self._unplugged:
-            from runtrue_fw.meter import Meter
+            from runtrue_fw.meter import Meter  # type: ignore[import-not-found,unused-ignore]
 
             self._unplugged = False
             self.board = SimBoard(self.machine, serial=self.board.serial)
