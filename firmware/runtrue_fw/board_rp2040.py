@@ -315,8 +315,9 @@ class Board:
         mem = self._mem
         mem[_ADC_BASE + _ADC_CS] = _ADC_CS_EN
         self._ref_pin.irq(handler=None)
-        # Clear EN on both channels before the abort: aborting a channel that chains can trigger
-        # the chained one (RP2040 erratum RP2040-E13, from memory; its workaround).
+        # Clear EN on both channels before the abort: on the RP2350 an aborted channel can trigger
+        # again (erratum RP2350-E5; clearing EN first is its workaround).  The RP2040's abort
+        # erratum (RP2040-E13) is a spurious completion IRQ, which these irq_quiet channels never raise.
         mem[self._dma_regs + _DMA_CH_AL1_CTRL] = 0
         mem[_DMA_BASE + _DMA_CH_STRIDE * self._dma_reload.channel + _DMA_CH_AL1_CTRL] = 0
         abort = (1 << self._dma.channel) | (1 << self._dma_reload.channel)

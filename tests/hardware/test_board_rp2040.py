@@ -141,7 +141,7 @@ def test_stop_aborts_both_dma_channels_and_stops_conversions(rig: Rig) -> None:
     data, reload = rig.dmas
     assert rig.mem.writes_to(DMA_BASE + 0x444) == [(1 << data.channel) | (1 << reload.channel)]
     order = [a for a, _ in rig.mem.writes]
-    for ch in (data, reload):  # EN cleared (AL1_CTRL = 0) before the abort
+    for ch in (data, reload):  # EN cleared (AL1_CTRL = 0) before the abort (RP2350-E5 workaround)
         al1_ctrl = DMA_BASE + 0x40 * ch.channel + 0x10
         assert rig.mem.writes_to(al1_ctrl) == [0]
         assert order.index(al1_ctrl) < order.index(DMA_BASE + 0x444)
