@@ -46,6 +46,7 @@ def test_api_style_limit_on_request(capsys) -> None:
         (["--grade", "6.3", "--mass-kg", "0", "--rpm", "1000"], "rotor mass"),
         (["--grade", "6.3", "--mass-kg", "1", "--rpm", "-5"], "speed"),
         (["--grade", "6.3", "--mass-kg", "1", "--rpm", "1000", "--distances-mm", "1", "2"], "--planes 2"),
+        (["--grade", "6.3", "--mass-kg", "1", "--rpm", "1000", "--planes", "3"], "--planes must be 1 or 2"),
         (["--grade", "6.3", "--mass-kg", "1", "--rpm", "1000", "--planes", "2", "--distances-mm", "0", "2"],
          "distance"),
     ],

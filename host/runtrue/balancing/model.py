@@ -42,8 +42,9 @@ def wrap_deg(angle_deg: float) -> float:
 
 
 def phasor(amp: float, phase_deg: float) -> complex:
-    """The complex reading ``amp * e^{+j*phase}`` (phase as a lag, degrees)."""
-    return complex(cmath.rect(float(amp), math.radians(float(phase_deg))))
+    """The complex reading ``amp * e^{+j*phase}`` (phase as a lag, degrees; any finite angle,
+    wrapped exactly before conversion so 761 deg gives the same number as 41 deg)."""
+    return complex(cmath.rect(float(amp), math.radians(math.fmod(float(phase_deg), 360.0))))
 
 
 def amp_phase(value: complex) -> tuple[float, float]:

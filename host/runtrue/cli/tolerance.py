@@ -30,7 +30,7 @@ def register(subparsers: Any) -> None:
     p.add_argument("--grade", required=True, metavar="G", help="balance quality grade in mm/s, e.g. 6.3 (G 6.3)")
     p.add_argument("--mass-kg", required=True, metavar="M", help="rotor mass in kg")
     p.add_argument("--rpm", required=True, metavar="N", help="maximum service speed in rpm")
-    p.add_argument("--planes", default="1", choices=["1", "2"], help="tolerance planes (default 1)")
+    p.add_argument("--planes", default="1", metavar="1|2", help="tolerance planes (default 1)")
     p.add_argument(
         "--distances-mm",
         nargs=2,
@@ -65,6 +65,8 @@ def run(args: argparse.Namespace) -> int:
     grade = _num(args.grade, "--grade")
     mass = _num(args.mass_kg, "--mass-kg")
     rpm = _num(args.rpm, "--rpm")
+    if args.planes not in ("1", "2"):
+        raise UsageError(f"--planes must be 1 or 2, got {args.planes!r}")
     planes = int(args.planes)
     distances = None
     if args.distances_mm is not None:

@@ -262,3 +262,8 @@ def test_more_planes_than_pickups_gives_the_smallest_weights_and_says_so() -> No
     a = sol.influence[0]
     c = np.array(sol.correction_gmm)
     assert c == pytest.approx(-np.conj(a) * o[0] / np.vdot(a, a), rel=1e-9)
+
+
+def test_phasor_wraps_large_angles_exactly() -> None:
+    assert phasor(3.0, 41 + 360 * 1000) == pytest.approx(phasor(3.0, 41), abs=1e-12)
+    assert phasor(3.0, -319) == pytest.approx(phasor(3.0, 41), abs=1e-12)
