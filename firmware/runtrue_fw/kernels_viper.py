@@ -72,23 +72,41 @@ def fit_sums(ring, p, dc, a0, d):
     s3 = 0.0
     s4 = 0.0
     s5 = 0.0
+    b0 = 0.0
+    b1 = 0.0
+    b2 = 0.0
+    b3 = 0.0
+    b4 = 0.0
+    b5 = 0.0
     i = 0
     while i < n:
         if i & _ANCHOR_MASK == 0:
+            s0 += b0
+            s1 += b1
+            s2 += b2
+            s3 += b3
+            s4 += b4
+            s5 += b5
+            b0 = 0.0
+            b1 = 0.0
+            b2 = 0.0
+            b3 = 0.0
+            b4 = 0.0
+            b5 = 0.0
             ang = a0 + i * d
             c = cos(ang)
             s = sin(ang)
         y = float(ring[base + ((start + i) & mask)] - dc)
         yc = y * c
         ys = y * s
-        s0 += y
-        s1 += yc
-        s2 += ys
-        s3 += yc * c - ys * s
-        s4 += 2.0 * yc * s
-        s5 += y * y
+        b0 += y
+        b1 += yc
+        b2 += ys
+        b3 += yc * c - ys * s
+        b4 += 2.0 * yc * s
+        b5 += y * y
         t = c * cd - s * sd
         s = s * cd + c * sd
         c = t
         i += 1
-    return (s0, s1, s2, s3, s4, s5)
+    return (s0 + b0, s1 + b1, s2 + b2, s3 + b3, s4 + b4, s5 + b5)
