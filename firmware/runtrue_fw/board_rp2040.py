@@ -4,7 +4,8 @@ It implements the ``hw`` object of the Meter/board contract (DEVELOPERS.md): pac
 to three analog channels, reference-edge capture on the sample timebase, USB serial, CPU load and
 dropped-sample counts, and the way back to the REPL.  ``Board.run(meter)`` is the main loop.
 
-Sources (register names and bit positions are those of the datasheet):
+Sources (register names and bit positions are those of the datasheet; the fields used here were
+checked against the register headers generated from it; section numbers from memory):
 
 * Raspberry Pi Ltd, *RP2040 Datasheet*, section 4.9 "ADC and Temperature Sensor": ADC block at
   0x4004C000; registers CS (0x00), FCS (0x08), FIFO (0x0C), DIV (0x10); clk_adc 48 MHz, 96 clock

@@ -129,7 +129,8 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
     """Quality of the reference pulses from a short stream of revolutions."""
     if not revs:
         return False, ("no revolutions in a few seconds: with the machine running, the reference sensor "
-                       "is not seeing its mark once per revolution")
+                       "is not seeing its mark once per revolution (with the machine stopped, use --revs 0 "
+                       "to skip this check)")
     usable = [r for r in revs if r.usable]
     flagged: dict[str, int] = {}
     for r in revs:

@@ -120,8 +120,9 @@ def _copy_advice(port: str) -> str:
         f"`python -m mpremote connect {port} repl` should show a >>> prompt (Ctrl-] to leave).  "
         "If the meter firmware is running and will not stop, fit the SAFE_MODE jumper "
         "(GPIO22 to GND, hardware/pinmap.toml), reset the board and try again.  "
-        "If there is no MicroPython yet: hold BOOTSEL while plugging the board in and copy the "
-        "MicroPython .uf2 for your board onto the drive that appears (hardware/BRINGUP.md)."
+        "If there is no MicroPython yet, or another program on the board keeps it busy: hold BOOTSEL "
+        "while plugging the board in and copy the MicroPython .uf2 for your board onto the drive that "
+        "appears (hardware/BRINGUP.md, step 2)."
     )
 
 
