@@ -196,3 +196,19 @@ def test_same_seed_same_signals_different_seed_different_noise():
 def test_unknown_scenario_names_the_known_ones():
     with pytest.raises(ValueError, match="fan.*roller.*sander.*spindle"):
         VirtualMachine("mixer")
+
+
+def test_rigid_rotor_bounce_and_rocking_frequencies_match_their_closed_forms():
+    # Symmetric rigid rotor on two equal springs k at +-L/2 from the CG: bounce w^2 = 2k/m,
+    # rocking w^2 = 2k (L/2)^2 / I_t (elementary two-degree-of-freedom rigid body; e.g. Vance,
+    # Zeidan and Murphy, Machinery Vibration and Rotordynamics, 2010, ch. 2 (from memory)).
+    from runtrue.sim.rotor import RigidRotor, Support
+
+    k = 2.0e6
+    rotor = RigidRotor(
+        mass_kg=40.0, transverse_inertia_kgm2=5.0, cg_mm=500.0, bearing_a_mm=0.0, bearing_b_mm=1000.0,
+        support_a=Support(k, k, 0.0, 0.0), support_b=Support(k, k, 0.0, 0.0),
+    )
+    mass, _, stiff = rotor.matrices("x")
+    w2 = np.sort(np.linalg.eigvals(np.linalg.solve(mass, stiff)).real)
+    assert w2 == pytest.approx(np.sort([2 * k / 40.0, 2 * k * 0.5**2 / 5.0]), rel=1e-12)
