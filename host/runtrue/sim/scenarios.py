@@ -136,7 +136,7 @@ def _fan() -> Scenario:
         ref_angle_deg=90.0, grade=6.3, line_hz=50.0,
         speed_drift_frac=0.002, speed_drift_tau_s=2.0, coast_down_rpm_per_s=60.0,
         glitch_per_rev=0.002, missed_per_rev=0.002,
-        tolerance_note="fans: G 6.3 is usual (ISO 21940-11 table, common practice)",
+        tolerance_note="fans: G 6.3 (ISO 21940-11 guidance table, from memory; check the maker's figure)",
     )
 
 
@@ -212,7 +212,7 @@ def _spindle() -> Scenario:
         ref_angle_deg=180.0, grade=2.5, line_hz=50.0,
         speed_drift_frac=0.001, speed_drift_tau_s=1.0, coast_down_rpm_per_s=2000.0,
         glitch_per_rev=0.0005, missed_per_rev=0.0005, mark_width_deg=30.0,
-        tolerance_note="spindles: G 2.5 or finer (ISO 21940-11 table, common practice)",
+        tolerance_note="spindles: G 2.5 or finer (ISO 21940-11 guidance table, from memory)",
     )
 
 
