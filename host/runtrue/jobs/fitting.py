@@ -8,7 +8,7 @@ Conventions: angles from the reference mark against rotation; planes numbered fr
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import Any, Sequence
 
 from runtrue.jobs.model import Machine, PlaneSpec, Weight
 
@@ -25,14 +25,28 @@ def positions_for(spec: PlaneSpec) -> Any:
     return Positions.at_angles(spec.angles_deg or [], spec.radius_mm, excluded)
 
 
-def _material(machine: Machine) -> dict[str, Any]:
+def available_stock(machine: Machine, in_use: Sequence[float] = ()) -> list[tuple[float, int]]:
+    """The machine's stock less the pieces (masses, g) already on the rotor: ``[(mass_g, count)]``."""
+    left = [[p.mass_g, p.count] for p in machine.stock]
+    for m in in_use:
+        for item in left:
+            if abs(item[0] - m) <= 1e-9 * max(1.0, m) and item[1] > 0:
+                item[1] -= 1
+                break
+    return [(float(m), int(c)) for m, c in left if c > 0]
+
+
+def _material(machine: Machine, in_use: Sequence[float] = ()) -> dict[str, Any]:
     from runtrue.allocation import Stock, Strip
 
     if machine.strip is not None:
         s = machine.strip
         return {"strip": Strip(s.grams_per_mm, s.min_mm, s.step_mm)}
     if machine.stock:
-        return {"stock": Stock.of([(p.mass_g, p.count) for p in machine.stock])}
+        left = available_stock(machine, in_use)
+        if not left:
+            raise ValueError("every piece of the stock is already on the rotor: add pieces to the machine's stock")
+        return {"stock": Stock.of(left)}
     return {}
 
 
@@ -54,7 +68,9 @@ def first_usable_angle_deg(spec: PlaneSpec) -> float:
     raise ValueError("every position of this plane is excluded: free at least one to fit weights")
 
 
-def trial_weight(machine: Machine, plane: int, mass_g: float, angle_deg: float | None = None) -> Weight:
+def trial_weight(
+    machine: Machine, plane: int, mass_g: float, angle_deg: float | None = None, in_use: Sequence[float] = ()
+) -> Weight:
     """A trial weight near ``mass_g`` that can really be fitted at one position of ``plane``.
 
     The angle is the first usable position (0° in a continuous groove) unless given; the mass is
@@ -63,24 +79,29 @@ def trial_weight(machine: Machine, plane: int, mass_g: float, angle_deg: float |
     spec = machine.planes[plane - 1]
     angle = first_usable_angle_deg(spec) if angle_deg is None else angle_deg % 360.0
     label = f"trial weight, plane {plane}"
-    material = _material(machine)
+    try:
+        material = _material(machine, in_use)
+    except ValueError:
+        material = {}
     if not material:
         return Weight(plane, _round_up_2sig(mass_g), angle, spec.radius_mm, label)
     from runtrue.allocation import Positions, allocate
 
-    alloc = allocate(
-        (mass_g, angle, spec.radius_mm),
-        Positions.at_angles([angle], spec.radius_mm),
-        max_pieces_per_position=spec.max_pieces_per_position,
-        max_mass_per_position_g=spec.max_mass_per_position_g,
-        **material,
-    )
-    total = sum(p.mass_g for p in alloc.placements)
-    if total <= 0:
-        raise ValueError(
-            f"plane {plane}: the stock cannot make a trial weight near {mass_g:.3g} g; add pieces to the stock"
+    try:
+        alloc = allocate(
+            (mass_g, angle, spec.radius_mm),
+            Positions.at_angles([angle], spec.radius_mm),
+            max_pieces_per_position=spec.max_pieces_per_position,
+            max_mass_per_position_g=spec.max_mass_per_position_g,
+            **material,
         )
-    return Weight(plane, total, angle, spec.radius_mm, label)
+        total = sum(p.mass_g for p in alloc.placements)
+    except ValueError:
+        total = 0.0
+    if total <= 0:  # the stock cannot make it: say the mass, the user makes it up
+        return Weight(plane, _round_up_2sig(mass_g), angle, spec.radius_mm, label)
+    pieces = tuple(m for p in alloc.placements for m in p.pieces)
+    return Weight(plane, total, angle, spec.radius_mm, label, pieces)
 
 
 #: Placements stop improving once the residual they leave is below this share of the plane's
@@ -99,6 +120,7 @@ def plan_plane(
     kind: str,
     number: int,
     permissible_gmm: float | None = None,
+    in_use: Sequence[float] = (),
 ) -> Any:
     """The correction for one plane as placements and a fitting sheet (a ``PlaneCorrection``).
 
@@ -116,33 +138,43 @@ def plan_plane(
     angle = math.degrees(math_phase(correction_gmm)) % 360.0
     correction = Weight(plane, mag / spec.radius_mm, angle, spec.radius_mm, f"{kind} plane {plane}")
     label = f"{kind} {number}" if kind == "trim" else "correction"
-    material = _material(machine)
     if mag == 0.0:
         return PlaneCorrection(plane, correction, [], [], 0.0, 0.0, [])
-    if not material and spec.continuous:
-        w = Weight(plane, correction.mass_g, angle, spec.radius_mm, f"{label}, plane {plane}")
-        row = SheetRow(None, angle, spec.radius_mm, f"{w.mass_g:.3g} g", w.mass_g,
-                       centrifugal_force_n(w.mass_g, w.radius_mm, machine.speed_rpm), "fit")
-        return PlaneCorrection(plane, correction, [w], [row], 0.0, 0.0, [])
-    if not material:
-        return _split_without_stock(machine, spec, plane, correction, correction_gmm, label)
     note: list[str] = []
-    alloc = allocate(
-        correction_gmm,
-        positions_for(spec),
-        correction_radius_mm=spec.radius_mm,
-        max_pieces_per_position=spec.max_pieces_per_position,
-        max_mass_per_position_g=spec.max_mass_per_position_g,
-        good_enough_gmm=GOOD_ENOUGH_FRACTION * permissible_gmm if permissible_gmm else None,
-        prefer_fewer_positions=permissible_gmm is not None,
-        max_nodes=MAX_SEARCH_NODES,
-        **material,
-    )
+    try:
+        material = _material(machine, in_use)
+        alloc = None
+        if material:
+            alloc = allocate(
+                correction_gmm,
+                positions_for(spec),
+                correction_radius_mm=spec.radius_mm,
+                max_pieces_per_position=spec.max_pieces_per_position,
+                max_mass_per_position_g=spec.max_mass_per_position_g,
+                good_enough_gmm=GOOD_ENOUGH_FRACTION * permissible_gmm if permissible_gmm else None,
+                prefer_fewer_positions=permissible_gmm is not None,
+                max_nodes=MAX_SEARCH_NODES,
+                **material,
+            )
+    except ValueError as exc:  # AllocationError is a ValueError: stock used up, nothing fits...
+        alloc = None
+        note = [f"Plane {plane}: the stock cannot make this correction ({exc}); exact masses are shown instead."]
+    if alloc is None:
+        if spec.continuous:
+            w = Weight(plane, correction.mass_g, angle, spec.radius_mm, f"{label}, plane {plane}")
+            row = SheetRow(None, angle, spec.radius_mm, f"{w.mass_g:.3g} g", w.mass_g,
+                           centrifugal_force_n(w.mass_g, w.radius_mm, machine.speed_rpm), "fit")
+            return PlaneCorrection(plane, correction, [w], [row], 0.0, 0.0, note)
+        pc = _split_without_stock(machine, spec, plane, correction, correction_gmm, label)
+        if note:
+            pc.warnings = note
+        return pc
     sheet = fitting_sheet(alloc, machine.speed_rpm)
     fit = []
     for p in alloc.placements:
         where = f"position {p.position_index + 1}" if p.position_index is not None else "groove"
-        fit.append(Weight(plane, float(p.mass_g), float(p.angle_deg), float(p.radius_mm), f"{label}, plane {plane}, {where}"))
+        fit.append(Weight(plane, float(p.mass_g), float(p.angle_deg), float(p.radius_mm),
+                          f"{label}, plane {plane}, {where}", tuple(float(m) for m in p.pieces)))
     warnings = note + [f"Plane {plane}: {w}" for w in alloc.warnings]
     return PlaneCorrection(
         plane, correction, fit, list(sheet), abs(alloc.residual_gmm), float(alloc.residual_fraction), warnings

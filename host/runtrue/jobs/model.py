@@ -315,7 +315,9 @@ class Weight:
 
     ``plane`` is the correction plane number (1-based); ``angle_deg`` from the reference mark
     against rotation; the unbalance it adds is ``mass_g·radius_mm·e^{+j·angle}`` g·mm.
-    ``label`` says what it is ("trial", "correction 1 at position 4", ...).
+    ``label`` says what it is ("trial", "correction 1 at position 4", ...).  ``pieces`` are the
+    stock pieces (masses, g) it is made of, when it came from the stock (they are then not
+    available for the next step).
     """
 
     plane: int
@@ -323,6 +325,7 @@ class Weight:
     angle_deg: float
     radius_mm: float
     label: str = ""
+    pieces: tuple[float, ...] = ()
 
     @property
     def unbalance_gmm(self) -> complex:
@@ -335,6 +338,7 @@ class Weight:
             "angle_deg": self.angle_deg,
             "radius_mm": self.radius_mm,
             "label": self.label,
+            "pieces": list(self.pieces),
         }
 
     @classmethod
@@ -345,6 +349,7 @@ class Weight:
             angle_deg=float(d["angle_deg"]),
             radius_mm=float(d["radius_mm"]),
             label=str(d.get("label", "")),
+            pieces=tuple(float(m) for m in d.get("pieces", ())),
         )
 
 

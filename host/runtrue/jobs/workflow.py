@@ -33,7 +33,7 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Sequence
 
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunReading, RunRecord, StoredInfluence, Weight
@@ -503,8 +503,11 @@ class BalanceJob:
         else:
             mass = previous.mass_g * scale
             angle = previous.angle_deg
-        w = fitting.trial_weight(m, plane, mass, angle)
-        return w
+        on = list(self.runs[-1].weights) if self.runs else []
+        staying = [w for w in on if not self._is_trial(w)] if self.options["trial_removed"] else [
+            w for w in on if not (self._is_trial(w) and w.plane == plane)
+        ]
+        return fitting.trial_weight(m, plane, mass, angle, [p for w in staying for p in w.pieces])
 
     def _apply_event(self, kind: str, data: dict[str, Any]) -> None:
         s = self.state
@@ -523,12 +526,28 @@ class BalanceJob:
                 s.last_trial_check = TrialCheck(chk.plane, chk.ok, chk.ratio, chk.message, chk.suggested_scale, True)
                 s.warnings.append(f"Plane {plane}: trial effect small ({chk.message}); accepted by the user.")
             self._accepted[plane] = trial_run
-            self._after_trial_accepted(plane)
+            self._guarded(lambda: self._after_trial_accepted(plane), "The trial run cannot be used")
         elif kind == "stopped":
             self._finish("stopped", str(data.get("reason", "")))
 
     def _apply_run(self, run: RunRecord) -> None:
+        """Advance on a recorded run.  If the maths refuses (a ``ValueError`` such as
+        ``BalancingError``), the run stays recorded, the step stays where it was and the reason
+        is shown: the user can take another run or change the weights."""
         self.runs.append(run)
+        self._guarded(lambda: self._advance(run), f"Run {run.seq} is recorded, but the job cannot go on from it")
+
+    def _guarded(self, transition: Any, what: str) -> None:
+        before = replace(self.state, warnings=list(self.state.warnings))
+        try:
+            transition()
+        except ValueError as exc:
+            self.state = before
+            self.state.message = f"{what}: {exc}"
+            if self.state.message not in self.state.warnings:
+                self.state.warnings.append(self.state.message)
+
+    def _advance(self, run: RunRecord) -> None:
         s = self.state
         s.message = ""
         if run.kind == "reference":
@@ -612,6 +631,15 @@ class BalanceJob:
 
         runs = [_engine_run(r) for r in self.runs]
         radii = {i + 1: p.radius_mm for i, p in enumerate(self.machine.planes)}
+        seen = {w.plane for r in self.runs for w in r.weights}
+        missing = [p for p in range(1, self.machine.n_planes + 1) if p not in seen]
+        if missing:
+            if self._influence is not None:
+                return  # stored coefficients: keep them until every plane has had a weight
+            raise BalancingError(
+                f"no run has a weight in plane {missing[0]}, so its influence is unknown: "
+                "fit a trial weight there and take a run (the runs do not separate the planes)"
+            )
         try:
             sol = solve(runs, radius_mm=radii)
         except BalancingError as exc:
@@ -652,10 +680,13 @@ class BalanceJob:
         spreads = [c.spread_g for c in base.reading.channels]
         sol = correction_from_influence(self._influence, base.reading.vector(), radii, spreads=spreads if any(spreads) else None)
         planes = []
+        in_use = [m for w in now for m in w.pieces]
         for w in sol.corrections:
-            planes.append(
-                fitting.plan_plane(self.machine, w.plane, w.unbalance_gmm, kind, s.trims_done + 1, self._plane_permissible(w.plane))
+            pc = fitting.plan_plane(
+                self.machine, w.plane, w.unbalance_gmm, kind, s.trims_done + 1, self._plane_permissible(w.plane), in_use
             )
+            in_use += [m for f in pc.fit for m in f.pieces]
+            planes.append(pc)
         s.plan = CorrectionPlan(
             kind=kind,
             remove=remove,

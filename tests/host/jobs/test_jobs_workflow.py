@@ -204,3 +204,44 @@ def test_stock_pieces_are_what_gets_fitted(store: JobStore) -> None:
 
 
 
+
+
+def test_pieces_on_the_rotor_never_exceed_the_stock(store: JobStore) -> None:
+    # Two planes draw on one small stock; trims (wrong stored coefficients force them) draw on
+    # what is left, never on pieces already bolted on.
+    stock = [StockPiece(5.0, 6), StockPiece(10.0, 3), StockPiece(2.0, 8)]
+    h = [[c * polar(0.8, -20.0) for c in row] for row in ROLL_H]
+    m = roll(stock=stock, influence=StoredInfluence(h, 980.0))
+    rotor = LinearRotor(ROLL_H, [polar(3600.0, 40.0), polar(2800.0, 250.0)], 980.0, noise_g=0.0005)
+    job = BalanceJob.start(store, m)
+    drive(job, rotor)
+    counts = {p.mass_g: p.count for p in stock}
+    for run in job.runs:
+        used: dict[float, int] = {}
+        for w in run.weights:
+            if not w.pieces:  # the stock ran out: exact masses, and the user is told
+                assert any("stock cannot make" in x for x in job.state.warnings)
+                continue
+            assert sum(w.pieces) == pytest.approx(w.mass_g)
+            for piece in w.pieces:
+                used[piece] = used.get(piece, 0) + 1
+        assert all(used[k] <= counts[k] for k in used), f"run {run.seq} uses {used}"
+
+
+def test_a_run_the_maths_cannot_use_is_kept_and_the_job_waits(store: JobStore) -> None:
+    # The second trial run is taken with no weight in plane 2 (forgotten); accepting it anyway
+    # leaves the planes inseparable: the engine refuses, the run is kept, the job stays put.
+    rotor = LinearRotor(ROLL_H, [polar(3600.0, 40.0), polar(2800.0, 250.0)], 980.0, noise_g=0.001)
+    job = BalanceJob.start(store, roll())
+    job.record_run(rotor.reading([]))
+    job.record_run(rotor.reading(job.planned_weights()))
+    assert job.step == "trial" and job.state.plane == 2
+    job.record_run(rotor.reading([]), weights_present=[])
+    assert job.step == "trial" and job.state.last_trial_check is not None and not job.state.last_trial_check.ok
+    job.accept_trial_anyway()
+    assert job.step == "trial" and "separate the planes" in job.state.message
+    assert len(store.runs(job.job_id)) == 3
+    back = BalanceJob.resume(store, job.job_id)
+    assert back.step == "trial" and back.state.plane == 2
+    drive(back, rotor)
+    assert back.result().passed is True
