@@ -198,3 +198,19 @@ def test_any_geometry_weight_angle_adds_to_lag_on_every_pickup(
     m.add_weight(plane, 10.0, theta_deg, 95.0)
     at_theta = np.array(m.expected_1x()) - base
     assert np.allclose(at_theta, at_mark * np.exp(1j * math.radians(theta_deg)), rtol=1e-9, atol=1e-15)
+
+
+@pytest.mark.parametrize("rotation,shift_deg", [("ccw", 90.0), ("cw", -90.0)])
+def test_on_isotropic_supports_a_pickup_90_deg_further_round_reads_90_deg_apart(rotation, shift_deg):
+    # Field check (common practice): on round (isotropic) supports the vertical reading lags the
+    # horizontal one by 90 deg when the rotor turns from horizontal towards vertical, and leads
+    # it by 90 deg when it turns the other way.
+    sc = _isotropic_static_rotor(natural_hz=10.0)
+    pk = sc.pickups[0]
+    sc = dataclasses.replace(sc, rotation=rotation,
+                             pickups=(dataclasses.replace(pk, angle_deg=0.0), dataclasses.replace(pk, angle_deg=90.0)))
+    m = VirtualMachine(sc, seed=1)
+    m.add_weight(0, 10.0, 0.0, 95.0)
+    horizontal, vertical = m.expected_1x()
+    assert abs(vertical) == pytest.approx(abs(horizontal), rel=1e-9)
+    assert _angle_diff_deg(_lag_deg(vertical), _lag_deg(horizontal)) == pytest.approx(shift_deg, abs=1e-6)
