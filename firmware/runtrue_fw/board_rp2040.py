@@ -168,14 +168,15 @@ class Board:
         self._led = machine.Pin(PIN_LED, machine.Pin.OUT, value=0)
 
         # DMA write ring: 2**_RING_BITS bytes aligned to its own size (RING_SIZE wraps the low bits).
-        raw = array.array("H", (0 for _ in range(2 * _RING_SAMPLES)))
+        # A bytes initializer fills the array in one allocation (MicroPython and CPython alike).
+        raw = array.array("H", bytes(4 * _RING_SAMPLES))
         addr = uctypes.addressof(raw)
         ring_bytes = 1 << _RING_BITS
         skip = ((ring_bytes - (addr & (ring_bytes - 1))) & (ring_bytes - 1)) >> 1
         self._ring_raw = raw
         self._ring_addr = addr + 2 * skip
         self._ring = memoryview(raw)[skip : skip + _RING_SAMPLES]
-        self._block = array.array("H", (0 for _ in range(_BLOCK_FRAMES * CHANNELS_MAX)))
+        self._block = array.array("H", bytes(2 * _BLOCK_FRAMES * CHANNELS_MAX))
         self._block_mv = memoryview(self._block)
         self._reload_word = array.array("I", [_DMA_RELOAD_COUNT])
 
@@ -184,7 +185,7 @@ class Board:
         self._dma_regs = _DMA_BASE + _DMA_CH_STRIDE * self._dma.channel
 
         # Edge stamps: written by the hard IRQ handler, read by the loop.
-        self._edge_t = array.array("i", (0 for _ in range(_EDGE_SLOTS)))
+        self._edge_t = array.array("i", bytes(4 * _EDGE_SLOTS))
         self._edge_head = 0
         self._edge_tail = 0
         self._edge_lost = 0
