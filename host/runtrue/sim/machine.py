@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import cmath
 import math
+import operator
 import threading
 from dataclasses import dataclass
 
@@ -92,10 +93,17 @@ class VirtualMachine:
     def add_weight(self, plane: int, mass_g: float, angle_deg: float, radius_mm: float) -> int:
         """Fit a weight (angle from the mark, against rotation); returns its id."""
         n_planes = len(self.scenario.planes)
-        if not isinstance(plane, int) or not 0 <= plane < n_planes:
+        try:
+            plane_i = operator.index(plane)
+        except TypeError:
+            plane_i = -1
+        if not 0 <= plane_i < n_planes:
             raise ValueError(f"plane must be 0..{n_planes - 1} for scenario {self.scenario.name!r}, not {plane!r}")
         if not (math.isfinite(mass_g) and mass_g >= 0.0):
-            raise ValueError(f"mass_g must be a finite mass of 0 g or more, not {mass_g!r}")
+            raise ValueError(
+                f"mass_g must be a finite mass of 0 g or more, not {mass_g!r} "
+                "(to model material drilled out, add the same mass 180 deg away)"
+            )
         if not (math.isfinite(radius_mm) and radius_mm > 0.0):
             raise ValueError(f"radius_mm must be a positive radius, not {radius_mm!r}")
         if not math.isfinite(angle_deg):
@@ -103,7 +111,7 @@ class VirtualMachine:
         with self._lock:
             wid = self._next_id
             self._next_id += 1
-            self._weights[wid] = Weight(plane, float(mass_g), float(angle_deg), float(radius_mm))
+            self._weights[wid] = Weight(plane_i, float(mass_g), float(angle_deg), float(radius_mm))
             return wid
 
     def remove_weight(self, weight_id: int) -> None:
