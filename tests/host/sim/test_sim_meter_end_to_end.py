@@ -182,3 +182,18 @@ def test_coast_down_is_followed_by_the_meter():
     assert all(b < a for a, b in zip(speeds, speeds[1:]))
     elapsed_s = sum(r.period_us for r in usable[1:]) * 1e-6
     assert (speeds[0] - speeds[-1]) / elapsed_s == pytest.approx(300.0, rel=0.03)
+
+
+def test_one_channel_of_two_at_an_odd_rate_reads_that_pickup():
+    # Only the far-end pickup (channel 1) enabled, at a rate the RP2040 divider cannot hit
+    # exactly: the meter reports the actual rate and still reads channel 1's true 1x.
+    client = _client(quiet("roller"))
+    actual = client.set_rate(7001)
+    assert actual != 7001 and actual == pytest.approx(7001, rel=1e-4)
+    client.set_channels(0b10)
+    client.start()
+    revs = client.revolutions(15, usable_only=True)
+    assert all(r.channels == [1] for r in revs)
+    mean = np.mean([r.h1[0] for r in revs])
+    expected = client.transport.machine.expected_1x()[1]
+    assert abs(mean - expected) < 2e-3 * abs(expected)
