@@ -25,9 +25,10 @@ which treats A, f0, phi all unknown; the known-frequency form above is its (A, p
 both from memory).  Because that form is from memory, this script VERIFIES it: it also computes
 the exact bound numerically, from the Fisher information J^T J / sigma^2 of the actual sample
 angles of every revolution, with the per-revolution DC and 2x terms the firmware fits as
-nuisance parameters (Schur complement per revolution, summed; Kay 1993, section 3.7, "general
-CRLB for signals in white Gaussian noise", from memory).  The column "exact/formula" shows that
-the two agree to a few per cent.  N is the total number of samples in the N revolutions.
+nuisance parameters (Schur complement per revolution, summed; Kay 1993, chapter 3, the CRLB
+of a vector parameter for signals in white Gaussian noise, from memory).  The column
+"exact/formula" shows how closely the two agree (to 0.1 % or better on these sample grids).
+N is the total number of samples in the N revolutions.
 
 Where the bound does not apply, and why (the script says so per case):
 * quantisation: the 12-bit ADC adds rounding error of variance LSB^2/12; when sigma is well
