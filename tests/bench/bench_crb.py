@@ -27,7 +27,7 @@ the exact bound numerically, from the Fisher information J^T J / sigma^2 of the 
 angles of every revolution, with the per-revolution DC and 2x terms the firmware fits as
 nuisance parameters (Schur complement per revolution, summed; Kay 1993, chapter 3, the CRLB
 of a vector parameter for signals in white Gaussian noise, from memory).  The column
-"exact/formula" shows how closely the two agree (to 0.1 % or better on these sample grids).
+"exact/formula" shows how closely the two agree (within about 1 % on these sample grids).
 N is the total number of samples in the N revolutions.
 
 Where the bound does not apply, and why (the script says so per case):
