@@ -20,6 +20,9 @@ from runtrue.jobs.workflow import BalanceJob
 
 DEFAULT_REVS = 40  # revolutions averaged per reading (enough for steadiness on every scenario)
 SETTLE_REVS = 4  # revolutions skipped after the weights change
+MAX_SETTLE_REVS = 200
+REL_CONFIDENCE = 0.05  # average more while a vector's 95 % radius exceeds this share of it
+MORE_REVS_FACTOR = 8  # ... up to this many times the revolutions asked for  # at most this many revolutions waiting for steadiness
 MAX_RUNS = 12  # the demo stops (not passed) after this many runs
 
 
@@ -86,12 +89,26 @@ class VirtualRotorFitter:
 
 
 def take_reading(client: Any, revs: int) -> Any:
-    """Skip the revolutions in flight, then vector-average ``revs`` usable ones."""
-    from runtrue.readings import vector_average
+    """Skip the revolutions in flight, wait until speed and vector are steady (at most
+    :data:`MAX_SETTLE_REVS`), then vector-average ``revs`` usable revolutions."""
+    from runtrue.readings import SteadinessDetector, vector_average
 
     client.discard_revolutions()
     client.revolutions(SETTLE_REVS)
-    return vector_average(client.revolutions(revs, usable_only=True))
+    detector = SteadinessDetector()
+    for _ in range(MAX_SETTLE_REVS):
+        if detector.add(client.revolutions(1)[0]).steady:
+            break
+    taken = client.revolutions(revs, usable_only=True)
+    reading = vector_average(taken)
+    # A noisy machine: keep averaging until each 1x vector is known to within REL_CONFIDENCE
+    # of its size (95 % radius), or MORE_REVS_FACTOR times the revolutions asked for.
+    while len(taken) < MORE_REVS_FACTOR * revs and any(
+        ch.confidence_g > REL_CONFIDENCE * ch.amp_g for ch in reading.channels
+    ):
+        taken += client.revolutions(revs, usable_only=True)
+        reading = vector_average(taken)
+    return reading
 
 
 def run_demo(

@@ -200,21 +200,24 @@ def render_html(store: JobStore, job_id: int) -> str:
     )
     if res.tolerance_rule:
         out.append(f'<p class="note">{_e(res.tolerance_rule)}</p>')
-    out.append('<table><tr><th class="l">Plane</th><th>Residual (g·mm), estimated</th>'
+    out.append('<table><tr><th class="l">Plane</th><th>Residual (g·mm), estimated</th><th>± (95 %)</th>'
                "<th>Permissible (g·mm)</th><th>Ratio</th><th>Result</th></tr>")
     residual = res.residual_unbalance_gmm or []
+    unc = res.residual_uncertainty_gmm or [0.0] * len(residual)
     for i, perm in enumerate(res.permissible_unbalance_gmm, start=1):
         if i <= len(residual):
-            r = residual[i - 1]
-            ok = r <= perm
-            out.append(f'<tr><td class="l">{i}</td><td>{r:.4g}</td><td>{perm:.4g}</td><td>{r / perm:.2f}</td>'
-                       f'<td>{"pass" if ok else "fail"}</td></tr>')
+            r, u = residual[i - 1], unc[i - 1]
+            ok = r + u <= perm
+            out.append(f'<tr><td class="l">{i}</td><td>{r:.4g}</td><td>{u:.2g}</td><td>{perm:.4g}</td>'
+                       f'<td>{r / perm:.2f}</td><td>{"pass" if ok else "fail"}</td></tr>')
         else:
-            out.append(f'<tr><td class="l">{i}</td><td>-</td><td>{perm:.4g}</td><td>-</td><td>-</td></tr>')
+            out.append(f'<tr><td class="l">{i}</td><td>-</td><td>-</td><td>{perm:.4g}</td><td>-</td><td>-</td></tr>')
     out.append("</table>")
     out.append(
         '<p class="note">The residual unbalance is estimated from the last reading and the influence '
-        "coefficients fitted to every run of this job (least squares).</p>"
+        "coefficients fitted to every run of this job (least squares); ± is its 95 % uncertainty from the "
+        "reading's scatter. A plane passes when the residual plus that uncertainty is within the "
+        "permissible value.</p>"
     )
     # Weights fitted
     out += ['<h2 id="weights">Weights fitted</h2>']

@@ -135,8 +135,9 @@ class JobResult:
     """A job's outcome: before/after per channel and the grade check per plane.
 
     ``residual_unbalance_gmm`` is the engine's estimate from the last reading and the influence
-    coefficients; ``passed`` is True only when every plane's residual is within its permissible
-    share (``None`` while no correction run has been taken).
+    coefficients, ``residual_uncertainty_gmm`` its 95 % uncertainty from the reading's scatter;
+    ``passed`` is True only when every plane's residual plus its uncertainty is within its
+    permissible share (``None`` while no correction run has been taken).
     """
 
     job_id: int
@@ -155,6 +156,7 @@ class JobResult:
     influence: list[list[complex]] | None
     warnings: list[str]
     tolerance_rule: str = ""
+    residual_uncertainty_gmm: list[float] | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -166,6 +168,7 @@ class JobResult:
             "initial": [c.before_amp_g for c in self.channels],
             "final": [c.after_amp_g for c in self.channels],
             "residual_unbalance_gmm": self.residual_unbalance_gmm,
+            "residual_uncertainty_gmm": self.residual_uncertainty_gmm,
             "permissible_unbalance_gmm": self.permissible_unbalance_gmm,
             "permissible_total_gmm": self.permissible_total_gmm,
             "passed": self.passed,
@@ -426,9 +429,10 @@ class BalanceJob:
             after = after_run.reading.channels[i].mean if after_run else None
             chans.append(ChannelResult(p.label, before, after))
         residual = None
+        uncertainty = None
         passed: bool | None = None
         if after_run is not None and self._influence is not None:
-            residual, passed = self._grade(after_run)
+            residual, uncertainty, passed = self._grade_with_uncertainty(after_run)
         tol = self._tolerance
         return JobResult(
             job_id=self.job_id,
@@ -447,6 +451,7 @@ class BalanceJob:
             influence=self._influence,
             warnings=list(self.state.warnings),
             tolerance_rule=str(getattr(tol, "rule", "")),
+            residual_uncertainty_gmm=uncertainty,
         )
 
     # -- internals: transitions -------------------------------------------------------------------
@@ -707,11 +712,28 @@ class BalanceJob:
         return float(self._tolerance.permissible_unbalance_gmm) / self.machine.n_planes
 
     def _grade(self, run: RunRecord) -> tuple[list[float], bool]:
+        residual, _unc, passed = self._grade_with_uncertainty(run)
+        return residual, passed
+
+    def _grade_with_uncertainty(self, run: RunRecord) -> tuple[list[float], list[float], bool]:
+        """Residual unbalance per plane (engine's least-squares estimate), its 95 % uncertainty
+        from the reading's confidence radii, and pass/fail: passed only when residual plus
+        uncertainty is within the permissible value of every plane (so a pass is a pass even
+        allowing for the measurement's scatter)."""
+        import numpy as np
+
         from runtrue.balancing import check_grade
 
         assert self._influence is not None
         gc = check_grade(self._influence, run.reading.vector(), self._tolerance)
-        return [float(x) for x in gc.residual_gmm], bool(gc.passed)
+        residual = [float(x) for x in gc.residual_gmm]
+        pinv = np.linalg.pinv(np.array(self._influence, dtype=complex))
+        conf = np.array([c.confidence_g if math.isfinite(c.confidence_g) else 0.0 for c in run.reading.channels])
+        unc = [float(np.sqrt(np.sum(np.abs(row) ** 2 * conf**2))) for row in pinv]
+        if len(unc) != len(residual):  # one tolerance plane for several correction planes: summed
+            unc = [float(sum(unc))]
+        passed = all(r + u <= p for r, u, p in zip(residual, unc, gc.permissible_gmm))
+        return residual, unc, passed
 
     def _finish(self, status: str, reason: str) -> None:
         s = self.state

@@ -1,0 +1,74 @@
+"""``runtrue jobs list|show|report|export`` on a recorded demo job."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+from pathlib import Path
+
+import pytest
+
+from runtrue.cli import main
+
+
+@pytest.fixture(scope="module")
+def db(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    path = tmp_path_factory.mktemp("jobs") / "jobs.sqlite"
+    assert main(["demo", "--auto", "--json", "--scenario", "roller", "--seed", "4", "--db", str(path)]) == 0
+    return path
+
+
+def test_list_shows_the_job(db: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    capsys.readouterr()
+    assert main(["jobs", "--db", str(db), "list"]) == 0
+    out = capsys.readouterr().out.splitlines()
+    assert out[0].split()[:4] == ["job", "started", "status", "runs"]
+    assert out[1].split()[2] == "passed" and "demo: roller" in out[1]
+    assert main(["jobs", "--db", str(db), "list", "--open"]) == 0
+    assert "no unfinished jobs" in capsys.readouterr().out
+
+
+def test_show_lists_every_run_with_its_weights(db: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    capsys.readouterr()
+    assert main(["jobs", "--db", str(db), "show", "1"]) == 0
+    out = capsys.readouterr().out
+    assert "reference" in out and "trial" in out and "correction" in out
+    assert "against rotation" in out and "passed=True" in out
+
+
+def test_report_writes_a_printable_page(db: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    target = tmp_path / "report.html"
+    assert main(["jobs", "--db", str(db), "report", "1", "-o", str(target)]) == 0
+    page = target.read_text(encoding="utf-8")
+    assert page.startswith("<!DOCTYPE html>") and "<svg" in page and "ISO 21940-11" in page
+
+
+def test_export_csv_and_json(db: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    capsys.readouterr()
+    assert main(["jobs", "--db", str(db), "export", "1"]) == 0
+    rows = list(csv.DictReader(io.StringIO(capsys.readouterr().out)))
+    assert rows and {r["pickup"] for r in rows} == {"1", "2"}
+    assert main(["jobs", "--db", str(db), "export", "1", "--format", "json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["job"]["status"] == "passed" and len(d["runs"]) == len(rows) // 2
+
+
+@pytest.mark.parametrize(
+    "argv, message",
+    [
+        (["show", "99"], "no job 99"),
+        (["list", "--machine", "nothing"], "no machine named"),
+        ([], "say what to do"),
+    ],
+)
+def test_mistakes_get_one_clear_line(db: Path, capsys: pytest.CaptureFixture[str], argv: list[str], message: str) -> None:
+    capsys.readouterr()
+    assert main(["jobs", "--db", str(db), *argv]) == 2
+    err = capsys.readouterr().err
+    assert message in err and len(err.strip().splitlines()) == 1
+
+
+def test_missing_database_is_reported(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["jobs", "--db", str(tmp_path / "nope.sqlite"), "list"]) == 2
+    assert "no job database" in capsys.readouterr().err
