@@ -144,7 +144,8 @@ def run_demo(
         client.identify()
         n_pickups = job.machine.n_pickups
         client.set_channels((1 << n_pickups) - 1)
-        fitter = VirtualRotorFitter(client.transport.machine)
+        virtual = client.transport.machine  # type: ignore[attr-defined]  # a SimTransport
+        fitter = VirtualRotorFitter(virtual)
         if job.runs:
             fitter.fit(list(job.runs[-1].weights))
         client.start()
@@ -157,7 +158,7 @@ def run_demo(
             job.record_run(take_reading(client, revs))
             if on_run is not None:
                 on_run(job)
-        true_res = [float(x) for x in client.transport.machine.true_residual_unbalance_gmm()]
+        true_res = [float(x) for x in virtual.true_residual_unbalance_gmm()]
     finally:
         client.close()
     out = DemoOutcome(scenario, seed, job, true_res, time.perf_counter() - t0, max_runs, stopped)

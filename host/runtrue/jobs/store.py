@@ -269,7 +269,8 @@ class JobStore:
             "SELECT j.id, j.machine_id, j.machine, j.status, j.started_at, j.finished_at, j.result, "
             "(SELECT COUNT(*) FROM runs r WHERE r.job_id = j.id) AS n_runs FROM jobs j"
         )
-        where, params = [], []
+        where: list[str] = []
+        params: list[Any] = []
         if machine_id is not None:
             where.append("j.machine_id = ?")
             params.append(machine_id)

@@ -343,9 +343,9 @@ class BalanceJob:
                     f"Plane {pc.plane}: the correction is {c.mass_g:.3g} g at {c.angle_deg:.1f}°, radius {c.radius_mm:g} mm."
                 )
                 for row in pc.sheet:
-                    pos = f"position {row.number} " if row.number is not None else ""
+                    at = f"position {row.number} " if row.number is not None else ""
                     out.append(
-                        f"  Fit {row.what} at {pos}{row.angle_deg:.1f}°, radius {row.radius_mm:g} mm "
+                        f"  Fit {row.what} at {at}{row.angle_deg:.1f}°, radius {row.radius_mm:g} mm "
                         f"({row.mass_g:.3g} g, secure for {row.force_n:.0f} N)."
                     )
             out.append(m.angle_direction_words())
@@ -701,9 +701,9 @@ class BalanceJob:
             condition_number=float(sol.condition_number),
             warnings=list(self._influence_warnings) + list(sol.warnings) + [w for pc in planes for w in pc.warnings],
         )
-        for w in s.plan.warnings:
-            if w not in s.warnings:
-                s.warnings.append(w)
+        for text in s.plan.warnings:
+            if text not in s.warnings:
+                s.warnings.append(text)
 
     def _plane_permissible(self, plane: int) -> float:
         per = list(self._tolerance.per_plane_gmm)

@@ -7,6 +7,7 @@ import io
 import json
 import math
 import re
+from collections.abc import Iterator
 from html.parser import HTMLParser
 
 import pytest
@@ -77,7 +78,7 @@ class Page(HTMLParser):
 
 
 @pytest.fixture(scope="module")
-def finished_job() -> tuple[JobStore, BalanceJob]:
+def finished_job() -> Iterator[tuple[JobStore, BalanceJob]]:
     store = JobStore(":memory:")
     m = Machine("press roll <3> & co", 38.0, 980.0,
                 [PlaneSpec(95.0, count=6, max_pieces_per_position=4),

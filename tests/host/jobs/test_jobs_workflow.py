@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Iterator
 
 import pytest
 from jobs_fakes import LinearRotor, polar
@@ -49,7 +50,7 @@ def true_residual_within_grade(machine: Machine, rotor: LinearRotor, job: Balanc
 
 
 @pytest.fixture
-def store() -> JobStore:
+def store() -> Iterator[JobStore]:
     s = JobStore(":memory:")
     yield s
     s.close()
