@@ -14,7 +14,7 @@ import time
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
-from runtrue.jobs.model import Weight
+from runtrue.jobs.model import Machine, Weight
 from runtrue.jobs.store import JobStore
 from runtrue.jobs.workflow import BalanceJob
 
@@ -120,12 +120,16 @@ def run_demo(
     revs: int = DEFAULT_REVS,
     max_runs: int = MAX_RUNS,
     on_run: Callable[[BalanceJob], None] | None = None,
+    machine: Machine | None = None,
+    trial_removed: bool = True,
 ) -> DemoOutcome:
     """Run (or resume) a whole job on simulator ``scenario``; returns the outcome.
 
     ``store`` defaults to an in-memory store (a demo does not fill the user's machine history).
     With ``resume_job_id`` the job is rebuilt from ``store`` and the weights of its last run are
-    put back on a fresh virtual rotor (as they would still be on a real one).
+    put back on a fresh virtual rotor (as they would still be on a real one).  ``machine``
+    (default: the scenario's, see :func:`~runtrue.jobs.demo_machine.machine_for_scenario`) may be a
+    saved machine with stored influence coefficients: the job then goes straight to the correction.
     """
     from runtrue.device import open_meter
     from runtrue.jobs.demo_machine import machine_for_scenario
@@ -136,8 +140,7 @@ def run_demo(
     if resume_job_id is not None:
         job = BalanceJob.resume(store, resume_job_id)
     else:
-        machine = machine_for_scenario(scenario)
-        job = BalanceJob.start(store, machine)
+        job = BalanceJob.start(store, machine or machine_for_scenario(scenario), trial_removed=trial_removed)
     client = open_meter("sim:" + scenario, seed=seed)
     stopped = ""
     try:

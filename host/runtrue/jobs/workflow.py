@@ -238,6 +238,14 @@ class BalanceJob:
             use_stored_influence = machine.influence is not None
         if use_stored_influence and machine.influence is None:
             raise ValueError(f"machine {machine.name!r} has no stored influence coefficients; run trial weights")
+        if use_stored_influence and machine.influence is not None:
+            rows = machine.influence.coefficients
+            if len(rows) != machine.n_pickups or any(len(r) != machine.n_planes for r in rows):
+                raise ValueError(
+                    f"the stored influence coefficients are for {len(rows)} pickup(s) x "
+                    f"{len(rows[0]) if rows else 0} plane(s) but {machine.name!r} now has "
+                    f"{machine.n_pickups} x {machine.n_planes}: run trial weights to measure them again"
+                )
         options = {
             "trial_removed": bool(trial_removed),
             "use_stored_influence": bool(use_stored_influence),

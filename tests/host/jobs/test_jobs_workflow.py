@@ -246,3 +246,10 @@ def test_a_run_the_maths_cannot_use_is_kept_and_the_job_waits(store: JobStore) -
     assert back.step == "trial" and back.state.plane == 2
     drive(back, rotor)
     assert back.result().passed is True
+
+
+def test_stored_coefficients_of_another_layout_are_refused(store: JobStore) -> None:
+    m = roll(influence=StoredInfluence([[2e-4j]], 980.0))  # 1 x 1, but the roll has 2 pickups x 2 planes
+    with pytest.raises(ValueError, match="measure them again"):
+        BalanceJob.start(store, m)
+    assert BalanceJob.start(store, m, use_stored_influence=False).step == "reference"
