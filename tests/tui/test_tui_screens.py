@@ -8,7 +8,7 @@ from pathlib import Path
 
 from textual.widgets import Input, OptionList
 from tui_fakes import FakeRotor, fake_opener
-from tui_helpers import FAN_FIELDS, fill, screen_name, screen_text, wait_until
+from tui_helpers import FAN_FIELDS, fill, key, screen_name, screen_text, wait_until
 
 from runtrue.tui import make_app
 
@@ -85,7 +85,7 @@ async def test_live_screen_shows_readings_and_takes_one(tmp_path: Path) -> None:
         text = screen_text(app)
         assert "rpm" in text and "1x amp" in text and "phase" in text
         assert "0\N{DEGREE SIGN} top, lag clockwise" in text or "ring" in text
-        await pilot.press("space")
+        await key(pilot, "space")
         await wait_until(pilot, lambda: bool(taken), what="reading taken")
         reading = taken[0]
         expected = FakeRotor().expected_1x()[0]
@@ -188,11 +188,12 @@ async def test_pulled_cable_shows_a_message_keeps_the_job_and_reconnects() -> No
         await wait_until(pilot, lambda: app.session.meter_state == "connected")
         await pilot.press("n")
         fill(app.screen, FAN_FIELDS)
-        await pilot.press("f2", "r")
+        await pilot.press("f2")
+        await key(pilot, "r")
         await wait_until(pilot, lambda: "LOST" in app.session.meter_state, what="cable pulled")
         assert "LOST" in screen_text(app)
         assert app.session.job is not None and app.session.job.state.step == "reference"
         await wait_until(pilot, lambda: app.session.meter_state == "connected", what="reconnected")
-        await pilot.press("space")
+        await key(pilot, "space")
         await wait_until(pilot, lambda: app.session.job.runs != [], what="reading after reconnect")
         assert app.session.job.state.step == "trial"

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import asyncio
 import io
 import time
 from typing import Any, Callable
@@ -24,6 +25,13 @@ async def wait_until(pilot: Any, pred: Callable[[], bool], timeout_s: float = 20
         if time.monotonic() > end:
             raise AssertionError(f"timed out waiting for {what or pred}\n{screen_text(pilot.app)}")
         await pilot.pause(0.05)
+
+
+async def key(pilot: Any, name: str) -> None:
+    """Press a key without waiting for the whole process to go idle: ``pilot.press`` waits for
+    the CPU to fall quiet, which never happens while the meter thread streams revolutions."""
+    pilot.app.simulate_key(name)
+    await asyncio.sleep(0.05)
 
 
 def screen_name(app: Any) -> str:

@@ -57,6 +57,7 @@ class RuntrueApp(App):
         post_interval_s: float = 0.25,
         auto_take: bool = False,
         report_dir: str | None = None,
+        max_revs_per_s: float | None = None,
     ) -> None:
         super().__init__()
         self.session = Session(
@@ -66,6 +67,7 @@ class RuntrueApp(App):
         self.auto_connect = port is None  # default: the first meter found
         self._opener = opener
         self._post_interval_s = post_interval_s
+        self._max_revs_per_s = max_revs_per_s
         self.report_dir = report_dir or str(Path.cwd() / "reports")
         self.auto_take = auto_take  # live screen takes each reading by itself once steady
         self.ticked: set[str] = set()  # fitting list items ticked off for the coming run
@@ -105,6 +107,7 @@ class RuntrueApp(App):
                 realtime=s.realtime,
                 opener=self._opener,
                 post_interval_s=self._post_interval_s,
+                max_revs_per_s=self._max_revs_per_s,
             )
             s.link.start()
         self._tell_screen(None)

@@ -57,6 +57,7 @@ class MeterLink:
         opener: Callable[..., Any] | None = None,
         post_interval_s: float = 0.2,
         retry_s: float = 1.0,
+        max_revs_per_s: float | None = None,
     ) -> None:
         self.port = port
         self.seed = seed
@@ -65,6 +66,9 @@ class MeterLink:
         self._opener = opener
         self.post_interval_s = post_interval_s
         self.retry_s = retry_s
+        # A simulator that is not paced in real time produces revolutions as fast as the CPU
+        # allows; this cap keeps it from starving the interface (None = no cap).
+        self.max_revs_per_s = max_revs_per_s
         self._requests: queue.Queue[tuple[str, Any]] = queue.Queue()
         self._stop = threading.Event()
         self._streaming = False
@@ -225,6 +229,8 @@ class MeterLink:
                 rev = client.read_revolution(timeout_s=0.1)
                 if rev is not None:
                     batch.append(rev)
+                    if self.max_revs_per_s:
+                        self._stop.wait(1.0 / self.max_revs_per_s)
                 now = time.monotonic()
                 if batch and (now - last_post >= self.post_interval_s or len(batch) >= 200):
                     self._post(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0)), self.epoch))

@@ -1,0 +1,57 @@
+"""A whole balancing job driven through the application with the keyboard, on the simulator
+(the real firmware logic on a virtual machine, running faster than real time): connect,
+describe the machine, reference, trial(s), correction, trims, result and report.
+
+The application fits each weight to the virtual rotor by its geometry (plane, mass, angle from
+the mark against rotation, radius), so a wrong angle convention anywhere shows up here as
+vibration that does not drop.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from tui_helpers import key, screen_name, screen_text, wait_until
+
+from runtrue.tui import make_app
+
+MAX_RUNS = 8
+
+
+@pytest.mark.parametrize("scenario, seed", [("fan", 7), ("roller", 3)])
+async def test_whole_job_on_the_simulator_meets_the_grade(scenario: str, seed: int, tmp_path: Path) -> None:
+    app = make_app(f"sim:{scenario}", seed=seed, realtime=False, revs_per_reading=24,
+                   post_interval_s=0.05, report_dir=str(tmp_path), max_revs_per_s=400)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="simulator connected")
+        await key(pilot, "n")
+        await wait_until(pilot, lambda: screen_name(app) == "MachineScreen", what="machine screen")
+        await key(pilot, "f2")  # the simulated machine's description is filled in
+        await wait_until(pilot, lambda: screen_name(app) == "RunsScreen", what="job started")
+        job = app.session.job
+        for _ in range(MAX_RUNS):
+            if screen_name(app) != "RunsScreen":
+                break
+            n_runs = len(job.runs)
+            await key(pilot, "r")
+            await wait_until(pilot, lambda: screen_name(app) == "LiveScreen", what="live readings")
+            await key(pilot, "a")  # take the reading by itself once it has settled
+            await wait_until(pilot, lambda: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
+            await wait_until(pilot, lambda: screen_name(app) != "LiveScreen", what="back from live")
+        await wait_until(pilot, lambda: screen_name(app) == "ResultScreen", what="result")
+        result = job.result()
+        kinds = [r.kind for r in job.runs]
+        assert kinds[0] == "reference" and "trial" in kinds and kinds[-1] in ("correction", "trim")
+        assert result.passed is True
+        await wait_until(pilot, lambda: "PASS" in screen_text(app), what="PASS shown")
+        # what the simulator knows is left on the rotor, per plane, is within the grade too
+        rotor = app.session.link.client.transport.machine
+        true_residual = rotor.true_residual_unbalance_gmm()
+        for left, allowed in zip(true_residual, result.permissible_unbalance_gmm):
+            assert left <= allowed
+        # and the vibration really dropped at every pickup
+        for ch in result.channels:
+            assert abs(ch.after) < 0.3 * abs(ch.before)
+        await key(pilot, "h")
+        await wait_until(pilot, lambda: bool(list(tmp_path.glob("*.html"))), what="report written")
