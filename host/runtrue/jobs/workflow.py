@@ -272,8 +272,9 @@ class BalanceJob:
             if k < len(runs):
                 job._apply_run(runs[k])
         job._replaying = False
-        if job._plan_pending is not None and job.state.step == job._plan_pending:
-            job._enter_correction(job._plan_pending)
+        pending = job._plan_pending
+        if pending is not None and job.state.step == pending:
+            job._guarded(lambda: job._enter_correction(pending), "The correction cannot be worked out")
         if rec.status != "open" and job.state.status == "open":
             job.state.status = rec.status
             job.state.step = "done"
@@ -302,7 +303,8 @@ class BalanceJob:
                 w for w in on if not (self._is_trial(w) and w.plane == s.plane)
             ]
             return kept + [s.trial]
-        assert s.plan is not None
+        if s.plan is None:  # the correction could not be worked out: nothing to change
+            return on
         removed = set(s.plan.remove)
         return [w for w in on if w not in removed] + s.plan.weights_to_fit()
 
@@ -340,8 +342,11 @@ class BalanceJob:
             out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
         elif s.step in ("correction", "trim"):
             plan = s.plan
-            assert plan is not None
             what = "Correction" if s.step == "correction" else f"Trim run {s.trims_done + 1}"
+            if plan is None:
+                out.append(f"{what}: no correction could be worked out (see above). Take another run or stop the job.")
+                out.append(ANGLE_CONVENTION)
+                return out
             out.append(f"{what}: stop the machine and lock it out.")
             for w in plan.remove:
                 out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
