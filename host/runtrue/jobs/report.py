@@ -226,8 +226,9 @@ def render_html(store: JobStore, job_id: int) -> str:
                    "<th>Angle</th><th>Radius (mm)</th><th>Force at speed (N)</th></tr>")
         for w in res.weights_on:
             f_n = centrifugal_force_n(w.mass_g, w.radius_mm, m.speed_rpm)
+            what = w.label + (f" ({' + '.join(f'{p:g} g' for p in w.pieces)})" if w.pieces else "")
             out.append(
-                f'<tr><td class="l">{w.plane}</td><td class="l">{_e(w.label)}</td><td>{w.mass_g:.4g}</td>'
+                f'<tr><td class="l">{w.plane}</td><td class="l">{_e(what)}</td><td>{w.mass_g:.4g}</td>'
                 f"<td>{w.angle_deg:.1f}°</td><td>{w.radius_mm:g}</td><td>{f_n:.0f}</td></tr>"
             )
         out.append("</table>")
