@@ -117,7 +117,7 @@ def _verdict(result: JobResult) -> tuple[str, str]:
 
 def render_html(store: JobStore, job_id: int) -> str:
     """The report of job ``job_id`` as a complete HTML document (UTF-8 text)."""
-    from runtrue.balancing import centrifugal_force_n
+    from runtrue.balancing import centrifugal_force_n, convert_1x
 
     rec = store.get_job(job_id)
     if rec is None:
@@ -168,18 +168,24 @@ def render_html(store: JobStore, job_id: int) -> str:
     out += [
         '<h2 id="before-after">Before and after</h2><table>',
         '<tr><th class="l">Pickup</th><th>Before (g)</th><th>Phase</th><th>After (g)</th><th>Phase</th>'
-        "<th>Reduction</th></tr>",
+        "<th>Reduction</th><th>Before (mm/s)</th><th>After (mm/s)</th></tr>",
     ]
+    ref_speed = next((r.reading.speed_rpm for r in runs if r.kind == "reference"), m.speed_rpm)
+    last_speed = runs[-1].reading.speed_rpm if runs else m.speed_rpm
     for i, ch in enumerate(res.channels, start=1):
         ba, bp = _amp_phase(ch.before)
+        bv = abs(convert_1x(ch.before, "g", "mm/s", ref_speed))
         if ch.after is not None:
             aa, ap = _amp_phase(ch.after)
+            av = abs(convert_1x(ch.after, "g", "mm/s", last_speed))
             red = f"{100.0 * (1 - aa / ba):.0f} %" if ba > 0 else "-"
-            after = f"<td>{aa:.4g}</td><td>{ap:.0f}°</td><td>{red}</td>"
+            after = f"<td>{aa:.4g}</td><td>{ap:.0f}°</td><td>{red}</td><td>{bv:.3g}</td><td>{av:.3g}</td>"
         else:
-            after = "<td>-</td><td>-</td><td>-</td>"
+            after = f"<td>-</td><td>-</td><td>-</td><td>{bv:.3g}</td><td>-</td>"
         out.append(f'<tr><td class="l">{i}: {_e(ch.label)}</td><td>{ba:.4g}</td><td>{bp:.0f}°</td>{after}</tr>')
     out.append("</table>")
+    out.append('<p class="note">Velocity (mm/s, 1x peak) is the acceleration integrated at the run\'s speed: '
+               "v = a / ω.</p>")
     # Polar diagrams
     if runs:
         out.append('<h2 id="polar">Polar diagram</h2>')

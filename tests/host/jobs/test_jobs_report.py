@@ -123,6 +123,9 @@ def test_report_numbers_are_the_jobs(finished_job: tuple[JobStore, BalanceJob]) 
     for row, ch in zip(before_after[1:], res.channels):
         assert float(row[1]) == pytest.approx(ch.before_amp_g, rel=1e-3)
         assert float(row[3]) == pytest.approx(ch.after_amp_g, rel=1e-3)
+        # velocity 1x peak: v = a / w, a in m/s^2 (1 g = 9.80665 m/s^2)
+        w = 2 * math.pi * job.runs[0].reading.speed_rpm / 60
+        assert float(row[6]) == pytest.approx(ch.before_amp_g * 9.80665 / w * 1000, rel=2e-3)
     grade = next(t for t in page.tables if t[0][0] == "Plane" and "Permissible (g·mm)" in t[0])
     assert [float(r[3]) for r in grade[1:]] == pytest.approx(res.permissible_unbalance_gmm, rel=1e-3)
     assert [float(r[1]) for r in grade[1:]] == pytest.approx(res.residual_unbalance_gmm, rel=1e-3)
