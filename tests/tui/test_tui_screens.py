@@ -84,7 +84,7 @@ async def test_live_screen_shows_readings_and_takes_one(tmp_path: Path) -> None:
         await pilot.pause(0.3)
         text = screen_text(app)
         assert "rpm" in text and "1x amp" in text and "phase" in text
-        assert "0\N{DEGREE SIGN} top, lag clockwise" in text or "ring" in text
+        assert "0\N{DEGREE SIGN} up, lag cw" in text
         await key(pilot, "space")
         await wait_until(pilot, lambda: bool(taken), what="reading taken")
         reading = taken[0]

@@ -40,15 +40,19 @@ def channel_lines(result: Any) -> list[str]:
 
 
 def plane_lines(result: Any) -> list[str]:
+    """Per plane: residual (with its 95 % uncertainty when known) against the permissible value."""
     lines = []
     residual = result.residual_unbalance_gmm
+    unc = getattr(result, "residual_uncertainty_gmm", None)
     for p, perm in enumerate(result.permissible_unbalance_gmm, start=1):
         if residual is not None and p - 1 < len(residual):
             r = residual[p - 1]
-            mark = "ok" if r <= perm else "TOO HIGH"
-            lines.append(f"plane {p}: residual {r:8.1f} g.mm  permissible {perm:8.1f} g.mm  {r / perm:5.2f}x  {mark}")
+            u = unc[p - 1] if unc is not None and p - 1 < len(unc) else 0.0
+            mark = "ok" if r + u <= perm else "TOO HIGH"
+            pm = f"+-{u:.0f}" if u else ""
+            lines.append(f"plane {p}: {r:.1f}{pm} g.mm of {perm:.1f} g.mm allowed ({(r + u) / perm:.2f}x) {mark}")
         else:
-            lines.append(f"plane {p}: residual      -       permissible {perm:8.1f} g.mm")
+            lines.append(f"plane {p}: residual not measured yet; {perm:.1f} g.mm allowed")
     return lines
 
 

@@ -151,6 +151,12 @@ class MachineScreen(StepScreen):
             self.query_one(f"#f_{exc.field}", Input).focus()
             return
         store = self.session.store
+        if machine.id is None:
+            saved = store.get_machine(machine.name)
+            if saved is not None:  # the same name is the same machine: update it, keep its coefficients
+                machine.id = saved.id
+                machine.influence = saved.influence
+                self.notify(f"Updated the saved machine {machine.name!r}.", timeout=3)
         try:
             store.save_machine(machine)
         except ValueError as exc:

@@ -16,7 +16,7 @@ from textual.widget import Widget
 
 from runtrue.tui.widgets.braille import BrailleCanvas, nice_full_scale
 
-CAPTION = "0\N{DEGREE SIGN} top, lag clockwise"
+CAPTION = "0\N{DEGREE SIGN} up, lag cw"
 
 
 @dataclass
@@ -99,5 +99,5 @@ class PolarPlot(Widget):
             return Text("")
         cv, fs = draw_polar(self._data, w, h - 1)
         text = canvas_text(cv)
-        text.append(f"\nring {fs:g} {self._data.unit} | {CAPTION}"[: w + 1], "dim")
+        text.append(f"\nring {fs:g} {self._data.unit}, {CAPTION}"[: w + 1], "dim")
         return text
