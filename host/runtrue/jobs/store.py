@@ -15,10 +15,11 @@ from __future__ import annotations
 import json
 import os
 import sqlite3
+import threading
 from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any, Callable, Iterable, TypeVar
 
 from runtrue.jobs.model import RUN_KINDS, Machine, RunReading, RunRecord, StoredInfluence, Weight
 
@@ -67,6 +68,20 @@ CREATE INDEX IF NOT EXISTS jobs_by_machine ON jobs(machine_id, id);
 """
 
 JOB_STATUSES = ("open", "passed", "stopped")
+
+_F = TypeVar("_F", bound=Callable[..., Any])
+
+
+def _locked(method: _F) -> _F:
+    """Serialise a JobStore method on the store's lock (one connection, many threads)."""
+
+    def wrapper(self: Any, *args: Any, **kwargs: Any) -> Any:
+        with self._lock:
+            return method(self, *args, **kwargs)
+
+    wrapper.__name__ = method.__name__
+    wrapper.__doc__ = method.__doc__
+    return wrapper  # type: ignore[return-value]
 
 
 def now_iso() -> str:
@@ -139,15 +154,17 @@ class TrendPoint:
 class JobStore:
     """The SQLite job store.  ``JobStore()`` opens (and creates) the default file.
 
-    Use as a context manager or call :meth:`close`.  Not shared between threads: open one per
-    thread (SQLite's WAL lets readers and one writer work side by side).
+    Use as a context manager or call :meth:`close`.  One store may be used from several threads
+    (calls are serialised by a lock); several stores, even in several processes, may share one
+    file (SQLite's WAL lets readers and one writer work side by side).
     """
 
     def __init__(self, path: str | os.PathLike[str] | None = None) -> None:
         self.path = Path(path) if path is not None else default_db_path()
         if str(self.path) != ":memory:":
             self.path.parent.mkdir(parents=True, exist_ok=True)
-        self._db = sqlite3.connect(str(self.path), isolation_level=None, timeout=10.0)
+        self._lock = threading.RLock()
+        self._db = sqlite3.connect(str(self.path), isolation_level=None, timeout=10.0, check_same_thread=False)
         self._db.row_factory = sqlite3.Row
         self._db.execute("PRAGMA journal_mode=WAL")
         self._db.execute("PRAGMA synchronous=FULL")
@@ -156,6 +173,7 @@ class JobStore:
         self._db.execute(f"PRAGMA user_version={SCHEMA_VERSION}")
 
     # -- plumbing -------------------------------------------------------------------------------
+    @_locked
     def close(self) -> None:
         self._db.close()
 
@@ -165,6 +183,7 @@ class JobStore:
     def __exit__(self, *exc: object) -> None:
         self.close()
 
+    @_locked
     def _write(self, sql: str, params: Iterable[Any] = ()) -> sqlite3.Cursor:
         """One statement in one committed transaction."""
         cur = self._db.cursor()
@@ -178,6 +197,7 @@ class JobStore:
         return cur
 
     # -- machines -------------------------------------------------------------------------------
+    @_locked
     def save_machine(self, machine: Machine) -> int:
         """Insert a new machine or update a saved one (``machine.id`` set); returns the id.
 
@@ -205,6 +225,7 @@ class JobStore:
             ) from None
         return machine.id
 
+    @_locked
     def get_machine(self, key: int | str) -> Machine | None:
         """A saved machine by id or by exact name; None if there is none."""
         if isinstance(key, int):
@@ -213,10 +234,12 @@ class JobStore:
             row = self._db.execute("SELECT id, data FROM machines WHERE name=?", (key,)).fetchone()
         return Machine.from_dict(json.loads(row["data"]), id=row["id"]) if row else None
 
+    @_locked
     def list_machines(self) -> list[Machine]:
         rows = self._db.execute("SELECT id, data FROM machines ORDER BY name COLLATE NOCASE").fetchall()
         return [Machine.from_dict(json.loads(r["data"]), id=r["id"]) for r in rows]
 
+    @_locked
     def store_influence(self, machine_id: int, influence: StoredInfluence) -> None:
         """Keep fitted influence coefficients with a saved machine (for its next job)."""
         machine = self.get_machine(machine_id)
@@ -226,6 +249,7 @@ class JobStore:
         self.save_machine(machine)
 
     # -- jobs -----------------------------------------------------------------------------------
+    @_locked
     def new_job(self, machine: Machine, options: dict[str, Any] | None = None) -> int:
         """Start a job on a machine (saved or not); the machine is kept as it is now."""
         cur = self._write(
@@ -234,6 +258,7 @@ class JobStore:
         )
         return int(cur.lastrowid or 0)
 
+    @_locked
     def get_job(self, job_id: int) -> JobRecord | None:
         row = self._db.execute("SELECT * FROM jobs WHERE id=?", (job_id,)).fetchone()
         if row is None:
@@ -249,6 +274,7 @@ class JobStore:
             result=json.loads(row["result"]) if row["result"] else None,
         )
 
+    @_locked
     def finish_job(self, job_id: int, status: str, result: dict[str, Any] | None) -> None:
         """Close a job as ``"passed"`` or ``"stopped"`` with its result (JSON-able)."""
         if status not in JOB_STATUSES:
@@ -259,10 +285,12 @@ class JobStore:
             (status, finished, json.dumps(result) if result is not None else None, job_id),
         )
 
+    @_locked
     def save_result(self, job_id: int, result: dict[str, Any]) -> None:
         """Keep the latest result of a job still open (shown in lists and history)."""
         self._write("UPDATE jobs SET result=? WHERE id=?", (json.dumps(result), job_id))
 
+    @_locked
     def list_jobs(self, machine_id: int | None = None, status: str | None = None) -> list[JobSummary]:
         """Jobs, newest first; optionally of one machine and/or one status."""
         sql = (
@@ -297,14 +325,17 @@ class JobStore:
             )
         return out
 
+    @_locked
     def unfinished_jobs(self) -> list[JobSummary]:
         """Jobs still open (interrupted or in progress), newest first: offer to resume them."""
         return self.list_jobs(status="open")
 
+    @_locked
     def machine_history(self, machine_id: int) -> list[JobSummary]:
         """Every job of a saved machine, newest first."""
         return self.list_jobs(machine_id=machine_id)
 
+    @_locked
     def trend(self, machine_id: int) -> list[TrendPoint]:
         """The machine's finished jobs, oldest first: initial and final 1× and residual unbalance."""
         rows = self._db.execute(
@@ -330,6 +361,7 @@ class JobStore:
         return points
 
     # -- runs and decisions ---------------------------------------------------------------------
+    @_locked
     def add_run(
         self,
         job_id: int,
@@ -368,6 +400,7 @@ class JobStore:
         cur.execute("COMMIT")
         return RunRecord(job_id, seq, kind, taken_at, reading, weights, note, id=run_id)
 
+    @_locked
     def runs(self, job_id: int) -> list[RunRecord]:
         """A job's runs in the order taken."""
         rows = self._db.execute("SELECT * FROM runs WHERE job_id=? ORDER BY seq", (job_id,)).fetchall()
@@ -385,6 +418,7 @@ class JobStore:
             for r in rows
         ]
 
+    @_locked
     def add_event(self, job_id: int, kind: str, data: dict[str, Any] | None = None) -> int:
         """Record a workflow decision (committed before returning)."""
         cur = self._write(
@@ -393,6 +427,7 @@ class JobStore:
         )
         return int(cur.lastrowid or 0)
 
+    @_locked
     def events(self, job_id: int) -> list[Event]:
         rows = self._db.execute("SELECT * FROM events WHERE job_id=? ORDER BY id", (job_id,)).fetchall()
         return [Event(r["kind"], json.loads(r["data"]), r["at"], r["id"]) for r in rows]

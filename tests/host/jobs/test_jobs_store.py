@@ -155,3 +155,24 @@ def test_bad_machine_descriptions_say_what_is_wrong() -> None:
         PlaneSpec(50, count=6, continuous=True)
     with pytest.raises(ValueError, match="one or two"):
         Machine("x", 1, 1000, [PlaneSpec(50)] * 3)
+
+
+def test_one_store_can_be_written_from_several_threads(tmp_path: Path) -> None:
+    import threading
+
+    with JobStore(tmp_path / "j.sqlite") as store:
+        m = roll_machine()
+        store.save_machine(m)
+        job = store.new_job(m)
+        reading = RunReading.manual([0.3, 0.2], [40, 100], 980)
+
+        def worker() -> None:
+            for _ in range(20):
+                store.add_run(job, "trim", reading, ())
+
+        threads = [threading.Thread(target=worker) for _ in range(4)]
+        for t in threads:
+            t.start()
+        for t in threads:
+            t.join()
+        assert [r.seq for r in store.runs(job)] == list(range(1, 81))
