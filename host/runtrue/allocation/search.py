@@ -36,8 +36,16 @@ Method (classic depth-first branch and bound, e.g. Wolsey, *Integer Programming*
    incumbent; the search ends proven optimal when no level can (or no more pieces exist).
 4. **Budget.**  Exactness can cost exponential time in bad cases (many pieces and a residual
    target finer than the stock allows).  After ``max_nodes`` nodes the search stops and says so:
-   the answer is then exactly optimal among allocations of fewer than ``complete_pieces + 1``
-   pieces, and ``bound_gmm`` (a relaxation bound) is a proven lower bound on any residual.
+   the answer is then exactly optimal among allocations of at most ``complete_pieces``
+   pieces, and ``relaxation_bound_gmm`` (support functions of the continuous relaxation) is a
+   proven lower bound on any residual.  A local search (add one or two pieces, remove one,
+   exchange one) then improves the incumbent while it can; it proves nothing more.
+5. **Limits.**  At most :data:`MAX_TOTAL_PIECES` pieces in all are considered.
+
+Why a good-enough residual matters for speed: with many pieces the reachable unbalances
+become dense (sums of vectors at several angles), so the strictly smallest residual keeps
+shrinking with every extra piece and nothing prunes; with a good-enough residual the search
+stops at the first piece count that reaches it, typically two to four pieces.
 """
 
 from __future__ import annotations
@@ -155,6 +163,7 @@ class _Searcher:
         self.best_slots: list[int] = []
         self.best_residual: complex = T
         self.chosen: list[int] = []
+        self.found_here = False
 
     # keys ---------------------------------------------------------------
     def _qr(self, x: float) -> int:
@@ -190,6 +199,7 @@ class _Searcher:
 
     def _offer(self, key: tuple, slots: list[int], R: complex) -> None:
         if self.best_key is None or key < self.best_key:
+            self.found_here = True
             self.best_key = key
             self.best_slots = list(slots)
             self.best_residual = R
@@ -281,6 +291,108 @@ class _Searcher:
                 if self.size_used_at is not None:
                     self.size_used_at[p, k] -= 1
 
+    # improvement after the budget --------------------------------------------
+    def _keys(self, rho: np.ndarray, pieces: np.ndarray, mass: np.ndarray, npos: np.ndarray) -> np.ndarray:
+        """Indices sorting candidate moves by the objective (best first)."""
+        level = np.floor(np.maximum(rho, self.g) / self.q + 0.5)
+        rq = np.floor(rho / self.q + 0.5)
+        mq = np.floor(mass * 1e6 + 0.5)
+        if self.prob.prefer_fewer_positions:
+            return np.lexsort((rq, mq, pieces, npos, level))
+        return np.lexsort((npos, rq, mq, pieces, level))
+
+    def _set_state(self, slots: list[int]) -> None:
+        self.stack_used[:] = 0
+        self.mass_used[:] = 0.0
+        self.count_used[:] = 0
+        for s in slots:
+            self.stack_used[self.spos[s]] += 1
+            self.mass_used[self.spos[s]] += self.smass[s]
+            self.count_used[self.ssize[s]] += 1
+
+    def _add_feasible(self) -> np.ndarray:
+        prob = self.prob
+        return (
+            (self.stack_used[self.spos] < prob.stack_limit[self.spos])
+            & (self.count_used[self.ssize] < prob.counts[self.ssize])
+            & (self.mass_used[self.spos] + self.smass <= prob.mass_limit_g[self.spos] + 1e-9)
+        )
+
+    def improve(self, max_moves: int = 200) -> None:
+        """Local search from the incumbent once the exact search has run out of budget.
+
+        Moves: add one piece, add two, remove one, or exchange one for another; the best move
+        by the objective is taken while it improves the incumbent.  This can only lower the
+        incumbent; it proves nothing (the guarantee stays that of the exact phase).
+        """
+        if self.n == 0 or self.best_key is None or self.stack_one.any():
+            return
+        prob = self.prob
+        slots = list(self.best_slots)
+        R = self.best_residual
+        for _ in range(max_moves):
+            self._set_state(slots)
+            pieces = len(slots) + prob.base_pieces
+            mass = prob.base_mass_g + float(sum(self.smass[s] for s in slots))
+            npos = int((self.stack_used > 0).sum())
+            cands: list[tuple[tuple, list[int], complex]] = []
+            feas = self._add_feasible()
+            newpos = (self.stack_used[self.spos] == 0).astype(np.int64)
+            idx = np.nonzero(feas)[0]
+            if len(idx):
+                Rn = R - self.svec[idx]
+                o = self._keys(np.abs(Rn), np.full(len(idx), pieces + 1), mass + self.smass[idx], npos + newpos[idx])
+                j = int(idx[o[0]])
+                cands.append((self.make_key(abs(R - self.svec[j]), pieces + 1, mass + self.smass[j],
+                                            npos + int(newpos[j])), slots + [j], R - self.svec[j]))
+                # two more pieces
+                top = idx[o[: min(len(o), 96)]]
+                V = self.svec[top]
+                R2 = R - V[:, None] - V[None, :]
+                same_pos = self.spos[top][:, None] == self.spos[top][None, :]
+                same_size = self.ssize[top][:, None] == self.ssize[top][None, :]
+                ok = np.ones(R2.shape, bool)
+                ok &= ~same_pos | (self.stack_used[self.spos[top]][:, None] + 2 <= prob.stack_limit[self.spos[top]][:, None])
+                ok &= ~same_pos | (self.mass_used[self.spos[top]][:, None] + self.smass[top][:, None]
+                                   + self.smass[top][None, :] <= prob.mass_limit_g[self.spos[top]][:, None] + 1e-9)
+                ok &= ~same_size | (self.count_used[self.ssize[top]][:, None] + 2 <= prob.counts[self.ssize[top]][:, None])
+                ok &= np.triu(np.ones(R2.shape, bool))
+                a_i, b_i = np.nonzero(ok)
+                if len(a_i):
+                    rho2 = np.abs(R2[a_i, b_i])
+                    np2 = npos + newpos[top[a_i]] + newpos[top[b_i]] - (same_pos[a_i, b_i] & (newpos[top[a_i]] == 1))
+                    o2 = self._keys(rho2, np.full(len(a_i), pieces + 2),
+                                    mass + self.smass[top[a_i]] + self.smass[top[b_i]], np2)
+                    jj = int(o2[0])
+                    s1, s2 = int(top[a_i[jj]]), int(top[b_i[jj]])
+                    cands.append((self.make_key(float(rho2[jj]), pieces + 2, mass + self.smass[s1] + self.smass[s2],
+                                                int(np2[jj])), slots + [s1, s2], complex(R2[a_i[jj], b_i[jj]])))
+            for c in sorted(set(slots)):
+                if self.must[self.ssize[c]]:
+                    continue
+                rest = list(slots)
+                rest.remove(c)
+                Rr = R + self.svec[c]
+                self._set_state(rest)
+                npos_r = int((self.stack_used > 0).sum())
+                cands.append((self.make_key(abs(Rr), pieces - 1, mass - self.smass[c], npos_r), rest, Rr))
+                feas = self._add_feasible()
+                idx = np.nonzero(feas)[0]
+                if len(idx):
+                    newpos_r = (self.stack_used[self.spos] == 0).astype(np.int64)
+                    Rn = Rr - self.svec[idx]
+                    o = self._keys(np.abs(Rn), np.full(len(idx), pieces), mass - self.smass[c] + self.smass[idx],
+                                   npos_r + newpos_r[idx])
+                    j = int(idx[o[0]])
+                    cands.append((self.make_key(abs(Rr - self.svec[j]), pieces, mass - self.smass[c] + self.smass[j],
+                                                npos_r + int(newpos_r[j])), rest + [j], Rr - self.svec[j]))
+            best = min(cands, key=lambda t: t[0]) if cands else None
+            if best is None or not best[0] < self.best_key:
+                break
+            self.best_key, slots, R = best[0], best[1], best[2]
+            self.best_slots, self.best_residual = list(slots), R
+        self._set_state([])
+
     def root_can_improve(self, k: int) -> bool:
         """Can any allocation of exactly k pieces beat the incumbent?"""
         if self.best_key is None:
@@ -333,6 +445,9 @@ def search(prob: SearchProblem, max_nodes: int = 200_000, incumbent: tuple | Non
             complete = kmax
     except _BudgetSpent:
         optimal = False
+        srch.chosen.clear()
+        if srch.found_here:
+            srch.improve()
     slots: dict[tuple[int, int], int] = {}
     for s in srch.best_slots:
         key = (int(srch.spos[s]), int(srch.ssize[s]))

@@ -12,7 +12,8 @@ of ``{"angle", "radius"}``, or ``{"continuous": true, "radius": R}``; an ``"excl
 position numbers (1 = the first angle) marks positions that cannot be used.  Instead of
 ``stock``: ``"strip": {"grams_per_mm", "min_mm", "step_mm"[, "max_mm"]}``.  Optional:
 ``max_mass_per_position`` (g), ``good_enough`` (residual to stop at, g·mm),
-``good_enough_fraction`` (of the correction), ``prefer_fewer_positions``, ``speed_rpm`` (adds the
+``good_enough_fraction`` (of the correction; without either, 1 % of the correction; 0 asks
+for the strictly smallest residual), ``prefer_fewer_positions``, ``speed_rpm`` (adds the
 centrifugal force of each placement, ``force_n``), ``existing`` (old weights: ``{"mass",
 "angle", "radius"[, "position", "may_move", "may_remove"]}``), ``max_nodes``.
 
@@ -228,10 +229,8 @@ def _build(data: Any) -> tuple[dict, Any]:
     gf = _num(data, "good_enough_fraction", "input", required=False)
     if ge is not None and ge < 0 or gf is not None and gf < 0:
         raise UsageError("good_enough must be zero or positive")
-    corr_gmm = mass * radius
-    g = max(ge or 0.0, (gf or 0.0) * corr_gmm)
-    if g > 0:
-        opts["good_enough_gmm"] = g
+    if ge is not None or gf is not None:  # an explicit 0 asks for the strictly smallest residual
+        opts["good_enough_gmm"] = max(ge or 0.0, (gf or 0.0) * mass * radius)
     opts["prefer_fewer_positions"] = bool(data.get("prefer_fewer_positions", False))
     mn = _int(data, "max_nodes", "input")
     if mn is not None:
