@@ -21,8 +21,9 @@ Data (``model``; cheap to import, no numpy)
     Pickup(label, angle_deg=0.0)
     StoredInfluence(coefficients: list[list[complex]] ([pickup][plane], g per g·mm), speed_rpm,
                     measured_at="", job_id=None)
-    Weight(plane, mass_g, angle_deg, radius_mm, label="")    .unbalance_gmm -> complex
-        (labels starting "trial" mark trial weights)
+    Weight(plane, mass_g, angle_deg, radius_mm, label="", pieces: tuple[float, ...]=())   .unbalance_gmm -> complex
+        (labels starting "trial" mark trial weights; ``pieces`` are the stock pieces it is made of,
+        which are then not available for later steps)
     RunReading(speed_rpm, channels: tuple[ChannelValue, ...], speed_sd_rpm=0.0, n_revs=0, source="meter")
         RunReading.from_reading(runtrue.readings.Reading) ; RunReading.manual(amps, phases_deg, speed_rpm, spreads=None)
     ChannelValue(mean: complex, spread_g=0.0, confidence_g=0.0, h2=None, rms_g=None)  .amp_g, .phase_deg
@@ -67,12 +68,22 @@ Workflow (``workflow``; imports numpy and the engine lazily)
                     residual_fraction, warnings)
     JobResult: job_id, machine_name, grade, standard ("ISO 21940-11"), speed_rpm,
         channels: list[ChannelResult(label, before, after)], residual_unbalance_gmm, permissible_unbalance_gmm,
-        permissible_total_gmm, passed, runs, status, weights_on, influence, warnings, tolerance_rule; .to_dict()
+        permissible_total_gmm, passed, runs, status, weights_on, influence, warnings, tolerance_rule,
+        residual_uncertainty_gmm (95 %); .to_dict()
+        passed: every plane's residual PLUS its 95 % uncertainty within the permissible value.
+    A refusal by the maths (BalancingError) never loses a run: the run stays recorded, the step stays,
+    and ``state.message`` says why.
     CAUTIONS: tuple[str, ...];  STANDARD = "ISO 21940-11";  parse_grade("G6.3") -> 6.3
 
 Reports and exports (``report``, ``export``)
     render_html(store, job_id) -> str        (self-contained, printable; inline SVG polar diagram)
     runs_csv(store, job_id) -> str;  job_json(store, job_id) -> dict
+
+Simulator helpers (``demo_machine``, ``headless``; import the simulator lazily)
+    machine_for_scenario(scenario_or_name, *, stock=True) -> Machine   (with an invented demo stock)
+    VirtualRotorFitter(virtual_machine).fit(weights)   keeps the virtual rotor's weights equal to a list
+    run_demo(scenario, seed=None, *, store=None, resume_job_id=None, revs=40, max_runs=12, on_run=None,
+             machine=None, trial_removed=True) -> DemoOutcome   (.job, .to_json(): the demo's JSON)
 """
 
 from __future__ import annotations
