@@ -24,7 +24,7 @@ from math import pi
 from runtrue_fw import FW_VERSION
 from runtrue_fw import frames as fr
 from runtrue_fw import phasor
-from runtrue_fw.edges import EdgeTracker, Q8_MASK, wrap_diff_q8
+from runtrue_fw.edges import DEBOUNCE_Q8, EdgeTracker, Q8_MASK, wrap_diff_q8
 
 try:
     from runtrue_fw.kernels_viper import deinterleave, fit_sums, ring_stats
@@ -94,7 +94,7 @@ class Meter:
         self._running = False       # board sampling, revolutions analysed
         self._streaming = False     # REV frames sent (after START)
         self._tracker = EdgeTracker()
-        self._pending: list = []    # (e0_q8, e1_q8, flags, rev)
+        self._pending: list = []    # [e0_q8, e1_q8, flags, rev]
         self._rev_index = 0
         self._drop_seen = 0
         self._drop_active = False
@@ -229,8 +229,10 @@ class Meter:
             pos = self._eq[h & _EQ_MASK]
             self._eq_head = (h + 1) & _EQ_COUNTER_MASK
             if tr.edge(pos):
-                self._pending.append((tr.rev_start_q8, tr.rev_end_q8, tr.rev_flags, self._rev_index))
+                self._pending.append([tr.rev_start_q8, tr.rev_end_q8, tr.rev_flags, self._rev_index])
                 self._rev_index += 1
+            elif tr.suspect_previous and self._pending and self._pending[-1][1] == tr.last_q8:
+                self._pending[-1][2] |= fr.F_EXTRA_PULSE
 
     def _analyse_pending(self) -> None:
         while self._pending:
@@ -239,8 +241,13 @@ class Meter:
             first_off_q8 = (256 - (e0 & 255)) & 255
             n = (length_q8 - first_off_q8 - 1) // 256 + 1 if length_q8 > first_off_q8 else 0
             i0 = ((e0 >> 8) + (1 if e0 & 255 else 0)) & FRAME_MASK
-            if n <= MAX_REV_SAMPLES and _wrap_frames(self._frames - ((i0 + n) & FRAME_MASK)) < 0:
-                return      # its samples are not all in yet
+            # wait for its samples, and a quarter turn more: an edge rejected just after e1
+            # would mean e1 itself may have been the glitch (edges.py, suspect_previous)
+            hold_q8 = (e1 + (length_q8 >> 2) + DEBOUNCE_Q8) & Q8_MASK
+            if n <= MAX_REV_SAMPLES and (
+                    _wrap_frames(self._frames - ((i0 + n) & FRAME_MASK)) < 0
+                    or wrap_diff_q8(self._frames << 8, hold_q8) < 0):
+                return
             self._pending.pop(0)
             self._finish_revolution(e0, e1, length_q8, first_off_q8, i0, n, flags, rev)
 

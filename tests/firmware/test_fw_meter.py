@@ -50,7 +50,9 @@ def test_revolutions_carry_the_true_1x_and_2x_with_a_16_bit_adc() -> None:
     chans = [(0.5, 30.0, 0.1, 200.0, 0.2), (0.25, 300.0, 0.05, 10.0, -0.1), (1.0, 181.0, 0.0, 0.0, 0.0)]
     revs = scenario(rpm=RPM, channels=chans, adc_bits=16, counts_per_g=20000.0, n_frames=1200)
     assert len(revs) == 12
-    assert revs[0]["flags"] == fr.F_FIRST and all(r["flags"] == 0 for r in revs[1:])
+    # FIRST, then "speed not yet confirmed" (edges.py: two agreeing turns lock), then clean
+    assert [r["flags"] for r in revs[:2]] == [fr.F_FIRST, fr.F_SPEED_JUMP]
+    assert all(r["flags"] == 0 for r in revs[2:])
     for r in revs:
         assert r["rev"] == revs.index(r)
         assert r["period_us"] == pytest.approx(SPR / 4000 * 1e6, rel=1e-7)
@@ -99,7 +101,7 @@ def test_edges_fed_before_or_after_their_samples_give_the_same_revolutions() -> 
         sh = Shaft(4000, RPM, [(0.5, 30.0, 0.1, 200.0, 0.2)] * 3, t0_samples=0.375)
         stream(m, hw, sh, 1000, edges_late=late)
         out.append(revs_of(host.frames()))
-    assert out[0] == out[1] and len(out[0]) == 10
+    assert out[0] == out[1] and len(out[0]) == 9
 
 
 # ---- flags ---------------------------------------------------------------------------------
@@ -108,7 +110,7 @@ def test_clipping_is_flagged_on_the_channel_that_clipped_only() -> None:
     chans = [(0.5, 0.0, 0.0, 0.0, 0.0), (6.0, 0.0, 0.0, 0.0, 0.0), (0.5, 0.0, 0.0, 0.0, 0.0)]
     revs = scenario(rpm=RPM, channels=chans, n_frames=500)
     for r in revs:
-        assert r["flags"] & ~fr.F_FIRST == fr.F_CLIPPED | (fr.F_CLIP_CH0 << 1)
+        assert r["flags"] & ~(fr.F_FIRST | fr.F_SPEED_JUMP) == fr.F_CLIPPED | (fr.F_CLIP_CH0 << 1)
 
 
 def test_dropped_samples_flag_only_the_revolution_they_fell_in() -> None:
@@ -132,7 +134,7 @@ def test_extra_and_missing_pulses_are_flagged_and_the_rest_stay_clean() -> None:
     flags = [r["flags"] for r in revs]
     assert flags[3] == fr.F_EXTRA_PULSE
     assert flags[8] == fr.F_MISSING_PULSE and revs[8]["n_samples"] in (194, 195)
-    assert len(revs) == 19 and flags.count(0) == 16     # all but FIRST, the extra and the missing
+    assert len(revs) == 19 and flags.count(0) == 15     # all but the two locking, the extra and the missing
     for r in revs:
         if r["flags"] == 0:
             assert complex(*r["channels"][0]["h1"]) == pytest.approx(_phasor(0.5, 30.0), abs=3e-3)
@@ -155,7 +157,7 @@ def test_revolution_with_fewer_than_8_samples_is_reported_without_phasors() -> N
 
 def test_slowest_supported_revolution_is_still_fitted() -> None:
     rpm = 4000 * 60 / (MAX_REV_SAMPLES - 1.5)
-    revs = scenario(rpm=rpm, n_frames=3 * MAX_REV_SAMPLES + 100, block=256)
+    revs = scenario(rpm=rpm, n_frames=3 * MAX_REV_SAMPLES + 1400, block=256)
     assert len(revs) == 3
     for r in revs:
         assert not r["flags"] & fr.F_NO_FIT
@@ -216,7 +218,8 @@ def test_stop_ends_the_stream_and_start_restarts_the_count() -> None:
     host.command(fr.C_STOP)
     stream(m, hw, sh, 500)
     frames = host.frames()
-    assert frames[-1][0] == fr.T_ACK and len(revs_of(frames)) == 5
+    # five turns completed, but each is held a quarter turn for late glitches: STOP drops the last
+    assert frames[-1][0] == fr.T_ACK and len(revs_of(frames)) == 4
     assert hw.stopped == 1
     host.command(fr.C_START)
     stream(m, hw, Shaft(4000, RPM, [(0.5, 30.0, 0.0, 0.0, 0.0)] * 3, t0_samples=0.375), 300)
@@ -305,3 +308,26 @@ def test_selftest_fails_a_flat_channel_and_says_why() -> None:
     assert checks["ch1_signal"]["pass"] is False and "flat" in checks["ch1_signal"]["note"]
     assert checks["ch0_signal"]["pass"] is True
     assert all(p["pass"] is False for p in parts)
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.one_of(st.binary(max_size=40),
+                          st.tuples(st.integers(0x80, 0x8A), st.binary(max_size=6))), max_size=12))
+def test_any_command_bytes_are_answered_and_never_crash_the_meter(items) -> None:
+    hw = FakeBoard()
+    m = Meter(hw)
+    host = Host(m, hw)
+    for item in items:
+        if isinstance(item, bytes):
+            m.feed_command_bytes(item)
+        elif item[0] != fr.C_REPL:
+            host.command(item[0], item[1])
+    m.feed_command_bytes(b"\x00")
+    seq = host.command(fr.C_STATUS)
+    acks = _acks(host.frames())         # every frame the meter wrote decodes (CRC, COBS)
+    assert acks[-1][:3] == (seq, fr.C_STATUS, fr.ACK_OK)
+    assert all(a[2] in (0, 1, 2, 3, 4) for a in acks)
