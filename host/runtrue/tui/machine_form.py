@@ -25,7 +25,7 @@ FIELDS: tuple[tuple[str, str, str], ...] = (
     ("planes", "Planes", "1 or 2 correction planes"),
     ("p1_radius", "Plane 1 radius mm", "radius where weights sit"),
     ("p1_pos", "Plane 1 positions", "8 | any | 0, 40, 95"),
-    ("p1_first", "Plane 1 first at", "angle of position 1, deg (usually 0)"),
+    ("p1_first", "Plane 1 first at", "deg from mark, against rotation (usually 0)"),
     ("p2_radius", "Plane 2 radius mm", "(two planes only)"),
     ("p2_pos", "Plane 2 positions", "8 | any | 0, 40, 95"),
     ("p2_first", "Plane 2 first at", "deg"),

@@ -102,7 +102,8 @@ class ConnectScreen(StepScreen):
         super().on_mount()
         self.query_one("#sources", OptionList).add_option(Option("looking for meters ...", disabled=True))
         self._update_device()
-        self.scan()
+        # after the first frame: listing ports and scenarios imports pyserial and numpy
+        self.call_after_refresh(self.scan)
 
     @work(thread=True, exclusive=True, group="scan")
     def scan(self) -> None:

@@ -40,6 +40,23 @@ def tolerance_text(values: dict[str, str]) -> str:
     )
 
 
+def history_text(store: Any, machine_id: int) -> str:
+    """One line of a saved machine's history: jobs so far and how the last one ended."""
+    jobs = store.machine_history(machine_id)
+    if not jobs:
+        return "No jobs yet."
+    trend = store.trend(machine_id)
+    text = f"{len(jobs)} job(s) before."
+    if trend:
+        last = trend[-1]
+        verdict = "passed" if last.passed else "not passed"
+        if last.initial_amp_g and last.final_amp_g and last.final_amp_g[0] is not None:
+            text += f" Last ({last.date[:10]}): {last.initial_amp_g[0]:.3g} -> {last.final_amp_g[0]:.3g} g, {verdict}."
+        else:
+            text += f" Last ({last.date[:10]}): {verdict}."
+    return text
+
+
 class MachineScreen(StepScreen):
     STEP = "2 Machine"
     BINDINGS = [
@@ -129,6 +146,7 @@ class MachineScreen(StepScreen):
             m = next((m for m in self._machines.values() if m.id == self._editing_id), None)
             if m is not None and m.influence is not None:
                 text += f" Stored influence coefficients ({m.influence.speed_rpm:.0f} rpm): straight to the correction."
+            text += " " + history_text(self.session.store, self._editing_id)
         self.query_one("#hint", Static).update(text)
 
     def action_grades(self) -> None:

@@ -124,8 +124,10 @@ class RunsScreen(StepScreen):
             return
         self.refresh_status()
         self.query_one("#stepbar", Static).update(step_bar(job))
-        lines = job.instructions()
-        self.query_one("#todo", Static).update("\n".join(f"- {line}" for line in lines))
+        lines = [f"- {line}" for line in job.instructions()]
+        if job.state.warnings:
+            lines += ["", "Warnings:"] + [f"! {w}" for w in job.state.warnings]
+        self.query_one("#todo", Static).update("\n".join(lines))
         self.query_one("#runs-list", Static).update("\n".join(runs_lines(job)))
         step = job.state.step
         caution = SAFETY_FIT if step in ("trial", "correction", "trim") else SAFETY_START if step == "reference" else ""
