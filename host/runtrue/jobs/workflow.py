@@ -42,6 +42,7 @@ from runtrue.jobs.store import JobStore, now_iso
 STANDARD = "ISO 21940-11"
 DEFAULT_MAX_TRIM_RUNS = 5
 STEPS = ("reference", "trial", "correction", "trim", "done")
+SPEED_TOLERANCE = 0.05  # runs more than 5 % apart in speed get a warning (common practice)
 
 CAUTIONS: tuple[str, ...] = (
     "Stop the machine and lock it out (isolate and tag the supply) before touching the rotor or fitting weights.",
@@ -568,6 +569,18 @@ class BalanceJob:
     def _advance(self, run: RunRecord) -> None:
         s = self.state
         s.message = ""
+        ref_speed = self.runs[0].reading.speed_rpm
+        speed = run.reading.speed_rpm
+        if ref_speed > 0 and abs(speed - ref_speed) > SPEED_TOLERANCE * ref_speed:
+            s.warnings.append(
+                f"Run {run.seq} was at {speed:.0f} rpm but the reference run at {ref_speed:.0f} rpm: the "
+                "machine's response changes with speed; run at the same speed every time."
+            )
+        elif run.kind == "reference" and abs(speed - self.machine.speed_rpm) > SPEED_TOLERANCE * self.machine.speed_rpm:
+            s.warnings.append(
+                f"The reference run was at {speed:.0f} rpm, not the {self.machine.speed_rpm:g} rpm given for the machine; "
+                "the grade is checked at the machine's running speed."
+            )
         if run.kind == "reference":
             if self.options.get("use_stored_influence") and self.machine.influence is not None:
                 self._influence = [list(r) for r in self.machine.influence.coefficients]

@@ -253,3 +253,12 @@ def test_stored_coefficients_of_another_layout_are_refused(store: JobStore) -> N
     with pytest.raises(ValueError, match="measure them again"):
         BalanceJob.start(store, m)
     assert BalanceJob.start(store, m, use_stored_influence=False).step == "reference"
+
+
+def test_a_run_at_another_speed_is_flagged(store: JobStore) -> None:
+    rotor = LinearRotor(FAN_H, [polar(2400.0, 117.0)], 1470.0, noise_g=0.002)
+    job = BalanceJob.start(store, fan())
+    job.record_run(rotor.reading([]))
+    rotor.speed_rpm = 1300.0  # the belt slipped
+    job.record_run(rotor.reading(job.planned_weights()))
+    assert any("1300 rpm" in w and "same speed" in w for w in job.state.warnings)
