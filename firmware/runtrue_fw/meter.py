@@ -157,7 +157,7 @@ class Meter:
             return
         t = self._eq_tail
         if ((t - self._eq_head) & _EQ_COUNTER_MASK) >= _EDGE_QUEUE:
-            self._eq_overflow += 1
+            self._eq_overflow = (self._eq_overflow + 1) & Q8_MASK   # stays a small int
             return
         self._eq[t & _EQ_MASK] = pos_q8 & Q8_MASK
         self._eq_tail = (t + 1) & _EQ_COUNTER_MASK
