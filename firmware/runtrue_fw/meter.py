@@ -261,6 +261,8 @@ class Meter:
             flags |= fr.F_NO_FIT | fr.F_DROPPED_SAMPLES     # overwritten before service() ran
         if n > MAX_REV_SAMPLES or n < MIN_REV_SAMPLES:
             flags |= fr.F_NO_FIT
+        if not self._streaming:
+            return      # sampling only for the self-test: nothing to send, spare the CPU
         n_slots = len(self._slots)
         buf = self._writer.payload
         if not flags & fr.F_NO_FIT:
@@ -294,8 +296,6 @@ class Meter:
         else:
             for k in range(n_slots):
                 struct.pack_into(fr.REV_CHANNEL_FMT, buf, 14 + 20 * k, 0.0, 0.0, 0.0, 0.0, 0.0)
-        if not self._streaming:
-            return
         period_us = length_q8 / 256.0 / self._rate_hz * 1e6
         struct.pack_into(fr.REV_HEADER_FMT, buf, 0, rev & 0xFFFFFFFF, period_us,
                          n if n < 65535 else 65535, flags, n_slots, self._channel_mask)
