@@ -117,6 +117,18 @@ def _list(store: Any, args: argparse.Namespace) -> int:
     print(f"{'job':>5}  {'started':20}  {'status':8}  {'runs':>4}  machine")
     for j in jobs:
         print(f"{j.id:>5}  {j.started_at:20}  {j.status:8}  {j.n_runs:>4}  {j.machine_name}")
+    if machine_id is not None:
+        trend = store.trend(machine_id)
+        if trend:
+            print("trend (finished jobs, oldest first): 1x before -> after (g, worst pickup), "
+                  "residual / permissible unbalance (worst plane)")
+            for t in trend:
+                before = max(t.initial_amp_g, default=0.0)
+                after = max((a for a in t.final_amp_g if a is not None), default=0.0)
+                ratio = max((r / p for r, p in zip(t.residual_unbalance_gmm or [], t.permissible_unbalance_gmm or []) if p),
+                            default=float("nan"))
+                print(f"{t.job_id:>5}  {t.date[:10]}  {before:.4g} -> {after:.4g} g  residual {ratio:.2f} of permissible"
+                      f"  {'passed' if t.passed else 'not passed'}")
     return 0
 
 

@@ -331,8 +331,12 @@ class BalanceJob:
             t = s.trial
             assert t is not None and s.plane is not None
             out.append(f"Trial run for plane {s.plane}: stop the machine and lock it out.")
-            for w in self._to_remove_before_trial():
+            removing = self._to_remove_before_trial()
+            for w in removing:
                 out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+            staying = [w for w in (self.runs[-1].weights if self.runs else ()) if w not in removing]
+            if staying:
+                out.append(f"Leave the {len(staying)} weight(s) already fitted where they are.")
             pos = _position_number(m, s.plane, t.angle_deg)
             where = f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
             out.append(
@@ -351,6 +355,9 @@ class BalanceJob:
             out.append(f"{what}: stop the machine and lock it out.")
             for w in plan.remove:
                 out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+            staying = [w for w in (self.runs[-1].weights if self.runs else ()) if w not in plan.remove]
+            if staying:
+                out.append(f"Leave the {len(staying)} weight(s) already fitted where they are; add:")
             for pc in plan.planes:
                 c = pc.correction
                 out.append(

@@ -72,3 +72,22 @@ def test_mistakes_get_one_clear_line(db: Path, capsys: pytest.CaptureFixture[str
 def test_missing_database_is_reported(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     assert main(["jobs", "--db", str(tmp_path / "nope.sqlite"), "list"]) == 2
     assert "no job database" in capsys.readouterr().err
+
+
+def test_machine_history_shows_the_trend(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    from runtrue.jobs import JobStore
+    from runtrue.jobs.demo_machine import machine_for_scenario
+    from runtrue.jobs.headless import run_demo
+
+    path = tmp_path / "history.sqlite"
+    with JobStore(path) as store:
+        m = machine_for_scenario("fan")
+        store.save_machine(m)
+        run_demo("fan", 1, store=store, machine=m)
+        run_demo("fan", 2, store=store, machine=store.get_machine(m.id))  # type: ignore[arg-type]
+    capsys.readouterr()
+    assert main(["jobs", "--db", str(path), "list", "--machine", "demo: fan"]) == 0
+    out = capsys.readouterr().out
+    trend = out.split("trend")[1].splitlines()[1:]
+    assert [line.split()[0] for line in trend] == ["1", "2"]
+    assert all("passed" in line for line in trend)
