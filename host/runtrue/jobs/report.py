@@ -58,7 +58,7 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
 
     0° (the reference mark) at the top; phase lag increases clockwise on the page; the radius
     is the 1x amplitude in g.  Reference and last run are drawn as arrows, the others as dots,
-    each labelled with its run number.
+    each labelled with its run number and circled by its 95 % confidence radius.
     """
     c = size_px / 2.0
     r_px = c - 34.0
@@ -94,6 +94,10 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
         a = math.radians(ph)
         x, y = c + rr * math.sin(a), c - rr * math.cos(a)
         colour = _RUN_COLOURS.get(run.kind, "#333")
+        conf = run.reading.channels[pickup].confidence_g
+        if math.isfinite(conf) and conf > 0:  # the reading's 95 % confidence circle
+            parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="{max(r_px * conf / full, 0.5):.1f}" fill="none" '
+                         f'stroke="{colour}" stroke-dasharray="2,2" stroke-opacity="0.7"/>')
         if i == 0 or i == len(runs) - 1:
             parts.append(
                 f'<line x1="{c:.1f}" y1="{c:.1f}" x2="{x:.1f}" y2="{y:.1f}" stroke="{colour}" '
@@ -193,7 +197,8 @@ def render_html(store: JobStore, job_id: int) -> str:
             out.append(
                 f"<figure>{polar_svg(runs, i, pk.label)}<figcaption>Pickup {i + 1} ({_e(pk.label)}): 1x vector "
                 "of every run, numbered in order; reference mark (0°) at the top, phase lag increasing "
-                "clockwise on the page; arrows from the centre show the first and the last run. Colours: "
+                "clockwise on the page; arrows from the centre show the first and the last run; dashed circles are each reading's 95 % "
+                "confidence radius. Colours: "
                 '<span style="color:#b23a3a">reference</span>, <span style="color:#8a6d00">trial</span>, '
                 '<span style="color:#1f5fa8">correction</span>, <span style="color:#1f7a4a">trim</span>.'
                 "</figcaption></figure>"
