@@ -112,6 +112,13 @@ def test_report_has_every_part_a_customer_needs(finished_job: tuple[JobStore, Ba
     assert "lock it out" in text and "rated speed" in text
     assert "PASSED" in text
     assert page.svg_count == 2, "one polar diagram per pickup"
+    import xml.etree.ElementTree as ET
+
+    for svg in re.findall(r"<svg.*?</svg>", render_html(store, job.job_id), re.S):
+        root = ET.fromstring(svg)  # well-formed XML, as an SVG must be
+        assert root.tag.endswith("svg")
+        labels = [t.text for t in root.iter("{http://www.w3.org/2000/svg}text")]
+        assert [str(r.seq) for r in job.runs] == [x for x in labels if x and x.isdigit()]
 
 
 def test_report_numbers_are_the_jobs(finished_job: tuple[JobStore, BalanceJob]) -> None:
