@@ -28,6 +28,7 @@ def test_crc_matches_catalogue_check_value() -> None:
     assert fr.crc32(b"123456789") == 0xCBF43926
 
 
+@settings(deadline=None)
 @given(st.binary(max_size=600))
 def test_crc_matches_zlib_reference(data: bytes) -> None:
     assert fr.crc32(data) == zlib.crc32(data)
@@ -43,7 +44,7 @@ def test_cobs_matches_published_examples() -> None:
     assert _cobs(bytes(range(0, 255))) == b"\x01\xff" + bytes(range(1, 255))
 
 
-@settings(max_examples=300)
+@settings(max_examples=300, deadline=None)
 @given(st.binary(max_size=700))
 def test_cobs_round_trip_and_no_zero_bytes(data: bytes) -> None:
     enc = _cobs(data)
@@ -52,6 +53,7 @@ def test_cobs_round_trip_and_no_zero_bytes(data: bytes) -> None:
     assert _uncobs(enc) == data
 
 
+@settings(deadline=None)
 @given(st.binary(max_size=fr.MAX_PAYLOAD), st.integers(0, 255), st.integers(0, 0xFFFF))
 def test_every_frame_decodes_to_what_was_sent(payload: bytes, ftype: int, seq: int) -> None:
     w = fr.FrameWriter()
