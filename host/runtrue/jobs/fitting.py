@@ -69,12 +69,19 @@ def first_usable_angle_deg(spec: PlaneSpec) -> float:
 
 
 def trial_weight(
-    machine: Machine, plane: int, mass_g: float, angle_deg: float | None = None, in_use: Sequence[float] = ()
+    machine: Machine,
+    plane: int,
+    mass_g: float,
+    angle_deg: float | None = None,
+    in_use: Sequence[float] = (),
+    at_least: bool = False,
 ) -> Weight:
     """A trial weight near ``mass_g`` that can really be fitted at one position of ``plane``.
 
     The angle is the first usable position (0° in a continuous groove) unless given; the mass is
-    rounded to what the stock or strip can make there (the allocator's nearest combination).
+    rounded to what the stock or strip can make there (the allocator's nearest combination), or,
+    with ``at_least`` (a repeat of a trial that was too small), to the nearest combination not
+    lighter than ``mass_g`` when the stock allows.
     """
     spec = machine.planes[plane - 1]
     angle = first_usable_angle_deg(spec) if angle_deg is None else angle_deg % 360.0
@@ -87,21 +94,31 @@ def trial_weight(
         return Weight(plane, _round_up_2sig(mass_g), angle, spec.radius_mm, label)
     from runtrue.allocation import Positions, allocate
 
-    try:
-        alloc = allocate(
-            (mass_g, angle, spec.radius_mm),
-            Positions.at_angles([angle], spec.radius_mm),
-            max_pieces_per_position=spec.max_pieces_per_position,
-            max_mass_per_position_g=spec.max_mass_per_position_g,
-            **material,
-        )
+    if "stock" in material:
+        step = min(item.mass_g for item in material["stock"].items)
+    else:
+        strip = material["strip"]
+        step = strip.grams_per_mm * strip.step_mm
+    best: tuple[float, tuple[float, ...]] = (0.0, ())
+    for k in range(6 if at_least else 1):
+        try:
+            alloc = allocate(
+                (mass_g + k * step / 2.0, angle, spec.radius_mm),
+                Positions.at_angles([angle], spec.radius_mm),
+                max_pieces_per_position=spec.max_pieces_per_position,
+                max_mass_per_position_g=spec.max_mass_per_position_g,
+                **material,
+            )
+        except ValueError:
+            break
         total = sum(p.mass_g for p in alloc.placements)
-    except ValueError:
-        total = 0.0
-    if total <= 0:  # the stock cannot make it: say the mass, the user makes it up
+        if total > best[0]:
+            best = (total, tuple(m for p in alloc.placements for m in p.pieces))
+        if total >= mass_g * (1.0 - 1e-9):
+            break
+    if best[0] <= 0:  # the stock cannot make it: say the mass, the user makes it up
         return Weight(plane, _round_up_2sig(mass_g), angle, spec.radius_mm, label)
-    pieces = tuple(m for p in alloc.placements for m in p.pieces)
-    return Weight(plane, total, angle, spec.radius_mm, label, pieces)
+    return Weight(plane, best[0], angle, spec.radius_mm, label, best[1])
 
 
 #: Placements stop improving once the residual they leave is below this share of the plane's

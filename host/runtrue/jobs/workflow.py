@@ -533,7 +533,9 @@ class BalanceJob:
         staying = [w for w in on if not self._is_trial(w)] if self.options["trial_removed"] else [
             w for w in on if not (self._is_trial(w) and w.plane == plane)
         ]
-        return fitting.trial_weight(m, plane, mass, angle, [p for w in staying for p in w.pieces])
+        return fitting.trial_weight(
+            m, plane, mass, angle, [p for w in staying for p in w.pieces], at_least=previous is not None
+        )
 
     def _apply_event(self, kind: str, data: dict[str, Any]) -> None:
         s = self.state
