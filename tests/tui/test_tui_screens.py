@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import cmath
 import math
+from typing import Any
 from pathlib import Path
 
 from textual.widgets import Input, OptionList
@@ -78,7 +79,7 @@ async def test_live_screen_shows_readings_and_takes_one(tmp_path: Path) -> None:
         await wait_until(pilot, lambda: app.session.meter_state == "connected")
         from runtrue.tui.screens.live import LiveScreen
 
-        taken: list[object] = []
+        taken: list[Any] = []
         app.push_screen(LiveScreen("test"), taken.append)
         await wait_until(pilot, lambda: app.session.live.total_revs > 20, what="revolutions")
         await pilot.pause(0.3)
@@ -197,3 +198,45 @@ async def test_pulled_cable_shows_a_message_keeps_the_job_and_reconnects() -> No
         await key(pilot, "space")
         await wait_until(pilot, lambda: app.session.job.runs != [], what="reading after reconnect")
         assert app.session.job.state.step == "trial"
+
+
+async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_correction(tmp_path: Path) -> None:
+    rotor = FakeRotor()
+    influence, u0 = rotor.influence[0][0], rotor.initial_gmm[0]
+
+    def typed(total_gmm: complex) -> dict[str, str]:
+        v = influence * total_gmm
+        return {"speed": "1470", "amp0": f"{abs(v):.5f}", "phase0": f"{math.degrees(cmath.phase(v)) % 360:.3f}"}
+
+    app = make_app("manual", report_dir=str(tmp_path))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2")
+        job = app.session.job
+        for _ in range(5):  # reference, trial, correction (and trims if needed)
+            if job.state.step == "done":
+                break
+            total = u0 + sum(w.unbalance_gmm for w in job.planned_weights())
+            await pilot.press("r")
+            fill(app.screen, typed(total), prefix="#")
+            await pilot.press("enter")
+        assert job.result().passed
+        # the next job on the same machine: pick it from the saved list
+        await pilot.press("n")
+        assert screen_name(app) == "MachineScreen"
+        ol = app.screen.query_one("#machines", OptionList)
+        saved = next(i for i in range(ol.option_count) if "Boiler-house fan 2" in str(ol.get_option_at_index(i).prompt))
+        assert str(ol.get_option_at_index(saved).prompt).endswith("*")  # has stored coefficients
+        ol.focus()
+        ol.highlighted = saved
+        await pilot.press("enter")
+        assert "Stored influence coefficients" in screen_text(app), screen_text(app)
+        await pilot.press("f2")
+        job2 = app.session.job
+        assert job2 is not job
+        await pilot.press("r")
+        fill(app.screen, typed(u0 + 1500), prefix="#")  # the machine has changed since
+        await pilot.press("enter")
+        assert job2.state.step == "correction"
+        assert [r.kind for r in job2.runs] == ["reference"]

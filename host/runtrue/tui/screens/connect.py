@@ -45,6 +45,12 @@ def find_sources() -> tuple[list[tuple[str, str]], list[tuple[str, str]]]:
     return ports, sims
 
 
+SAFETY_NOTE = (
+    "Rotating machinery can kill. Lock out before fitting weights, never exceed rated speed, "
+    "stand clear on start-up. Local codes and the maker's instructions come first."
+)
+
+
 def _fit(text: str, width: int) -> str:
     return text if len(text) <= width else text[: width - 1] + "\N{HORIZONTAL ELLIPSIS}"
 
@@ -96,6 +102,7 @@ class ConnectScreen(StepScreen):
                 yield Static("Meter", classes="pane-title")
                 yield Static(device_text({}), id="device", markup=False)
                 yield Static(self_test_text(None), id="selftest", markup=False)
+                yield Static(SAFETY_NOTE, id="safety", classes="caution", markup=False)
         yield Static("", id="hint", markup=False)
 
     def on_mount(self) -> None:

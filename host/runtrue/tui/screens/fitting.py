@@ -93,7 +93,7 @@ class FittingScreen(StepScreen):
             return
         key = sl.get_option_at_index(sl.highlighted).id
         item = next((i for i in self.items if i.key == key), None)
-        if item is None:
+        if item is None or key is None:
             return
         if key in self.ticked:
             self.ticked.discard(key)

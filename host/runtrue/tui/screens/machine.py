@@ -69,7 +69,7 @@ class MachineScreen(StepScreen):
     def compose_body(self) -> Iterable[Widget]:
         with Horizontal(id="machine-body"):
             with Vertical(id="machines-pane"):
-                yield Static("Saved / resume", classes="pane-title")
+                yield Static("Saved (*: coefficients)", classes="pane-title")
                 yield OptionList(id="machines")
             with VerticalScroll(id="form"):
                 for key, label, placeholder in FIELDS:
@@ -169,7 +169,11 @@ class MachineScreen(StepScreen):
             self.query_one(f"#f_{exc.field}", Input).focus()
             return
         store = self.session.store
-        if machine.id is None:
+        if machine.id is not None:  # a saved machine: it keeps its influence coefficients
+            saved = store.get_machine(machine.id)
+            if saved is not None:
+                machine.influence = saved.influence
+        else:
             saved = store.get_machine(machine.name)
             if saved is not None:  # the same name is the same machine: update it, keep its coefficients
                 machine.id = saved.id

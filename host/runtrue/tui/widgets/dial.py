@@ -61,7 +61,7 @@ def draw_dial(data: DialData, width_chars: int, height_chars: int) -> BrailleCan
     cv.label(mid - 1, 0, "MARK", "bold red")
     cv.line(cx, 4, cx, cy - r + 1, "red")
     arrow = ARROW_CW if data.rotation == "cw" else ARROW_CCW
-    cv.label(0, 0, f"{arrow}turns", "bold cyan")
+    cv.label(0, 0, f"{arrow} turns", "bold cyan")
     cv.label(0, cv.height_chars - 1, "from drive end", "dim")
     return cv
 
