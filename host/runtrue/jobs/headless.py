@@ -56,6 +56,7 @@ class DemoOutcome:
             "standard": res.standard,
             "permissible_unbalance_gmm": res.permissible_unbalance_gmm,
             "residual_unbalance_gmm": res.residual_unbalance_gmm,
+            "residual_uncertainty_gmm": res.residual_uncertainty_gmm,
             "true_residual_unbalance_gmm": self.true_residual_gmm,
             "passed": bool(res.passed),
             "status": res.status,
