@@ -395,9 +395,16 @@ class BalanceJob:
                 f"the reading has {len(rr.channels)} channels but {self.machine.name} has "
                 f"{self.machine.n_pickups} pickups: check the channels enabled on the meter"
             )
+        for i, ch in enumerate(rr.channels, start=1):
+            if not (math.isfinite(ch.mean.real) and math.isfinite(ch.mean.imag)):
+                raise ValueError(f"pickup {i}: the reading is not a number; take the reading again")
+        if not (rr.speed_rpm > 0 and math.isfinite(rr.speed_rpm)):
+            raise ValueError("the reading has no valid speed; check the reference sensor and take it again")
         for w in weights_present or ():
             if not 1 <= w.plane <= self.machine.n_planes:
                 raise ValueError(f"weight in plane {w.plane}, but the machine has {self.machine.n_planes} plane(s)")
+            if not (w.mass_g >= 0 and math.isfinite(w.mass_g) and w.radius_mm > 0 and math.isfinite(w.angle_deg)):
+                raise ValueError(f"weight {w.label or ''} in plane {w.plane}: mass >= 0 g, radius > 0 mm and an angle, please")
         weights = list(weights_present) if weights_present is not None else self.planned_weights()
         kind = self.state.step
         run = self.store.add_run(self.job_id, kind, rr, weights, note)

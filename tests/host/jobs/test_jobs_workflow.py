@@ -278,3 +278,20 @@ def test_a_repeated_trial_from_stock_is_never_lighter_than_asked(store: JobStore
     assert chk is not None and not chk.ok and chk.suggested_scale * 1.2 < 2.0
     again = job.suggested_trial()
     assert again is not None and again.pieces == (3.0,)
+
+
+def test_nonsense_readings_and_weights_are_refused_before_anything_is_written(store: JobStore) -> None:
+    from runtrue.jobs import RunReading, Weight
+
+    job = BalanceJob.start(store, fan())
+    from runtrue.jobs import ChannelValue
+
+    with pytest.raises(ValueError, match="amplitude must be"):
+        RunReading.manual([float("nan")], [10.0], 1470.0)
+    with pytest.raises(ValueError, match="not a number"):
+        job.record_run(RunReading(1470.0, (ChannelValue(complex(float("nan"), 0.0)),)))
+    with pytest.raises(ValueError, match="speed"):
+        job.record_run(RunReading.manual([0.4], [10.0], 0.0))
+    with pytest.raises(ValueError, match="mass"):
+        job.record_run(RunReading.manual([0.4], [10.0], 1470.0), weights_present=[Weight(1, -3.0, 0.0, 160.0)])
+    assert store.runs(job.job_id) == []
