@@ -43,7 +43,7 @@ class RuntrueApp(App):
     CSS_PATH = "app.tcss"
     TITLE = "runtrue"
     ENABLE_COMMAND_PALETTE = False
-    BINDINGS = [Binding("ctrl+q", "quit", "Quit", show=False, priority=True)]
+    BINDINGS = [Binding("ctrl+q", "quit", "Quit", priority=True)]
 
     def __init__(
         self,

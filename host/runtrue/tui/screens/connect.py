@@ -90,7 +90,6 @@ class ConnectScreen(StepScreen):
         Binding("t", "self_test", "Self-test"),
         Binding("r", "rescan", "Rescan"),
         Binding("n", "next", "Next: machine"),
-        Binding("q", "app.quit", "Quit"),
     ]
 
     def compose_body(self) -> Iterable[Widget]:

@@ -124,7 +124,9 @@ class LiveScreen(StepScreen):
             self.channel %= n_ch
             ch_marks = self.marks[self.channel] if self.channel < len(self.marks) else []
             mean = reading.channels[self.channel].mean if reading is not None else None
-            self.query_one(PolarPlot).show(PolarData(live.scatter(self.channel), mean, ch_marks))
+            self.query_one(PolarPlot).show(
+                PolarData(live.scatter(self.channel), mean, ch_marks, label=f"ch{self.channel + 1}")
+            )
         self.query_one("#live-progress", Static).update(self._progress_text())
 
     def _progress_text(self) -> str:

@@ -63,7 +63,6 @@ class MachineScreen(StepScreen):
         Binding("f2", "start_job", "Start job"),
         Binding("f3", "grades", "Grade table"),
         Binding("f4", "back", "Back"),
-        Binding("ctrl+q", "app.quit", "Quit"),
     ]
 
     def compose_body(self) -> Iterable[Widget]:

@@ -31,7 +31,6 @@ class ResultScreen(StepScreen):
         Binding("e", "export", "Export CSV+JSON"),
         Binding("b", "back", "Back to runs"),
         Binding("n", "new_job", "New job"),
-        Binding("q", "app.quit", "Quit"),
     ]
 
     def compose_body(self) -> Iterable[Widget]:
@@ -47,7 +46,7 @@ class ResultScreen(StepScreen):
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
         job = self.session.job
         if action == "back":
-            return True if job is not None and job.state.step != "done" else None
+            return True if job is not None and job.state.step != "done" else False
         return True
 
     def redraw(self) -> None:

@@ -75,7 +75,7 @@ def polar_marks(job: Any) -> list[list[tuple[str, complex]]]:
 class RunsScreen(StepScreen):
     STEP = "4 Balancing runs"
     BINDINGS = [
-        Binding("r", "reading", "Take reading"),
+        Binding("r", "reading", "Reading"),
         Binding("f", "fitting", "Fitting"),
         Binding("w", "trial", "Trial weight"),
         Binding("a", "accept", "Accept trial"),
@@ -108,14 +108,14 @@ class RunsScreen(StepScreen):
             return None
         step = job.state.step
         if action == "trial":
-            return True if step == "trial" else None
+            return True if step == "trial" else False
         if action == "accept":
             chk = job.state.last_trial_check
-            return True if step == "trial" and chk is not None and not chk.ok and not chk.accepted_anyway else None
+            return True if step == "trial" and chk is not None and not chk.ok and not chk.accepted_anyway else False
         if action in ("reading", "stop"):
-            return True if step != "done" else None
+            return True if step != "done" else False
         if action == "fitting":
-            return True if step in ("trial", "correction", "trim") else None
+            return True if step in ("trial", "correction", "trim") else False
         return True
 
     def redraw(self) -> None:

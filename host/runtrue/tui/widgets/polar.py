@@ -27,6 +27,7 @@ class PolarData:
     mean: complex | None = None
     marks: list[tuple[str, complex]] = field(default_factory=list)  # (letter, vector)
     unit: str = "g"
+    label: str = ""  # e.g. "ch 1"
 
 
 def _to_xy(v: complex, cx: float, cy: float, r_dots: float, full_scale: float) -> tuple[float, float]:
@@ -99,5 +100,6 @@ class PolarPlot(Widget):
             return Text("")
         cv, fs = draw_polar(self._data, w, h - 1)
         text = canvas_text(cv)
-        text.append(f"\nring {fs:g} {self._data.unit}, {CAPTION}"[: w + 1], "dim")
+        label = f"{self._data.label} " if self._data.label else ""
+        text.append(f"\n{label}ring {fs:g} {self._data.unit}, {CAPTION}"[: w + 1], "dim")
         return text
