@@ -5,6 +5,8 @@ from __future__ import annotations
 import cmath
 import math
 from typing import Any
+
+import pytest
 from pathlib import Path
 
 from textual.widgets import Input, OptionList
@@ -240,3 +242,46 @@ async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_cor
         await pilot.press("enter")
         assert job2.state.step == "correction"
         assert [r.kind for r in job2.runs] == ["reference"]
+
+
+async def test_typed_velocity_reading_is_converted_to_g() -> None:
+    """1x velocity typed in mm/s: a = v * omega, and the acceleration leads by 90 deg (its lag is
+    90 deg less) - the integration rule for a sinusoid."""
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "unit": "mm/s", "amp0": "10", "phase0": "120"}, prefix="#")
+        await pilot.press("enter")
+        ch = app.session.job.runs[0].reading.channels[0]
+        omega = 2 * math.pi * 1470 / 60
+        assert ch.amp_g == pytest.approx(10e-3 * omega / 9.80665, rel=1e-4)
+        assert ch.phase_deg == pytest.approx(30.0, abs=1e-6)
+        assert app.session.manual_unit == "mm/s"
+
+
+async def test_an_interrupted_job_resumes_with_its_runs(tmp_path: Path) -> None:
+    db = str(tmp_path / "jobs.sqlite")
+    app = make_app("manual", store_path=db)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.48", "phase0": "152"}, prefix="#")
+        await pilot.press("enter")
+        job_id = app.session.job.job_id
+    # a new session (the first one was closed mid-job): the job is offered for resuming
+    app = make_app("manual", store_path=db)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        ol = app.screen.query_one("#machines", OptionList)
+        index = ol.get_option_index(f"j{job_id}")
+        ol.focus()
+        ol.highlighted = index
+        await pilot.press("enter")
+        assert screen_name(app) == "RunsScreen"
+        job = app.session.job
+        assert job.job_id == job_id and [r.kind for r in job.runs] == ["reference"]
+        assert job.state.step == "trial"
+        assert "0.480 g" in screen_text(app)

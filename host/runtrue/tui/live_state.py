@@ -33,6 +33,7 @@ class LiveState:
         self._rate_window: deque[float] = deque(maxlen=40)
         self.done: Any = None  # the Reading when complete
         self.min_epoch = 0  # batches from before the rotor last changed are ignored
+        self.last_flags: list[str] = []  # why the last revolution was left out (MISSING_PULSE, ...)
 
     # -- feeding ----------------------------------------------------------------------------------
     def reset(self, min_epoch: int | None = None) -> None:
@@ -53,6 +54,7 @@ class LiveState:
             self._rate_window.append(now)
             if not getattr(rev, "usable", True):
                 self.unusable_revs += 1
+                self.last_flags = list(getattr(rev, "flag_names", []))
                 continue
             self.recent.append(rev)
             if self.waiting_for_steady and self.steadiness().steady:

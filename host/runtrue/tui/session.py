@@ -25,6 +25,7 @@ class Session:
     self_test: dict[str, Any] | None = None
     meter_state: str = "no meter"  # shown on every screen: "connected", "LOST - reconnecting", ...
     live: LiveState = field(default_factory=LiveState)
+    manual_unit: str = "g"  # unit of readings typed in from another instrument
     machine: Any = None  # runtrue.jobs.model.Machine
     job: Any = None  # runtrue.jobs.BalanceJob
     _store: Any = None

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import cmath
+import math
 from typing import Any
 
 from textual.app import ComposeResult
@@ -65,17 +67,20 @@ class ManualReadingForm(_Form):
 
     TITLE_TEXT = "Type the reading (from another instrument)"
     NOTE = (
-        f"Amplitude: 1x peak, any one unit, the same for every run. Phase: lag after the reference "
-        f"mark, 0-360{DEG}, as your instrument shows it with the same mark."
+        f"Amplitude: 1x PEAK (RMS x 1.414) in the unit given: g, m/s2, mm/s, in/s, um or mil; "
+        f"it is converted to g at the speed given. Phase: lag after the reference mark, "
+        f"0-360{DEG}, as your instrument shows it with the same mark every run."
     )
 
-    def __init__(self, labels: list[str], speed_rpm: float) -> None:
+    def __init__(self, labels: list[str], speed_rpm: float, unit: str = "g") -> None:
         super().__init__()
         self.labels = labels
         self.speed_rpm = speed_rpm
+        self.unit = unit
+        self.chosen_unit = unit
 
     def fields(self) -> list[tuple[str, str, str]]:
-        out = [("speed", "Speed rpm", f"{self.speed_rpm:g}")]
+        out = [("speed", "Speed rpm", f"{self.speed_rpm:g}"), ("unit", "Unit", self.unit)]
         for i, label in enumerate(self.labels):
             out.append((f"amp{i}", f"{i + 1} {label[:10]} amp", ""))
             out.append((f"phase{i}", f"{i + 1} {label[:10]} phase", ""))
@@ -90,7 +95,17 @@ class ManualReadingForm(_Form):
             parse_float(self.value(f"phase{i}"), f"pickup {i + 1} phase", minimum=None) % 360.0
             for i in range(len(self.labels))
         ]
-        return RunReading.manual(amps, phases, speed)
+        unit = self.value("unit").strip() or "g"
+        from runtrue.balancing import BalancingError, convert_1x
+
+        self.chosen_unit = unit
+        try:
+            in_g = [convert_1x(cmath.rect(a, math.radians(p)), unit, "g", speed) for a, p in zip(amps, phases)]
+        except BalancingError as exc:
+            raise ValueError(str(exc)) from None
+        return RunReading.manual(
+            [abs(z) for z in in_g], [math.degrees(cmath.phase(z)) % 360.0 for z in in_g], speed
+        )
 
 
 class TrialWeightForm(_Form):

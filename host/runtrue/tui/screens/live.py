@@ -116,6 +116,9 @@ class LiveScreen(StepScreen):
         notes.append(PHASE_NOTE + "; amplitudes are peak; overall = RMS x 1.414.")
         if not st.steady:
             notes.append(f"Not steady yet: {st.reason}.")
+        if live.last_flags:
+            flags = ", ".join(f.replace("_", " ").lower() for f in live.last_flags)
+            notes.append(f"Last revolution left out: {flags}.")
         if "LOST" in s.meter_state:
             notes.append("METER LOST: check the USB cable. The job is kept; it reconnects by itself.")
         self.query_one("#live-notes", Static).update("\n".join(notes))

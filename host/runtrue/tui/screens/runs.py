@@ -143,9 +143,14 @@ class RunsScreen(StepScreen):
         if s.manual:
             from runtrue.tui.screens.dialogs import ManualReadingForm
 
-            self.app.push_screen(
-                ManualReadingForm([p.label for p in job.machine.pickups], job.machine.speed_rpm), self._record
-            )
+            speed = job.runs[-1].reading.speed_rpm if job.runs else job.machine.speed_rpm
+            form = ManualReadingForm([p.label for p in job.machine.pickups], speed, s.manual_unit)
+
+            def typed(reading: Any) -> None:
+                s.manual_unit = form.chosen_unit
+                self._record(reading)
+
+            self.app.push_screen(form, typed)
             return
         if s.link is None or not s.link.connected:
             self.notify("The meter is not connected: wait for it (title bar) or pick it on the Connect screen.",
