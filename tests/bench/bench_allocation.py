@@ -1,6 +1,6 @@
 """Benchmark: the weight allocator against a mixed-integer reference (scipy milp / HiGHS).
 
-Run: .venv/bin/python tests/bench/bench_allocation.py [--quick]
+Run: .venv/bin/python tests/bench/bench_allocation.py [--quick] [--sizes 12x3,36x12] [--fractions 0.05,0]
 
 For sizes up to 36 positions × 12 piece sizes it prints, per case, our time and the MILP's,
 their ratio, and the residual ratio (ours / MILP, 1.0 = equal; ours is exact so it is never
@@ -38,9 +38,9 @@ def make_case(rng: random.Random, P: int, K: int, g_fraction: float) -> tuple[Ca
     return Case(target, angles, [120.0] * P, sizes, counts, stack, None, g_fraction * abs(target)), stack
 
 
-def run(quick: bool) -> None:
-    sizes = [(12, 3), (12, 6), (24, 8), (36, 12)]
-    fractions = [0.05, 0.01, 0.0]
+def run(quick: bool, sizes: list[tuple[int, int]] | None = None, fractions: list[float] | None = None) -> None:
+    sizes = sizes or [(12, 3), (12, 6), (24, 8), (36, 12)]
+    fractions = fractions if fractions is not None else [0.05, 0.01, 0.0]
     n_cases = 2 if quick else 5
     milp_limit_s = 20.0 if quick else 60.0
     print(f"{'size':>8} {'good enough':>11} {'ours s':>8} {'milp s':>8} {'time ratio':>10} "
@@ -78,5 +78,14 @@ def run(quick: bool) -> None:
                       f"worst residual ratio {max(ratios) if ratios else float('nan'):.4f}")
 
 
+def _arg(name: str) -> str | None:
+    return sys.argv[sys.argv.index(name) + 1] if name in sys.argv else None
+
+
 if __name__ == "__main__":
-    run("--quick" in sys.argv)
+    # options: --quick, --sizes 12x3,36x12, --fractions 0.05,0
+    sz = _arg("--sizes")
+    fr = _arg("--fractions")
+    run("--quick" in sys.argv,
+        [tuple(int(v) for v in x.split("x")) for x in sz.split(",")] if sz else None,  # type: ignore[misc]
+        [float(v) for v in fr.split(",")] if fr else None)

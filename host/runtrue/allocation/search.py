@@ -318,78 +318,92 @@ class _Searcher:
             & (self.mass_used[self.spos] + self.smass <= prob.mass_limit_g[self.spos] + 1e-9)
         )
 
-    def improve(self, max_moves: int = 200) -> None:
+    def improve(self, max_moves: int = 60) -> None:
         """Local search from the incumbent once the exact search has run out of budget.
 
-        Moves: add one piece, add two, remove one, or exchange one for another; the best move
-        by the objective is taken while it improves the incumbent.  This can only lower the
-        incumbent; it proves nothing (the guarantee stays that of the exact phase).
+        A move takes off zero, one or two of the pieces placed and puts on zero, one or two
+        pieces (pairs come from a table of all slot pairs sorted by their vector's x, so only
+        pairs landing near the residual are looked at).  The best move by the objective is
+        taken while it improves the incumbent.  This can only lower the incumbent; it proves
+        nothing (the guarantee stays that of the exact phase).
         """
-        if self.n == 0 or self.best_key is None or self.stack_one.any():
+        if self.n == 0 or self.best_key is None or self.n > MAX_SLOTS_FOR_PAIRS:
             return
         prob = self.prob
+        ia, ib = np.triu_indices(self.n)
+        pv = self.svec[ia] + self.svec[ib]
+        order = np.argsort(pv.real, kind="stable")
+        ia, ib, pv = ia[order], ib[order], pv[order]
+        xs = pv.real
         slots = list(self.best_slots)
         R = self.best_residual
         for _ in range(max_moves):
-            self._set_state(slots)
-            pieces = len(slots) + prob.base_pieces
-            mass = prob.base_mass_g + float(sum(self.smass[s] for s in slots))
-            npos = int((self.stack_used > 0).sum())
-            cands: list[tuple[tuple, list[int], complex]] = []
-            feas = self._add_feasible()
-            newpos = (self.stack_used[self.spos] == 0).astype(np.int64)
-            idx = np.nonzero(feas)[0]
-            if len(idx):
-                Rn = R - self.svec[idx]
-                o = self._keys(np.abs(Rn), np.full(len(idx), pieces + 1), mass + self.smass[idx], npos + newpos[idx])
-                j = int(idx[o[0]])
-                cands.append((self.make_key(abs(R - self.svec[j]), pieces + 1, mass + self.smass[j],
-                                            npos + int(newpos[j])), slots + [j], R - self.svec[j]))
-                # two more pieces
-                top = idx[o[: min(len(o), 96)]]
-                V = self.svec[top]
-                R2 = R - V[:, None] - V[None, :]
-                same_pos = self.spos[top][:, None] == self.spos[top][None, :]
-                same_size = self.ssize[top][:, None] == self.ssize[top][None, :]
-                ok = np.ones(R2.shape, bool)
-                ok &= ~same_pos | (self.stack_used[self.spos[top]][:, None] + 2 <= prob.stack_limit[self.spos[top]][:, None])
-                ok &= ~same_pos | (self.mass_used[self.spos[top]][:, None] + self.smass[top][:, None]
-                                   + self.smass[top][None, :] <= prob.mass_limit_g[self.spos[top]][:, None] + 1e-9)
-                ok &= ~same_size | (self.count_used[self.ssize[top]][:, None] + 2 <= prob.counts[self.ssize[top]][:, None])
-                ok &= np.triu(np.ones(R2.shape, bool))
-                a_i, b_i = np.nonzero(ok)
-                if len(a_i):
-                    rho2 = np.abs(R2[a_i, b_i])
-                    np2 = npos + newpos[top[a_i]] + newpos[top[b_i]] - (same_pos[a_i, b_i] & (newpos[top[a_i]] == 1))
-                    o2 = self._keys(rho2, np.full(len(a_i), pieces + 2),
-                                    mass + self.smass[top[a_i]] + self.smass[top[b_i]], np2)
-                    jj = int(o2[0])
-                    s1, s2 = int(top[a_i[jj]]), int(top[b_i[jj]])
-                    cands.append((self.make_key(float(rho2[jj]), pieces + 2, mass + self.smass[s1] + self.smass[s2],
-                                                int(np2[jj])), slots + [s1, s2], complex(R2[a_i[jj], b_i[jj]])))
-            for c in sorted(set(slots)):
-                if self.must[self.ssize[c]]:
-                    continue
+            width = max(abs(R), self.g) * (1 + 1e-9) + self.q
+            removable = sorted({c for c in slots if not self.must[self.ssize[c]]})
+            removal_sets: list[list[int]] = [[]] + [[c] for c in removable]
+            for i, c in enumerate(removable):
+                for d in removable[i:]:
+                    if c != d or slots.count(c) >= 2:
+                        removal_sets.append([c, d])
+            best: tuple | None = None
+            for rem in removal_sets:
                 rest = list(slots)
-                rest.remove(c)
-                Rr = R + self.svec[c]
+                for c in rem:
+                    rest.remove(c)
+                Rr = R + sum((self.svec[c] for c in rem), 0j)
                 self._set_state(rest)
-                npos_r = int((self.stack_used > 0).sum())
-                cands.append((self.make_key(abs(Rr), pieces - 1, mass - self.smass[c], npos_r), rest, Rr))
-                feas = self._add_feasible()
-                idx = np.nonzero(feas)[0]
+                pieces = len(rest) + prob.base_pieces
+                mass = prob.base_mass_g + float(sum(self.smass[c] for c in rest))
+                npos = int((self.stack_used > 0).sum())
+                if rem:
+                    k0 = self.make_key(abs(Rr), pieces, mass, npos)
+                    if best is None or k0 < best[0]:
+                        best = (k0, rest, Rr)
+                newpos = (self.stack_used[self.spos] == 0).astype(np.int64)
+                idx = np.nonzero(self._add_feasible())[0]
                 if len(idx):
-                    newpos_r = (self.stack_used[self.spos] == 0).astype(np.int64)
-                    Rn = Rr - self.svec[idx]
-                    o = self._keys(np.abs(Rn), np.full(len(idx), pieces), mass - self.smass[c] + self.smass[idx],
-                                   npos_r + newpos_r[idx])
+                    rho1 = np.abs(Rr - self.svec[idx])
+                    o = self._keys(rho1, np.full(len(idx), pieces + 1), mass + self.smass[idx], npos + newpos[idx])
                     j = int(idx[o[0]])
-                    cands.append((self.make_key(abs(Rr - self.svec[j]), pieces, mass - self.smass[c] + self.smass[j],
-                                                npos_r + int(newpos_r[j])), rest + [j], Rr - self.svec[j]))
-            best = min(cands, key=lambda t: t[0]) if cands else None
+                    k1 = self.make_key(abs(Rr - self.svec[j]), pieces + 1, mass + self.smass[j], npos + int(newpos[j]))
+                    if best is None or k1 < best[0]:
+                        best = (k1, rest + [j], Rr - self.svec[j])
+                lo = int(np.searchsorted(xs, Rr.real - width, "left"))
+                hi = int(np.searchsorted(xs, Rr.real + width, "right"))
+                if hi <= lo:
+                    continue
+                a, b = ia[lo:hi], ib[lo:hi]
+                rho2 = np.abs(Rr - pv[lo:hi])
+                keep = rho2 <= width
+                a, b, rho2 = a[keep], b[keep], rho2[keep]
+                if not len(a):
+                    continue
+                pa, pb, ka, kb = self.spos[a], self.spos[b], self.ssize[a], self.ssize[b]
+                same_pos = pa == pb
+                same_size = ka == kb
+                ok = (
+                    (self.stack_used[pa] + 1 + same_pos <= prob.stack_limit[pa])
+                    & (self.stack_used[pb] + 1 + same_pos <= prob.stack_limit[pb])
+                    & (self.count_used[ka] + 1 + same_size <= prob.counts[ka])
+                    & (self.count_used[kb] + 1 + same_size <= prob.counts[kb])
+                    & (self.mass_used[pa] + self.smass[a] + np.where(same_pos, self.smass[b], 0.0)
+                       <= prob.mass_limit_g[pa] + 1e-9)
+                    & (self.mass_used[pb] + self.smass[b] + np.where(same_pos, self.smass[a], 0.0)
+                       <= prob.mass_limit_g[pb] + 1e-9)
+                )
+                if not ok.any():
+                    continue
+                a, b, rho2, same_pos = a[ok], b[ok], rho2[ok], same_pos[ok]
+                np2 = npos + newpos[a] + newpos[b] * (~same_pos)
+                m2 = mass + self.smass[a] + self.smass[b]
+                o2 = self._keys(rho2, np.full(len(a), pieces + 2), m2, np2)
+                jj = int(o2[0])
+                k2 = self.make_key(float(rho2[jj]), pieces + 2, float(m2[jj]), int(np2[jj]))
+                if best is None or k2 < best[0]:
+                    best = (k2, rest + [int(a[jj]), int(b[jj])], Rr - complex(pv[lo:hi][keep][ok][jj]))
             if best is None or not best[0] < self.best_key:
                 break
-            self.best_key, slots, R = best[0], best[1], best[2]
+            self.best_key, slots, R = best
             self.best_slots, self.best_residual = list(slots), R
         self._set_state([])
 
@@ -407,6 +421,8 @@ class _Searcher:
 
 
 MAX_TOTAL_PIECES = 64
+#: the local search builds a table of all slot pairs; above this many slots it is skipped
+MAX_SLOTS_FOR_PAIRS = 700
 
 
 def max_pieces(prob: SearchProblem) -> int:

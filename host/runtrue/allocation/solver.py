@@ -256,7 +256,10 @@ def allocate(
                 base_mass_g=sum(existing[i].mass_g for i in kept),
                 quantum_gmm=quantum,
             )
-            res = search(prob, max_nodes=max(1, nodes_left), incumbent=best[0] if best else None)
+            if strip is not None and not movable and not removable_only:
+                res = _strip(prob, strip, max(1, nodes_left))
+            else:
+                res = search(prob, max_nodes=max(1, nodes_left), incumbent=best[0] if best else None)
             nodes_left -= res.nodes
             total_nodes += res.nodes
             all_optimal &= res.optimal
@@ -366,6 +369,21 @@ def _build(
         nodes=nodes,
         _moved_mass_g=moved_mass,
     )
+
+
+def _strip(prob: SearchProblem, strip: Strip, max_nodes: int) -> SearchResult:
+    """Strip at fixed positions through the rounding-based exact search (one piece a position)."""
+    from runtrue.allocation.strip_search import strip_search
+
+    n_sizes = len(prob.sizes_g)
+    w0 = strip.grams_per_mm * strip.min_mm
+    dw = strip.grams_per_mm * strip.step_mm
+    by_mass = np.floor((prob.mass_limit_g - w0) / dw + 1e-9) + 1
+    n_rungs = np.where(prob.stack_limit > 0, np.clip(np.nan_to_num(by_mass, posinf=n_sizes), 0, n_sizes), 0)
+    res, chosen = strip_search(prob.target_gmm, prob.u, w0, dw, n_rungs.astype(np.int64), prob.good_enough_gmm,
+                               prob.quantum_gmm, max_nodes)
+    res.counts_per_slot = {(p, i): 1 for p, i in chosen}
+    return res
 
 
 def allocate_planes(

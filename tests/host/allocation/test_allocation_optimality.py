@@ -97,3 +97,34 @@ def test_never_worse_than_milp_reference_on_larger_cases(seed: int) -> None:
         assert (pieces, round(mass, 6)) <= (m_pieces, round(m_mass, 6))
     else:
         assert max(rho, g) <= max(m_rho, g) * (1 + 1e-9)
+
+
+@pytest.mark.parametrize("seed", range(25))
+def test_strip_search_agrees_with_the_general_search(seed: int) -> None:
+    # The strip path (rounding to the nearest rung, vectorised sweeps) against the general
+    # slot-by-slot branch and bound on the same problem: the same objective value.
+    import numpy as np
+
+    from runtrue.allocation.search import SearchProblem, search
+    from runtrue.allocation.strip_search import strip_search
+
+    rng = random.Random(500 + seed)
+    P = rng.randint(1, 5)
+    u = np.array([rng.choice([80.0, 120.0]) * np.exp(1j * rng.uniform(0, 2 * np.pi)) for _ in range(P)])
+    w0, dw, L = rng.choice([0.5, 1.0, 2.0]), rng.choice([0.25, 0.5, 1.0]), rng.randint(2, 12)
+    t = rng.uniform(0, 2 * np.pi)
+    T = rng.uniform(1, 15) * 100 * complex(np.cos(t), np.sin(t))
+    g = rng.choice([0.0, 0.01, 0.05]) * abs(T)
+    n_rungs = np.array([rng.choice([L, L, L // 2, 0]) for _ in range(P)], dtype=np.int64)
+    q = 1e-9 * max(abs(T), 1.0)
+    res, chosen = strip_search(T, u, w0, dw, n_rungs, g, q, 10**7)
+    sizes = w0 + dw * np.arange(L)
+    mass_limit = np.where(n_rungs > 0, w0 + dw * (n_rungs - 1) + 1e-6, 0.0)
+    prob = SearchProblem(T, u, sizes, np.full(L, 10**6), np.where(n_rungs > 0, 1, 0), mass_limit,
+                         good_enough_gmm=g, quantum_gmm=q)
+    ref = search(prob, max_nodes=10**7)
+    assert res.optimal and ref.optimal
+    assert res.key[:3] == ref.key[:3]  # residual level, pieces, mass
+    assert abs(res.residual_gmm) == pytest.approx(abs(ref.residual_gmm), abs=1e-6 * abs(T))
+    fitted = sum((w0 + dw * i) * u[p] for p, i in chosen)
+    assert T - fitted == pytest.approx(res.residual_gmm)
