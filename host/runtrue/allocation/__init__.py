@@ -17,7 +17,7 @@ Public API (exact signatures)::
     allocate(correction, positions, *, stock=None, strip=None, correction_radius_mm=None,
              max_pieces_per_position=None, max_mass_per_position_g=None,
              good_enough_gmm=None, prefer_fewer_positions=False, existing=(),
-             max_nodes=10_000) -> Allocation
+             max_nodes=5_000) -> Allocation
         # correction: complex g·mm, or (mass_g, angle_deg, radius_mm)
         # good_enough_gmm: residual to stop at (e.g. a fraction of the plane's permissible
         #   residual unbalance); None -> 1 % of the correction; 0 -> strictly smallest residual

@@ -164,6 +164,7 @@ class _Searcher:
         self.best_residual: complex = T
         self.chosen: list[int] = []
         self.found_here = False
+        self._pair_table: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None = None
 
     # keys ---------------------------------------------------------------
     def _qr(self, x: float) -> int:
@@ -216,6 +217,9 @@ class _Searcher:
         n = self.n
         if i0 >= n:
             return
+        if b == 2 and n <= MAX_SLOTS_FOR_PAIRS and self.size_used_at is None:
+            self._last_two(i0, R, mass, npos, pieces)
+            return
         sl = slice(i0, n)
         spos = self.spos[sl]
         ssize = self.ssize[sl]
@@ -264,7 +268,9 @@ class _Searcher:
         t = Rn.real[:, None] * _DIR_RE[None, :] + Rn.imag[:, None] * _DIR_IM[None, :]
         lb = np.maximum(0.0, np.max(t - (b - 1) * self.h[i0 + idx], axis=1))
         mass_lb = mass + smass[idx] + (b - 1) * self.mmin[i0 + idx]
-        for jj in range(len(idx)):
+        # most promising children first, so that good incumbents come early and cut more;
+        # the order does not change what is proven (every child is either cut or searched)
+        for jj in np.lexsort((mass_lb, lb)).tolist():
             j = int(idx[jj])
             s = i0 + j
             p = int(spos[j])
@@ -330,11 +336,7 @@ class _Searcher:
         if self.n == 0 or self.best_key is None or self.n > MAX_SLOTS_FOR_PAIRS:
             return
         prob = self.prob
-        ia, ib = np.triu_indices(self.n)
-        pv = self.svec[ia] + self.svec[ib]
-        order = np.argsort(pv.real, kind="stable")
-        ia, ib, pv = ia[order], ib[order], pv[order]
-        xs = pv.real
+        ia, ib, pv, xs = self._pairs()
         slots = list(self.best_slots)
         R = self.best_residual
         for _ in range(max_moves):
@@ -406,6 +408,69 @@ class _Searcher:
             self.best_key, slots, R = best
             self.best_slots, self.best_residual = list(slots), R
         self._set_state([])
+
+    def _pairs(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """All slot pairs s <= t with their summed vectors, sorted by the x component."""
+        if self._pair_table is None:
+            ia, ib = np.triu_indices(self.n)
+            pv = self.svec[ia] + self.svec[ib]
+            order = np.argsort(pv.real, kind="stable")
+            self._pair_table = (ia[order], ib[order], pv[order], pv.real[order].copy())
+        return self._pair_table
+
+    def _last_two(self, i0: int, R: complex, mass: float, npos: int, pieces: int) -> None:
+        """The last two pieces of a level at once, from the sorted pair table (exact).
+
+        Only pairs whose sum lands within the incumbent's residual level of R can improve on
+        it; they lie in a window of the table sorted by x, and every pair in it is checked.
+        """
+        prob = self.prob
+        ia, ib, pv, xs = self._pairs()
+        pending = self._pending_must()
+        if pending > 2:
+            return
+        if self.best_key is None:
+            lo, hi = 0, len(xs)
+            width = math.inf
+        else:
+            width = max(self.best_key[0] * self.q, self.g) * (1 + 1e-9) + 2 * self.q
+            lo = int(np.searchsorted(xs, R.real - width, "left"))
+            hi = int(np.searchsorted(xs, R.real + width, "right"))
+        if hi <= lo:
+            return
+        a, b, v = ia[lo:hi], ib[lo:hi], pv[lo:hi]
+        Rn = R - v
+        rho = np.abs(Rn)
+        sel = (a >= i0) & (rho <= width)
+        if pending:
+            sel &= (self.must[self.ssize[a]].astype(np.int64) + self.must[self.ssize[b]]) >= pending
+        if not sel.any():
+            return
+        a, b, Rn, rho = a[sel], b[sel], Rn[sel], rho[sel]
+        pa, pb, ka, kb = self.spos[a], self.spos[b], self.ssize[a], self.ssize[b]
+        same_pos = pa == pb
+        same_size = ka == kb
+        ok = (
+            (self.stack_used[pa] + 1 + same_pos <= prob.stack_limit[pa])
+            & (self.stack_used[pb] + 1 + same_pos <= prob.stack_limit[pb])
+            & (self.count_used[ka] + 1 + same_size <= prob.counts[ka])
+            & (self.count_used[kb] + 1 + same_size <= prob.counts[kb])
+            & (self.mass_used[pa] + self.smass[a] + np.where(same_pos, self.smass[b], 0.0)
+               <= prob.mass_limit_g[pa] + 1e-9)
+            & (self.mass_used[pb] + self.smass[b] + np.where(same_pos, self.smass[a], 0.0)
+               <= prob.mass_limit_g[pb] + 1e-9)
+        )
+        if not ok.any():
+            return
+        a, b, Rn, rho, same_pos = a[ok], b[ok], Rn[ok], rho[ok], same_pos[ok]
+        newpos_a = (self.stack_used[self.spos[a]] == 0).astype(np.int64)
+        newpos_b = (self.stack_used[self.spos[b]] == 0).astype(np.int64)
+        np2 = npos + newpos_a + newpos_b * (~same_pos)
+        m2 = mass + self.smass[a] + self.smass[b]
+        j = int(self._keys(rho, np.full(len(a), pieces), m2, np2)[0])
+        key = self.make_key(float(rho[j]), pieces, float(m2[j]), int(np2[j]))
+        if self.best_key is None or key < self.best_key:
+            self._offer(key, self.chosen + [int(a[j]), int(b[j])], complex(Rn[j]))
 
     def root_can_improve(self, k: int) -> bool:
         """Can any allocation of exactly k pieces beat the incumbent?"""

@@ -154,7 +154,7 @@ def allocate(
     good_enough_gmm: float | None = None,
     prefer_fewer_positions: bool = False,
     existing: Sequence[ExistingWeight] = (),
-    max_nodes: int = 10_000,
+    max_nodes: int = 5_000,
 ) -> Allocation:
     """Turn a correction into placements; see the module docstring for the objective."""
     existing = tuple(existing)
