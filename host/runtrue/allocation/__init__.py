@@ -1,5 +1,9 @@
 """Turning a correction into pieces that can be fitted (the weight allocator).
 
+Exact (proven optimal) for the objective below, or it says what it guarantees: see
+``runtrue.allocation.search`` (fixed positions), ``strip_search`` (strip at fixed positions)
+and ``groove`` (continuous groove) for the methods and the arguments.
+
 Conventions (DEVELOPERS.md): weight angles in degrees from the reference mark **against**
 rotation; a weight is the complex unbalance ``mass_g·radius_mm·e^{+jθ}`` in g·mm.  Position
 indices are 0-based in the API; the fitting sheet numbers them from 1.
@@ -43,7 +47,8 @@ Public API (exact signatures)::
     convert_radius(mass_g, from_radius_mm, to_radius_mm) -> float
 
     centrifugal_force_n(mass_g, radius_mm, speed_rpm) -> float     # F = m·r·ω², newtons
-    fitting_sheet(allocation, speed_rpm) -> list[SheetRow]
+    fitting_sheet(allocation, speed_rpm, existing=()) -> list[SheetRow]
+        # one "fit" row per placement; with the ``existing`` list, "remove" rows first
     SheetRow: .number (1-based position, None in a groove), .angle_deg, .radius_mm, .what (str),
               .mass_g, .force_n, .action ("fit" | "remove" | "keep")
 """

@@ -17,35 +17,40 @@ Method (classic depth-first branch and bound, e.g. Wolsey, *Integer Programming*
 
 1. **Iterative deepening on the piece count** k = 0, 1, 2, ...  Each level enumerates every
    allocation of exactly k pieces, as a non-decreasing sequence of slot indices (each multiset
-   once).  The last piece of a level is chosen by a vectorised scan of all slots.
+   once), checking stack, mass and stock limits as pieces are added.
 2. **Bound.**  For a partial allocation with residual R and b pieces still to place from
    slots ≥ s, for any unit direction d the final residual satisfies
    ``|R_final| ≥ (R − A)·d ≥ R·d − b·h_s(d)`` where ``h_s(d) = max(0, max_{t≥s} m_t u_t·d)``
    (each piece adds at most h_s(d) along d).  Taking the maximum over 24 directions gives a
    valid lower bound on |R_final|.  Mass, positions and pieces have obvious lower bounds, and
    the tuple of component-wise lower bounds is a lower bound in lexicographic order (at the
-   first differing component, a completion's value is larger).  A node is cut when this
+   first differing component, a completion's value is larger).  A child is cut when this
    optimistic key is not better than the best allocation found so far (the incumbent), so
-   nothing better than the incumbent is ever cut: the search is exact.
-   Slots are ordered by the angle of their position from the correction, nearest first; a
-   canonical sequence never returns to an earlier slot, so deep in the tree only positions
-   facing away from the correction remain and the bound cuts hard.
-3. **Stopping.**  Deeper levels have more pieces, so once the incumbent's residual is at most
+   nothing better than the incumbent is ever cut.  Slots are ordered by the angle of their
+   position from the correction, nearest first: a canonical sequence never returns to an
+   earlier slot, so deep in the tree only positions facing away remain and the bound cuts
+   hard.  Children are visited most promising first (this changes speed, not the answer).
+3. **The last two pieces at once.**  All slot pairs (s ≤ t) and their summed vectors are kept
+   in one table sorted by x.  A pair can only beat the incumbent if its sum lands within the
+   incumbent's residual level r of R, so only the window ``|x − R.x| ≤ r`` of the table is
+   read, and every pair in it is checked exactly (limits, keys).  The last piece alone (when
+   the table is not used) is chosen by a vectorised scan of every slot.
+4. **Stopping.**  Deeper levels have more pieces, so once the incumbent's residual is at most
    g (its first key component is at its floor) no deeper level can beat it and the answer is
    proven optimal.  Otherwise a level is searched only if the bound at its root can beat the
    incumbent; the search ends proven optimal when no level can (or no more pieces exist).
-4. **Budget.**  Exactness can cost exponential time in bad cases (many pieces and a residual
+5. **Budget.**  Exactness can cost exponential time in bad cases (many pieces and a residual
    target finer than the stock allows).  After ``max_nodes`` nodes the search stops and says so:
    the answer is then exactly optimal among allocations of at most ``complete_pieces``
    pieces, and ``relaxation_bound_gmm`` (support functions of the continuous relaxation) is a
-   proven lower bound on any residual.  A local search (add one or two pieces, remove one,
-   exchange one) then improves the incumbent while it can; it proves nothing more.
-5. **Limits.**  At most :data:`MAX_TOTAL_PIECES` pieces in all are considered.
+   proven lower bound on any residual.  A local search (take off up to two pieces, put on up
+   to two) then improves the incumbent while it can; it proves nothing more.
+6. **Limits.**  At most :data:`MAX_TOTAL_PIECES` pieces in all are considered.
 
 Why a good-enough residual matters for speed: with many pieces the reachable unbalances
 become dense (sums of vectors at several angles), so the strictly smallest residual keeps
 shrinking with every extra piece and nothing prunes; with a good-enough residual the search
-stops at the first piece count that reaches it, typically two to four pieces.
+stops at the first piece count that reaches it, typically two to five pieces.
 """
 
 from __future__ import annotations

@@ -16,7 +16,10 @@ Objective (issue 4), compared lexicographically, residuals rounded to 1e-9·|cor
 
 Fixed positions are solved by the exact branch and bound of :mod:`runtrue.allocation.search`
 (its docstring gives the argument for optimality and the bound stated when the node budget runs
-out); a continuous groove by the closed forms of :mod:`runtrue.allocation.groove`.
+out); strip at fixed positions by its specialisation :mod:`runtrue.allocation.strip_search`
+(one piece a position, rungs found by rounding); a continuous groove by the closed forms of
+:mod:`runtrue.allocation.groove`.  ``Allocation.optimal`` says whether optimality was proven;
+if not, a warning says exactly what is guaranteed.
 
 Old weights (``existing``): the correction is what must be *added* to the rotor as it is now,
 so an old weight's effect is already in it.  Removing one adds −(its unbalance) to the change;
@@ -139,7 +142,7 @@ def _validate_common(
         if not w.radius_mm > 0:
             raise AllocationError(f"old weight #{i + 1}: radius {w.radius_mm:g} mm must be positive")
         if w.may_move and w.position_index is None:
-            raise AllocationError(f"old weight #{i + 1}: give its position_index so it can be moved")
+            raise AllocationError(f"old weight #{i + 1}: give its position (number) so it can be moved")
 
 
 def allocate(

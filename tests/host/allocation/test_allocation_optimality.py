@@ -128,3 +128,37 @@ def test_strip_search_agrees_with_the_general_search(seed: int) -> None:
     assert abs(res.residual_gmm) == pytest.approx(abs(ref.residual_gmm), abs=1e-6 * abs(T))
     fitted = sum((w0 + dw * i) * u[p] for p, i in chosen)
     assert T - fitted == pytest.approx(res.residual_gmm)
+
+
+@pytest.mark.parametrize("seed", range(15))
+def test_old_weights_removal_equal_to_exhaustive_search(seed: int) -> None:
+    # Old weights off the positions (welded, say) that may each stay or be removed: the
+    # allocator must weigh every choice; exhaustive search over the choices and the pieces.
+    import itertools
+
+    from runtrue.allocation import ExistingWeight
+
+    rng = random.Random(2000 + seed)
+    case = _random_case(rng, max_positions=3, max_sizes=2)
+    olds = [ExistingWeight(rng.choice([1.0, 2.0, 3.0]), rng.uniform(0, 360), 100.0, None, may_remove=True)
+            for _ in range(rng.randint(1, 2))]
+    a = allocate(case.target, Positions.at_angles(case.angles_deg, case.radii_mm),
+                 stock=Stock.of(list(zip(case.sizes_g, case.counts))), correction_radius_mm=100.0,
+                 max_pieces_per_position=case.stack, max_mass_per_position_g=case.mass_limit_g,
+                 good_enough_gmm=case.good_enough_gmm, existing=olds, max_nodes=10**7)
+    assert a.optimal
+    best = None
+    for r in range(len(olds) + 1):
+        for removed in itertools.combinations(range(len(olds)), r):
+            sub = Case(case.target + sum(olds[i].unbalance_gmm for i in removed), case.angles_deg, case.radii_mm,
+                       case.sizes_g, case.counts, case.stack, case.mass_limit_g, case.good_enough_gmm)
+            rho, pieces, mass, _ = brute_force(sub)
+            kept = [i for i in range(len(olds)) if i not in removed]
+            total = (round(max(rho, case.good_enough_gmm), 6), pieces + len(kept),
+                     round(mass + sum(olds[i].mass_g for i in kept), 6), round(rho, 6))
+            if best is None or total < best:
+                best = total
+    kept_mass = sum(olds[i].mass_g for i in a.kept_existing)
+    got = (round(max(abs(a.residual_gmm), case.good_enough_gmm), 6), a.piece_count + len(a.kept_existing),
+           round(a.added_mass_g + kept_mass, 6), round(abs(a.residual_gmm), 6))
+    assert got[:3] == pytest.approx(best[:3], abs=2e-6)
