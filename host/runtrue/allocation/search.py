@@ -477,6 +477,28 @@ class _Searcher:
         if self.best_key is None or key < self.best_key:
             self._offer(key, self.chosen + [int(a[j]), int(b[j])], complex(Rn[j]))
 
+    def _one_position_possible(self, k: int) -> bool:
+        prob = self.prob
+        live = prob.counts > 0
+        if not live.any() or not len(prob.u):
+            return False
+        m_min = float(prob.sizes_g[live].min())
+        m_max = float(prob.sizes_g[live].max())
+        T = prob.target_gmm
+        g = self.g * (1 + 1e-9) + self.q
+        for p in range(len(prob.u)):
+            if prob.stack_limit[p] < k or k * m_min > prob.mass_limit_g[p] + 1e-9:
+                continue
+            r = abs(prob.u[p])
+            z = T * np.conj(prob.u[p]) / r
+            if abs(z.imag) > g:
+                continue
+            half = math.sqrt(max(0.0, g * g - z.imag * z.imag))
+            w_lo, w_hi = (z.real - half) / r, (z.real + half) / r
+            if k * m_min <= w_hi + 1e-12 and k * m_max >= w_lo - 1e-12:
+                return True
+        return False
+
     def root_can_improve(self, k: int) -> bool:
         """Can any allocation of exactly k pieces beat the incumbent?"""
         if self.best_key is None:
@@ -486,6 +508,17 @@ class _Searcher:
         max_stack = int(prob.stack_limit.max()) if len(prob.stack_limit) else 1
         npos_lb = -(-k // max(1, max_stack))
         mass_lb = prob.base_mass_g + k * (float(self.mmin[0]) if self.n else 0.0)
+        if prob.prefer_fewer_positions and k > 0:
+            # A deeper level has more pieces, so with positions before pieces it can only win
+            # on the residual level or on fewer positions.
+            level_floor = self.best_key[0] <= self._qr(self.g)
+            if level_floor and self.best_key[1] <= 1:
+                return False
+            if level_floor and self.best_key[1] == 2:
+                # one position is the only way down: k pieces at position p weigh w in
+                # [k·m_min, k·m_max] and lie on p's ray, and |T − w·u_p| <= g needs w in an
+                # interval around T's projection; no overlap at any p: this level cannot win
+                return self._one_position_possible(k)
         opt = self.make_key(lb, k + prob.base_pieces, mass_lb, npos_lb)
         return opt < self.best_key
 

@@ -221,3 +221,13 @@ def test_angles_are_against_rotation_from_the_mark() -> None:
     a = allocate((2.0, 60.0, 120.0), RING, stock=Stock.of([(2.0, 1)]))
     (p,) = a.placements
     assert p.unbalance_gmm == pytest.approx(240.0 * cmath.exp(1j * math.radians(60.0)))
+
+
+def test_prefer_fewer_positions_is_proven_with_unlimited_stacking() -> None:
+    # unlimited pieces per position: the search must still prove that no single hole can do it
+    box = Stock.of([(1.0, None), (2.0, None), (5.0, None)])
+    g = 0.05 * 9.4 * 120
+    a = allocate((9.4, 212.5, 120.0), RING, stock=box, prefer_fewer_positions=True, good_enough_gmm=g)
+    assert a.optimal and len(a.placements) == 2 and abs(a.residual_gmm) <= g
+    b = allocate((9.4, 211.0, 120.0), RING, stock=box, prefer_fewer_positions=True, good_enough_gmm=g)
+    assert b.optimal and [(p.position_index, p.pieces) for p in b.placements] == [(7, (5.0, 2.0, 2.0))]
