@@ -74,3 +74,20 @@ def test_stock_syntax() -> None:
     assert parse_stock("") == ([], None)
     pieces, strip = parse_stock("0.5x10, 1x4")
     assert [(p.mass_g, p.count) for p in pieces] == [(0.5, 10), (1, 4)] and strip is None
+
+
+def test_blocked_positions_and_stack_limit() -> None:
+    m = machine_from_fields(dict(FAN, p1_blocked="3, 7", stack="3"))
+    assert m.planes[0].excluded == [3, 7] and m.planes[0].max_pieces_per_position == 3
+    assert machine_from_fields(fields_from_machine(m)).to_dict() == m.to_dict()
+    with pytest.raises(FormError) as err:
+        machine_from_fields(dict(FAN, p1_blocked="9"))
+    assert err.value.field == "p1_blocked" and "1 to 8" in str(err.value)
+
+
+def test_what_the_form_does_not_show_is_kept_from_the_machine() -> None:
+    from runtrue.jobs.demo_machine import machine_for_scenario
+
+    demo = machine_for_scenario("roller")
+    again = machine_from_fields(fields_from_machine(demo), base=demo)
+    assert again.to_dict() == demo.to_dict()

@@ -71,7 +71,9 @@ class RuntrueApp(App):
         self.report_dir = report_dir or str(Path.cwd() / "reports")
         self.auto_take = auto_take  # live screen takes each reading by itself once steady
         self.ticked: set[str] = set()  # fitting list items ticked off for the coming run
-        self._fitter: Any = None  # runtrue.jobs.headless.VirtualRotorFitter for a simulated rotor
+        self._fitter: Any = None
+        self._failed_ports: set[str] = set()
+        self.trial_removed = True  # take each trial weight off before the next run  # runtrue.jobs.headless.VirtualRotorFitter for a simulated rotor
 
     # -- start and stop -------------------------------------------------------------------------
     def on_mount(self) -> None:
@@ -164,6 +166,7 @@ class RuntrueApp(App):
 
     def on_meter_connected(self, message: MeterConnected) -> None:
         was_lost = "LOST" in self.session.meter_state
+        self._failed_ports.discard(message.port)
         self.session.device_info = message.info
         self.session.meter_state = "connected"
         if was_lost:
@@ -187,7 +190,8 @@ class RuntrueApp(App):
     def on_meter_failed(self, message: MeterFailed) -> None:
         s = self.session
         s.meter_state = "cannot open - retrying"
-        if s.link is not None and not getattr(s, "_failed_told", False):
+        if s.link is not None and message.port not in self._failed_ports:
+            self._failed_ports.add(message.port)  # said once; the title bar keeps showing it
             self.notify(
                 f"Cannot open {message.port}: {message.reason}",
                 title="No meter",

@@ -33,7 +33,8 @@ class LiveState:
         self._rate_window: deque[float] = deque(maxlen=40)
         self.done: Any = None  # the Reading when complete
         self.min_epoch = 0  # batches from before the rotor last changed are ignored
-        self.last_flags: list[str] = []  # why the last revolution was left out (MISSING_PULSE, ...)
+        self.last_flags: list[str] = []
+        self.last_rev_at = -1.0  # clock time of the last revolution (any), -1 before the first  # why the last revolution was left out (MISSING_PULSE, ...)
 
     # -- feeding ----------------------------------------------------------------------------------
     def reset(self, min_epoch: int | None = None) -> None:
@@ -49,6 +50,8 @@ class LiveState:
             return
         now = self.clock()
         self.lost_frames = lost_frames
+        if revs:
+            self.last_rev_at = now
         for rev in revs:
             self.total_revs += 1
             self._rate_window.append(now)

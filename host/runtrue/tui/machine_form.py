@@ -26,10 +26,13 @@ FIELDS: tuple[tuple[str, str, str], ...] = (
     ("p1_radius", "Plane 1 radius mm", "radius where weights sit"),
     ("p1_pos", "Plane 1 positions", "8 | any | 0, 40, 95"),
     ("p1_first", "Plane 1 first at", "deg from mark, against rotation (usually 0)"),
+    ("p1_blocked", "Plane 1 not usable", "position numbers, e.g. 3, 7 (key, full hole)"),
     ("p2_radius", "Plane 2 radius mm", "(two planes only)"),
     ("p2_pos", "Plane 2 positions", "8 | any | 0, 40, 95"),
     ("p2_first", "Plane 2 first at", "deg"),
+    ("p2_blocked", "Plane 2 not usable", "position numbers"),
     ("stock", "Weights in stock", "1x6 2x6 5x4 (g x count) | strip 0.8 (g/mm)"),
+    ("stack", "Pieces per hole", "most pieces stacked at one position (blank: any)"),
     ("pickups", "Pickups", "labels in channel order, separated by ;"),
 )
 
@@ -95,8 +98,11 @@ def parse_stock(text: str) -> tuple[list[StockPiece], StripSpec | None]:
     return pieces, None
 
 
-def machine_from_fields(values: dict[str, str], machine_id: int | None = None) -> Machine:
-    """Build a Machine from the form; :class:`FormError` names the first wrong field."""
+def machine_from_fields(values: dict[str, str], machine_id: int | None = None, base: Machine | None = None) -> Machine:
+    """Build a Machine from the form; :class:`FormError` names the first wrong field.
+
+    ``base`` is the machine the form was filled from: what the form does not show (plane names,
+    mass limit per position, pickup angles, notes, strip cutting limits) is kept from it."""
     name = values.get("name", "").strip()
     if not name:
         raise FormError("name", "give the machine a name you will recognise next time")
@@ -124,14 +130,47 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None) -
         except ValueError:
             raise FormError(f"p{p}_first", f"plane {p} first position: an angle in degrees") from None
         try:
-            planes.append(parse_positions(values.get(f"p{p}_pos", ""), radius, first, f"plane {p}"))
+            spec = parse_positions(values.get(f"p{p}_pos", ""), radius, first, f"plane {p}")
         except ValueError as exc:
             raise FormError(f"p{p}_pos", f"plane {p} {exc}") from None
+        blocked_text = values.get(f"p{p}_blocked", "").strip()
+        if blocked_text:
+            try:
+                spec.excluded = sorted({int(x) for x in re.split(r"[,\s;]+", blocked_text) if x})
+            except ValueError:
+                raise FormError(f"p{p}_blocked", f"plane {p}: list position numbers, like 3, 7") from None
+            n_pos = len(spec.position_angles_deg() or [])
+            if spec.continuous or any(not 1 <= n <= n_pos for n in spec.excluded):
+                raise FormError(f"p{p}_blocked", f"plane {p}: positions are numbered 1 to {n_pos}")
+            if len(spec.excluded) >= n_pos:
+                raise FormError(f"p{p}_blocked", f"plane {p}: leave at least one position usable")
+        stack_text = values.get("stack", "").strip()
+        if stack_text:
+            try:
+                spec.max_pieces_per_position = int(stack_text)
+            except ValueError:
+                raise FormError("stack", "pieces per position: a whole number, or blank for no limit") from None
+            if spec.max_pieces_per_position < 1:
+                raise FormError("stack", "pieces per position: at least 1")
+        if base is not None and p <= base.n_planes:
+            old = base.planes[p - 1]
+            spec.name = old.name or spec.name
+            spec.max_mass_per_position_g = old.max_mass_per_position_g
+        planes.append(spec)
     try:
         stock, strip = parse_stock(values.get("stock", ""))
     except ValueError as exc:
         raise FormError("stock", str(exc)) from None
     labels = [s.strip() for s in values.get("pickups", "").split(";") if s.strip()] or ["1"]
+    pickups = [Pickup(label) for label in labels]
+    notes = ""
+    if base is not None:
+        for i, pk in enumerate(pickups):
+            if i < len(base.pickups):
+                pk.angle_deg = base.pickups[i].angle_deg
+        notes = base.notes
+        if strip is not None and base.strip is not None and strip.grams_per_mm == base.strip.grams_per_mm:
+            strip = base.strip
     try:
         return Machine(
             name=name,
@@ -140,9 +179,10 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None) -
             planes=planes,
             rotation=rotation,  # type: ignore[arg-type]
             grade=grade if grade.upper().startswith("G") else f"G{grade}",
-            pickups=[Pickup(label) for label in labels],
+            pickups=pickups,
             stock=stock,
             strip=strip,
+            notes=notes,
             id=machine_id,
         )
     except ValueError as exc:
@@ -170,10 +210,13 @@ def fields_from_machine(m: Machine) -> dict[str, str]:
         ),
         "pickups": "; ".join(p.label for p in m.pickups),
     }
+    stacks = {p.max_pieces_per_position for p in m.planes}
+    out["stack"] = str(stacks.pop()) if len(stacks) == 1 and None not in stacks else ""
     for i, p in enumerate(m.planes, start=1):
         out[f"p{i}_radius"] = f"{p.radius_mm:g}"
         out[f"p{i}_pos"] = _positions_text(p)
         out[f"p{i}_first"] = f"{p.first_angle_deg:g}"
+        out[f"p{i}_blocked"] = ", ".join(str(n) for n in p.excluded)
     for i in range(m.n_planes + 1, 3):
-        out[f"p{i}_radius"] = out[f"p{i}_pos"] = out[f"p{i}_first"] = ""
+        out[f"p{i}_radius"] = out[f"p{i}_pos"] = out[f"p{i}_first"] = out[f"p{i}_blocked"] = ""
     return out

@@ -20,6 +20,7 @@ from runtrue.tui.format import DEG, PHASE_NOTE, amp_text, bar, time_left_text
 from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.widgets.polar import PolarData, PolarPlot
 
+NO_REVS_S = 3.0  # say so when no revolution came for this long
 REFRESH_S = 0.25  # redraw period: a few times a second is enough, and kind to a Pi over SSH
 
 
@@ -74,6 +75,7 @@ class LiveScreen(StepScreen):
     def on_mount(self) -> None:
         super().on_mount()
         s = self.session
+        self._shown_at = s.live.clock()
         if s.link is not None:
             s.link.stream(True)
         if self._auto:
@@ -116,6 +118,12 @@ class LiveScreen(StepScreen):
         notes.append(PHASE_NOTE + "; amplitudes are peak; overall = RMS x 1.414.")
         if not st.steady:
             notes.append(f"Not steady yet: {st.reason}.")
+        quiet_since = max(live.last_rev_at, self._shown_at)
+        if s.link is not None and s.link.connected and live.clock() - quiet_since > NO_REVS_S:
+            notes.append(
+                "No revolutions: is the machine running, and does the reference sensor see its mark "
+                "once per revolution (sensor LED, gap, mark contrast)?"
+            )
         if live.last_flags:
             flags = ", ".join(f.replace("_", " ").lower() for f in live.last_flags)
             notes.append(f"Last revolution left out: {flags}.")

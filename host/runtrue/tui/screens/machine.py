@@ -36,7 +36,7 @@ def tolerance_text(values: dict[str, str]) -> str:
     per = " + ".join(f"{u:.0f}" for u in tol.per_plane_gmm)
     return (
         f"Permissible residual unbalance (ISO 21940-11): {tol.permissible_unbalance_gmm:.0f} g.mm "
-        f"(per plane {per} g.mm), {tol.permissible_eccentricity_um:.2f} um."
+        f"(per plane {per}), {tol.permissible_eccentricity_um:.2f} um."
     )
 
 
@@ -63,6 +63,7 @@ class MachineScreen(StepScreen):
         Binding("f2", "start_job", "Start job"),
         Binding("f3", "grades", "Grade table"),
         Binding("f4", "back", "Back"),
+        Binding("f5", "trial_mode", "Trials on/off"),
     ]
 
     def compose_body(self) -> Iterable[Widget]:
@@ -81,6 +82,7 @@ class MachineScreen(StepScreen):
         super().on_mount()
         self._machines: dict[str, Any] = {}
         self._editing_id: int | None = None
+        self._base: Any = None  # the machine the form was filled from
         self._fill_list()
         # a simulated machine: start from its description
         port = self.session.port or ""
@@ -118,6 +120,7 @@ class MachineScreen(StepScreen):
 
     def _load(self, machine: Any) -> None:
         self._editing_id = machine.id
+        self._base = machine
         for key, value in fields_from_machine(machine).items():
             self.query_one(f"#f_{key}", Input).value = value
 
@@ -126,6 +129,7 @@ class MachineScreen(StepScreen):
         oid = event.option.id or ""
         if oid == NEW:
             self._editing_id = None
+            self._base = None
             for key, _, _ in FIELDS:
                 self.query_one(f"#f_{key}", Input).value = ""
             self.query_one("#f_name", Input).focus()
@@ -140,13 +144,14 @@ class MachineScreen(StepScreen):
 
     def _update_hint(self) -> None:
         values = self._values()
-        text = tolerance_text(values)
+        mode = "taken off before the next run" if self.rt_app.trial_removed else "left on (correction net of them)"
+        lines = [tolerance_text(values), f"Trial weights: {mode} (F5)."]
         if self._editing_id is not None:
             m = next((m for m in self._machines.values() if m.id == self._editing_id), None)
             if m is not None and m.influence is not None:
-                text += f" Stored influence coefficients ({m.influence.speed_rpm:.0f} rpm): straight to the correction."
-            text += " " + history_text(self.session.store, self._editing_id)
-        self.query_one("#hint", Static).update(text)
+                lines.append(f"Stored influence coefficients ({m.influence.speed_rpm:.0f} rpm): straight to the correction.")
+            lines.append(history_text(self.session.store, self._editing_id))
+        self.query_one("#hint", Static).update("\n".join(lines))
 
     def action_grades(self) -> None:
         from runtrue.tui.screens.grades import GradeTable
@@ -157,12 +162,16 @@ class MachineScreen(StepScreen):
 
         self.app.push_screen(GradeTable(), chosen)
 
+    def action_trial_mode(self) -> None:
+        self.rt_app.trial_removed = not self.rt_app.trial_removed
+        self._update_hint()
+
     def action_back(self) -> None:
         self.rt_app.show_connect()
 
     def action_start_job(self) -> None:
         try:
-            machine = machine_from_fields(self._values(), self._editing_id)
+            machine = machine_from_fields(self._values(), self._editing_id, self._base)
         except FormError as exc:
             self.notify(str(exc), title="Check the machine", severity="error", timeout=6)
             self.query_one(f"#f_{exc.field}", Input).focus()
@@ -190,7 +199,7 @@ class MachineScreen(StepScreen):
         from runtrue.jobs import BalanceJob
 
         self.session.machine = machine
-        self.session.job = BalanceJob.start(store, machine)
+        self.session.job = BalanceJob.start(store, machine, trial_removed=self.rt_app.trial_removed)
         self.rt_app.show_runs()
 
     def _resume(self, job_id: int) -> None:
