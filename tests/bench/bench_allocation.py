@@ -1,6 +1,7 @@
 """Benchmark: the weight allocator against a mixed-integer reference (scipy milp / HiGHS).
 
 Run: .venv/bin/python tests/bench/bench_allocation.py [--quick] [--sizes 12x3,36x12] [--fractions 0.05,0]
+     .venv/bin/python tests/bench/bench_allocation.py --strip    (strip and groove timings, ours only)
 
 For sizes up to 36 positions × 12 piece sizes it prints, per case, our time and the MILP's,
 their ratio, and the residual ratio (ours / MILP, 1.0 = equal; ours is exact so it is never
@@ -78,6 +79,34 @@ def run(quick: bool, sizes: list[tuple[int, int]] | None = None, fractions: list
                       f"worst residual ratio {max(ratios) if ratios else float('nan'):.4f}")
 
 
+def run_strip_and_groove(n_cases: int = 20) -> None:
+    """Our times alone (the MILP reference here covers discrete stock only)."""
+    from runtrue.allocation import Strip
+
+    rng = random.Random(99)
+    strips = [Strip(0.1, 10, 1), Strip(0.25, 12, 5, 80), Strip(0.05, 20, 0.5)]
+    times: list[float] = []
+    proven = 0
+    for _ in range(n_cases):
+        corr = (rng.uniform(3, 25), rng.uniform(0, 360), 120.0)
+        for strip in strips:
+            t0 = time.perf_counter()
+            a = allocate(corr, Positions.equally_spaced(36, 120.0), strip=strip)
+            times.append(time.perf_counter() - t0)
+            proven += a.optimal
+    print(f"strip, 36 positions, {len(times)} cases: median {statistics.median(times) * 1000:.1f} ms, "
+          f"max {max(times) * 1000:.1f} ms, proven optimal {proven}/{len(times)}")
+    times = []
+    for _ in range(n_cases):
+        corr = (rng.uniform(3, 25), rng.uniform(0, 360), 120.0)
+        stock = Stock.of([(m, rng.choice([2, 4, None])) for m in PIECE_SIZES])
+        t0 = time.perf_counter()
+        allocate(corr, Positions.groove(110.0), stock=stock)
+        times.append(time.perf_counter() - t0)
+    print(f"groove, 12 piece sizes, {len(times)} cases: median {statistics.median(times) * 1000:.1f} ms, "
+          f"max {max(times) * 1000:.1f} ms")
+
+
 def _arg(name: str) -> str | None:
     return sys.argv[sys.argv.index(name) + 1] if name in sys.argv else None
 
@@ -86,6 +115,9 @@ if __name__ == "__main__":
     # options: --quick, --sizes 12x3,36x12, --fractions 0.05,0
     sz = _arg("--sizes")
     fr = _arg("--fractions")
+    if "--strip" in sys.argv:
+        run_strip_and_groove()
+        raise SystemExit(0)
     run("--quick" in sys.argv,
         [tuple(int(v) for v in x.split("x")) for x in sz.split(",")] if sz else None,  # type: ignore[misc]
         [float(v) for v in fr.split(",")] if fr else None)
