@@ -38,7 +38,8 @@ Public API (exact signatures)::
                .pieces: tuple[float, ...] (masses, g), .length_mm (strip) | None, .mass_g,
                .moved_existing, .unbalance_gmm
 
-    allocate_planes(corrections, positions, *, stock=None, **same_options) -> list[Allocation]
+    allocate_planes(corrections, positions, *, stock=None, existing_per_plane=None,
+                    **same_options) -> list[Allocation]
         # one Allocation per plane; positions: one Positions for all planes or one per plane;
         # the stock is shared (pieces used in one plane are gone for the next)
 

@@ -394,13 +394,17 @@ def allocate_planes(
     positions: Positions | Sequence[Positions],
     *,
     stock: Stock | None = None,
+    existing_per_plane: Sequence[Sequence[ExistingWeight]] | None = None,
     **options,
 ) -> list[Allocation]:
     """Allocate each plane of a multi-plane correction in turn, sharing one stock.
 
     Planes are allocated in the order given; pieces used in one plane are taken out of the
     stock for the next (so the combination is optimal plane by plane, not jointly).
+    ``existing_per_plane`` gives each plane's old weights (for consolidation).
     """
+    if existing_per_plane is not None and len(existing_per_plane) != len(corrections):
+        raise AllocationError(f"{len(corrections)} corrections but old weights for {len(existing_per_plane)} planes")
     if isinstance(positions, Positions):
         plane_positions = [positions] * len(corrections)
     else:
@@ -409,8 +413,9 @@ def allocate_planes(
             raise AllocationError(f"{len(corrections)} corrections but {len(plane_positions)} position sets")
     out: list[Allocation] = []
     remaining = stock
-    for corr, pos in zip(corrections, plane_positions):
-        a = allocate(corr, pos, stock=remaining, **options)  # type: ignore[arg-type]
+    for i, (corr, pos) in enumerate(zip(corrections, plane_positions)):
+        old = tuple(existing_per_plane[i]) if existing_per_plane is not None else ()
+        a = allocate(corr, pos, stock=remaining, existing=old, **options)  # type: ignore[arg-type]
         out.append(a)
         if remaining is not None:
             used: dict[float, int] = {}

@@ -231,3 +231,11 @@ def test_prefer_fewer_positions_is_proven_with_unlimited_stacking() -> None:
     assert a.optimal and len(a.placements) == 2 and abs(a.residual_gmm) <= g
     b = allocate((9.4, 211.0, 120.0), RING, stock=box, prefer_fewer_positions=True, good_enough_gmm=g)
     assert b.optimal and [(p.position_index, p.pieces) for p in b.placements] == [(7, (5.0, 2.0, 2.0))]
+
+
+def test_two_planes_consolidate_their_own_old_weights() -> None:
+    old1 = [ExistingWeight(2.0, 90.0, 120.0, 3, may_remove=True)]
+    a1, a2 = allocate_planes([(2.0, 270.0, 120.0), (2.0, 270.0, 120.0)], RING, stock=BOX,
+                             existing_per_plane=[old1, []])
+    assert a1.removed_existing == (0,) and a1.placements == ()  # plane 1: take the old weight off
+    assert [(p.position_index, p.pieces) for p in a2.placements] == [(9, (2.0,))]  # plane 2: fit one
