@@ -140,7 +140,7 @@ def allocate_groove(
         rho = np.abs(sizes_arr - target)
         for j in np.lexsort((totals, np.maximum(rho, good_enough_gmm)))[:1]:
             kk = key(float(rho[j]), n, strip.grams_per_mm * float(totals[j]))
-            if kk < best:
+            if best is None or kk < best:
                 best, best_n, best_total = kk, n, float(totals[j])
     placements = []
     if best_n:

@@ -99,7 +99,9 @@ def _int(obj: dict, key: str, where: str) -> int | None:
     return int(v)
 
 
-def _positive(v: float, what: str) -> float:
+def _positive(v: float | None, what: str) -> float:
+    if v is None:
+        raise UsageError(f"{what} is missing; give a positive value")
     if v < 0:
         raise UsageError(f"{what} is negative ({v:g}); give a positive value")
     if v == 0:
@@ -116,8 +118,8 @@ def _positions(spec: Any) -> Any:
         if not spec:
             raise UsageError("no positions: give at least one position")
         angles = [_num(p, "angle", f"positions[{i}]") for i, p in enumerate(spec)]
-        radii = [_positive(_num(p, "radius", f"positions[{i}]"), f"positions[{i}] radius") for i, p in enumerate(spec)]
-        return Positions.at_angles(angles, radii)  # type: ignore[arg-type]
+        each = [_positive(_num(p, "radius", f"positions[{i}]"), f"positions[{i}] radius") for i, p in enumerate(spec)]
+        return Positions.at_angles(angles, each)  # type: ignore[arg-type]
     if not isinstance(spec, dict):
         raise UsageError("\"positions\" must be an object or a list of {\"angle\", \"radius\"}")
     if "exclude" in spec:
