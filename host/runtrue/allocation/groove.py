@@ -115,7 +115,7 @@ def allocate_groove(
             placements.append(Placement(None, ang, radius_mm, (m,), None, m, (), v * rot * radius_mm))
         placements = _merge_same_angle(placements)
         optimal = total_pieces <= MAX_GROOVE_PIECES or (best is not None and best[0] <= round(good_enough_gmm / q))
-        return _finish(T, r_c, placements, optimal)
+        return _finish(T, r_c, placements, optimal, good_enough_gmm)
     if strip is None:
         raise AllocationError("no stock and no strip given")
     for name, v in (("grams_per_mm", strip.grams_per_mm), ("min_mm", strip.min_mm), ("step_mm", strip.step_mm)):
@@ -153,7 +153,7 @@ def allocate_groove(
             ub = arc_unbalance_gmm(strip.grams_per_mm, length, radius_mm) * cmath.exp(1j * centre)
             placements.append(Placement(None, angle_of_deg(cmath.exp(1j * centre)), radius_mm, (), length,
                                         strip.grams_per_mm * length, (), ub))
-    return _finish(T, r_c, placements, True)
+    return _finish(T, r_c, placements, True, good_enough_gmm)
 
 
 def _merge_same_angle(placements: list[Placement]) -> list[Placement]:
@@ -169,7 +169,7 @@ def _merge_same_angle(placements: list[Placement]) -> list[Placement]:
     return out
 
 
-def _finish(T: complex, r_c: float, placements: list[Placement], optimal: bool) -> Allocation:
+def _finish(T: complex, r_c: float, placements: list[Placement], optimal: bool, good_enough_gmm: float) -> Allocation:
     from runtrue.allocation.solver import POOR_FIT_FRACTION
 
     fitted = sum((p.unbalance_gmm for p in placements), 0j)
@@ -183,5 +183,5 @@ def _finish(T: complex, r_c: float, placements: list[Placement], optimal: bool) 
         )
     if not optimal:
         warnings.append(f"only allocations of up to {MAX_GROOVE_PIECES} pieces were considered")
-    return Allocation(T, r_c, tuple(placements), residual, optimal, abs(residual) if optimal else 0.0,
-                      tuple(warnings))
+    bound = abs(residual) if (optimal and abs(residual) > good_enough_gmm) else 0.0
+    return Allocation(T, r_c, tuple(placements), residual, optimal, bound, tuple(warnings))

@@ -169,8 +169,9 @@ class Allocation:
 
     ``residual_gmm`` = correction − (everything fitted, changed or removed), as a complex g·mm
     (the same number at any radius); ``residual_mass_g`` is it expressed as a mass at the
-    correction radius.  ``optimal`` is True when the search proved the objective optimal;
-    otherwise ``bound_gmm`` is a proven lower bound on the smallest achievable residual.
+    correction radius.  ``optimal`` is True when the search proved the objective optimal.
+    ``bound_gmm`` is a proven lower bound on the smallest residual any allocation could leave
+    (the residual itself when it is proven smallest; a relaxation bound, often 0, otherwise).
     """
 
     correction_gmm: complex

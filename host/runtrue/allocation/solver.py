@@ -365,7 +365,10 @@ def _build(
         placements=tuple(placements),
         residual_gmm=residual,
         optimal=optimal,
-        bound_gmm=rho if optimal else min(rho, relax_bound),
+        # proven lower bound on the smallest residual any allocation could leave: the residual
+        # itself when the search proved it smallest (above the good-enough value), else the
+        # relaxation bound
+        bound_gmm=rho if (optimal and rho > g) else min(rho, relax_bound),
         warnings=tuple(warnings),
         kept_existing=tuple(sorted(set(kept))),
         removed_existing=tuple(removed_all),

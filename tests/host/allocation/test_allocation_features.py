@@ -76,6 +76,11 @@ def test_stock_counts_are_respected() -> None:
     pieces = [m for p in a.placements for m in p.pieces]
     assert pieces.count(5.0) <= 1 and pieces.count(1.0) <= 3
     assert any("leaves" in w for w in a.warnings)  # only 8 g in the box for a 12 g correction
+    assert any("cannot carry the whole correction" in w for w in a.warnings)
+    # proven smallest (no good-enough residual reachable): the bound is the residual itself
+    assert a.optimal and a.bound_gmm == pytest.approx(abs(a.residual_gmm))
+    b = allocate((5.0, 10.0, 120.0), RING, stock=BOX, good_enough_gmm=100.0)
+    assert abs(b.residual_gmm) <= 100.0 and 0.0 <= b.bound_gmm <= abs(b.residual_gmm)
 
 
 def test_strip_is_cut_to_allowed_lengths() -> None:
