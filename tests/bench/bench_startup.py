@@ -94,7 +94,7 @@ def import_times(repeats: int) -> None:
     bare = statistics.median(run(["-c", "pass"]) for _ in range(repeats))
     print(f"  interpreter start-up alone: {bare * 1000:.0f} ms")
     for name in (*HEAVY, "runtrue.tui.app", "runtrue.jobs", "runtrue.device"):
-        times = []
+        times: list[float] = []
         for _ in range(repeats):
             out = subprocess.run([sys.executable, "-c", IMPORT_ONE, name], capture_output=True, text=True,
                                  env=_env(), timeout=60)

@@ -4,6 +4,22 @@
 (``runtrue app``, ``runtrue demo``), the tests and the snapshot app.  ``port`` is a serial
 device, ``"sim:NAME"`` for a simulated machine, ``"manual"`` for readings typed in from another
 instrument, or None to use the first meter found (else the picker).
+
+Screens, one module each under ``runtrue.tui.screens`` (every key is shown in the footer):
+
+1. connect  - meters found, simulated machines, manual entry; device info and self-test (t)
+2. machine  - saved machines and unfinished jobs; the machine form; grade table (F3); start (F2)
+3. live     - 1x per pickup, speed, steadiness, polar scatter; take a reading (space) or when
+              steady (a); opened by the runs screen for each reading
+4. runs     - the step now (reference, trial, correction, trim) in plain instructions with the
+              angle convention and cautions; reading (r), fitting (f), trial weight (w)
+5. fitting  - the rotor dial (mark, rotation, positions, placements) and a tick-off list with the
+              force each weight must hold
+6. result   - before/after, residual against permissible, pass/fail; HTML report (h), CSV and
+              JSON export (e)
+
+Meter I/O runs in one thread (``runtrue.tui.link.MeterLink``) that only posts messages
+(``runtrue.tui.messages``); the job itself is ``runtrue.jobs.BalanceJob``, saved as it goes.
 """
 
 from __future__ import annotations
