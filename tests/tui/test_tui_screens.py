@@ -285,3 +285,39 @@ async def test_an_interrupted_job_resumes_with_its_runs(tmp_path: Path) -> None:
         assert job.job_id == job_id and [r.kind for r in job.runs] == ["reference"]
         assert job.state.step == "trial"
         assert "0.480 g" in screen_text(app)
+
+
+async def test_live_view_from_connect_only_looks() -> None:
+    app = make_app("sim:fake", opener=fake_opener(), realtime=False, post_interval_s=0.05)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected")
+        await key(pilot, "l")
+        await wait_until(pilot, lambda: app.session.live.total_revs > 10, what="revolutions")
+        await wait_until(pilot, lambda: "Looking only" in screen_text(app), what="live view")
+        assert "Take reading" not in screen_text(app)
+        await key(pilot, "escape")
+        await wait_until(pilot, lambda: screen_name(app) == "ConnectScreen", what="back")
+        await wait_until(pilot, lambda: not app.session.link.streaming, what="streaming stopped")
+
+
+async def test_choose_the_trial_weight_then_stop_the_job() -> None:
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.48", "phase0": "152"}, prefix="#")
+        await pilot.press("enter", "w")
+        fill(app.screen, {"mass": "12", "angle": "45"}, prefix="#")
+        await pilot.press("enter")
+        trial = app.session.job.suggested_trial()
+        assert (trial.mass_g, trial.angle_deg) == (12, 45)
+        todo = str(app.screen.query_one("#todo").render())
+        assert "trial weight of 12 g" in todo and "45.0\N{DEGREE SIGN}" in todo
+        await pilot.press("x")
+        assert screen_name(app) == "RunsScreen"  # asks once more before stopping
+        await pilot.press("x")
+        assert screen_name(app) == "ResultScreen"
+        job = app.session.job
+        assert job.state.status == "stopped" and len(job.runs) == 1
+        assert "NOT CHECKED" in screen_text(app)

@@ -88,6 +88,7 @@ class ConnectScreen(StepScreen):
     BINDINGS = [
         Binding("enter", "use", "Use selected", priority=True),
         Binding("t", "self_test", "Self-test"),
+        Binding("l", "live", "Live view"),
         Binding("r", "rescan", "Rescan"),
         Binding("n", "next", "Next: machine"),
     ]
@@ -176,6 +177,16 @@ class ConnectScreen(StepScreen):
         self.query_one("#selftest", Static).update("Self-test running (about a second) ...")
         self.session.link.self_test()
 
+    def action_live(self) -> None:
+        s = self.session
+        if s.link is None or not s.link.connected:
+            self.notify("Connect a meter or a simulated machine first.", severity="warning")
+            return
+        from runtrue.tui.screens.live import LiveScreen
+
+        s.live.reset()
+        self.app.push_screen(LiveScreen("checking the sensors", can_take=False))
+
     def action_next(self) -> None:
         if self.session.port is None:
             self.notify("Choose a meter, a simulated machine or manual entry first (Enter).", severity="warning")
@@ -202,7 +213,7 @@ class ConnectScreen(StepScreen):
         )
         self.query_one("#selftest", Static).update(self_test_text(s.self_test))
         if s.link is not None and s.link.connected:
-            hint.update("Connected. t: self-test, n: describe the machine.")
+            hint.update("Connected. t: self-test, l: live view of the sensors, n: describe the machine.")
         elif s.port:
             hint.update(f"{s.port}: {s.meter_state}")
         else:

@@ -53,9 +53,10 @@ class LiveScreen(StepScreen):
     ]
 
     def __init__(self, purpose: str = "", *, marks: list[list[tuple[str, complex]]] | None = None,
-                 auto: bool = False) -> None:
+                 auto: bool = False, can_take: bool = True) -> None:
         super().__init__()
         self.purpose = purpose
+        self.can_take = can_take  # False: just looking (checking the sensors before a job)
         self.marks = marks or []
         self.channel = 0
         self._auto = auto
@@ -140,8 +141,15 @@ class LiveScreen(StepScreen):
             )
         self.query_one("#live-progress", Static).update(self._progress_text())
 
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if action in ("take", "auto"):
+            return self.can_take
+        return True
+
     def _progress_text(self) -> str:
         live = self.session.live
+        if not self.can_take:
+            return "Looking only: readings are taken from the balancing runs screen. Esc: back."
         if live.waiting_for_steady:
             return "Waiting for steady readings, then the reading is taken by itself (Esc: back)."
         if live.collecting:
