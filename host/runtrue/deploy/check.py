@@ -131,6 +131,14 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
         return False, ("no revolutions in a few seconds: with the machine running, the reference sensor "
                        "is not seeing its mark once per revolution (with the machine stopped, use --revs 0 "
                        "to skip this check)")
+    # After START the firmware flags revolutions "speed jump" until two in a row agree (it is
+    # confirming the speed, PROTOCOL.md): those first settling revolutions are not a sensor fault.
+    n_read = len(revs)
+    settled = [r for r in revs
+               if not (getattr(r, "rev", 99) < 3 and r.flag_names
+                       and set(r.flag_names) <= {"first", "speed jump"})]
+    if settled:
+        revs = settled
     usable = [r for r in revs if r.usable]
     flagged: dict[str, int] = {}
     for r in revs:
@@ -140,7 +148,7 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
     periods = [r.period_us for r in usable] or [r.period_us for r in revs]
     mean_rpm = 60e6 / statistics.fmean(periods)
     spread = statistics.pstdev(periods) / statistics.fmean(periods) if len(periods) > 1 else 0.0
-    words = [f"{len(revs)} revolutions at {mean_rpm:.0f} rpm, {len(usable)} usable",
+    words = [f"{n_read} revolutions at {mean_rpm:.0f} rpm, {len(usable)} usable",
              f"speed steady to {100 * spread:.2f} %"]
     if flagged:
         words.append("flags: " + ", ".join(f"{k} x{v}" for k, v in sorted(flagged.items())))
