@@ -55,3 +55,11 @@ def test_bad_tolerance_input_is_one_line_exit_2(argv: list[str], fragment: str, 
     assert main(["tolerance", *argv]) == 2
     cap = capsys.readouterr()
     assert cap.out == "" and cap.err.count("\n") == 1 and fragment in cap.err
+
+
+@pytest.mark.parametrize("written", ["G6.3", "g6.3", "G 6.3", "6.3"])
+def test_grade_accepted_as_the_trade_writes_it(written: str, capsys: pytest.CaptureFixture[str]) -> None:
+    # ISO 21940-11:2016 names grades "G 6.3" etc.; U_per = 9549 * G * m / n (g.mm), from memory.
+    assert main(["tolerance", "--grade", written, "--mass-kg", "14", "--rpm", "1470"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["permissible_unbalance_gmm"] == pytest.approx(9549 * 6.3 * 14 / 1470, rel=1e-3)

@@ -27,7 +27,7 @@ def register(subparsers: Any) -> None:
         "unbalance e_per = U_per / m (um) for balance quality grade G (mm/s), rotor mass m (kg) "
         "and maximum service speed n (rpm), allocated to one or two tolerance planes.",
     )
-    p.add_argument("--grade", required=True, metavar="G", help="balance quality grade in mm/s, e.g. 6.3 (G 6.3)")
+    p.add_argument("--grade", required=True, metavar="G", help="balance quality grade in mm/s: 6.3, G6.3 or 'G 6.3'")
     p.add_argument("--mass-kg", required=True, metavar="M", help="rotor mass in kg")
     p.add_argument("--rpm", required=True, metavar="N", help="maximum service speed in rpm")
     p.add_argument("--planes", default="1", metavar="1|2", help="tolerance planes (default 1)")
@@ -62,7 +62,8 @@ def _r(x: float) -> float:
 def run(args: argparse.Namespace) -> int:
     from runtrue.balancing import BalancingError, api_limit_gmm, gmm_to_ozin, permissible_unbalance
 
-    grade = _num(args.grade, "--grade")
+    # Grades are written "G 6.3", "G6.3" or "6.3" in the trade; all mean 6.3 mm/s.
+    grade = _num(str(args.grade).strip().upper().removeprefix("G").strip(), "--grade")
     mass = _num(args.mass_kg, "--mass-kg")
     rpm = _num(args.rpm, "--rpm")
     if args.planes not in ("1", "2"):
