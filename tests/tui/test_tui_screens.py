@@ -321,3 +321,13 @@ async def test_choose_the_trial_weight_then_stop_the_job() -> None:
         job = app.session.job
         assert job.state.status == "stopped" and len(job.runs) == 1
         assert "NOT CHECKED" in screen_text(app)
+
+
+async def test_help_states_the_conventions_and_cautions() -> None:
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("f1")
+        text = screen_text(app)
+        assert "against the" in text and "drive end" in text and "CONVENTIONS" in text
+        await pilot.press("escape")
+        assert screen_name(app) == "ConnectScreen"

@@ -43,7 +43,10 @@ class RuntrueApp(App):
     CSS_PATH = "app.tcss"
     TITLE = "runtrue"
     ENABLE_COMMAND_PALETTE = False
-    BINDINGS = [Binding("ctrl+q", "quit", "Quit", priority=True)]
+    BINDINGS = [
+        Binding("ctrl+q", "quit", "Quit", priority=True),
+        Binding("f1", "help", "Help", show=False),
+    ]
 
     def __init__(
         self,
@@ -207,6 +210,12 @@ class RuntrueApp(App):
     def on_self_test_done(self, message: SelfTestDone) -> None:
         self.session.self_test = message.result
         self._tell_screen(message)
+
+    def action_help(self) -> None:
+        from runtrue.tui.screens.help import HelpScreen
+
+        if not isinstance(self.screen, HelpScreen):
+            self.push_screen(HelpScreen())
 
     # -- moving between steps -------------------------------------------------------------------
     def show_connect(self) -> None:

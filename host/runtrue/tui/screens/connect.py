@@ -86,11 +86,12 @@ def self_test_text(result: dict[str, Any] | None) -> str:
 class ConnectScreen(StepScreen):
     STEP = "1 Connect"
     BINDINGS = [
-        Binding("enter", "use", "Use selected", priority=True),
+        Binding("enter", "use", "Use", priority=True),
         Binding("t", "self_test", "Self-test"),
         Binding("l", "live", "Live view"),
         Binding("r", "rescan", "Rescan"),
-        Binding("n", "next", "Next: machine"),
+        Binding("n", "next", "Next"),
+        Binding("f1", "app.help", "Help"),
     ]
 
     def compose_body(self) -> Iterable[Widget]:

@@ -27,6 +27,7 @@ class FittingScreen(StepScreen):
         Binding("space", "tick", "Tick off / untick"),
         Binding("p", "plane", "Next plane"),
         Binding("escape", "back", "Back to runs"),
+        Binding("f1", "app.help", "Help"),
     ]
 
     def compose_body(self) -> Iterable[Widget]:

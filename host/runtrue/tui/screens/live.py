@@ -50,6 +50,7 @@ class LiveScreen(StepScreen):
         Binding("a", "auto", "Take when steady"),
         Binding("c", "channel", "Next channel"),
         Binding("escape", "back", "Back"),
+        Binding("f1", "app.help", "Help"),
     ]
 
     def __init__(self, purpose: str = "", *, marks: list[list[tuple[str, complex]]] | None = None,

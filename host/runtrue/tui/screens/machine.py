@@ -64,6 +64,7 @@ class MachineScreen(StepScreen):
         Binding("f3", "grades", "Grade table"),
         Binding("f4", "back", "Back"),
         Binding("f5", "trial_mode", "Trials on/off"),
+        Binding("f1", "app.help", "Help"),
     ]
 
     def compose_body(self) -> Iterable[Widget]:

@@ -31,6 +31,7 @@ class ResultScreen(StepScreen):
         Binding("e", "export", "Export CSV+JSON"),
         Binding("b", "back", "Back to runs"),
         Binding("n", "new_job", "New job"),
+        Binding("f1", "app.help", "Help"),
     ]
 
     def compose_body(self) -> Iterable[Widget]:

@@ -1,0 +1,43 @@
+"""Help (F1): the conventions every number on screen follows, the steps of a job, the
+cautions, and the keys.  Text only; Esc closes it."""
+
+from __future__ import annotations
+
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Static
+
+STEPS = (
+    "1 Connect: the meter, a simulated machine, or manual entry of readings from another instrument.",
+    "2 Machine: describe it once (mass, speed, rotation, planes, positions, stock, grade, pickups).",
+    "3-4 Runs: reference run as found; a trial weight per plane; the correction; trim runs until "
+    "the residual unbalance is within the grade. A saved machine with coefficients skips the trials.",
+    "5 Fitting: the dial shows where each weight goes; tick each one off as it is fitted.",
+    "6 Result: before and after, residual against permissible, the report and the export.",
+)
+
+
+def help_text() -> str:
+    from runtrue.jobs import ANGLE_CONVENTION, CAUTIONS
+
+    lines = ["CONVENTIONS", f"- {ANGLE_CONVENTION}",
+             "- Rotation (cw/ccw) is as seen from the drive end; the fitting dial is drawn from there.",
+             "- Amplitudes are 1x peak in g (standard gravity); velocity is the 1x in mm/s.",
+             "- Polar plots: 0 deg at the top, lag increasing clockwise.",
+             "", "STEPS"]
+    lines += [f"- {s}" for s in STEPS]
+    lines += ["", "SAFETY"] + [f"- {c}" for c in CAUTIONS]
+    lines += ["", "KEYS", "- Each screen lists its keys in the bottom line; Esc or F1 closes this help.",
+              "- Ctrl+Q quits at any time: every reading is saved when taken, and an unfinished job "
+              "is offered for resuming on the machine screen."]
+    return "\n".join(lines)
+
+
+class HelpScreen(ModalScreen[None]):
+    BINDINGS = [Binding("escape", "dismiss(None)", "Close"), Binding("f1", "dismiss(None)", "Close")]
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(id="help-box"):
+            yield Static(help_text(), markup=False)
