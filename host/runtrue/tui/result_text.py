@@ -7,7 +7,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from runtrue.tui.format import DEG, amp_text, mass_text
+from runtrue.tui.format import DEG, amp_text, centrifugal_force_n, force_text, mass_text
 
 
 def verdict(result: Any) -> tuple[str, str]:
@@ -57,10 +57,12 @@ def plane_lines(result: Any) -> list[str]:
 
 
 def weights_lines(result: Any) -> list[str]:
+    """The weights on the rotor now, each with the centrifugal force it must hold at speed."""
     if not result.weights_on:
         return ["No weights added."]
     return [
-        f"plane {w.plane}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}{DEG}, r {w.radius_mm:g} mm"
+        f"plane {w.plane}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}{DEG}, r {w.radius_mm:g} mm, "
+        f"{force_text(centrifugal_force_n(w.mass_g, w.radius_mm, result.speed_rpm))}"
         + (f" ({w.label})" if w.label else "")
         for w in result.weights_on
     ]

@@ -47,8 +47,8 @@ class LiveScreen(StepScreen):
     STEP = "3 Live readings"
     BINDINGS = [
         Binding("space", "take", "Take reading"),
-        Binding("a", "auto", "Take when steady"),
-        Binding("c", "channel", "Next channel"),
+        Binding("a", "auto", "When steady"),
+        Binding("c", "channel", "Channel"),
         Binding("escape", "back", "Back"),
         Binding("f1", "app.help", "Help"),
     ]

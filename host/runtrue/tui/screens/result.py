@@ -63,7 +63,7 @@ class ResultScreen(StepScreen):
         lines = [f"{res.machine_name}, job {res.job_id}: {res.runs} run(s), {res.speed_rpm:g} rpm, status {res.status}"]
         lines += [""] + channel_lines(res)
         lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res)
-        lines += ["", "Weights added (on the rotor now):"] + weights_lines(res)
+        lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res)
         if res.warnings:
             lines += ["", "Notes:"] + [f"- {w}" for w in res.warnings]
         lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}. Amplitudes 1x peak."]
