@@ -33,6 +33,7 @@ import sys
 from typing import Any
 
 from runtrue.cli import UsageError
+from runtrue.cli.jsonio import load_json
 
 CONVENTIONS = (
     "weight angles in degrees from the reference mark against the direction of rotation; "
@@ -55,26 +56,6 @@ def register(subparsers: Any) -> None:
     )
     p.add_argument("file", metavar="FILE", help="JSON file, or - for standard input")
 
-
-def _reject_constant(name: str) -> float:
-    raise UsageError(f"{name} is not a number; give finite numbers only")
-
-
-def _load(path: str) -> Any:
-    try:
-        if path == "-":
-            text = sys.stdin.read()
-        else:
-            with open(path, encoding="utf-8") as f:
-                text = f.read()
-    except OSError as exc:
-        raise UsageError(f"cannot read {path}: {exc.strerror or exc}") from None
-    except UnicodeDecodeError:
-        raise UsageError(f"{path} is not UTF-8 text; give a JSON file") from None
-    try:
-        return json.loads(text, parse_constant=_reject_constant)
-    except json.JSONDecodeError as exc:
-        raise UsageError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno} column {exc.colno}") from None
 
 
 def _num(obj: Any, key: str, where: str, required: bool = True, default: float | None = None) -> float | None:
@@ -250,7 +231,7 @@ def _r(x: float, nd: int = 6) -> float:
 def run(args: argparse.Namespace) -> int:
     from runtrue.allocation import AllocationError, allocate, centrifugal_force_n
 
-    data = _load(args.file)
+    data = load_json(args.file)
     try:
         spec, _existing = _build(data)
         a = allocate(spec["correction"], spec["positions"], **spec["options"])

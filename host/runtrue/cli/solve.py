@@ -28,6 +28,7 @@ import sys
 from typing import Any
 
 from runtrue.cli import UsageError
+from runtrue.cli.jsonio import load_json
 
 SAFETY = (
     "Rotating machinery can kill: stop and lock out the machine before fitting weights, secure "
@@ -55,9 +56,6 @@ def register(subparsers: Any) -> None:
     p.add_argument("file", metavar="FILE", help="JSON file with the runs, or - for standard input")
 
 
-def _reject_constant(name: str) -> float:
-    raise UsageError(f"{name} is not a number; give finite numbers only")
-
 
 def _number(obj: dict, key: str, where: str, required: bool = True) -> float | None:
     if key not in obj:
@@ -70,23 +68,6 @@ def _number(obj: dict, key: str, where: str, required: bool = True) -> float | N
     if not math.isfinite(float(v)):
         raise UsageError(f"{where}: \"{key}\" must be a finite number")
     return float(v)
-
-
-def _load(path: str) -> Any:
-    try:
-        if path == "-":
-            text = sys.stdin.read()
-        else:
-            with open(path, encoding="utf-8") as f:
-                text = f.read()
-    except OSError as exc:
-        raise UsageError(f"cannot read {path}: {exc.strerror or exc}") from None
-    except UnicodeDecodeError:
-        raise UsageError(f"{path} is not UTF-8 text; give a JSON file") from None
-    try:
-        return json.loads(text, parse_constant=_reject_constant)
-    except json.JSONDecodeError as exc:
-        raise UsageError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno} column {exc.colno}") from None
 
 
 def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
@@ -240,7 +221,7 @@ def _speed(data: dict) -> float | None:
 def run(args: argparse.Namespace) -> int:
     from runtrue.balancing import BalancingError, centrifugal_force_n, solve, solve_amplitude_only
 
-    data = _load(args.file)
+    data = load_json(args.file)
     runs, radius, amplitude_only = parse_runs(data)
     speed = _speed(data)
     try:
