@@ -117,6 +117,9 @@ class LiveScreen(StepScreen):
         )
         self.query_one("#live-table", Static).update("\n".join(channel_rows(reading)))
         notes = [f"ch {i + 1}: {label}" for i, label in enumerate(self._labels())]
+        if reading is not None:
+            conf = "  ".join(f"ch{i + 1} {amp_text(ch.confidence_g)}" for i, ch in enumerate(reading.channels))
+            notes.append(f"95 % radius ({reading.n_revs} revs): {conf}")
         notes.append(PHASE_NOTE + "; amplitudes are peak; overall = RMS x 1.414.")
         if not st.steady:
             notes.append(f"Not steady yet: {st.reason}.")

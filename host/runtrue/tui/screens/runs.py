@@ -125,6 +125,18 @@ class RunsScreen(StepScreen):
         self.refresh_status()
         self.query_one("#stepbar", Static).update(step_bar(job))
         lines = [f"- {line}" for line in job.instructions()]
+        plan = job.state.plan
+        if plan is not None and plan.predicted:
+            expected = ", ".join(
+                f"{label[:14]} {amp_text(abs(v))}" for label, v in zip((p.label for p in job.machine.pickups), plan.predicted)
+            )
+            lines.append(f"- Expected after this {plan.kind}: {expected} (1x, from the influence coefficients).")
+            for pc in plan.planes:
+                if pc.residual_gmm > 0:
+                    lines.append(
+                        f"- Plane {pc.plane}: the pieces leave {pc.residual_gmm:.0f} g.mm of the correction "
+                        f"({pc.residual_fraction * 100:.0f} %) unfitted."
+                    )
         if job.state.warnings:
             lines += ["", "Warnings:"] + [f"! {w}" for w in job.state.warnings]
         self.query_one("#todo", Static).update("\n".join(lines))
