@@ -72,6 +72,23 @@ def polar_marks(job: Any) -> list[list[tuple[str, complex]]]:
     return out
 
 
+def expected_after_fitting(job: Any) -> list[complex]:
+    """The 1x each pickup should read once the listed pieces are fitted: the engine's prediction
+    for the exact correction plus the effect of what the pieces leave unfitted (through the
+    influence coefficients)."""
+    plan = job.state.plan
+    influence = job.influence
+    out = [complex(v) for v in plan.predicted]
+    if influence is None:
+        return out
+    for pc in plan.planes:
+        fitted = sum((w.unbalance_gmm for w in pc.fit), 0j)
+        delta = fitted - pc.correction.unbalance_gmm
+        for i in range(len(out)):
+            out[i] += influence[i][pc.plane - 1] * delta
+    return out
+
+
 class RunsScreen(StepScreen):
     STEP = "4 Balancing runs"
     BINDINGS = [
@@ -127,16 +144,9 @@ class RunsScreen(StepScreen):
         lines = [f"- {line}" for line in job.instructions()]
         plan = job.state.plan
         if plan is not None and plan.predicted:
-            expected = ", ".join(
-                f"{label[:14]} {amp_text(abs(v))}" for label, v in zip((p.label for p in job.machine.pickups), plan.predicted)
-            )
-            lines.append(f"- Expected after this {plan.kind}: {expected} (1x, from the influence coefficients).")
-            for pc in plan.planes:
-                if pc.residual_gmm > 0:
-                    lines.append(
-                        f"- Plane {pc.plane}: the pieces leave {pc.residual_gmm:.0f} g.mm of the correction "
-                        f"({pc.residual_fraction * 100:.0f} %) unfitted."
-                    )
+            expected = expected_after_fitting(job)
+            text = ", ".join(f"ch{i + 1} {amp_text(abs(v))}" for i, v in enumerate(expected))
+            lines.append(f"- Expected 1x after fitting these pieces: {text}.")
         if job.state.warnings:
             lines += ["", "Warnings:"] + [f"! {w}" for w in job.state.warnings]
         self.query_one("#todo", Static).update("\n".join(lines))
