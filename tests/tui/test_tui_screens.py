@@ -143,6 +143,12 @@ async def test_manual_job_reference_trial_correction_result(tmp_path: Path) -> N
         assert abs(u0 + fitted) <= plan.planes[0].residual_gmm + 0.01 * abs(u0)
         assert abs(u0 + fitted) < 0.05 * abs(u0)
         assert "Correction" in screen_text(app)
+        # what the runs screen says the pieces will leave is what the linear rotor then reads
+        from runtrue.tui.screens.runs import expected_after_fitting
+
+        expected = expected_after_fitting(job)[0]
+        actual = influence * (u0 + fitted)
+        assert abs(expected - actual) < 0.02 * abs(influence * u0)
         # correction run: the allocated weights (trial removed)
         await pilot.press("r")
         fill(app.screen, _typed(app, *reading_for([fitted])), prefix="#")
