@@ -23,6 +23,7 @@ import os
 import statistics
 import subprocess
 import sys
+import tempfile
 import time
 
 HEAVY = ("textual", "numpy", "serial", "scipy", "sqlite3", "platformdirs")
@@ -55,10 +56,13 @@ print(time.perf_counter() - t0)
 """
 
 
+_DATA_DIR = tempfile.mkdtemp(prefix="runtrue-bench-")  # never the user's job database
+
+
 def _env() -> dict[str, str]:
     env = dict(os.environ)
     env.pop("NO_COLOR", None)
-    env.setdefault("RUNTRUE_DATA_DIR", os.path.join(os.path.dirname(__file__), "..", "..", ".bench-data"))
+    env["RUNTRUE_DATA_DIR"] = _DATA_DIR
     return env
 
 
