@@ -111,6 +111,12 @@ class MeterLink:
             self._thread = None
 
     @property
+    def latest_epoch(self) -> int:
+        """The epoch after every change asked for so far (channels, weights)."""
+        with self._epoch_lock:
+            return self._epoch_requested
+
+    @property
     def streaming(self) -> bool:
         return self._streaming
 

@@ -178,10 +178,10 @@ class RunsScreen(StepScreen):
             self.notify("The meter is not connected: wait for it (title bar) or pick it on the Connect screen.",
                         severity="warning")
             return
-        epoch = None
         if s.simulated:
-            epoch = self._fit_on_simulator(job.planned_weights())
-        s.live.reset(epoch)
+            self._fit_on_simulator(job.planned_weights())
+        # only revolutions measured after every change asked for so far (channels, weights)
+        s.live.reset(s.link.latest_epoch)
         from runtrue.tui.screens.live import LiveScreen
 
         self.app.push_screen(
