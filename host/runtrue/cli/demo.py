@@ -6,7 +6,9 @@ interaction and prints ONE JSON object (a contract other tools rely on; keys are
 ``runs``, ``initial`` and ``final`` (1x amplitude per channel, g), ``grade``,
 ``permissible_unbalance_gmm`` and ``residual_unbalance_gmm`` (per correction plane; the residual
 as the engine estimates it), ``true_residual_unbalance_gmm`` (per plane, what the simulator
-knows is left) and ``passed``.
+knows is left) and ``passed``; also ``method`` (``"influence-coefficient"`` or ``"four-run"``).
+``--no-phase`` runs the amplitude-only four-run method instead (one-plane scenarios): the job is
+fed amplitudes only, though the simulator has a reference sensor.
 """
 
 from __future__ import annotations
@@ -34,6 +36,8 @@ def register(subparsers: Any) -> None:
                    help="with --auto: revolutions averaged per reading (default 40)")
     p.add_argument("--max-runs", type=int, default=None, metavar="N",
                    help="with --auto: stop after this many runs (default 12)")
+    p.add_argument("--no-phase", action="store_true",
+                   help="with --auto: balance by amplitudes only (the four-run method; one-plane scenarios)")
     p.add_argument("--db", default=None, metavar="FILE",
                    help="with --auto: record the job in this job database (default: kept in memory only)")
     p.add_argument("--resume", type=int, default=None, metavar="JOB",
@@ -47,8 +51,17 @@ def _check_args(args: argparse.Namespace) -> None:
     names = scenario_names()
     if args.scenario not in names:
         raise UsageError(f"unknown scenario {args.scenario!r}; choose one of: {', '.join(names) or 'none installed'}")
-    if not args.auto and (args.json or args.revs or args.max_runs or args.db or args.resume):
-        raise UsageError("--json, --revs, --max-runs, --db and --resume go with --auto")
+    if not args.auto and (args.json or args.revs or args.max_runs or args.db or args.resume or args.no_phase):
+        raise UsageError("--json, --revs, --max-runs, --no-phase, --db and --resume go with --auto")
+    if args.no_phase:
+        from runtrue.sim.scenarios import SCENARIOS
+
+        n_planes = len(SCENARIOS[args.scenario].planes)
+        if n_planes != 1:
+            one = ", ".join(n for n, sc in sorted(SCENARIOS.items()) if len(sc.planes) == 1)
+            raise UsageError(
+                f"--no-phase balances one plane, but scenario {args.scenario!r} has {n_planes}: choose one of {one}"
+            )
     if args.revs is not None and not 2 <= args.revs <= 10_000:
         raise UsageError("--revs must be between 2 and 10000")
     if args.max_runs is not None and args.max_runs < 2:
@@ -69,7 +82,7 @@ def run(args: argparse.Namespace) -> int:
 
 def _run_auto(args: argparse.Namespace) -> int:
     from runtrue.cli import UsageError
-    from runtrue.jobs.headless import DEFAULT_REVS, MAX_RUNS, run_demo
+    from runtrue.jobs.headless import DEFAULT_REVS, MAX_RUNS, MAX_RUNS_AMPLITUDE_ONLY, run_demo
     from runtrue.jobs.store import JobStore
 
     store = JobStore(args.db) if args.db else None
@@ -88,8 +101,9 @@ def _run_auto(args: argparse.Namespace) -> int:
             store=store,
             resume_job_id=args.resume,
             revs=args.revs or DEFAULT_REVS,
-            max_runs=args.max_runs or MAX_RUNS,
+            max_runs=args.max_runs or (MAX_RUNS_AMPLITUDE_ONLY if args.no_phase else MAX_RUNS),
             on_run=on_run,
+            amplitude_only=args.no_phase,
         )
         data = outcome.to_json()
     finally:
@@ -104,12 +118,15 @@ def _run_auto(args: argparse.Namespace) -> int:
 
 def _print_progress(job: Any) -> None:
     run = job.runs[-1]
-    amps = ", ".join(f"{c.amp_g:.4f} g @ {c.phase_deg:.0f}°" for c in run.reading.channels)
+    if run.reading.has_phase:
+        amps = ", ".join(f"{c.amp_g:.4f} g @ {c.phase_deg:.0f}°" for c in run.reading.channels)
+    else:
+        amps = ", ".join(f"{c.amp_g:.4f} g (amplitude only)" for c in run.reading.channels)
     print(f"run {run.seq} ({run.kind}): {amps}", flush=True)
 
 
 def _print_summary(d: dict[str, Any]) -> None:
-    print(f"scenario {d['scenario']}: {d['runs']} runs, grade {d['grade']} ({d['standard']})")
+    print(f"scenario {d['scenario']}: {d['runs']} runs, method {d['method']}, grade {d['grade']} ({d['standard']})")
     for i, (a, b) in enumerate(zip(d["initial"], d["final"]), start=1):
         print(f"  pickup {i}: 1x {a:.4f} g -> {b:.4f} g")
     for i, (r, t, p) in enumerate(

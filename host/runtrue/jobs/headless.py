@@ -6,6 +6,10 @@ the grade is met.  Every weight the workflow asks for is fitted to the virtual r
 physical geometry (``machine.add_weight`` at the placement's angle, from the mark against
 rotation, and radius), never by the convention under test; so a wrong angle convention anywhere
 shows up as vibration that does not drop.
+
+With ``amplitude_only=True`` the job is the four-run method (``runtrue.jobs.four_run_job``): the
+simulator still has its reference sensor, but every reading is stripped to amplitudes before the
+job sees it, so the job cannot use phase even by mistake.
 """
 
 from __future__ import annotations
@@ -20,10 +24,15 @@ from runtrue.jobs.workflow import BalanceJob
 
 DEFAULT_REVS = 40  # revolutions averaged per reading (enough for steadiness on every scenario)
 SETTLE_REVS = 4  # revolutions skipped after the weights change
+#: The amplitude-only method has no phase to spot a stale reading and no trim runs to make up for
+#: one, so after a weight change it skips more revolutions (the simulator's stream runs a few
+#: dozen revolutions ahead of the host at 24000 rpm).
+SETTLE_REVS_AMPLITUDE_ONLY = 40
 MAX_SETTLE_REVS = 200
 REL_CONFIDENCE = 0.05  # average more while a vector's 95 % radius exceeds this share of it
 MORE_REVS_FACTOR = 8  # ... up to this many times the revolutions asked for  # at most this many revolutions waiting for steadiness
 MAX_RUNS = 12  # the demo stops (not passed) after this many runs
+MAX_RUNS_AMPLITUDE_ONLY = 21  # four-run method: the reference and five cycles of four runs
 
 
 @dataclass
@@ -64,6 +73,7 @@ class DemoOutcome:
             "stopped_reason": self.stopped_reason,
             "weights_fitted": [w.to_dict() for w in res.weights_on],
             "wall_s": round(self.wall_s, 3),
+            "method": res.method,
         }
 
 
@@ -89,13 +99,13 @@ class VirtualRotorFitter:
         self.fitted = keep
 
 
-def take_reading(client: Any, revs: int) -> Any:
+def take_reading(client: Any, revs: int, settle_revs: int = SETTLE_REVS) -> Any:
     """Skip the revolutions in flight, wait until speed and vector are steady (at most
     :data:`MAX_SETTLE_REVS`), then vector-average ``revs`` usable revolutions."""
     from runtrue.readings import SteadinessDetector, vector_average
 
     client.discard_revolutions()
-    client.revolutions(SETTLE_REVS)
+    client.revolutions(settle_revs)
     detector = SteadinessDetector()
     for _ in range(MAX_SETTLE_REVS):
         if detector.add(client.revolutions(1)[0]).steady:
@@ -123,6 +133,7 @@ def run_demo(
     on_run: Callable[[BalanceJob], None] | None = None,
     machine: Machine | None = None,
     trial_removed: bool = True,
+    amplitude_only: bool = False,
 ) -> DemoOutcome:
     """Run (or resume) a whole job on simulator ``scenario``; returns the outcome.
 
@@ -131,6 +142,8 @@ def run_demo(
     put back on a fresh virtual rotor (as they would still be on a real one).  ``machine``
     (default: the scenario's, see :func:`~runtrue.jobs.demo_machine.machine_for_scenario`) may be a
     saved machine with stored influence coefficients: the job then goes straight to the correction.
+    ``amplitude_only``: the four-run method on a one-plane scenario, fed amplitudes only (a
+    ``ValueError`` for a two-plane machine).
     """
     from runtrue.device import open_meter
     from runtrue.jobs.demo_machine import machine_for_scenario
@@ -141,7 +154,10 @@ def run_demo(
     if resume_job_id is not None:
         job = BalanceJob.resume(store, resume_job_id)
     else:
-        job = BalanceJob.start(store, machine or machine_for_scenario(scenario), trial_removed=trial_removed)
+        job = BalanceJob.start(
+            store, machine or machine_for_scenario(scenario), trial_removed=trial_removed, amplitude_only=amplitude_only
+        )
+    no_phase = job.state.method == "four-run"
     client = open_meter("sim:" + scenario, seed=seed)
     stopped = ""
     try:
@@ -159,7 +175,12 @@ def run_demo(
                 job.stop(stopped)
                 break
             fitter.fit(job.planned_weights())
-            job.record_run(take_reading(client, revs))
+            reading = take_reading(client, revs, SETTLE_REVS_AMPLITUDE_ONLY if no_phase else SETTLE_REVS)
+            if no_phase:
+                from runtrue.jobs.model import RunReading
+
+                reading = RunReading.from_reading(reading).amplitudes_only()
+            job.record_run(reading)
             if on_run is not None:
                 on_run(job)
         true_res = [float(x) for x in virtual.true_residual_unbalance_gmm()]

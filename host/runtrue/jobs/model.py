@@ -29,6 +29,9 @@ Rotation = Literal["cw", "ccw"]
 RunKind = Literal["reference", "trial", "correction", "trim"]
 RUN_KINDS: tuple[str, ...] = ("reference", "trial", "correction", "trim")
 
+#: ``RunReading.source`` of a reading typed in with amplitudes only (no phase reference).
+AMPLITUDE_ONLY_SOURCE = "manual, amplitude only"
+
 ANGLE_CONVENTION = (
     "Weight angles are measured from the reference mark against the direction of rotation; "
     "phase is a lag in degrees of rotation after the reference mark (0-360)."
@@ -435,20 +438,43 @@ class RunReading:
     def manual(
         cls,
         amps: Sequence[float],
-        phases_deg: Sequence[float],
+        phases_deg: Sequence[float] | None,
         speed_rpm: float,
         spreads: Sequence[float] | None = None,
     ) -> RunReading:
-        """A reading typed in from another instrument: amplitude and phase lag per pickup."""
-        if len(amps) != len(phases_deg):
+        """A reading typed in from another instrument: amplitude and phase lag per pickup.
+
+        ``phases_deg=None``: amplitudes only (an instrument with no phase reference, for the
+        amplitude-only method); each value is stored as the amplitude at 0° and the source is
+        :data:`AMPLITUDE_ONLY_SOURCE`, so nobody mistakes the 0° for a measured phase.
+        """
+        if phases_deg is not None and len(amps) != len(phases_deg):
             raise ValueError("give one phase for every amplitude")
+        if spreads is not None and len(spreads) != len(amps):
+            raise ValueError("give one spread for every amplitude")
         chans = []
-        for i, (a, p) in enumerate(zip(amps, phases_deg)):
+        for i, a in enumerate(amps):
+            p = 0.0 if phases_deg is None else phases_deg[i]
             if not (math.isfinite(a) and a >= 0 and math.isfinite(p)):
                 raise ValueError(f"pickup {i + 1}: amplitude must be >= 0 and phase a number")
             sd = float(spreads[i]) if spreads is not None else 0.0
             chans.append(ChannelValue(mean=a * cmath.exp(1j * math.radians(p)), spread_g=sd, confidence_g=2.45 * sd))
-        return cls(speed_rpm=float(speed_rpm), channels=tuple(chans), source="manual")
+        source = "manual" if phases_deg is not None else AMPLITUDE_ONLY_SOURCE
+        return cls(speed_rpm=float(speed_rpm), channels=tuple(chans), source=source)
+
+    @property
+    def has_phase(self) -> bool:
+        """False for readings taken or typed in without a phase reference."""
+        return not self.source.endswith("amplitude only")
+
+    def amplitudes_only(self, source: str = "meter, amplitude only") -> RunReading:
+        """The same reading with every phase dropped (amplitude at 0°): what an instrument
+        without a reference mark would give.  The scatter figures are kept."""
+        chans = tuple(
+            ChannelValue(mean=complex(c.amp_g, 0.0), spread_g=c.spread_g, confidence_g=c.confidence_g, rms_g=c.rms_g)
+            for c in self.channels
+        )
+        return RunReading(self.speed_rpm, chans, self.speed_sd_rpm, self.n_revs, source)
 
     def vector(self) -> list[complex]:
         return [c.mean for c in self.channels]

@@ -158,8 +158,13 @@ class JobResult:
     warnings: list[str]
     tolerance_rule: str = ""
     residual_uncertainty_gmm: list[float] | None = None
+    method: str = "influence-coefficient"
+    influence_magnitude: float | None = None
 
     def to_dict(self) -> dict[str, Any]:
+        extra: dict[str, Any] = {"method": self.method}
+        if self.influence_magnitude is not None:
+            extra["influence_magnitude_g_per_gmm"] = self.influence_magnitude
         return {
             "job_id": self.job_id,
             "machine": self.machine_name,
@@ -177,6 +182,7 @@ class JobResult:
             "status": self.status,
             "weights_on": [w.to_dict() for w in self.weights_on],
             "warnings": list(self.warnings),
+            **extra,
         }
 
 
@@ -185,7 +191,11 @@ class JobState:
     """Where a job stands.  ``step`` is one of :data:`STEPS`; ``plane`` is the trial's plane
     during the ``trial`` step; ``trial`` the trial weight to fit; ``last_trial_check`` the verdict
     on the last trial run; ``plan`` the correction or trim to fit; ``status`` ``open``,
-    ``passed`` or ``stopped``."""
+    ``passed`` or ``stopped``.
+
+    Amplitude-only jobs (``method == "four-run"``, see :mod:`runtrue.jobs.four_run_job`) also
+    fill ``cycle`` (the four-run cycle, from 1), ``trial_number`` (1-3 during a trial step) and
+    ``trial_angles_deg`` (the cycle's three trial angles)."""
 
     step: str = "reference"
     plane: int | None = None
@@ -196,6 +206,10 @@ class JobState:
     status: str = "open"
     message: str = ""
     warnings: list[str] = field(default_factory=list)
+    method: str = "influence-coefficient"
+    cycle: int = 0
+    trial_number: int | None = None
+    trial_angles_deg: list[float] = field(default_factory=list)
 
 
 class BalanceJob:
@@ -204,7 +218,9 @@ class BalanceJob:
     Create with :meth:`start` or :meth:`resume`.  Options: ``trial_removed`` (take each trial
     weight off before the next run, default True; else trials stay on and the correction is net
     of them), ``use_stored_influence`` (default: when the machine has coefficients stored),
-    ``max_trim_runs`` (the job stops, not passed, after this many trim runs).
+    ``max_trim_runs`` (the job stops, not passed, after this many trim runs),
+    ``amplitude_only`` (the four-run method without phase, one plane only; see
+    :mod:`runtrue.jobs.four_run_job`: :meth:`start` then returns an ``AmplitudeOnlyJob``).
     """
 
     def __init__(self, store: JobStore, job_id: int, machine: Machine, options: dict[str, Any]) -> None:
@@ -233,8 +249,21 @@ class BalanceJob:
         trial_removed: bool = True,
         use_stored_influence: bool | None = None,
         max_trim_runs: int = DEFAULT_MAX_TRIM_RUNS,
+        amplitude_only: bool = False,
     ) -> BalanceJob:
-        """Start and record a new job on ``machine`` (saved or not)."""
+        """Start and record a new job on ``machine`` (saved or not).
+
+        ``amplitude_only=True``: the four-run method (reference, one trial weight at three
+        angles, correction, check), using amplitudes only; one correction plane only (a
+        ``ValueError`` says so for more); ``max_trim_runs`` then limits the extra four-run cycles.
+        """
+        if amplitude_only:
+            from runtrue.jobs.four_run_job import AmplitudeOnlyJob
+
+            return AmplitudeOnlyJob.start_new(
+                store, machine, trial_removed=trial_removed, use_stored_influence=use_stored_influence,
+                max_trim_runs=max_trim_runs,
+            )
         if use_stored_influence is None:
             use_stored_influence = machine.influence is not None
         if use_stored_influence and machine.influence is None:
@@ -261,6 +290,10 @@ class BalanceJob:
         rec = store.get_job(job_id)
         if rec is None:
             raise ValueError(f"there is no job {job_id}; `runtrue jobs list` shows the jobs")
+        if rec.options.get("amplitude_only") and cls is BalanceJob:
+            from runtrue.jobs.four_run_job import AmplitudeOnlyJob
+
+            return AmplitudeOnlyJob.resume(store, job_id)
         job = cls(store, job_id, rec.machine, rec.options)
         job._replaying = True
         runs = store.runs(job_id)
@@ -582,9 +615,9 @@ class BalanceJob:
             if self.state.message not in self.state.warnings:
                 self.state.warnings.append(self.state.message)
 
-    def _advance(self, run: RunRecord) -> None:
+    def _check_speed(self, run: RunRecord) -> None:
+        """Warn when a run's speed differs from the reference run's or the machine's."""
         s = self.state
-        s.message = ""
         ref_speed = self.runs[0].reading.speed_rpm
         speed = run.reading.speed_rpm
         if ref_speed > 0 and abs(speed - ref_speed) > SPEED_TOLERANCE * ref_speed:
@@ -597,6 +630,11 @@ class BalanceJob:
                 f"The reference run was at {speed:.0f} rpm, not the {self.machine.speed_rpm:g} rpm given for the machine; "
                 "the grade is checked at the machine's running speed."
             )
+
+    def _advance(self, run: RunRecord) -> None:
+        s = self.state
+        s.message = ""
+        self._check_speed(run)
         if run.kind == "reference":
             if self.options.get("use_stored_influence") and self.machine.influence is not None:
                 self._influence = [list(r) for r in self.machine.influence.coefficients]

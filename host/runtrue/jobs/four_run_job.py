@@ -1,0 +1,499 @@
+"""Amplitude-only balancing as a job: the four-run method, for machines with no usable reference mark.
+
+Method: the four-run method (a reference run, then one trial weight moved to three angles,
+classically 0°, 120° and 240°) as taught in field balancing texts, e.g. Wowk, *Machinery
+Vibration: Balancing*, McGraw-Hill 1995, "balancing without phase" (from memory).  The maths is
+``runtrue.balancing.four_run.amplitude_only``: linear least squares on the squared amplitudes,
+which accepts any trial angles (three or more), so on a rotor with fixed holes the three
+positions closest to 0°/120°/240° are used at their true angles.
+
+What this module adds to the method, and why (our choices, stated to the user):
+
+* **Angles from a chalk mark.**  There is no reference mark, so the user marks any point of the
+  rotor as 0° and measures every angle from it against rotation.  The method needs only that all
+  angles of a job are measured from the same point in the same sense (its amplitudes do not
+  change if every angle is mirrored), so the weight angles convention of the rest of runtrue holds.
+* **Only amplitudes are used.**  A meter's reading may carry a phase; it is ignored (a reading
+  typed in with amplitudes only has phase ``None`` and works the same).
+* **Grade check without phase.**  The residual unbalance is estimated as
+  ``U_res ≈ amplitude / |H|`` with ``|H|`` the influence magnitude the four-run solution finds
+  (g per g·mm) on the pickup the cycle used; it is an estimate without phase (it cannot tell the
+  unbalance from other 1× vibration), and its 95 % uncertainty is the reading's confidence
+  radius over ``|H|``.  Passed means estimate plus uncertainty within the permissible value,
+  as in the phase method.
+* **Trims.**  Trim runs by the amplitude-only method are not standard.  When the check run after
+  the correction does not pass, the job says so and offers another four-run cycle starting from
+  the corrected state: the check run is that cycle's reference run, the correction weights stay
+  on, and the trial weight (sized from the estimated residual) goes to three angles again.  The
+  user may stop instead.  ``max_trim_runs`` limits these extra cycles.
+* **Weak trial.**  When the trial's effect (``|H|`` times the trial unbalance) is under the
+  engine's ``MIN_TRIAL_EFFECT_FRACTION`` of the cycle's reference amplitude, the solution is
+  poorly defined: the job asks for the three trial runs again with a larger trial weight (the
+  runs already taken stay in the solution), or the user accepts the weak trial.
+
+Run kinds stay those of every job: ``reference``, ``trial`` (three per cycle), ``correction``
+(the check run of cycle 1) and ``trim`` (the check run of each later cycle).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunRecord, Weight
+from runtrue.jobs.store import JobStore
+from runtrue.jobs.workflow import (
+    DEFAULT_MAX_TRIM_RUNS,
+    STANDARD,
+    BalanceJob,
+    ChannelResult,
+    CorrectionPlan,
+    JobResult,
+    TrialCheck,
+    _plane_sums,
+)
+
+METHOD = "four-run"
+#: The classic trial angles of the four-run method (degrees from the chalk mark).
+CLASSIC_TRIAL_ANGLES_DEG = (0.0, 120.0, 240.0)
+#: A later cycle's trial unbalance, as a multiple of the estimated residual unbalance: large
+#: enough that the trial, not the reading's scatter, sets the amplitudes (our choice).
+LATER_TRIAL_MULTIPLE = 2.0
+#: When the amplitudes cannot be solved at all, the trial weight is made this much larger (our choice).
+UNSOLVED_TRIAL_SCALE = 3.0
+
+PHASE_NOT_USED = (
+    "Amplitude-only balancing (four-run method): only the 1x amplitude of each run is used; "
+    "a phase shown by the meter is ignored."
+)
+
+
+def three_trial_angles_deg(machine: Machine, plane: int, first_deg: float) -> list[float]:
+    """The three trial angles of a cycle: ``first_deg`` and the usable positions closest to
+    ``first_deg + 120°`` and ``+ 240°`` (exactly those in a groove).  ValueError when the plane
+    has fewer than three usable positions."""
+    spec = machine.planes[plane - 1]
+    angles = spec.position_angles_deg()
+    if angles is None:
+        return [(first_deg + a) % 360.0 for a in CLASSIC_TRIAL_ANGLES_DEG]
+    usable = [a % 360.0 for n, a in enumerate(angles, start=1) if n not in spec.excluded]
+    if len(usable) < 3:
+        raise ValueError(
+            f"plane {plane} has {len(usable)} usable position(s); the four-run method needs the trial "
+            "weight at three different angles: free more positions"
+        )
+    chosen = [first_deg % 360.0]
+    for target in CLASSIC_TRIAL_ANGLES_DEG[1:]:
+        want = (first_deg + target) % 360.0
+        left = [a for a in usable if all(_ang_dist(a, c) > 1e-6 for c in chosen)]
+        chosen.append(min(left, key=lambda a: (_ang_dist(a, want), a)))
+    return chosen
+
+
+def _ang_dist(a: float, b: float) -> float:
+    return abs((a - b + 180.0) % 360.0 - 180.0)
+
+
+class AmplitudeOnlyJob(BalanceJob):
+    """A :class:`BalanceJob` by the four-run method (one plane, amplitudes only).
+
+    Create it with ``BalanceJob.start(store, machine, amplitude_only=True)``; ``BalanceJob.resume``
+    returns one for a job started so.  The public API is that of :class:`BalanceJob`; the state
+    also has ``method == "four-run"``, ``cycle``, ``trial_number`` and ``trial_angles_deg``.
+    """
+
+    def __init__(self, store: JobStore, job_id: int, machine: Machine, options: dict[str, Any]) -> None:
+        self._cycle_base = 0  # index in self.runs of the current cycle's reference run
+        self._checks: dict[int, tuple[int, float]] = {}  # check run seq -> (pickup index, |H|)
+        self._user_trial: tuple[int, Weight] | None = None  # (cycle, trial chosen by the user)
+        super().__init__(store, job_id, machine, options)
+        self.state.method = METHOD
+
+    @classmethod
+    def start_new(
+        cls,
+        store: JobStore,
+        machine: Machine,
+        *,
+        trial_removed: bool = True,
+        use_stored_influence: bool | None = None,
+        max_trim_runs: int = DEFAULT_MAX_TRIM_RUNS,
+    ) -> AmplitudeOnlyJob:
+        if machine.n_planes != 1:
+            raise ValueError(
+                f"amplitude-only (four-run) balancing corrects one plane, but {machine.name!r} has "
+                f"{machine.n_planes} correction planes: use the phase method with a reference mark, "
+                "or describe the machine with one plane"
+            )
+        if use_stored_influence:
+            raise ValueError(
+                "stored influence coefficients hold phase, which the amplitude-only method cannot use: "
+                "start the amplitude-only job without them"
+            )
+        if not trial_removed:
+            raise ValueError("in the four-run method the trial weight is moved and then taken off; it cannot be left on")
+        options = {
+            "trial_removed": True,
+            "use_stored_influence": False,
+            "max_trim_runs": int(max_trim_runs),
+            "amplitude_only": True,
+            "method": METHOD,
+        }
+        job_id = store.new_job(machine, options)
+        return cls(store, job_id, machine, options)
+
+    # -- what the user sees ----------------------------------------------------------------------
+    def instructions(self) -> list[str]:
+        s, m = self.state, self.machine
+        speed = f"{m.speed_rpm:g} rpm"
+        out: list[str] = [PHASE_NOT_USED]
+        if s.step == "reference":
+            if s.message:
+                out.append(s.message)
+            out += [
+                "Chalk or paint a mark on the rotor and call it 0°: any point will do"
+                + self._holes_words()
+                + ". Every angle in this job is measured from that mark, against the direction of rotation.",
+                f"Reference run: run {m.name} at its working speed ({speed}) as found, with no weights added.",
+                "Stand clear of the plane of rotation when starting up; never exceed the rated speed.",
+                "Take the reading (amplitude) when it has settled.",
+                ANGLE_CONVENTION,
+            ]
+            return out
+        if s.step == "trial":
+            t = s.trial
+            assert t is not None and s.trial_number is not None
+            if s.message:
+                out.append(s.message)
+            k = s.trial_number
+            out.append(f"Four-run cycle {s.cycle}, trial run {k} of 3: stop the machine and lock it out.")
+            if s.cycle > 1 and k == 1:
+                out.append(
+                    "This cycle starts from the corrected rotor: leave the correction weights where they are; "
+                    "the last check run is this cycle's reference run."
+                )
+            where = self._where(t)
+            if k == 1:
+                out.append(
+                    f"Fit the trial weight: {t.mass_g:.3g} g at {where}, radius {t.radius_mm:g} mm, "
+                    "measured from the chalk mark against rotation."
+                )
+            else:
+                prev = s.trial_angles_deg[k - 2]
+                out.append(
+                    f"Move the same trial weight ({t.mass_g:.3g} g) from {prev:.1f}° to {where}, "
+                    f"radius {t.radius_mm:g} mm."
+                )
+            out.append(
+                "The three trial angles of this cycle: " + ", ".join(f"{a:.1f}°" for a in s.trial_angles_deg)
+                + " (the positions closest to 0°, 120° and 240° from the first one)."
+            )
+            out.append(m.angle_direction_words())
+            out.append(f"Secure it for {self._force_n(t):.0f} N at {speed}.")
+            out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
+            out.append(ANGLE_CONVENTION)
+            return out
+        base = super().instructions()
+        if s.step in ("correction", "trim"):
+            out.append(f"Correction from four-run cycle {s.cycle} (amplitudes only).")
+            out += base
+            out.insert(
+                len(out) - 1,
+                "This run checks the correction: the residual unbalance is estimated from its amplitude.",
+            )
+            return out
+        r = self.result()
+        if r.residual_unbalance_gmm:
+            out.append(
+                f"Residual unbalance ≈ {r.residual_unbalance_gmm[0]:.3g} g·mm, estimated from the amplitude and the "
+                f"four-run influence magnitude (no phase); permissible {r.permissible_unbalance_gmm[0]:.3g} g·mm."
+            )
+        return out + base
+
+    def set_trial(self, mass_g: float, angle_deg: float, radius_mm: float | None = None) -> Weight:
+        """Use this trial weight (mass, first angle from the chalk mark, radius) for the cycle;
+        only before its first trial run (the three angles follow from the first)."""
+        if self.state.step == "trial" and self.state.trial_number != 1:
+            raise ValueError("the trial weight can be changed only before the first trial run of a cycle")
+        return super().set_trial(mass_g, angle_deg, radius_mm)
+
+    # -- results ---------------------------------------------------------------------------------
+    def result(self) -> JobResult:
+        res = super().result()
+        ref = next((r for r in self.runs if r.kind == "reference"), None)
+        check = next((r for r in reversed(self.runs) if r.kind in ("correction", "trim")), None)
+        chans = []
+        for i, p in enumerate(self.machine.pickups):
+            before = complex(ref.reading.channels[i].amp_g, 0.0) if ref else 0j
+            after = complex(check.reading.channels[i].amp_g, 0.0) if check else None
+            chans.append(ChannelResult(p.label, before, after))
+        residual = unc = None
+        passed: bool | None = None
+        h_mag: float | None = None
+        if check is not None and check.seq in self._checks:
+            pick, h_mag = self._checks[check.seq]
+            residual, unc, passed = self._estimate(check, pick, h_mag)
+        res.channels = chans
+        res.residual_unbalance_gmm = residual
+        res.residual_uncertainty_gmm = unc
+        res.passed = passed
+        res.influence = None  # |H| only: never a coefficient to store or reuse
+        res.influence_magnitude = h_mag
+        res.method = METHOD
+        return res
+
+    # -- internals -------------------------------------------------------------------------------
+    def _holes_words(self) -> str:
+        spec = self.machine.planes[0]
+        if spec.position_angles_deg() is None:
+            return ""
+        first = (spec.position_angles_deg() or [0.0])[0]
+        return (
+            f" (with numbered positions, put it where they are counted from, so that position 1 is at "
+            f"{first:g}° from it)"
+        )
+
+    def _where(self, t: Weight) -> str:
+        from runtrue.jobs.workflow import _position_number
+
+        pos = _position_number(self.machine, 1, t.angle_deg)
+        return f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
+
+    def _estimate(self, run: RunRecord, pick: int, h_mag: float) -> tuple[list[float], list[float], bool]:
+        ch = run.reading.channels[pick]
+        residual = ch.amp_g / h_mag
+        conf = ch.confidence_g if math.isfinite(ch.confidence_g) else 0.0
+        unc = conf / h_mag
+        perm = float(list(self._tolerance.per_plane_gmm)[0])
+        return [residual], [unc], residual + unc <= perm
+
+    def _cycle_solution(self, base: int, end: int) -> tuple[Any, int]:
+        """The four-run solution from runs ``base`` (the cycle's reference) up to ``end`` and the
+        pickup it uses (the largest reference amplitude).  Amplitudes only; trial unbalance
+        relative to the cycle's reference run."""
+        from runtrue.balancing.four_run import amplitude_only
+
+        runs = self.runs[base:end]
+        ref = runs[0]
+        amps0 = [c.amp_g for c in ref.reading.channels]
+        pick = max(range(len(amps0)), key=lambda i: amps0[i])
+        u0 = _plane_sums(ref.weights).get(1, 0j)
+        trials = [_plane_sums(r.weights).get(1, 0j) - u0 for r in runs]
+        amps = [r.reading.channels[pick].amp_g for r in runs]
+        sol = amplitude_only(amps, trials, self.machine.planes[0].radius_mm, plane=1)
+        if self.machine.n_pickups > 1:
+            sol.warnings.insert(
+                0,
+                f"Amplitude-only method: pickup {pick + 1} ({self.machine.pickups[pick].label}), which has the "
+                "largest reference amplitude in this cycle, is used; the others are not.",
+            )
+        return sol, pick
+
+    def _advance(self, run: RunRecord) -> None:
+        s = self.state
+        s.message = ""
+        self._check_speed(run)
+        if run.kind == "reference":
+            self._start_cycle(len(self.runs) - 1, 1)
+            return
+        if run.kind == "trial":
+            k = s.trial_number or 1
+            if k < 3:
+                self._set_trial_number(k + 1)
+            else:
+                self._check_cycle()
+            return
+        # The check run after a correction.
+        base = self._cycle_base
+        sol, pick = self._cycle_solution(base, len(self.runs) - 1)
+        h_mag = float(abs(sol.influence[0, 0]))
+        residual, unc, passed = self._estimate(run, pick, h_mag)
+        if run.kind == "trim":
+            s.trims_done += 1
+        self._checks[run.seq] = (pick, h_mag)
+        if not self._replaying:
+            self.store.save_result(self.job_id, self.result().to_dict())
+        if passed:
+            self._finish("passed", "")
+            return
+        perm = float(list(self._tolerance.per_plane_gmm)[0])
+        if s.trims_done >= int(self.options.get("max_trim_runs", DEFAULT_MAX_TRIM_RUNS)):
+            self._finish(
+                "stopped",
+                f"four-run cycle limit reached ({1 + s.trims_done} cycles) before the grade was met",
+            )
+            return
+        self._start_cycle(len(self.runs) - 1, s.cycle + 1)
+        s.message = (
+            f"Check run: residual unbalance ≈ {residual[0]:.3g} g·mm ± {unc[0]:.2g} (estimated from the "
+            f"amplitude and |H| = {h_mag:.3g} g per g·mm, without phase), {residual[0] / perm:.1f} times the "
+            f"permissible {perm:.3g} g·mm: not passed. Trimming by the amplitude-only method is not standard; "
+            "another four-run cycle starts from the corrected state (this run is its reference), or stop the job here."
+        )
+
+    def _start_cycle(self, base: int, cycle: int, scale: float = 1.0, previous: Weight | None = None) -> None:
+        """Enter trial 1 of a cycle whose reference run is ``self.runs[base]``.  Everything is
+        worked out first and assigned last, so a refusal (ValueError) changes nothing."""
+        from runtrue.balancing import suggest_trial_weight
+
+        from runtrue.jobs import fitting
+
+        m = self.machine
+        spec = m.planes[0]
+        ref = self.runs[base]
+        message = ""
+        user = self._user_trial[1] if self._user_trial and self._user_trial[0] == cycle and previous is None else None
+        if user is not None:
+            mass, angle = user.mass_g, user.angle_deg
+        elif previous is not None:
+            mass, angle = previous.mass_g * scale, previous.angle_deg
+        elif cycle > 1 and self._checks:
+            pick, h_mag = self._checks[ref.seq] if ref.seq in self._checks else next(reversed(self._checks.values()))
+            first = next((w for r in self.runs for w in r.weights if self._is_trial(w)), None)
+            u_est = ref.reading.channels[pick].amp_g / h_mag
+            perm = float(list(self._tolerance.per_plane_gmm)[0])
+            target_gmm = max(LATER_TRIAL_MULTIPLE * u_est, perm)
+            if first is not None:
+                target_gmm = min(target_gmm, abs(first.unbalance_gmm))
+            mass, angle = target_gmm / spec.radius_mm, None
+            message = (
+                f"Trial weight sized at {LATER_TRIAL_MULTIPLE:g} times the estimated residual unbalance "
+                f"({u_est:.3g} g·mm)."
+            )
+        else:
+            sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=1)
+            mass, angle = float(sug.mass_g), None
+            message = str(getattr(sug, "rule", ""))
+        staying = [w for w in ref.weights if not self._is_trial(w)]
+        if user is not None:
+            trial = Weight(1, user.mass_g, user.angle_deg, user.radius_mm, "trial weight, plane 1")
+        else:
+            trial = fitting.trial_weight(
+                m, 1, mass, angle, [p for w in staying for p in w.pieces], at_least=previous is not None
+            )
+        angles = three_trial_angles_deg(m, 1, trial.angle_deg)
+        s = self.state
+        self._cycle_base = base
+        s.step = "trial"
+        s.plane = 1
+        s.plan = None
+        s.cycle = cycle
+        s.trial_number = 1
+        s.trial_angles_deg = angles
+        s.trial = trial
+        if message:
+            s.message = message
+
+    def _set_trial_number(self, k: int) -> None:
+        s = self.state
+        assert s.trial is not None
+        t = s.trial
+        s.trial_number = k
+        s.trial = Weight(t.plane, t.mass_g, s.trial_angles_deg[k - 1], t.radius_mm, t.label, t.pieces)
+
+    def _check_cycle(self) -> None:
+        """After the third trial run: is the trial's effect big enough?  Then the correction."""
+        from runtrue.balancing import BalancingError
+        from runtrue.balancing.four_run import MIN_TRIAL_EFFECT_FRACTION
+
+        s = self.state
+        base = self._cycle_base
+        try:
+            sol, pick = self._cycle_solution(base, len(self.runs))
+        except BalancingError as exc:
+            # Typically a trial too small for the readings' scatter: ask for a larger one.
+            s.last_trial_check = TrialCheck(1, False, 0.0, str(exc), UNSOLVED_TRIAL_SCALE)
+            self._start_cycle(base, s.cycle, UNSOLVED_TRIAL_SCALE, s.trial)
+            s.message = (
+                f"The four-run solution failed ({exc}). Take the three trial runs again with this larger "
+                "trial weight (the runs already taken are kept in the solution)."
+            )
+            return
+        h_mag = float(abs(sol.influence[0, 0]))
+        v0 = self.runs[base].reading.channels[pick].amp_g
+        u0 = _plane_sums(self.runs[base].weights).get(1, 0j)
+        t_max = max(abs(_plane_sums(r.weights).get(1, 0j) - u0) for r in self.runs[base:])
+        ratio = h_mag * t_max / v0 if v0 > 0 else math.inf
+        ok = ratio >= MIN_TRIAL_EFFECT_FRACTION
+        scale = MIN_TRIAL_EFFECT_FRACTION / ratio if ratio > 0 else 4.0
+        msg = (
+            f"the trial weight changed the amplitude by about {ratio:.0%} of the cycle's reference amplitude"
+            f" (at least {MIN_TRIAL_EFFECT_FRACTION:.0%} is needed)"
+        )
+        s.last_trial_check = TrialCheck(1, ok, float(ratio), msg, float(scale))
+        if ok:
+            self._after_trial_accepted(1)
+            return
+        prev = s.trial
+        self._start_cycle(base, s.cycle, max(scale * 1.2, 1.5), prev)
+        s.message = (
+            f"The trial weight was too small to trust: {msg}. Take the three trial runs again with this larger "
+            "trial weight (the runs already taken are kept in the solution), or accept the weak trial."
+        )
+
+    def _after_trial_accepted(self, plane: int) -> None:
+        self._enter_correction("correction" if self.state.cycle <= 1 else "trim")
+
+    def _apply_event(self, kind: str, data: dict[str, Any]) -> None:
+        s = self.state
+        if kind == "trial_set":
+            w = Weight(1, float(data["mass_g"]), float(data["angle_deg"]), float(data["radius_mm"]), "trial weight, plane 1")
+            if s.step != "trial":
+                return
+            angles = three_trial_angles_deg(self.machine, 1, w.angle_deg)
+            self._user_trial = (s.cycle, w)
+            s.trial_number = 1
+            s.trial_angles_deg = angles
+            s.trial = w
+            s.message = "Trial weight chosen by the user."
+            return
+        if kind == "trial_accepted":
+            chk = s.last_trial_check
+            if chk is not None:
+                s.last_trial_check = TrialCheck(chk.plane, chk.ok, chk.ratio, chk.message, chk.suggested_scale, True)
+                s.warnings.append(f"Plane 1: trial effect small ({chk.message}); accepted by the user.")
+            self._guarded(lambda: self._after_trial_accepted(1), "The trial runs cannot be used")
+            return
+        super()._apply_event(kind, data)
+
+    def _enter_correction(self, kind: str) -> None:
+        from runtrue.jobs import fitting
+
+        s = self.state
+        if self._replaying:
+            s.step = kind
+            s.plane = None
+            s.trial = None
+            s.trial_number = None
+            s.plan = None
+            self._plan_pending = kind
+            return
+        sol, _pick = self._cycle_solution(self._cycle_base, len(self.runs))
+        on = list(self.runs[-1].weights)
+        remove = [w for w in on if self._is_trial(w)]
+        now = [w for w in on if w not in remove]
+        correction_gmm = complex(sol.corrections[0].unbalance_gmm)
+        pc = fitting.plan_plane(
+            self.machine, 1, correction_gmm, kind, s.trims_done + 1, self._plane_permissible(1),
+            [p for w in now for p in w.pieces],
+        )
+        self._plan_pending = None
+        s.step = kind
+        s.plane = None
+        s.trial = None
+        s.trial_number = None
+        s.plan = CorrectionPlan(
+            kind=kind,
+            remove=remove,
+            planes=[pc],
+            predicted=list(sol.predicted),
+            method=METHOD,
+            condition_number=1.0,
+            warnings=list(sol.warnings) + list(pc.warnings),
+        )
+        for text in s.plan.warnings:
+            if text not in s.warnings:
+                s.warnings.append(text)
+
+
+__all__ = ["AmplitudeOnlyJob", "METHOD", "PHASE_NOT_USED", "STANDARD", "three_trial_angles_deg"]
