@@ -101,6 +101,8 @@ class RuntrueApp(App):
         s.port = port
         s.device_info = {}
         s.self_test = None
+        s.live.reset(min_epoch=0)  # a new link counts its epochs from 0
+        self._fitter = None
         if port == MANUAL_PORT:
             s.meter_state = "manual entry"
         else:
