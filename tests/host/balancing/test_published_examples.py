@@ -5,10 +5,11 @@ each source, what could and could not be read of it, and the conversion.  Honest
 
 * ISO grade and API-style limit: a published worked example WITH its printed answers
   (Energy-Tech magazine, see ``ENERGY_TECH``).  The tolerance is the source's printed precision.
-* Single plane: a published problem statement (an examination question on the textbook vector
-  method, ``EXAM_SINGLE_PLANE``) whose printed answer was not available, and Rao's Example 9.1
-  data (from memory).  Both are checked against an independent hand computation by the
-  textbook's own graphical method (law of cosines), not against a printed answer.
+* Single plane: McMillan's worked example (``MCMILLAN_5``) WITH its printed answer for the
+  angle (79 deg, by protractor; exact 77.0 deg); a published problem statement (an examination
+  question, ``EXAM_SINGLE_PLANE``) whose printed answer was not available; and Rao's Example 9.1
+  data (from memory).  All are also checked against an independent hand computation by the
+  textbook's own graphical method (law of cosines).
 * Two planes: Rao's Example 9.2 data (from memory) and Tiwari's NPTEL Example 13.5 (published
   data; the printed answer is an equation image that could not be read).  Checked against
   Cramer's rule written out by hand.
@@ -238,6 +239,40 @@ def test_single_plane_exam_problem_matches_the_graphical_method() -> None:
     assert angle_diff_deg(c.angle_deg, cw(13.3)) < 0.05
     # The correction cancels the original reading in a linear machine.
     assert abs(sol.predicted[0]) < 1e-12
+
+
+# MCMILLAN_5 -- R. B. McMillan, *Rotating Machinery: Practical Solutions to Unbalance and
+# Misalignment*, The Fairmont Press / Marcel Dekker, 2004, ch. 5 "Field Balancing", pp. 71-73
+# (stored pages: https://digilib.universitaspertamina.ac.id/ebook/Rotating%20Machinery%20:%20Practical%20Solutions%20to%20Unbalance%20and%20Misalignment/files/basic-html/page71.html
+# and .../page73.html).  A published worked example WITH a printed answer for the angle:
+#   original O = 3.5 mils @ 60 deg; with a 5 oz trial weight O + T = 5.0 mils @ 120 deg (p. 71,
+#   Figure 5-2).  "This angle alpha was measured to be 79 degrees. ... the reference mark shifted
+#   from 60 degrees to 120 degrees in a clockwise direction. Remember, the weight is moved opposite
+#   the reference shift direction, so the correction weight must be added 79 degrees
+#   counterclockwise from the position of the trial weight." (p. 73)
+# The correction mass is on p. 72, which could not be read; it is checked against the hand
+# computation only (5 oz * 3.5 / |T| = 3.94 oz).
+# Conversion: the book's readings are the angles at which the reference mark is seen, increasing
+# clockwise, and a weight moved one way moves the reading the other way.  So a weight turned
+# counterclockwise by theta turns the reading by +theta in the book's (clockwise) scale -- our
+# rule with: reading phase = the printed angle, weight angle = degrees counterclockwise from the
+# trial weight (the trial weight sits at 0; the book measures the answer from it, not from the
+# mark).  Tolerance: the printed 79 deg was measured with a protractor on a 1/2-mil-per-division
+# polar plot (the book itself warns about scale and pencil thickness, p. 105); the exact triangle
+# gives 77.0 deg, so the printed value is checked to +/- 3 deg and the exact value tightly.
+
+
+def test_single_plane_mcmillan_example_matches_the_printed_angle() -> None:
+    runs = _single_plane_runs((3.5, 60.0), (5.0, 120.0), oz_to_g(5), 0.0, 1.0)
+    (c,) = solve(runs).corrections
+    # Printed: 79 deg counterclockwise from the trial weight (McMillan 2004, p. 73), by protractor.
+    assert angle_diff_deg(c.angle_deg, 79.0) <= 3.0
+    # Exact, by the law of cosines (the book's own alternative, p. 73 "LAW OF SINE"):
+    mass_oz, angle = hand_single_plane(3.5, 60.0, 5.0, 120.0, 5.0, 0.0)
+    assert angle_diff_deg(c.angle_deg, angle) < 1e-6 and angle_diff_deg(angle, 77.0) < 0.05
+    # Correction Weight = Trial Weight x O/T (the book's Eq. 6.2 form, p. 107): 5 * 3.5 / 4.44.
+    assert g_to_oz(c.mass_g) == pytest.approx(mass_oz, rel=1e-9)
+    assert g_to_oz(c.mass_g) == pytest.approx(3.94, abs=0.005)
 
 
 # RAO_9_1 -- S. S. Rao, *Mechanical Vibrations*, 5th ed. (Prentice Hall, 2011), sec. 9.2.1,
