@@ -120,3 +120,56 @@ def test_without_auto_the_application_opens_on_the_simulator(monkeypatch: pytest
     monkeypatch.setitem(sys.modules, "runtrue.tui", types.SimpleNamespace(make_app=make_app))
     assert main(["demo", "--scenario", "sander", "--seed", "5"]) == 0
     assert calls == [("sim:sander", 5), ("run", None)]
+
+
+# -- amplitude-only (four-run) method: `--no-phase` ------------------------------------------------
+# Method: the four-run method (reference run, one trial weight at three angles, amplitudes only),
+# as taught in field balancing texts, e.g. Wowk, *Machinery Vibration: Balancing*, McGraw-Hill
+# 1995, "balancing without phase" (from memory); engine: runtrue.balancing.four_run.
+
+
+@pytest.mark.parametrize("seed", [1, 2])
+@pytest.mark.parametrize("scenario", ["fan", "spindle"])
+def test_no_phase_demo_balances_one_plane_scenarios_by_amplitude_only(
+    capsys: pytest.CaptureFixture[str], scenario: str, seed: int
+) -> None:
+    d = demo_json(capsys, "--no-phase", "--scenario", scenario, "--seed", str(seed))
+    for key, kind in CONTRACT_KEYS.items():
+        assert isinstance(d[key], kind), key
+    assert d["method"] == "four-run"
+    sc = SCENARIOS[scenario]
+    assert d["grade"] == f"G{sc.grade:g}"
+    assert d["passed"] is True
+    assert all(f < i for f, i in zip(d["final"], d["initial"])), "vibration must drop"
+    # The weights were fitted by geometry, so the simulator's own figure is the proof.
+    assert all(t <= p for t, p in zip(d["true_residual_unbalance_gmm"], d["permissible_unbalance_gmm"]))
+    assert all(r <= p for r, p in zip(d["residual_unbalance_gmm"], d["permissible_unbalance_gmm"]))
+    kinds = d["run_kinds"]
+    assert kinds[:4] == ["reference", "trial", "trial", "trial"] and kinds[-1] in ("correction", "trim")
+    assert d["runs"] <= d["max_runs"]
+
+
+def test_no_phase_job_never_sees_a_phase(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    from runtrue.jobs import JobStore
+
+    db = tmp_path / "demo.sqlite"
+    d = demo_json(capsys, "--no-phase", "--scenario", "fan", "--seed", "1", "--db", str(db))
+    with JobStore(db) as store:
+        runs = store.runs(d["job_id"])
+        assert runs and all(not r.reading.has_phase for r in runs)
+        assert all(c.mean.imag == 0.0 for r in runs for c in r.reading.channels)
+        rec = store.get_job(d["job_id"])
+        assert rec is not None and rec.options["method"] == "four-run" and rec.status == "passed"
+
+
+@pytest.mark.parametrize(
+    "argv, message",
+    [
+        (["demo", "--auto", "--json", "--no-phase", "--scenario", "roller"], "one plane"),
+        (["demo", "--no-phase"], "go with --auto"),
+    ],
+)
+def test_no_phase_bad_options_get_one_clear_line(capsys: pytest.CaptureFixture[str], argv: list[str], message: str) -> None:
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert message in err and len(err.strip().splitlines()) == 1 and "Traceback" not in err

@@ -47,7 +47,7 @@ def runs_csv(store: JobStore, job_id: int) -> str:
             w.writerow([
                 job_id, run.seq, run.kind, run.taken_at, f"{rd.speed_rpm:.2f}", f"{rd.speed_sd_rpm:.2f}",
                 rd.n_revs, rd.source, i + 1, labels[i] if i < len(labels) else "",
-                f"{ch.amp_g:.6g}", f"{ch.phase_deg:.2f}", f"{ch.spread_g:.6g}", f"{ch.confidence_g:.6g}",
+                f"{ch.amp_g:.6g}", f"{ch.phase_deg:.2f}" if rd.has_phase else "", f"{ch.spread_g:.6g}", f"{ch.confidence_g:.6g}",
                 weights_text(run.weights),
             ])
     return buf.getvalue()
@@ -67,7 +67,7 @@ def job_json(store: JobStore, job_id: int) -> dict[str, Any]:
             "n_revs": run.reading.n_revs,
             "source": run.reading.source,
             "channels": [
-                {"pickup": i + 1, "amp_g": ch.amp_g, "phase_deg": ch.phase_deg, "spread_g": ch.spread_g,
+                {"pickup": i + 1, "amp_g": ch.amp_g, "phase_deg": ch.phase_deg if run.reading.has_phase else None, "spread_g": ch.spread_g,
                  "confidence_g": ch.confidence_g}
                 for i, ch in enumerate(run.reading.channels)
             ],
@@ -88,6 +88,7 @@ def job_json(store: JobStore, job_id: int) -> dict[str, Any]:
         "job": {
             "id": rec.id, "status": rec.status, "started_at": rec.started_at,
             "finished_at": rec.finished_at, "options": rec.options,
+            "method": str(rec.options.get("method", "influence-coefficient")),
         },
         "machine": rec.machine.to_dict(),
         "runs": runs,

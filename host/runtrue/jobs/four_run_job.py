@@ -460,14 +460,8 @@ class AmplitudeOnlyJob(BalanceJob):
         from runtrue.jobs import fitting
 
         s = self.state
-        if self._replaying:
-            s.step = kind
-            s.plane = None
-            s.trial = None
-            s.trial_number = None
-            s.plan = None
-            self._plan_pending = kind
-            return
+        # Worked out in full even while a resume replays the runs (unlike the phase method, which
+        # defers it): a four-run job has few cycles, and its warnings then survive a resume.
         sol, _pick = self._cycle_solution(self._cycle_base, len(self.runs))
         on = list(self.runs[-1].weights)
         remove = [w for w in on if self._is_trial(w)]

@@ -3,7 +3,9 @@
 Contents: machine, dates, the conventions used, before/after 1x per pickup, a polar diagram of
 every run (inline SVG), the weights fitted with the centrifugal force each must withstand, the
 grade check against ISO 21940-11 (balance quality grade -> permissible residual unbalance), the
-run log, warnings and the safety cautions.  No scripts, no external files: it prints as it shows.
+run log, warnings and the safety cautions.  The method is stated; an amplitude-only (four-run)
+job shows amplitudes only (no phase, no polar diagram) and says its residual is an estimate
+without phase.  No scripts, no external files: it prints as it shows.
 """
 
 from __future__ import annotations
@@ -131,6 +133,13 @@ def render_html(store: JobStore, job_id: int) -> str:
     m = job.machine
     runs = job.runs
     cls, verdict = _verdict(res)
+    no_phase = res.method == "four-run"
+    if no_phase:
+        method = ("Method: amplitude-only balancing (four-run method: a reference run and one trial weight "
+                  "at three angles per cycle); no reference mark, phase not used.")
+    else:
+        method = ("Method: influence-coefficient balancing with trial weights (least squares over every run), "
+                  "1x amplitude and phase from a reference mark.")
     out: list[str] = [
         "<!DOCTYPE html>",
         '<html lang="en"><head><meta charset="utf-8">',
@@ -140,6 +149,7 @@ def render_html(store: JobStore, job_id: int) -> str:
         f'<p>Job {job_id}; started {_e(rec.started_at)}; finished {_e(rec.finished_at or "not finished")}; '
         f"report written {_e(now_iso())}.</p>",
         f'<p class="verdict {cls}" id="verdict">{_e(verdict)}</p>',
+        f'<p id="method">{_e(method)}</p>',
     ]
     # Machine
     out += [
@@ -162,7 +172,10 @@ def render_html(store: JobStore, job_id: int) -> str:
     out += [
         '<h2 id="conventions">Conventions</h2><ul>',
         "<li>Vibration: 1x (once per revolution) component, peak acceleration in g.</li>",
+        "<li>Phase: not used (amplitude-only method).</li>" if no_phase else
         "<li>Phase: lag in degrees of rotation after the reference mark, 0-360.</li>",
+        "<li>Weight angles: degrees from a mark chalked on the rotor as 0°, measured against the direction of "
+        "rotation.</li>" if no_phase else
         "<li>Weight angles: degrees from the reference mark, measured against the direction of rotation.</li>",
         f"<li>{_e(m.angle_direction_words())}</li>",
         "<li>Unbalance: mass x radius, g·mm.  Planes and pickups are numbered from 1.</li>",
@@ -183,15 +196,20 @@ def render_html(store: JobStore, job_id: int) -> str:
             aa, ap = _amp_phase(ch.after)
             av = abs(convert_1x(ch.after, "g", "mm/s", last_speed))
             red = f"{100.0 * (1 - aa / ba):.0f} %" if ba > 0 else "-"
-            after = f"<td>{aa:.4g}</td><td>{ap:.0f}°</td><td>{red}</td><td>{bv:.3g}</td><td>{av:.3g}</td>"
+            aps = "-" if no_phase else f"{ap:.0f}°"
+            after = f"<td>{aa:.4g}</td><td>{aps}</td><td>{red}</td><td>{bv:.3g}</td><td>{av:.3g}</td>"
         else:
             after = f"<td>-</td><td>-</td><td>-</td><td>{bv:.3g}</td><td>-</td>"
-        out.append(f'<tr><td class="l">{i}: {_e(ch.label)}</td><td>{ba:.4g}</td><td>{bp:.0f}°</td>{after}</tr>')
+        bps = "-" if no_phase else f"{bp:.0f}°"
+        out.append(f'<tr><td class="l">{i}: {_e(ch.label)}</td><td>{ba:.4g}</td><td>{bps}</td>{after}</tr>')
     out.append("</table>")
     out.append('<p class="note">Velocity (mm/s, 1x peak) is the acceleration integrated at the run\'s speed: '
                "v = a / ω.</p>")
     # Polar diagrams
-    if runs:
+    if runs and no_phase:
+        out.append('<h2 id="polar">Polar diagram</h2><p class="note">None: the amplitude-only method measures no '
+                   "phase; the amplitude of every run is in the run log below.</p>")
+    elif runs:
         out.append('<h2 id="polar">Polar diagram</h2>')
         for i, pk in enumerate(m.pickups):
             out.append(
@@ -224,12 +242,21 @@ def render_html(store: JobStore, job_id: int) -> str:
         else:
             out.append(f'<tr><td class="l">{i}</td><td>-</td><td>-</td><td>{perm:.4g}</td><td>-</td><td>-</td></tr>')
     out.append("</table>")
-    out.append(
-        '<p class="note">The residual unbalance is estimated from the last reading and the influence '
-        "coefficients fitted to every run of this job (least squares); ± is its 95 % uncertainty from the "
-        "reading's scatter. A plane passes when the residual plus that uncertainty is within the "
-        "permissible value.</p>"
-    )
+    if no_phase:
+        h = f" (|H| = {res.influence_magnitude:.4g} g per g·mm)" if res.influence_magnitude else ""
+        out.append(
+            '<p class="note">The residual unbalance is an estimate without phase: the last check run\'s amplitude '
+            f"divided by the influence magnitude |H| that its four-run cycle found{_e(h)}; it cannot tell "
+            "unbalance from other 1x vibration. ± is its 95 % uncertainty from the reading's scatter. The plane "
+            "passes when the residual plus that uncertainty is within the permissible value.</p>"
+        )
+    else:
+        out.append(
+            '<p class="note">The residual unbalance is estimated from the last reading and the influence '
+            "coefficients fitted to every run of this job (least squares); ± is its 95 % uncertainty from the "
+            "reading's scatter. A plane passes when the residual plus that uncertainty is within the "
+            "permissible value.</p>"
+        )
     # Weights fitted
     out += ['<h2 id="weights">Weights fitted</h2>']
     if res.weights_on:
@@ -251,12 +278,13 @@ def render_html(store: JobStore, job_id: int) -> str:
     out += ['<h2 id="runs">Runs</h2><table><tr><th>Run</th><th class="l">Kind</th><th class="l">Taken</th>'
             "<th>Speed (rpm)</th>"]
     for i in range(m.n_pickups):
-        out.append(f"<th>Pickup {i + 1} (g @ lag)</th>")
+        out.append(f"<th>Pickup {i + 1} (g)</th>" if no_phase else f"<th>Pickup {i + 1} (g @ lag)</th>")
     out.append('<th class="l">Weights on (relative to the reference run)</th></tr>')
     from runtrue.jobs.export import weights_text
 
     for run in runs:
         cells = "".join(
+            f"<td>{ch.amp_g:.4g} ± {ch.confidence_g:.2g}</td>" if no_phase else
             f"<td>{ch.amp_g:.4g} @ {ch.phase_deg:.0f}° ± {ch.confidence_g:.2g}</td>" for ch in run.reading.channels
         )
         out.append(
