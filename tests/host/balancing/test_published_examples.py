@@ -16,8 +16,10 @@ each source, what could and could not be read of it, and the conversion.  Honest
 * Least squares: no printed least-squares example could be consulted; Rao's Example 9.2 data
   with one plane and both pickups is solved by Goodman's least-squares correction and checked
   against its closed form.
-* Four-run (amplitude only): no published worked example could be consulted (see the .md file);
-  there is no test here for it.
+* Four-run (amplitude only): no published worked example could be consulted (see the .md file).
+  One DERIVED check ties the four-run solver to McMillan's published example: the amplitudes a
+  trial weight at 0, 120 and 240 deg would give are computed from McMillan's vectors (they are
+  not printed anywhere), and the four-run answer must equal the vector-method answer.
 
 Conventions (DEVELOPERS.md): a reading is ``amp * e^{+j*lag}``; a weight's angle is measured from
 the mark AGAINST rotation, so a weight moved by +theta moves its effect by +theta; corrections are
@@ -49,6 +51,7 @@ import pytest
 
 from runtrue.balancing import (
     Run,
+    four_run,
     Weight,
     api_limit_gmm,
     correction_from_influence,
@@ -273,6 +276,24 @@ def test_single_plane_mcmillan_example_matches_the_printed_angle() -> None:
     # Correction Weight = Trial Weight x O/T (the book's Eq. 6.2 form, p. 107): 5 * 3.5 / 4.44.
     assert g_to_oz(c.mass_g) == pytest.approx(mass_oz, rel=1e-9)
     assert g_to_oz(c.mass_g) == pytest.approx(3.94, abs=0.005)
+
+
+def test_four_run_on_amplitudes_derived_from_the_mcmillan_example() -> None:
+    # DERIVED, not a published four-run example: with McMillan's vectors (p. 71) the trial
+    # weight's effect is T = (O+T) - O for 5 oz at 0 deg; moved to 0, 120 and 240 deg it would
+    # give the amplitudes |O + T e^{j*theta}|.  Without any phase, the four-run method must find
+    # the same correction as the vector method (about 3.94 oz, 77.0 deg ccw from the trial
+    # position; printed 79 deg by protractor).
+    o = phasor(3.5, 60.0)
+    t = phasor(5.0, 120.0) - o
+    amps = [abs(o)] + [abs(o + t * cmath.exp(1j * math.radians(th))) for th in (0.0, 120.0, 240.0)]
+    sol = four_run(amps, oz_to_g(5), [0.0, 120.0, 240.0], 1.0)
+    (c,) = sol.corrections
+    mass_oz, angle = hand_single_plane(3.5, 60.0, 5.0, 120.0, 5.0, 0.0)
+    assert g_to_oz(c.mass_g) == pytest.approx(mass_oz, rel=1e-6)
+    assert angle_diff_deg(c.angle_deg, angle) < 1e-4
+    assert angle_diff_deg(c.angle_deg, 79.0) <= 3.0
+    assert sol.method == "four-run"
 
 
 # RAO_9_1 -- S. S. Rao, *Mechanical Vibrations*, 5th ed. (Prentice Hall, 2011), sec. 9.2.1,
