@@ -337,3 +337,22 @@ async def test_help_states_the_conventions_and_cautions() -> None:
         assert "against the" in text and "drive end" in text and "CONVENTIONS" in text
         await pilot.press("escape")
         assert screen_name(app) == "ConnectScreen"
+
+
+async def test_switching_meters_keeps_readings_flowing() -> None:
+    app = make_app("sim:fake", opener=fake_opener(), realtime=False, post_interval_s=0.05)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected")
+        first = app.session.link
+        await key(pilot, "l")
+        await wait_until(pilot, lambda: app.session.live.total_revs > 5, what="revolutions")
+        epoch = first.call(lambda client: None)  # a change on the first meter
+        await wait_until(pilot, lambda: first.epoch >= epoch, what="change applied")
+        await key(pilot, "escape")
+        app.use_port("sim:other")
+        assert app.session.link is not first
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="second meter")
+        before = app.session.live.total_revs
+        await key(pilot, "l")
+        await wait_until(pilot, lambda: app.session.live.total_revs > before + 5, what="revolutions again")
+        assert app.session.live.recent

@@ -185,7 +185,7 @@ class ConnectScreen(StepScreen):
             return
         from runtrue.tui.screens.live import LiveScreen
 
-        s.live.reset()
+        s.live.reset(s.link.latest_epoch)
         self.app.push_screen(LiveScreen("checking the sensors", can_take=False))
 
     def action_next(self) -> None:
