@@ -26,6 +26,7 @@ Data (``model``; cheap to import, no numpy)
         which are then not available for later steps)
     RunReading(speed_rpm, channels: tuple[ChannelValue, ...], speed_sd_rpm=0.0, n_revs=0, source="meter")
         RunReading.from_reading(runtrue.readings.Reading) ; RunReading.manual(amps, phases_deg, speed_rpm, spreads=None)
+            (phases_deg=None: amplitudes only, source AMPLITUDE_ONLY_SOURCE) ; .has_phase ; .amplitudes_only()
     ChannelValue(mean: complex, spread_g=0.0, confidence_g=0.0, h2=None, rms_g=None)  .amp_g, .phase_deg
     RunRecord(job_id, seq, kind, taken_at, reading: RunReading, weights: tuple[Weight, ...], note="", id=None)
     ANGLE_CONVENTION: str (the sentence to show)
@@ -47,7 +48,11 @@ Store (``store``)
     default_db_path() -> Path
 
 Workflow (``workflow``; imports numpy and the engine lazily)
-    BalanceJob.start(store, machine, *, trial_removed=True, use_stored_influence=None, max_trim_runs=5)
+    BalanceJob.start(store, machine, *, trial_removed=True, use_stored_influence=None, max_trim_runs=5,
+                     amplitude_only=False)
+        amplitude_only=True: the four-run method without phase (``four_run_job.AmplitudeOnlyJob``, a
+        BalanceJob with the same API); one plane only (ValueError otherwise); readings' phase ignored;
+        max_trim_runs limits the extra four-run cycles; BalanceJob.resume returns one for such a job.
     BalanceJob.resume(store, job_id)
         .job_id, .machine, .runs: list[RunRecord], .state: JobState, .step -> str, .influence
         .instructions() -> list[str]   (what to do now; convention and cautions included)
@@ -60,7 +65,8 @@ Workflow (``workflow``; imports numpy and the engine lazily)
         .result() -> JobResult
     JobState: step ("reference"|"trial"|"correction"|"trim"|"done"), plane, trial: Weight | None,
         last_trial_check: TrialCheck | None, plan: CorrectionPlan | None, trims_done, status
-        ("open"|"passed"|"stopped"), message, warnings
+        ("open"|"passed"|"stopped"), message, warnings, method ("influence-coefficient"|"four-run");
+        four-run only: cycle (from 1), trial_number (1-3 at a trial step), trial_angles_deg
     TrialCheck(plane, ok, ratio, message, suggested_scale, accepted_anyway)
     CorrectionPlan(kind, remove: list[Weight], planes: list[PlaneCorrection], predicted, method,
                    condition_number, warnings)   .weights_to_fit() -> list[Weight]
@@ -69,7 +75,9 @@ Workflow (``workflow``; imports numpy and the engine lazily)
     JobResult: job_id, machine_name, grade, standard ("ISO 21940-11"), speed_rpm,
         channels: list[ChannelResult(label, before, after)], residual_unbalance_gmm, permissible_unbalance_gmm,
         permissible_total_gmm, passed, runs, status, weights_on, influence, warnings, tolerance_rule,
-        residual_uncertainty_gmm (95 %); .to_dict()
+        residual_uncertainty_gmm (95 %), method, influence_magnitude (four-run: |H|, g per g·mm; its
+        influence is None); .to_dict() (adds "method")
+        four-run: residual ≈ amplitude / |H| of the last check run, an estimate without phase.
         passed: every plane's residual PLUS its 95 % uncertainty within the permissible value.
     A refusal by the maths (BalancingError) never loses a run: the run stays recorded, the step stays,
     and ``state.message`` says why.
@@ -83,7 +91,12 @@ Simulator helpers (``demo_machine``, ``headless``; import the simulator lazily)
     machine_for_scenario(scenario_or_name, *, stock=True) -> Machine   (with an invented demo stock)
     VirtualRotorFitter(virtual_machine).fit(weights)   keeps the virtual rotor's weights equal to a list
     run_demo(scenario, seed=None, *, store=None, resume_job_id=None, revs=40, max_runs=12, on_run=None,
-             machine=None, trial_removed=True) -> DemoOutcome   (.job, .to_json(): the demo's JSON)
+             machine=None, trial_removed=True, amplitude_only=False) -> DemoOutcome
+        (.job, .to_json(): the demo's JSON, with "method"); amplitude_only feeds the job amplitudes only
+
+Amplitude-only (``four_run_job``)
+    AmplitudeOnlyJob (see BalanceJob.start(amplitude_only=True)); three_trial_angles_deg(machine, plane, first_deg)
+    AMPLITUDE_ONLY_CONVENTION: str (the sentence shown instead of ANGLE_CONVENTION)
 """
 
 from __future__ import annotations
@@ -101,6 +114,7 @@ from runtrue.jobs.model import (
     StripSpec,
     Weight,
 )
+from runtrue.jobs.four_run_job import AMPLITUDE_ONLY_CONVENTION, AmplitudeOnlyJob
 from runtrue.jobs.store import JobRecord, JobStore, JobSummary, TrendPoint, default_db_path
 from runtrue.jobs.workflow import (
     CAUTIONS,
@@ -120,5 +134,5 @@ __all__ = [
     "StockPiece", "StoredInfluence", "StripSpec", "Weight",
     "JobRecord", "JobStore", "JobSummary", "TrendPoint", "default_db_path",
     "CAUTIONS", "STANDARD", "BalanceJob", "ChannelResult", "CorrectionPlan", "JobResult", "JobState",
-    "PlaneCorrection", "TrialCheck", "parse_grade",
+    "PlaneCorrection", "TrialCheck", "parse_grade", "AMPLITUDE_ONLY_CONVENTION", "AmplitudeOnlyJob",
 ]

@@ -62,6 +62,13 @@ LATER_TRIAL_MULTIPLE = 2.0
 #: When the amplitudes cannot be solved at all, the trial weight is made this much larger (our choice).
 UNSOLVED_TRIAL_SCALE = 3.0
 
+#: The convention sentence of an amplitude-only job (there is no reference mark: a chalk mark
+#: takes its place for angles, and phase is not used).
+AMPLITUDE_ONLY_CONVENTION = (
+    "Weight angles are measured from the chalk mark (0°) against the direction of rotation; "
+    "phase is not used (amplitude-only method)."
+)
+
 PHASE_NOT_USED = (
     "Amplitude-only balancing (four-run method): only the 1x amplitude of each run is used; "
     "a phase shown by the meter is ignored."
@@ -88,6 +95,12 @@ def three_trial_angles_deg(machine: Machine, plane: int, first_deg: float) -> li
         left = [a for a in usable if all(_ang_dist(a, c) > 1e-6 for c in chosen)]
         chosen.append(min(left, key=lambda a: (_ang_dist(a, want), a)))
     return chosen
+
+
+def _chalk(line: str) -> str:
+    if line == ANGLE_CONVENTION:
+        return AMPLITUDE_ONLY_CONVENTION
+    return line.replace("the reference mark", "the chalk mark (0°)")
 
 
 def _ang_dist(a: float, b: float) -> float:
@@ -144,6 +157,11 @@ class AmplitudeOnlyJob(BalanceJob):
 
     # -- what the user sees ----------------------------------------------------------------------
     def instructions(self) -> list[str]:
+        """What to do now (as :meth:`BalanceJob.instructions`), with the chalk mark in place of
+        the reference mark."""
+        return [_chalk(line) for line in self._instructions()]
+
+    def _instructions(self) -> list[str]:
         s, m = self.state, self.machine
         speed = f"{m.speed_rpm:g} rpm"
         out: list[str] = [PHASE_NOT_USED]
@@ -490,4 +508,4 @@ class AmplitudeOnlyJob(BalanceJob):
                 s.warnings.append(text)
 
 
-__all__ = ["AmplitudeOnlyJob", "METHOD", "PHASE_NOT_USED", "STANDARD", "three_trial_angles_deg"]
+__all__ = ["AMPLITUDE_ONLY_CONVENTION", "AmplitudeOnlyJob", "METHOD", "PHASE_NOT_USED", "STANDARD", "three_trial_angles_deg"]

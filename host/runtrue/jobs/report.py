@@ -134,6 +134,13 @@ def render_html(store: JobStore, job_id: int) -> str:
     runs = job.runs
     cls, verdict = _verdict(res)
     no_phase = res.method == "four-run"
+    directions = m.angle_direction_words()
+    convention = ANGLE_CONVENTION
+    if no_phase:
+        from runtrue.jobs.four_run_job import AMPLITUDE_ONLY_CONVENTION
+
+        directions = directions.replace("the reference mark", "the chalk mark (0°)")
+        convention = AMPLITUDE_ONLY_CONVENTION
     if no_phase:
         method = ("Method: amplitude-only balancing (four-run method: a reference run and one trial weight "
                   "at three angles per cycle); no reference mark, phase not used.")
@@ -177,7 +184,7 @@ def render_html(store: JobStore, job_id: int) -> str:
         "<li>Weight angles: degrees from a mark chalked on the rotor as 0°, measured against the direction of "
         "rotation.</li>" if no_phase else
         "<li>Weight angles: degrees from the reference mark, measured against the direction of rotation.</li>",
-        f"<li>{_e(m.angle_direction_words())}</li>",
+        f"<li>{_e(directions)}</li>",
         "<li>Unbalance: mass x radius, g·mm.  Planes and pickups are numbered from 1.</li>",
         "</ul>",
     ]
@@ -302,6 +309,6 @@ def render_html(store: JobStore, job_id: int) -> str:
     out.append('<h2 id="cautions">Safety</h2><ul class="cautions">')
     out += [f"<li>{_e(c)}</li>" for c in CAUTIONS]
     out.append("</ul>")
-    out.append(f'<p class="note">{_e(ANGLE_CONVENTION)} Written by runtrue {_e(__version__)}.</p>')
+    out.append(f'<p class="note">{_e(convention)} Written by runtrue {_e(__version__)}.</p>')
     out.append("</body></html>")
     return "\n".join(out)

@@ -269,7 +269,33 @@ def test_store_round_trip_resumes_the_same_step(tmp_path: Path, stop_after: int)
         assert store.get_job(job_id).result["method"] == "four-run"  # type: ignore[union-attr]
         html = render_html(store, job_id)
         assert "four-run" in html and "phase not used" in html and "<svg" not in html
-        assert "estimate without phase" in html
+        assert "estimate without phase" in html and "chalk mark" in html and "from the reference mark" not in html
         assert job_json(store, job_id)["job"]["method"] == "four-run"
         saved = store.get_machine(m.name)
         assert saved is not None and saved.influence is None, "|H| is not stored as coefficients"
+
+
+class _Crash(Exception):
+    pass
+
+
+def test_demo_job_interrupted_mid_cycle_resumes_on_the_simulator(tmp_path: Path) -> None:
+    from runtrue.jobs.headless import run_demo
+
+    def crash_after_three(job: BalanceJob) -> None:
+        if len(job.runs) == 3:
+            raise _Crash
+
+    with JobStore(tmp_path / "jobs.sqlite") as store:
+        with pytest.raises(_Crash):
+            run_demo("fan", 3, store=store, amplitude_only=True, max_runs=21, on_run=crash_after_three)
+        (summary,) = store.unfinished_jobs()
+        kept = store.runs(summary.id)
+        assert [r.kind for r in kept] == ["reference", "trial", "trial"]
+        out = run_demo("fan", 4, store=store, resume_job_id=summary.id, max_runs=21)
+        assert isinstance(out.job, AmplitudeOnlyJob)
+        assert out.job.runs[:3] == kept, "every taken reading intact"
+        d = out.to_json()
+        assert d["method"] == "four-run" and d["passed"] is True
+        assert all(t <= p for t, p in zip(d["true_residual_unbalance_gmm"], d["permissible_unbalance_gmm"]))
+        assert all(not r.reading.has_phase for r in out.job.runs)
