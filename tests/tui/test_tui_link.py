@@ -73,3 +73,41 @@ def test_weights_change_bumps_the_epoch() -> None:
     finally:
         link.close()
     assert len(rotor.weights) == 1
+
+
+def test_a_refused_command_is_reported_and_the_link_carries_on() -> None:
+    from runtrue.device import CommandRejected
+    from runtrue.tui.messages import CommandFailed
+
+    posted: list[Any] = []
+    link = MeterLink("sim:fake", posted.append, opener=lambda port, seed, realtime: FakeMeter(),
+                     post_interval_s=0.02)
+    link.start()
+
+    def set_channels(client: Any) -> None:
+        raise CommandRejected("the meter refused SET_CHANNELS (bad argument)", 1)
+
+    try:
+        link.stream(True)
+        link.call(set_channels)
+        wait_for(lambda: any(isinstance(m, CommandFailed) for m in posted))
+        n = sum(len(m.revs) for m in posted if isinstance(m, RevolutionsRead))
+        wait_for(lambda: sum(len(m.revs) for m in posted if isinstance(m, RevolutionsRead)) > n + 5)
+    finally:
+        link.close()
+    failed = next(m for m in posted if isinstance(m, CommandFailed))
+    assert failed.what == "set_channels" and "refused" in failed.reason
+    assert not any(isinstance(m, MeterLost) for m in posted)
+
+
+def test_a_closed_link_posts_nothing_more() -> None:
+    posted: list[Any] = []
+    link = MeterLink("sim:fake", posted.append, opener=lambda port, seed, realtime: FakeMeter(),
+                     post_interval_s=0.02)
+    link.start()
+    link.stream(True)
+    wait_for(lambda: any(isinstance(m, RevolutionsRead) for m in posted))
+    link.close()
+    n = len(posted)
+    time.sleep(0.2)
+    assert len(posted) == n

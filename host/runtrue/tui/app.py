@@ -16,7 +16,14 @@ from textual.binding import Binding
 from textual.theme import Theme
 
 from runtrue.tui.link import MeterLink
-from runtrue.tui.messages import MeterConnected, MeterFailed, MeterLost, RevolutionsRead, SelfTestDone
+from runtrue.tui.messages import (
+    CommandFailed,
+    MeterConnected,
+    MeterFailed,
+    MeterLost,
+    RevolutionsRead,
+    SelfTestDone,
+)
 from runtrue.tui.screens.connect import ConnectScreen
 from runtrue.tui.session import MANUAL_PORT, Session
 
@@ -74,9 +81,9 @@ class RuntrueApp(App):
         self.report_dir = report_dir or str(Path.cwd() / "reports")
         self.auto_take = auto_take  # live screen takes each reading by itself once steady
         self.ticked: set[str] = set()  # fitting list items ticked off for the coming run
-        self._fitter: Any = None
-        self._failed_ports: set[str] = set()
-        self.trial_removed = True  # take each trial weight off before the next run  # runtrue.jobs.headless.VirtualRotorFitter for a simulated rotor
+        self._fitter: Any = None  # runtrue.jobs.headless.VirtualRotorFitter for a simulated rotor
+        self._failed_ports: set[str] = set()  # ports whose failure to open was already reported
+        self.trial_removed = True  # take each trial weight off before the next run
 
     # -- start and stop -------------------------------------------------------------------------
     def on_mount(self) -> None:
@@ -211,6 +218,11 @@ class RuntrueApp(App):
 
     def on_self_test_done(self, message: SelfTestDone) -> None:
         self.session.self_test = message.result
+        self._tell_screen(message)
+
+    def on_command_failed(self, message: CommandFailed) -> None:
+        what = message.what.replace("_", " ")
+        self.notify(f"The meter could not do {what}: {message.reason}", title="Meter", severity="error", timeout=8)
         self._tell_screen(message)
 
     def action_help(self) -> None:

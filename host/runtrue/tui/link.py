@@ -17,7 +17,7 @@ import threading
 import time
 from typing import Any, Callable
 
-from runtrue.tui.messages import MeterConnected, MeterFailed, MeterLost, RevolutionsRead, SelfTestDone
+from runtrue.tui.messages import CommandFailed, MeterConnected, MeterFailed, MeterLost, RevolutionsRead, SelfTestDone
 
 Poster = Callable[[Any], object]
 
@@ -28,6 +28,12 @@ def _is_link_failure(exc: BaseException) -> bool:
     from runtrue.transport.base import TransportLost
 
     return isinstance(exc, (TransportLost, MeterError, OSError))
+
+
+def _is_transport_lost(exc: BaseException) -> bool:
+    from runtrue.transport.base import TransportLost
+
+    return isinstance(exc, (TransportLost, OSError))
 
 
 def _info_dict(info: Any) -> dict[str, Any]:
@@ -121,6 +127,11 @@ class MeterLink:
         return self._streaming
 
     # ---- the worker thread ----
+    def _emit(self, message: Any) -> None:
+        """Post to the interface, unless this link has been closed (a newer one took over)."""
+        if not self._stop.is_set():
+            self._post(message)
+
     def _open(self) -> Any:
         opener = self._opener
         if opener is None:
@@ -154,11 +165,11 @@ class MeterLink:
                     ever_connected = True
                     if self._streaming:
                         self.client.start()
-                    self._post(MeterConnected(self.port, self.info))
+                    self._emit(MeterConnected(self.port, self.info))
                 except Exception as exc:  # noqa: BLE001 - every failure is shown to the user
                     self._close_client()
                     reason = str(exc) or type(exc).__name__
-                    self._post(MeterLost(self.port, reason) if ever_connected else MeterFailed(self.port, reason))
+                    self._emit(MeterLost(self.port, reason) if ever_connected else MeterFailed(self.port, reason))
                     if self._stop.wait(self.retry_s):
                         break
                     continue
@@ -167,7 +178,7 @@ class MeterLink:
             except Exception as exc:  # noqa: BLE001
                 if not _is_link_failure(exc):
                     raise
-                self._post(MeterLost(self.port, str(exc) or "the meter stopped answering"))
+                self._emit(MeterLost(self.port, str(exc) or "the meter stopped answering"))
                 if self._reopen_same():
                     continue
                 self._close_client()
@@ -189,7 +200,7 @@ class MeterLink:
                 client.streaming = False
                 if self._streaming:
                     client.start()
-                self._post(MeterConnected(self.port, self.info))
+                self._emit(MeterConnected(self.port, self.info))
                 return True
             except Exception as exc:  # noqa: BLE001
                 if not _is_link_failure(exc):
@@ -214,10 +225,14 @@ class MeterLink:
                 self._streaming = arg
             elif kind == "selftest":
                 was = self._streaming
-                if was:
-                    client.stop()
-                result = client.self_test()
-                self._post(SelfTestDone(dict(result)))
+                try:
+                    if was:
+                        client.stop()
+                    self._emit(SelfTestDone(dict(client.self_test())))
+                except Exception as exc:  # noqa: BLE001 - a failed self-test is a result too
+                    if _is_transport_lost(exc):
+                        raise
+                    self._emit(CommandFailed(self.port, "self-test", str(exc)))
                 if was:
                     client.start()
             elif kind == "call":
@@ -226,6 +241,10 @@ class MeterLink:
                     batch = []  # measured before the change: never mixed into a reading
                 try:
                     fn(client)
+                except Exception as exc:  # noqa: BLE001 - a refused command is shown, the link stays
+                    if _is_transport_lost(exc):
+                        raise
+                    self._emit(CommandFailed(self.port, getattr(fn, "__name__", "request"), str(exc)))
                 finally:
                     discard = getattr(client, "discard_revolutions", None)
                     if discard is not None:
@@ -239,9 +258,9 @@ class MeterLink:
                         self._stop.wait(1.0 / self.max_revs_per_s)
                 now = time.monotonic()
                 if batch and (now - last_post >= self.post_interval_s or len(batch) >= 200):
-                    self._post(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0)), self.epoch))
+                    self._emit(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0)), self.epoch))
                     batch = []
                     last_post = now
             elif batch:
-                self._post(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0)), self.epoch))
+                self._emit(RevolutionsRead(batch, int(getattr(client, "lost_frames", 0)), self.epoch))
                 batch = []

@@ -55,3 +55,12 @@ class MeterFailed(_Msg):
 
     port: str
     reason: str
+
+
+@dataclass(eq=False)
+class CommandFailed(_Msg):
+    """A request to the meter failed without losing it (refused command, bad self-test)."""
+
+    port: str
+    what: str
+    reason: str
