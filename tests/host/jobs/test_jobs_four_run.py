@@ -299,3 +299,18 @@ def test_demo_job_interrupted_mid_cycle_resumes_on_the_simulator(tmp_path: Path)
         assert d["method"] == "four-run" and d["passed"] is True
         assert all(t <= p for t, p in zip(d["true_residual_unbalance_gmm"], d["permissible_unbalance_gmm"]))
         assert all(not r.reading.has_phase for r in out.job.runs)
+
+
+def test_trial_angles_skip_blocked_positions_and_need_three() -> None:
+    twelve = Machine("spindle", 1.6, 24000.0, [PlaneSpec(22.0, count=12, excluded=[5])])
+    # 120 deg is position 5, blocked: the nearest free position (90 or 150 deg) is used instead.
+    first, second, third = three_trial_angles_deg(twelve, 1, 0.0)
+    assert (first, third) == (0.0, 240.0) and second in (90.0, 150.0)
+    two_holes = Machine("pulley", 3.0, 1500.0, [PlaneSpec(60.0, angles_deg=[0.0, 180.0])])
+    with pytest.raises(ValueError, match="three different angles"):
+        three_trial_angles_deg(two_holes, 1, 0.0)
+    with JobStore(":memory:") as store:
+        job = BalanceJob.start(store, two_holes, amplitude_only=True)
+        job.record_run(RunReading.manual([0.3], None, 1500.0))
+        assert len(job.runs) == 1 and job.step == "reference", "the run is kept; the job says why it cannot go on"
+        assert "three different angles" in job.state.message
