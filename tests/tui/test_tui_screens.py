@@ -356,3 +356,28 @@ async def test_switching_meters_keeps_readings_flowing() -> None:
         await key(pilot, "l")
         await wait_until(pilot, lambda: app.session.live.total_revs > before + 5, what="revolutions again")
         assert app.session.live.recent
+
+
+async def test_first_meter_found_is_used_by_default(monkeypatch: pytest.MonkeyPatch) -> None:
+    import runtrue.tui.screens.connect as connect
+
+    monkeypatch.setattr(connect, "find_sources", lambda: (
+        [("/dev/ttyUSB7", "USB serial adapter"), ("/dev/ttyACM3", "meter? MicroPython board")],
+        [("sim:fan", "extraction fan")],
+    ))
+    app = make_app(opener=fake_opener(), realtime=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="auto connect")
+        assert app.session.port == "/dev/ttyACM3"  # the likely meter, not the first port listed
+
+
+async def test_without_a_likely_meter_the_picker_waits(monkeypatch: pytest.MonkeyPatch) -> None:
+    import runtrue.tui.screens.connect as connect
+
+    monkeypatch.setattr(connect, "find_sources", lambda: ([], [("sim:fan", "extraction fan")]))
+    app = make_app(opener=fake_opener(), realtime=False)
+    async with app.run_test(size=SIZE) as pilot:
+        ol = app.screen.query_one("#sources", OptionList)
+        await wait_until(pilot, lambda: ol.option_count > 3, what="sources listed")
+        assert app.session.port is None and app.session.link is None
+        assert ol.get_option_at_index(ol.highlighted).id == "sim:fan"

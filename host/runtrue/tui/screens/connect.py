@@ -18,14 +18,19 @@ from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.session import MANUAL_PORT
 
 
+LIKELY_METER_SCORE = 50  # runtrue.transport.serial ranks MicroPython / RP2040 ports this high or more
+
+
 def find_sources() -> tuple[list[tuple[str, str]], list[tuple[str, str]]]:
-    """(serial ports, simulator scenarios) as (port, description) pairs.  Slow-ish: run in a thread."""
+    """(serial ports, simulator scenarios) as (port, description) pairs, best ports first.
+    Slow-ish (imports pyserial and the simulator): run in a thread."""
     ports: list[tuple[str, str]] = []
     try:
-        from runtrue.transport.serial import list_ports  # type: ignore[attr-defined]
+        from runtrue.transport.serial import list_ports
 
         for p in list_ports():
-            ports.append((str(getattr(p, "device", p)), str(getattr(p, "description", ""))))
+            likely = getattr(p, "score", 0) >= LIKELY_METER_SCORE
+            ports.append((str(p.device), ("meter? " if likely else "") + str(p.description)))
     except ImportError:
         try:
             from serial.tools import list_ports as _lp  # pyserial: the meter's USB serial port
@@ -132,7 +137,8 @@ class ConnectScreen(StepScreen):
         ol.add_option(Option("-- no meter --", disabled=True))
         ol.add_option(Option("  manual entry (other instrument)", id=MANUAL_PORT))
         want = self.session.port
-        target = want if want else (ports[0][0] if ports else None)
+        likely = [dev for dev, desc in ports if desc.startswith("meter? ")]
+        target = want if want else (likely[0] if likely else None)
         if target is not None and self._has(ol, target):
             ol.highlighted = ol.get_option_index(target)
         else:
