@@ -381,3 +381,18 @@ async def test_without_a_likely_meter_the_picker_waits(monkeypatch: pytest.Monke
         await wait_until(pilot, lambda: ol.option_count > 3, what="sources listed")
         assert app.session.port is None and app.session.link is None
         assert ol.get_option_at_index(ol.highlighted).id == "sim:fan"
+
+
+async def test_larger_terminal_uses_the_room() -> None:
+    app = make_app("manual")
+    async with app.run_test(size=(132, 43)) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.48", "phase0": "152"}, prefix="#")
+        await pilot.press("enter", "f")
+        await pilot.pause()
+        dial = app.screen.query_one("#fit-dial")
+        assert dial.size.width > 40 and dial.size.height > 25
+        text = screen_text(app)
+        assert "MARK" in text and "secure for" in text and "Quit" in text.splitlines()[-1]
