@@ -75,3 +75,17 @@ def test_automatic_reading_waits_until_steady() -> None:
     assert live.done is not None
     assert live.done.speed_rpm == pytest.approx(1500.0)
     assert math.degrees(cmath.phase(live.done.channels[0].mean)) == pytest.approx(math.degrees(1.0), abs=0.2)
+
+
+def test_signal_check_counts_pulses_flags_and_the_rest_of_the_signal() -> None:
+    from runtrue.tui.screens.connect import signal_check_text
+
+    # 1x of 0.4 g peak, 2x of 0.1 g peak and an RMS of 0.3 g: the rest is
+    # sqrt(0.09 - 0.16/2 - 0.01/2) = sqrt(0.005) = 0.0707 g RMS (Parseval).
+    revs = [Revolution(n, 40_000.0, 160, 0, 1, [0.4 + 0j], [0.1j], [0.3]) for n in range(10)]
+    revs.append(Revolution(10, 80_000.0, 320, 1, 1, [0.4 + 0j], [0j], [0.3]))  # a missed pulse
+    text = signal_check_text(revs)
+    assert "11 revs, 10 usable" in text and "1500 rpm" in text
+    assert "missing pulse 1" in text
+    assert "rest 0.0707 g" in text
+    assert "No revolutions" in signal_check_text([])

@@ -33,15 +33,21 @@ async def test_connect_lists_simulated_machines_and_manual_entry() -> None:
         assert screen_name(app) == "MachineScreen"
 
 
-async def test_connect_shows_device_and_self_test() -> None:
-    app = make_app("sim:fan", seed=1, realtime=False)
+async def test_connect_shows_device_self_test_and_signal_check(monkeypatch: pytest.MonkeyPatch) -> None:
+    import runtrue.tui.screens.connect as connect
+
+    monkeypatch.setattr(connect, "CHECK_S", 0.2)
+    app = make_app("sim:fan", seed=1, realtime=False, max_revs_per_s=300, post_interval_s=0.05)
     async with app.run_test(size=SIZE) as pilot:
         await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
-        await pilot.press("t")
+        await key(pilot, "t")
         await wait_until(pilot, lambda: app.session.self_test is not None, what="self-test")
+        await wait_until(pilot, lambda: "usable" in screen_text(app), what="signal check")
         text = screen_text(app)
         assert "board    sim" in text
         assert "Self-test PASSED" in text and "reference" in text
+        assert "rpm" in text and "rest" in text
+        await wait_until(pilot, lambda: not app.session.link.streaming, what="streaming stopped")
 
 
 async def test_machine_form_names_the_wrong_field_and_starts_a_job() -> None:

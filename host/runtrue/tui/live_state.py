@@ -20,7 +20,8 @@ class LiveState:
     """Revolutions arriving from the meter, and an optional reading being accumulated."""
 
     def __init__(self, recent_revs: int = 48, clock: Callable[[], float] = time.monotonic) -> None:
-        self.recent: deque[Any] = deque(maxlen=recent_revs)
+        self.recent: deque[Any] = deque(maxlen=recent_revs)  # usable revolutions only
+        self.seen: deque[Any] = deque(maxlen=400)  # every revolution, flagged ones too
         self.clock = clock
         self.total_revs = 0
         self.unusable_revs = 0
@@ -40,6 +41,7 @@ class LiveState:
     def reset(self, min_epoch: int | None = None) -> None:
         """Forget the recent revolutions (the rotor changed); keep counters."""
         self.recent.clear()
+        self.seen.clear()
         self.cancel()
         self.done = None
         if min_epoch is not None:
@@ -54,6 +56,7 @@ class LiveState:
             self.last_rev_at = now
         for rev in revs:
             self.total_revs += 1
+            self.seen.append(rev)
             self._rate_window.append(now)
             if not getattr(rev, "usable", True):
                 self.unusable_revs += 1

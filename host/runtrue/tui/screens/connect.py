@@ -15,6 +15,7 @@ from textual.widgets.option_list import Option
 
 from runtrue.tui.messages import MeterConnected, MeterFailed, MeterLost, SelfTestDone
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.format import amp_text
 from runtrue.tui.session import MANUAL_PORT
 
 
@@ -85,6 +86,43 @@ def self_test_text(result: dict[str, Any] | None) -> str:
         val = f"{value:.4g}" if isinstance(value, float) else str(value)
         note = c.get("note") or ""
         lines.append(f" {mark} {c.get('name', '?')}: {val} {c.get('unit', '')} {note}".rstrip())
+    return "\n".join(lines)
+
+
+CHECK_S = 2.0  # seconds of revolutions looked at after the self-test
+
+
+def signal_check_text(revs: list[Any]) -> str:
+    """What a couple of seconds of revolutions say about the sensors: reference pulses seen,
+    speed, revolutions flagged (and why), and per channel the RMS left after the 1x and 2x -
+    the noise floor plus everything at other frequencies.  For a DC-free signal the mean square
+    is the sum of each harmonic's (peak^2)/2 and the rest (Parseval's theorem), so
+    rest = sqrt(rms^2 - |1x|^2/2 - |2x|^2/2)."""
+    if not revs:
+        return "No revolutions seen: is the machine running and the reference sensor aimed at its mark?"
+    flagged: dict[str, int] = {}
+    for r in revs:
+        for name in getattr(r, "flag_names", []):
+            if name != "FIRST":
+                flagged[name] = flagged.get(name, 0) + 1
+    usable = [r for r in revs if r.usable]
+    lines = [f"{len(revs)} revs, {len(usable)} usable"]
+    if usable:
+        speeds = [r.speed_rpm for r in usable]
+        lines[0] += f", {sum(speeds) / len(speeds):.0f} rpm ({min(speeds):.0f}-{max(speeds):.0f})"
+    if flagged:
+        lines.append("Flagged: " + ", ".join(f"{k.replace('_', ' ').lower()} {v}" for k, v in sorted(flagged.items())))
+    else:
+        lines.append("No pulse faults, speed jumps or clipping.")
+    if usable:
+        n_ch = len(usable[-1].h1)
+        for i in range(n_ch):
+            ms = sum(r.rms_g[i] ** 2 for r in usable) / len(usable)
+            h1 = sum(abs(r.h1[i]) ** 2 for r in usable) / len(usable) / 2
+            h2 = sum(abs(r.h2[i]) ** 2 for r in usable) / len(usable) / 2
+            rest = max(0.0, ms - h1 - h2) ** 0.5
+            lines.append(f"ch{i + 1}: 1x {amp_text(sum(abs(r.h1[i]) for r in usable) / len(usable))} pk, "
+                         f"rest {amp_text(rest)} rms")
     return "\n".join(lines)
 
 
@@ -183,6 +221,19 @@ class ConnectScreen(StepScreen):
             return
         self.query_one("#selftest", Static).update("Self-test running (about a second) ...")
         self.session.link.self_test()
+        # then a couple of seconds of revolutions: pulses, speed, flags, noise floor
+        self._checking = True
+        self.session.live.reset(self.session.link.latest_epoch)
+        self.session.link.stream(True)
+        self.set_timer(CHECK_S + 1.0, self._end_check)
+
+    def _end_check(self) -> None:
+        s = self.session
+        if s.link is not None:
+            s.link.stream(False)
+        self._checking = False
+        self._check_text = signal_check_text(list(s.live.seen))
+        self._update_device()
 
     def action_live(self) -> None:
         s = self.session
@@ -218,7 +269,10 @@ class ConnectScreen(StepScreen):
         self.query_one("#device", Static).update(
             (f"port     {s.port}\n" if s.port else "") + device_text(s.device_info)
         )
-        self.query_one("#selftest", Static).update(self_test_text(s.self_test))
+        text = self_test_text(s.self_test)
+        if getattr(self, "_check_text", ""):
+            text += "\n" + self._check_text
+        self.query_one("#selftest", Static).update(text)
         if s.link is not None and s.link.connected:
             hint.update("Connected. t: self-test, l: live view of the sensors, n: describe the machine.")
         elif s.port:
