@@ -386,7 +386,7 @@ async def test_without_a_likely_meter_the_picker_waits(monkeypatch: pytest.Monke
         ol = app.screen.query_one("#sources", OptionList)
         await wait_until(pilot, lambda: ol.option_count > 3, what="sources listed")
         assert app.session.port is None and app.session.link is None
-        assert ol.get_option_at_index(ol.highlighted).id == "sim:fan"
+        assert ol.highlighted is not None and ol.get_option_at_index(ol.highlighted).id == "sim:fan"
 
 
 async def test_larger_terminal_uses_the_room() -> None:

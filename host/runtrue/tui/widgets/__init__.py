@@ -1,0 +1,1 @@
+"""Widgets drawn with text characters: the braille canvas, the polar plot and the fitting dial."""
