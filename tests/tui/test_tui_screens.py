@@ -246,6 +246,10 @@ async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_cor
         ol.highlighted = saved
         await pilot.press("enter")
         assert "Stored influence coefficients" in screen_text(app), screen_text(app)
+        await pilot.press("f6")  # the machine's history: the job just done, and its coefficients
+        text = screen_text(app)
+        assert "passed" in text and "Influence coefficients kept from job 1" in text
+        await pilot.press("escape")
         await pilot.press("f2")
         job2 = app.session.job
         assert job2 is not job

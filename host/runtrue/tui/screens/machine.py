@@ -63,7 +63,8 @@ class MachineScreen(StepScreen):
         Binding("f2", "start_job", "Start job"),
         Binding("f3", "grades", "Grade table"),
         Binding("f4", "back", "Back"),
-        Binding("f5", "trial_mode", "Trials on/off"),
+        Binding("f5", "trial_mode", "Trials"),
+        Binding("f6", "history", "History"),
         Binding("f1", "app.help", "Help"),
     ]
 
@@ -162,6 +163,17 @@ class MachineScreen(StepScreen):
                 self.query_one("#f_grade", Input).value = grade
 
         self.app.push_screen(GradeTable(), chosen)
+
+    def action_history(self) -> None:
+        if self._editing_id is None:
+            self.notify("Pick a saved machine first (list on the left).", severity="warning")
+            return
+        machine = self.session.store.get_machine(self._editing_id)
+        if machine is None:
+            return
+        from runtrue.tui.screens.history import HistoryScreen, history_lines
+
+        self.app.push_screen(HistoryScreen("\n".join(history_lines(self.session.store, machine))))
 
     def action_trial_mode(self) -> None:
         self.rt_app.trial_removed = not self.rt_app.trial_removed
