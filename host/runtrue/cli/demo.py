@@ -82,6 +82,7 @@ def run(args: argparse.Namespace) -> int:
 
 def _run_auto(args: argparse.Namespace) -> int:
     from runtrue.cli import UsageError
+    from runtrue.device import MeterError
     from runtrue.jobs.headless import DEFAULT_REVS, MAX_RUNS, MAX_RUNS_AMPLITUDE_ONLY, run_demo
     from runtrue.jobs.store import JobStore
 
@@ -106,6 +107,9 @@ def _run_auto(args: argparse.Namespace) -> int:
             amplitude_only=args.no_phase,
         )
         data = outcome.to_json()
+    except MeterError as exc:
+        where = f" (the job so far is kept in {args.db}; --resume carries on)" if args.db else ""
+        raise UsageError(f"the simulated meter could not give a reading: {exc}{where}") from None
     finally:
         if store is not None:
             store.close()

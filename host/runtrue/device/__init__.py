@@ -4,10 +4,10 @@
 from __future__ import annotations
 
 from runtrue.device.client import MeterClient, open_meter
-from runtrue.device.errors import CommandRejected, MeterError, NoAnswer, NoRevolutions
+from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.protocol.messages import DeviceInfo, Revolution, Status
 
 __all__ = [
-    "CommandRejected", "DeviceInfo", "MeterClient", "MeterError", "NoAnswer", "NoRevolutions",
+    "AllRevolutionsFlagged", "CommandRejected", "DeviceInfo", "MeterClient", "MeterError", "NoAnswer", "NoRevolutions",
     "Revolution", "Status", "open_meter",
 ]

@@ -21,7 +21,7 @@ import collections
 import time
 from typing import Any, Callable
 
-from runtrue.device.errors import CommandRejected, MeterError, NoAnswer, NoRevolutions
+from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import (
@@ -59,6 +59,28 @@ def _no_answer_text(port: str) -> str:
         f"no answer from the meter on {port}: is the runtrue firmware installed? "
         "try `runtrue device check`"
     )
+
+
+FLAGGED_LIMIT = 50  # flagged revolutions tolerated while collecting usable ones (our choice)
+
+_FLAG_ADVICE = {
+    "clipped": "the vibration exceeds the sensor's range: remove or reduce the trial weight, or check "
+    "the pickup is fixed firmly",
+    "missing pulse": "the reference sensor misses its mark: move it closer, clean or enlarge the mark, "
+    "or try the other edge",
+    "extra pulse": "the reference sensor sees more than one mark: mask other shiny parts or narrow the mark",
+    "speed jump": "the speed is not steady: let the machine settle, check belts and the drive",
+    "dropped samples": "the meter is losing samples: close other programs on the link, or lower the sample rate",
+    "no fit": "the revolutions are too long or too short for the sample rate: check the speed and --rate",
+}
+
+
+def _flagged_advice(port: str, n_flagged: int, n_good: int, n_wanted: int, flagged: dict[str, int]) -> str:
+    names = sorted(flagged, key=lambda k: -flagged[k])
+    seen = ", ".join(f"{k} x{flagged[k]}" for k in names) or "unknown flags"
+    advice = "; ".join(_FLAG_ADVICE[k] for k in names if k in _FLAG_ADVICE) or "run `runtrue device check`"
+    return (f"{n_flagged} revolutions from the meter on {port} were flagged and left out "
+            f"({n_good} of {n_wanted} usable so far; {seen}): {advice}")
 
 
 class MeterClient:
@@ -302,8 +324,14 @@ class MeterClient:
 
     def revolutions(self, n: int, timeout_s: float = 5.0, *, usable_only: bool = False) -> list[Revolution]:
         """The next ``n`` revolutions.  ``timeout_s`` is the longest wait for each one; if it
-        passes with none, :class:`NoRevolutions` says to check the reference sensor."""
+        passes with none, :class:`NoRevolutions` says to check the reference sensor.  With
+        ``usable_only``, flagged revolutions are skipped, but not for ever: after
+        ``max(FLAGGED_LIMIT, 4 n)`` of them :class:`AllRevolutionsFlagged` says which flags and
+        what to do."""
         out: list[Revolution] = []
+        flagged: dict[str, int] = {}
+        n_flagged = 0
+        limit = max(FLAGGED_LIMIT, 4 * n)
         while len(out) < n:
             rev = self.read_revolution(timeout_s)
             if rev is None:
@@ -313,6 +341,11 @@ class MeterClient:
                     "sensor see its mark once per revolution (check its LED, gap and the --edge setting)?"
                 )
             if usable_only and not rev.usable:
+                n_flagged += 1
+                for name in rev.flag_names:
+                    flagged[name] = flagged.get(name, 0) + 1
+                if n_flagged >= limit:
+                    raise AllRevolutionsFlagged(_flagged_advice(self.port, n_flagged, len(out), n, flagged), flagged)
                 continue
             out.append(rev)
         return out

@@ -21,3 +21,12 @@ class CommandRejected(MeterError):
 
 class NoRevolutions(MeterError):
     """Streaming, but no usable revolution arrived in time: the reference pulses are missing."""
+
+
+class AllRevolutionsFlagged(NoRevolutions):
+    """Revolutions arrive, but every one is flagged (clipping, missed or extra pulses, speed
+    jumps), so none can be averaged into a reading.  ``flags`` counts each flag seen."""
+
+    def __init__(self, message: str, flags: dict[str, int]) -> None:
+        super().__init__(message)
+        self.flags = flags
