@@ -28,6 +28,9 @@ from runtrue.balancing.model import BalancingError
 TRIAL_FORCE_FRACTION = 0.10
 #: With a target grade: the trial unbalance is at least this many times the plane's allowance.
 TRIAL_GRADE_MULTIPLE = 5.0
+# Safety cap on the grade rule (our choice): a suggested trial never pulls with more than half
+# the rotor's weight share at running speed, however small the allowance makes the 10 % rule look.
+TRIAL_FORCE_CAP_FRACTION = 0.5
 #: Minimum change / noise ratio for a trustworthy trial run (see module docstring).
 TRIAL_MIN_RATIO = 10.0
 #: Without spreads: the change should be at least this fraction of the reference.  The trade's
@@ -104,14 +107,22 @@ def suggest_trial_weight(
         u_per = permissible_unbalance(grade, mass, n).permissible_unbalance_gmm / n_planes
         grade_mass_g = TRIAL_GRADE_MULTIPLE * u_per / r_mm
         if grade_mass_g > mass_g:
-            mass_g = grade_mass_g
+            cap_mass_g = TRIAL_FORCE_CAP_FRACTION * weight_share_n / ((r_mm / 1000.0) * w * w) * 1000.0
+            capped = grade_mass_g > cap_mass_g
+            mass_g = min(grade_mass_g, cap_mass_g)
             force_n = centrifugal_force_n(mass_g, r_mm, n)
             rule = (
                 f"Trial weight sized to {TRIAL_GRADE_MULTIPLE:g} times the G {grade:g} allowance{per_plane} "
                 f"({TRIAL_GRADE_MULTIPLE * u_per:.3g} g*mm), larger than the 10 %-of-weight rule gives at "
-                f"{n:g} rpm (our choice). Its force is {force_n:.3g} N, "
-                f"{force_n / weight_share_n:.0%} of the rotor's weight{per_plane}."
+                f"{n:g} rpm (our choice)."
             )
+            if capped:
+                rule += (
+                    f" Capped so its force stays at {TRIAL_FORCE_CAP_FRACTION:.0%} of the rotor's weight{per_plane} "
+                    f"({force_n:.3g} N), a safety limit (our choice)."
+                )
+            else:
+                rule += f" Its force is {force_n:.3g} N, {force_n / weight_share_n:.0%} of the rotor's weight{per_plane}."
     rule += " Secure it for that force; if the machine is delicate, start smaller."
     return TrialSuggestion(
         mass_g=mass_g, radius_mm=r_mm, force_n=centrifugal_force_n(mass_g, r_mm, n), rule=rule

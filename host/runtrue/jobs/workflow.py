@@ -562,7 +562,8 @@ class BalanceJob:
         m = self.machine
         spec = m.planes[plane - 1]
         if previous is None:
-            sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=m.n_planes)
+            sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=m.n_planes,
+                                       grade=parse_grade(m.grade))
             mass = float(sug.mass_g)
             self.state.message = str(getattr(sug, "rule", ""))
             angle = None
