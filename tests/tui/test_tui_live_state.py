@@ -89,3 +89,13 @@ def test_signal_check_counts_pulses_flags_and_the_rest_of_the_signal() -> None:
     assert "missing pulse 1" in text
     assert "rest 0.0707 g" in text
     assert "No revolutions" in signal_check_text([])
+
+
+def test_refused_revolutions_while_taking_are_counted() -> None:
+    live = LiveState()
+    live.add([rev(n, 1.0, flags=8) for n in range(5)])  # clipped, before anything was asked
+    assert live.refused_while_taking == 0
+    live.start_taking(4)
+    live.add([rev(n, 1.0, flags=8) for n in range(60)])
+    assert live.refused_while_taking == 60 and live.done is None
+    assert [f.lower().replace("_", " ") for f in live.last_flags] == ["clipped"]

@@ -35,7 +35,8 @@ class LiveState:
         self.done: Any = None  # the Reading when complete
         self.min_epoch = 0  # batches from before the rotor last changed are ignored
         self.last_flags: list[str] = []
-        self.last_rev_at = -1.0  # clock time of the last revolution (any), -1 before the first  # why the last revolution was left out (MISSING_PULSE, ...)
+        self.last_rev_at = -1.0
+        self.refused_while_taking = 0  # flagged revolutions since the reading was asked for  # clock time of the last revolution (any), -1 before the first  # why the last revolution was left out (MISSING_PULSE, ...)
 
     # -- feeding ----------------------------------------------------------------------------------
     def reset(self, min_epoch: int | None = None) -> None:
@@ -60,6 +61,8 @@ class LiveState:
             self._rate_window.append(now)
             if not getattr(rev, "usable", True):
                 self.unusable_revs += 1
+                if self.busy:
+                    self.refused_while_taking += 1
                 self.last_flags = list(getattr(rev, "flag_names", []))
                 continue
             self.recent.append(rev)
@@ -77,6 +80,7 @@ class LiveState:
         self.target_revs = max(1, int(target_revs))
         self.collected = []
         self.done = None
+        self.refused_while_taking = 0
         self.collecting = not when_steady
         self.waiting_for_steady = when_steady
         self.started_at = self.clock()

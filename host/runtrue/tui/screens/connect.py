@@ -103,7 +103,7 @@ def signal_check_text(revs: list[Any]) -> str:
     flagged: dict[str, int] = {}
     for r in revs:
         for name in getattr(r, "flag_names", []):
-            if name != "FIRST":
+            if name.lower() != "first":
                 flagged[name] = flagged.get(name, 0) + 1
     usable = [r for r in revs if r.usable]
     lines = [f"{len(revs)} revs, {len(usable)} usable"]

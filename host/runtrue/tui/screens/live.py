@@ -20,6 +20,7 @@ from runtrue.tui.format import DEG, PHASE_NOTE, amp_text, bar, time_left_text
 from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.widgets.polar import PolarData, PolarPlot
 
+REFUSED_WARN = 50  # flagged revolutions during one reading before saying what to check
 NO_REVS_S = 3.0  # say so when no revolution came for this long
 REFRESH_S = 0.25  # redraw period: a few times a second is enough, and kind to a Pi over SSH
 
@@ -129,7 +130,12 @@ class LiveScreen(StepScreen):
                 "No revolutions: is the machine running, and does the reference sensor see its mark "
                 "once per revolution (sensor LED, gap, mark contrast)?"
             )
-        if live.last_flags:
+        if live.busy and live.refused_while_taking >= REFUSED_WARN:
+            notes.append(
+                f"{live.refused_while_taking} revolutions refused while taking this reading. Esc, stop the "
+                "machine and check: a weight that makes the sensor clip, a loose reference sensor or mark."
+            )
+        elif live.last_flags:
             flags = ", ".join(f.replace("_", " ").lower() for f in live.last_flags)
             notes.append(f"Last revolution left out: {flags}.")
         if "LOST" in s.meter_state:
