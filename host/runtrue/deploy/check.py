@@ -94,35 +94,8 @@ def explain_selftest_check(c: dict[str, Any], *, turning: bool = False) -> str:
 
 
 def _gather_selftest(client: Any) -> dict[str, Any]:
-    """Run SELFTEST and join its parts (the meter may split a long result into several frames,
-    each with "part"/"parts"); works whether or not the client joins them itself."""
-    from runtrue.protocol.messages import SelfTest
-
-    parts: dict[int, dict[str, Any]] = {}
-    dispatch = getattr(client, "_dispatch", None)
-    if dispatch is not None:
-        def collect(message: Any) -> None:
-            if isinstance(message, SelfTest):
-                raw = dict(message.raw)
-                parts[int(raw.get("part", 0))] = raw
-            dispatch(message)
-
-        client._dispatch = collect
-    try:
-        last = client.self_test(timeout_s=SELFTEST_TIMEOUT_S)
-    finally:
-        if dispatch is not None:
-            client._dispatch = dispatch
-    if not parts:
-        return dict(last)
-    checks: list[dict[str, Any]] = []
-    for i in sorted(parts):
-        checks.extend(parts[i].get("checks", []))
-    expected_parts = int(last.get("parts", len(parts)) or len(parts))
-    result = {"pass": bool(last.get("pass")), "checks": checks}
-    if len(parts) < expected_parts:
-        result["missing_parts"] = expected_parts - len(parts)
-    return result
+    """Run SELFTEST; the client joins the parts a long result is split into."""
+    return dict(client.self_test(timeout_s=SELFTEST_TIMEOUT_S))
 
 
 def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:

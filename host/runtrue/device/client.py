@@ -102,6 +102,7 @@ class MeterClient:
         self._revs: collections.deque[Revolution] = collections.deque(maxlen=REV_QUEUE_MAX)
         self._acks: dict[int, Ack] = {}
         self._selftest: SelfTest | None = None
+        self._selftest_parts: dict[int, dict[str, Any]] = {}
         self._frames_seen = 0
         self._flush_next = True  # start with a lone 0x00: the meter drops any half-received frame
         self._resync_pending = False
@@ -134,6 +135,7 @@ class MeterClient:
             self.last_status = message
         elif isinstance(message, SelfTest):
             self._selftest = message
+            self._selftest_parts[int(message.raw.get("part", 0) or 0)] = dict(message.raw)
         elif isinstance(message, Text):
             self.log.append(message.text)
 
@@ -289,13 +291,27 @@ class MeterClient:
         self._wanted["edge"] = edge
 
     def self_test(self, timeout_s: float = 10.0) -> dict[str, Any]:
-        """Run the meter's self-test (about a second of measurement); returns its JSON object."""
+        """Run the meter's self-test (about a second of measurement); returns its JSON object,
+        ``{"pass", "checks"}``, with the checks of every part joined in order (the meter splits a
+        long result into frames carrying ``"part"``/``"parts"``, PROTOCOL.md).  If a part was lost
+        on the link, ``"missing_parts"`` says how many."""
         self._selftest = None
+        self._selftest_parts = {}
         self._command(CMD_SELFTEST, timeout_s=timeout_s)
         if self._selftest is None and not self._wait(lambda: self._selftest is not None, 1.0):
             raise MeterError(f"the meter on {self.port} acknowledged SELFTEST but sent no result")
         assert self._selftest is not None
-        return dict(self._selftest.raw)
+        last = dict(self._selftest.raw)
+        if "parts" not in last:
+            return last
+        checks: list[dict[str, Any]] = []
+        for i in sorted(self._selftest_parts):
+            checks.extend(self._selftest_parts[i].get("checks", []))
+        result: dict[str, Any] = {"pass": bool(last.get("pass")), "checks": checks}
+        expected = int(last.get("parts") or len(self._selftest_parts))
+        if len(self._selftest_parts) < expected:
+            result["missing_parts"] = expected - len(self._selftest_parts)
+        return result
 
     def status(self) -> Status:
         """Ask for a STATUS report now."""

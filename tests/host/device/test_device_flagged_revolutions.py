@@ -36,3 +36,20 @@ def test_usable_revolutions_are_still_collected_among_a_few_flagged_ones() -> No
     finally:
         client.close()
     assert len(revs) == 60 and all(r.usable for r in revs)
+
+
+def test_self_test_result_split_into_parts_comes_back_whole() -> None:
+    # The firmware splits a long self-test result into frames with "part"/"parts" (PROTOCOL.md);
+    # the caller gets every check once, in order.
+    client = open_meter("sim:roller", seed=1)
+    try:
+        client.identify()
+        result = client.self_test()
+    finally:
+        client.close()
+    names = [c["name"] for c in result["checks"]]
+    assert "missing_parts" not in result
+    assert len(names) == len(set(names)), "no check twice"
+    for name in ("sample_rate", "reference", "ch0_signal", "ch1_signal"):
+        assert name in names, (name, names)
+    assert "part" not in result and "parts" not in result

@@ -80,12 +80,20 @@ def self_test_text(result: dict[str, Any] | None) -> str:
         return "Self-test: press t (spin the machine first so reference pulses are seen)."
     head = "Self-test PASSED" if result.get("pass") else "Self-test FAILED - see notes"
     lines = [head]
+    # Compact for 80x24: the passed checks on one line, each failed one with its value and note
+    # (`runtrue device check` explains every check at length).
+    passed = [str(c.get("name", "?")) for c in result.get("checks", []) if c.get("pass")]
+    if passed:
+        lines.append(" ok: " + ", ".join(passed))
     for c in result.get("checks", []):
-        mark = "ok " if c.get("pass") else "BAD"
+        if c.get("pass"):
+            continue
         value = c.get("value")
         val = f"{value:.4g}" if isinstance(value, float) else str(value)
         note = c.get("note") or ""
-        lines.append(f" {mark} {c.get('name', '?')}: {val} {c.get('unit', '')} {note}".rstrip())
+        lines.append(f" BAD {c.get('name', '?')}: {val} {c.get('unit', '')} {note}".rstrip())
+    if result.get("missing_parts"):
+        lines.append(f" BAD {result['missing_parts']} part(s) of the result lost on the link")
     return "\n".join(lines)
 
 
