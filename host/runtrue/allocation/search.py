@@ -385,19 +385,7 @@ class _Searcher:
                 a, b, rho2 = a[keep], b[keep], rho2[keep]
                 if not len(a):
                     continue
-                pa, pb, ka, kb = self.spos[a], self.spos[b], self.ssize[a], self.ssize[b]
-                same_pos = pa == pb
-                same_size = ka == kb
-                ok = (
-                    (self.stack_used[pa] + 1 + same_pos <= prob.stack_limit[pa])
-                    & (self.stack_used[pb] + 1 + same_pos <= prob.stack_limit[pb])
-                    & (self.count_used[ka] + 1 + same_size <= prob.counts[ka])
-                    & (self.count_used[kb] + 1 + same_size <= prob.counts[kb])
-                    & (self.mass_used[pa] + self.smass[a] + np.where(same_pos, self.smass[b], 0.0)
-                       <= prob.mass_limit_g[pa] + 1e-9)
-                    & (self.mass_used[pb] + self.smass[b] + np.where(same_pos, self.smass[a], 0.0)
-                       <= prob.mass_limit_g[pb] + 1e-9)
-                )
+                ok, same_pos = self._pair_fits(a, b)
                 if not ok.any():
                     continue
                 a, b, rho2, same_pos = a[ok], b[ok], rho2[ok], same_pos[ok]
@@ -414,6 +402,26 @@ class _Searcher:
             self.best_slots, self.best_residual = list(slots), R
         self._set_state([])
 
+    def _pair_fits(self, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Which slot pairs (a[i], b[i]) can still be added: stack, stock-count and mass limits
+        of their positions, counting both pieces when they share a position or a size.  Also
+        returns whether each pair shares a position."""
+        prob = self.prob
+        pa, pb, ka, kb = self.spos[a], self.spos[b], self.ssize[a], self.ssize[b]
+        same_pos = pa == pb
+        same_size = ka == kb
+        ok = (
+            (self.stack_used[pa] + 1 + same_pos <= prob.stack_limit[pa])
+            & (self.stack_used[pb] + 1 + same_pos <= prob.stack_limit[pb])
+            & (self.count_used[ka] + 1 + same_size <= prob.counts[ka])
+            & (self.count_used[kb] + 1 + same_size <= prob.counts[kb])
+            & (self.mass_used[pa] + self.smass[a] + np.where(same_pos, self.smass[b], 0.0)
+               <= prob.mass_limit_g[pa] + 1e-9)
+            & (self.mass_used[pb] + self.smass[b] + np.where(same_pos, self.smass[a], 0.0)
+               <= prob.mass_limit_g[pb] + 1e-9)
+        )
+        return ok, same_pos
+
     def _pairs(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """All slot pairs s <= t with their summed vectors, sorted by the x component."""
         if self._pair_table is None:
@@ -429,7 +437,6 @@ class _Searcher:
         Only pairs whose sum lands within the incumbent's residual level of R can improve on
         it; they lie in a window of the table sorted by x, and every pair in it is checked.
         """
-        prob = self.prob
         ia, ib, pv, xs = self._pairs()
         pending = self._pending_must()
         if pending > 2:
@@ -452,19 +459,7 @@ class _Searcher:
         if not sel.any():
             return
         a, b, Rn, rho = a[sel], b[sel], Rn[sel], rho[sel]
-        pa, pb, ka, kb = self.spos[a], self.spos[b], self.ssize[a], self.ssize[b]
-        same_pos = pa == pb
-        same_size = ka == kb
-        ok = (
-            (self.stack_used[pa] + 1 + same_pos <= prob.stack_limit[pa])
-            & (self.stack_used[pb] + 1 + same_pos <= prob.stack_limit[pb])
-            & (self.count_used[ka] + 1 + same_size <= prob.counts[ka])
-            & (self.count_used[kb] + 1 + same_size <= prob.counts[kb])
-            & (self.mass_used[pa] + self.smass[a] + np.where(same_pos, self.smass[b], 0.0)
-               <= prob.mass_limit_g[pa] + 1e-9)
-            & (self.mass_used[pb] + self.smass[b] + np.where(same_pos, self.smass[a], 0.0)
-               <= prob.mass_limit_g[pb] + 1e-9)
-        )
+        ok, same_pos = self._pair_fits(a, b)
         if not ok.any():
             return
         a, b, Rn, rho, same_pos = a[ok], b[ok], Rn[ok], rho[ok], same_pos[ok]
