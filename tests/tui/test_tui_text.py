@@ -91,3 +91,31 @@ def test_what_the_form_does_not_show_is_kept_from_the_machine() -> None:
     demo = machine_for_scenario("roller")
     again = machine_from_fields(fields_from_machine(demo), base=demo)
     assert again.to_dict() == demo.to_dict()
+
+
+def test_static_couple_split_of_a_two_plane_correction() -> None:
+    """U1 = S/2 + C, U2 = S/2 - C (ISO 21940-2 vocabulary; see runtrue.balancing.static_couple)."""
+    from types import SimpleNamespace
+
+    from runtrue.jobs import Weight
+    from runtrue.tui.unbalance_split import static_couple_lines
+
+    def plan(w1: Weight, w2: Weight) -> SimpleNamespace:
+        return SimpleNamespace(planes=[SimpleNamespace(plane=1, correction=w1), SimpleNamespace(plane=2, correction=w2)])
+
+    # equal weights at the same angle: purely static, 2 x 100 g.mm
+    lines = static_couple_lines(plan(Weight(1, 1.0, 30.0, 100.0), Weight(2, 1.0, 30.0, 100.0)))
+    assert lines[0] == "Correction: mostly static"
+    assert lines[1] == "static 200 g.mm @ 30\N{DEGREE SIGN}"
+    assert lines[2].startswith("couple \N{PLUS-MINUS SIGN}0")
+    # equal and opposite: a pure couple of 150 g.mm, +C in plane 1 at 90 deg
+    lines = static_couple_lines(plan(Weight(1, 1.5, 90.0, 100.0), Weight(2, 1.5, 270.0, 100.0)))
+    assert lines[0] == "Correction: mostly couple"
+    assert lines[2] == "couple \N{PLUS-MINUS SIGN}150 g.mm @ 90\N{DEGREE SIGN}"
+    # different radii are taken as g.mm: 2 g at 50 mm and 1 g at 100 mm, same angle -> 200 g.mm static
+    lines = static_couple_lines(plan(Weight(1, 2.0, 0.0, 50.0), Weight(2, 1.0, 0.0, 100.0)))
+    assert lines[1] == "static 200 g.mm @ 0\N{DEGREE SIGN}"
+    # one plane: nothing to split
+    assert static_couple_lines(SimpleNamespace(planes=[SimpleNamespace(plane=1, correction=Weight(1, 1.0, 0.0, 100.0))])) == []
+    # every line fits the runs screen's side pane
+    assert all(len(line) <= 25 for line in lines)

@@ -15,6 +15,7 @@ import pytest
 from tui_helpers import key, screen_name, screen_text, wait_until
 
 from runtrue.tui import make_app
+from runtrue.tui.unbalance_split import static_couple_lines
 
 MAX_RUNS = 8
 
@@ -30,16 +31,25 @@ async def test_whole_job_on_the_simulator_meets_the_grade(scenario: str, seed: i
         await key(pilot, "f2")  # the simulated machine's description is filled in
         await wait_until(pilot, lambda: screen_name(app) == "RunsScreen", what="job started")
         job = app.session.job
+        split_seen = False
         for _ in range(MAX_RUNS):
             if screen_name(app) != "RunsScreen":
                 break
             n_runs = len(job.runs)
+            if job.machine.n_planes == 2 and job.state.step in ("correction", "trim"):
+                # the technician's check: the two-plane correction split into static and couple
+                split = static_couple_lines(job.state.plan)
+                await wait_until(pilot, lambda: split[0] in screen_text(app), what="static/couple shown")
+                text = screen_text(app)
+                assert all(line in text for line in split)
+                split_seen = True
             await key(pilot, "r")
             await wait_until(pilot, lambda: screen_name(app) == "LiveScreen", what="live readings")
             await key(pilot, "a")  # take the reading by itself once it has settled
             await wait_until(pilot, lambda: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
             await wait_until(pilot, lambda: screen_name(app) != "LiveScreen", what="back from live")
         await wait_until(pilot, lambda: screen_name(app) == "ResultScreen", what="result")
+        assert split_seen == (job.machine.n_planes == 2)
         result = job.result()
         kinds = [r.kind for r in job.runs]
         assert kinds[0] == "reference" and "trial" in kinds and kinds[-1] in ("correction", "trim")

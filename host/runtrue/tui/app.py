@@ -84,6 +84,7 @@ class RuntrueApp(App):
         self._fitter: Any = None  # runtrue.jobs.headless.VirtualRotorFitter for a simulated rotor
         self._failed_ports: set[str] = set()  # ports whose failure to open was already reported
         self.trial_removed = True  # take each trial weight off before the next run
+        self.amplitude_only = False  # no reference mark: the four-run method (machine screen, F7)
 
     # -- start and stop -------------------------------------------------------------------------
     def on_mount(self) -> None:

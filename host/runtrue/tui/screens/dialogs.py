@@ -72,8 +72,18 @@ class ManualReadingForm(_Form):
         f"0-360{DEG}, as your instrument shows it with the same mark every run."
     )
 
-    def __init__(self, labels: list[str], speed_rpm: float, unit: str = "g") -> None:
+    NOTE_AMPLITUDE_ONLY = (
+        "Amplitude: 1x PEAK (RMS x 1.414) in the unit given: g, m/s2, mm/s, in/s, um or mil; "
+        "it is converted to g at the speed given. No phase: the amplitude-only (four-run) method "
+        "does not use it."
+    )
+
+    def __init__(self, labels: list[str], speed_rpm: float, unit: str = "g", *, amplitude_only: bool = False) -> None:
         super().__init__()
+        self.amplitude_only = amplitude_only  # four-run method: amplitudes only, no phase asked
+        if amplitude_only:
+            self.TITLE_TEXT = "Type the 1x amplitudes (from another instrument)"
+            self.NOTE = self.NOTE_AMPLITUDE_ONLY
         self.labels = labels
         self.speed_rpm = speed_rpm
         self.unit = unit
@@ -83,7 +93,8 @@ class ManualReadingForm(_Form):
         out = [("speed", "Speed rpm", f"{self.speed_rpm:g}"), ("unit", "Unit", self.unit)]
         for i, label in enumerate(self.labels):
             out.append((f"amp{i}", f"{i + 1} {label[:10]} amp", ""))
-            out.append((f"phase{i}", f"{i + 1} {label[:10]} phase", ""))
+            if not self.amplitude_only:
+                out.append((f"phase{i}", f"{i + 1} {label[:10]} phase", ""))
         return out
 
     def build(self) -> Any:
@@ -91,13 +102,20 @@ class ManualReadingForm(_Form):
 
         speed = parse_float(self.value("speed"), "speed (rpm)", minimum=1.0)
         amps = [parse_float(self.value(f"amp{i}"), f"pickup {i + 1} amplitude") for i in range(len(self.labels))]
+        unit = self.value("unit").strip() or "g"
+        from runtrue.balancing import BalancingError, convert_1x
+
+        if self.amplitude_only:
+            self.chosen_unit = unit
+            try:
+                in_g = [abs(convert_1x(complex(a, 0.0), unit, "g", speed)) for a in amps]
+            except BalancingError as exc:
+                raise ValueError(str(exc)) from None
+            return RunReading.manual(in_g, None, speed)
         phases = [
             parse_float(self.value(f"phase{i}"), f"pickup {i + 1} phase", minimum=None) % 360.0
             for i in range(len(self.labels))
         ]
-        unit = self.value("unit").strip() or "g"
-        from runtrue.balancing import BalancingError, convert_1x
-
         self.chosen_unit = unit
         try:
             in_g = [convert_1x(cmath.rect(a, math.radians(p)), unit, "g", speed) for a, p in zip(amps, phases)]
@@ -114,8 +132,10 @@ class TrialWeightForm(_Form):
     TITLE_TEXT = "Trial weight"
     NOTE = "Angle: degrees from the reference mark, against rotation."
 
-    def __init__(self, mass_g: float, angle_deg: float) -> None:
+    def __init__(self, mass_g: float, angle_deg: float, *, chalk: bool = False) -> None:
         super().__init__()
+        if chalk:  # four-run: the first of the three angles, from the chalk mark
+            self.NOTE = "Angle: the first trial angle, degrees from the chalk mark, against rotation."
         self.mass_g = mass_g
         self.angle_deg = angle_deg
 

@@ -54,8 +54,11 @@ class FittingScreen(StepScreen):
             sl.add_option(Option("Nothing to fit or take off for this run.", disabled=True))
         m = job.machine if job is not None else None
         if m is not None:
+            from runtrue.tui.method import is_four_run
+
+            mark = "chalk mark (0\N{DEGREE SIGN})" if is_four_run(job) else "mark"
             self.query_one("#fit-convention", Static).update(
-                f"Angles from the mark, against rotation. Rotor turns {rotation_words(m.rotation)} "
+                f"Angles from the {mark}, against rotation. Rotor turns {rotation_words(m.rotation)} "
                 "seen from the drive end (dial drawn from there)."
             )
         if self.items:

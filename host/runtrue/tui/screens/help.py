@@ -14,6 +14,11 @@ STEPS = (
     "2 Machine: describe it once (mass, speed, rotation, planes, positions, stock, grade, pickups).",
     "3-4 Runs: reference run as found; a trial weight per plane; the correction; trim runs until "
     "the residual unbalance is within the grade. A saved machine with coefficients skips the trials.",
+    "No reference mark (F7 on the machine screen, one plane only): the amplitude-only four-run "
+    "method - chalk a 0 deg mark, a reference run, the trial weight moved to three angles, the "
+    "correction; only the 1x amplitude is used and the residual is an estimate without phase.",
+    "Two planes: the runs screen splits the correction into its static part (the resultant, half "
+    "in each plane) and its couple (+ in plane 1, - in plane 2): mostly static, mostly couple, or both.",
     "5 Fitting: the dial shows where each weight goes; tick each one off as it is fitted.",
     "6 Result: before and after, residual against permissible, the report and the export.",
 )

@@ -17,6 +17,7 @@ from textual.widget import Widget
 from textual.widgets import Static
 
 from runtrue.tui.format import DEG, PHASE_NOTE, amp_text, bar, time_left_text
+from runtrue.tui.method import PHASE_NOT_USED_NOTE
 from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.widgets.polar import PolarData, PolarPlot
 
@@ -25,8 +26,9 @@ NO_REVS_S = 3.0  # say so when no revolution came for this long
 REFRESH_S = 0.25  # redraw period: a few times a second is enough, and kind to a Pi over SSH
 
 
-def channel_rows(reading: Any) -> list[str]:
-    """One line per pickup: 1x amp and phase, 1x velocity, 2x, overall (RMS x sqrt 2)."""
+def channel_rows(reading: Any, amplitude_only: bool = False) -> list[str]:
+    """One line per pickup: 1x amp and phase, 1x velocity, 2x, overall (RMS x sqrt 2).  With
+    ``amplitude_only`` (four-run method) the phase is not shown: it is not used."""
     from runtrue.readings.units import accel_g_to_velocity_mm_s
 
     rows = [f"{'ch':<2} {'1x amp':>9} {'phase':>6} {'mm/s':>6} {'2x':>8} {'overall':>8}"]
@@ -35,11 +37,28 @@ def channel_rows(reading: Any) -> list[str]:
         return rows
     for i, ch in enumerate(reading.channels):
         vel = accel_g_to_velocity_mm_s(ch.amp_g, reading.speed_rpm) if reading.speed_rpm > 0 else math.nan
+        phase = f"{'unused':>6}" if amplitude_only else f"{ch.phase_deg:5.1f}{DEG}"
         rows.append(
-            f"{i + 1:<2} {amp_text(ch.amp_g):>9} {ch.phase_deg:5.1f}{DEG} {vel:6.2f} "
+            f"{i + 1:<2} {amp_text(ch.amp_g):>9} {phase} {vel:6.2f} "
             f"{amp_text(abs(ch.h2)):>8} {amp_text(ch.rms_g * math.sqrt(2)):>8}"
         )
     return rows
+
+
+def amplitude_lines(earlier: list[tuple[str, list[float]]], now: float | None, channel: int) -> list[str]:
+    """The four-run view in place of the polar plot: each earlier run's 1x amplitude on one
+    pickup as a bar, and the reading now, all on one scale."""
+    amps = [(label, a[channel]) for label, a in earlier if channel < len(a)]
+    if now is not None and math.isfinite(now):
+        amps.append(("now", now))
+    top = max((a for _, a in amps), default=0.0)
+    lines = [f"1x amplitude, ch{channel + 1}", "(phase not used)"]
+    for label, a in amps:
+        frac = a / top if top > 0 else 0.0
+        lines.append(f"{label:<3} {bar(frac, 12)} {amp_text(a)}")
+    if not amps:
+        lines.append("(no runs yet)")
+    return lines
 
 
 class LiveScreen(StepScreen):
@@ -55,8 +74,11 @@ class LiveScreen(StepScreen):
     ]
 
     def __init__(self, purpose: str = "", *, marks: list[list[tuple[str, complex]]] | None = None,
-                 auto: bool = False, can_take: bool = True) -> None:
+                 auto: bool = False, can_take: bool = True, amplitude_only: bool = False,
+                 earlier: list[tuple[str, list[float]]] | None = None) -> None:
         super().__init__()
+        self.amplitude_only = amplitude_only  # four-run method: amplitudes only, phase not used
+        self.earlier = earlier or []  # four-run: earlier runs' amplitudes, (label, per pickup)
         self.purpose = purpose
         self.can_take = can_take  # False: just looking (checking the sensors before a job)
         self.marks = marks or []
@@ -73,6 +95,7 @@ class LiveScreen(StepScreen):
                 yield Static("", id="live-table", markup=False)
                 yield Static("", id="live-notes", classes="note", markup=False)
             yield PolarPlot(id="live-polar")
+            yield Static("", id="live-amps", markup=False)
         yield Static("", id="live-progress", markup=False)
 
     def on_mount(self) -> None:
@@ -81,6 +104,8 @@ class LiveScreen(StepScreen):
         self._shown_at = s.live.clock()
         if s.link is not None:
             s.link.stream(True)
+        self.query_one(PolarPlot).display = not self.amplitude_only
+        self.query_one("#live-amps", Static).display = self.amplitude_only
         if self._auto:
             self.action_auto()
         self._redraw()
@@ -116,12 +141,15 @@ class LiveScreen(StepScreen):
             f"{speed_txt}  steadiness {bar(st.score, 8)} {steady_txt:<8}  revs {live.total_revs}"
             f"  flagged {live.unusable_revs}  lost {live.lost_frames}"
         )
-        self.query_one("#live-table", Static).update("\n".join(channel_rows(reading)))
+        self.query_one("#live-table", Static).update("\n".join(channel_rows(reading, self.amplitude_only)))
         notes = [f"ch {i + 1}: {label}" for i, label in enumerate(self._labels())]
         if reading is not None:
             conf = "  ".join(f"ch{i + 1} {amp_text(ch.confidence_g)}" for i, ch in enumerate(reading.channels))
             notes.append(f"95 % radius ({reading.n_revs} revs): {conf}")
-        notes.append(PHASE_NOTE + "; amplitudes are peak; overall = RMS x 1.414.")
+        if self.amplitude_only:
+            notes.append(PHASE_NOT_USED_NOTE + "; amplitudes peak; overall = RMS x 1.414.")
+        else:
+            notes.append(PHASE_NOTE + "; amplitudes are peak; overall = RMS x 1.414.")
         if not st.steady:
             notes.append(f"Not steady yet: {st.reason}.")
         quiet_since = max(live.last_rev_at, self._shown_at)
@@ -142,7 +170,11 @@ class LiveScreen(StepScreen):
             notes.append("METER LOST: check the USB cable. The job is kept; it reconnects by itself.")
         self.query_one("#live-notes", Static).update("\n".join(notes))
         n_ch = live.n_channels()
-        if n_ch:
+        if n_ch and self.amplitude_only:
+            self.channel %= n_ch
+            now = reading.channels[self.channel].amp_g if reading is not None else None
+            self.query_one("#live-amps", Static).update("\n".join(amplitude_lines(self.earlier, now, self.channel)))
+        elif n_ch:
             self.channel %= n_ch
             ch_marks = self.marks[self.channel] if self.channel < len(self.marks) else []
             mean = reading.channels[self.channel].mean if reading is not None else None

@@ -15,6 +15,7 @@ from textual.widgets import Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
 from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields
+from runtrue.tui.method import TWO_PLANES_REFUSED, is_four_run, method_hint
 from runtrue.tui.screens.base import StepScreen
 
 NEW = "new"
@@ -60,11 +61,12 @@ def history_text(store: Any, machine_id: int) -> str:
 class MachineScreen(StepScreen):
     STEP = "2 Machine"
     BINDINGS = [
-        Binding("f2", "start_job", "Start job"),
-        Binding("f3", "grades", "Grade table"),
+        Binding("f2", "start_job", "Start"),
+        Binding("f3", "grades", "Grade"),
         Binding("f4", "back", "Back"),
-        Binding("f5", "trial_mode", "Trials"),
+        Binding("f5", "trial_mode", "Trial"),
         Binding("f6", "history", "History"),
+        Binding("f7", "amplitude_mode", "No mark"),
         Binding("f1", "app.help", "Help"),
     ]
 
@@ -146,12 +148,23 @@ class MachineScreen(StepScreen):
 
     def _update_hint(self) -> None:
         values = self._values()
-        mode = "taken off before the next run" if self.rt_app.trial_removed else "left on (correction net of them)"
-        lines = [tolerance_text(values), f"Trial weights: {mode} (F5)."]
+        amplitude_only = self.rt_app.amplitude_only
+        if amplitude_only:
+            mode = "moved to three angles from a chalk mark, then taken off"
+        elif self.rt_app.trial_removed:
+            mode = "taken off before the next run (F5)"
+        else:
+            mode = "left on, correction net of them (F5)"
+        lines = [tolerance_text(values), method_hint(amplitude_only), f"Trial weights: {mode}."]
         if self._editing_id is not None:
             m = next((m for m in self._machines.values() if m.id == self._editing_id), None)
             if m is not None and m.influence is not None:
-                lines.append(f"Stored influence coefficients ({m.influence.speed_rpm:.0f} rpm): straight to the correction.")
+                if amplitude_only:
+                    lines.append("Stored influence coefficients hold phase: not used by the amplitude-only method.")
+                else:
+                    lines.append(
+                        f"Stored influence coefficients ({m.influence.speed_rpm:.0f} rpm): straight to the correction."
+                    )
             lines.append(history_text(self.session.store, self._editing_id))
         self.query_one("#hint", Static).update("\n".join(lines))
 
@@ -176,7 +189,26 @@ class MachineScreen(StepScreen):
         self.app.push_screen(HistoryScreen("\n".join(history_lines(self.session.store, machine))))
 
     def action_trial_mode(self) -> None:
+        if self.rt_app.amplitude_only:
+            self.notify("In the four-run method the trial weight is moved and then taken off; it is never left on.",
+                        severity="warning", timeout=5)
+            return
         self.rt_app.trial_removed = not self.rt_app.trial_removed
+        self._update_hint()
+
+    def _two_planes(self) -> bool:
+        return self.query_one("#f_planes", Input).value.strip() == "2"
+
+    def action_amplitude_mode(self) -> None:
+        """No reference mark: the amplitude-only (four-run) method, single plane only."""
+        app = self.rt_app
+        if not app.amplitude_only and self._two_planes():
+            self.notify(TWO_PLANES_REFUSED, title="One plane only", severity="error", timeout=8)
+            return
+        app.amplitude_only = not app.amplitude_only
+        if app.amplitude_only:
+            self.notify("No reference mark: the job uses the amplitude-only (four-run) method; you will chalk a 0\N{DEGREE SIGN} "
+                        "mark on the rotor. F7 again to use the reference mark.", title="Amplitude-only", timeout=5)
         self._update_hint()
 
     def action_back(self) -> None:
@@ -200,6 +232,11 @@ class MachineScreen(StepScreen):
                 machine.id = saved.id
                 machine.influence = saved.influence
                 self.notify(f"Updated the saved machine {machine.name!r}.", timeout=3)
+        amplitude_only = self.rt_app.amplitude_only
+        if amplitude_only and machine.n_planes != 1:
+            self.notify(TWO_PLANES_REFUSED, title="One plane only", severity="error", timeout=8)
+            self.query_one("#f_planes", Input).focus()
+            return
         try:
             store.save_machine(machine)
         except ValueError as exc:
@@ -212,7 +249,15 @@ class MachineScreen(StepScreen):
         from runtrue.jobs import BalanceJob
 
         self.session.machine = machine
-        self.session.job = BalanceJob.start(store, machine, trial_removed=self.rt_app.trial_removed)
+        try:
+            if amplitude_only:
+                job = BalanceJob.start(store, machine, amplitude_only=True)
+            else:
+                job = BalanceJob.start(store, machine, trial_removed=self.rt_app.trial_removed)
+        except ValueError as exc:
+            self.notify(str(exc), title="Job not started", severity="error", timeout=8)
+            return
+        self.session.job = job
         self.rt_app.show_runs()
 
     def _resume(self, job_id: int) -> None:
@@ -227,5 +272,6 @@ class MachineScreen(StepScreen):
             return
         self.session.machine = job.machine
         self.session.job = job
-        self.notify(f"Job {job_id} resumed with {len(job.runs)} run(s) kept.", title="Resumed")
+        method = " (amplitude-only, four-run)" if is_four_run(job) else ""
+        self.notify(f"Job {job_id}{method} resumed with {len(job.runs)} run(s) kept.", title="Resumed")
         self.rt_app.show_runs()

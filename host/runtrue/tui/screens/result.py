@@ -16,7 +16,8 @@ from textual.widget import Widget
 from textual.widgets import Static
 
 from runtrue.tui.format import ANGLE_NOTE, PHASE_NOTE
-from runtrue.tui.result_text import channel_lines, plane_lines, verdict, weights_lines
+from runtrue.tui.method import CHALK_ANGLE_NOTE, PHASE_NOT_USED_NOTE
+from runtrue.tui.result_text import channel_lines, is_four_run_result, method_lines, plane_lines, verdict, weights_lines
 from runtrue.tui.screens.base import StepScreen
 
 
@@ -61,12 +62,16 @@ class ResultScreen(StepScreen):
         v.update(f" {sentence}")
         v.set_classes(cls)
         lines = [f"{res.machine_name}, job {res.job_id}: {res.runs} run(s), {res.speed_rpm:g} rpm, status {res.status}"]
+        lines += method_lines(res)
         lines += [""] + channel_lines(res)
         lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res)
         lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res)
         if res.warnings:
             lines += ["", "Notes:"] + [f"- {w}" for w in res.warnings]
-        lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}. Amplitudes 1x peak."]
+        if is_four_run_result(res):
+            lines += ["", f"{PHASE_NOT_USED_NOTE}; {CHALK_ANGLE_NOTE}. Amplitudes 1x peak."]
+        else:
+            lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}. Amplitudes 1x peak."]
         self.query_one("#result-text", Static).update("\n".join(lines))
         self.query_one("#hint", Static).update("h: write the HTML report   e: CSV + JSON export of the runs")
 

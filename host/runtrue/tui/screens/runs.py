@@ -18,25 +18,34 @@ from textual.widget import Widget
 from textual.widgets import Static
 
 from runtrue.tui.format import DEG, SAFETY_FIT, SAFETY_START, amp_text
+from runtrue.tui.method import is_four_run
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.unbalance_split import static_couple_lines
 
 RUN_LETTER = {"reference": "R", "trial": "T", "correction": "C", "trim": "t"}
 
 
-def step_names(n_planes: int) -> list[str]:
-    trials = ["trial"] if n_planes == 1 else [f"trial {p}" for p in range(1, n_planes + 1)]
+def step_names(n_planes: int, four_run: bool = False) -> list[str]:
+    """The steps of a job; the four-run method moves one trial weight to three angles."""
+    if four_run:
+        trials = ["trial 1", "trial 2", "trial 3"]
+    else:
+        trials = ["trial"] if n_planes == 1 else [f"trial {p}" for p in range(1, n_planes + 1)]
     return ["reference", *trials, "correction", "trim", "done"]
 
 
 def current_step_name(job: Any) -> str:
     s = job.state
+    if s.step == "trial" and is_four_run(job):
+        return f"trial {s.trial_number or 1}"
     if s.step == "trial" and job.machine.n_planes > 1:
         return f"trial {s.plane}"
     return str(s.step)
 
 
 def step_bar(job: Any) -> Text:
-    names = step_names(job.machine.n_planes)
+    four_run = is_four_run(job)
+    names = step_names(job.machine.n_planes, four_run)
     now = current_step_name(job)
     idx = names.index(now) if now in names else 0
     text = Text(" ")
@@ -49,17 +58,30 @@ def step_bar(job: Any) -> Text:
             text.append(f" {name} ", "bold reverse")
         else:
             text.append(name, "dim")
+    if four_run:
+        text.append(f"  cycle {job.state.cycle or 1}", "dim")
     return text
 
 
+def _trial_angle(run: Any) -> float | None:
+    return next((w.angle_deg for w in run.weights if w.label.startswith("trial")), None)
+
+
 def runs_lines(job: Any) -> list[str]:
-    """The runs so far: number, kind, and each pickup's 1x as amp@phase."""
+    """The runs so far: number, kind, and each pickup's 1x as amp and phase; for the four-run
+    method the amplitude only, and for a trial run the trial weight's angle from the chalk mark."""
+    four_run = is_four_run(job)
     lines = []
     for r in job.runs:
         head = f"{r.seq:>2} {r.kind[:5]:<5}"
         for i, ch in enumerate(r.reading.channels):
             prefix = head if i == 0 else " " * len(head)
-            lines.append(f"{prefix} {amp_text(ch.amp_g)} {ch.phase_deg:3.0f}{DEG}")
+            if not four_run:
+                lines.append(f"{prefix} {amp_text(ch.amp_g)} {ch.phase_deg:3.0f}{DEG}")
+                continue
+            angle = _trial_angle(r) if r.kind == "trial" and i == 0 else None
+            at = f" T@{angle:.0f}{DEG}" if angle is not None else ""
+            lines.append(f"{prefix} {amp_text(ch.amp_g)}{at}")
     return lines or ["(no runs yet)"]
 
 
@@ -69,6 +91,20 @@ def polar_marks(job: Any) -> list[list[tuple[str, complex]]]:
     for r in job.runs:
         for i, ch in enumerate(r.reading.channels[: len(out)]):
             out[i].append((RUN_LETTER.get(r.kind, "?"), ch.mean))
+    return out
+
+
+def amplitude_marks(job: Any) -> list[tuple[str, list[float]]]:
+    """Earlier runs' 1x amplitudes per pickup, labelled R, T1-T3, C, t (four-run live view)."""
+    out: list[tuple[str, list[float]]] = []
+    k = 0
+    for r in job.runs:
+        if r.kind == "trial":
+            k = k % 3 + 1
+            label = f"T{k}"
+        else:
+            label = RUN_LETTER.get(r.kind, "?")
+        out.append((label, [ch.amp_g for ch in r.reading.channels]))
     return out
 
 
@@ -100,6 +136,8 @@ class RunsScreen(StepScreen):
         Binding("v", "result", "Result"),
     ]
 
+    todo_text = ""  # the instructions shown now (the pane scrolls; tests read them here)
+
     def _title_text(self) -> str:
         job = self.session.job
         return f" runtrue | {self.STEP}: {job.machine.name[:22]}" if job is not None else super()._title_text()
@@ -110,8 +148,9 @@ class RunsScreen(StepScreen):
             with VerticalScroll(id="todo-pane"):
                 yield Static("", id="todo", markup=False)
             with Vertical(id="runs-pane"):
-                yield Static("Runs (1x)", classes="pane-title")
+                yield Static("Runs (1x)", id="runs-title", classes="pane-title")
                 yield Static("", id="runs-list", markup=False)
+                yield Static("", id="split", classes="note", markup=False)
         yield Static("", id="caution", classes="caution", markup=False)
 
     def on_mount(self) -> None:
@@ -125,6 +164,8 @@ class RunsScreen(StepScreen):
             return None
         step = job.state.step
         if action == "trial":
+            if is_four_run(job) and job.state.trial_number not in (None, 1):
+                return False  # the three angles follow from the first: change it before trial run 1
             return True if step == "trial" else False
         if action == "accept":
             chk = job.state.last_trial_check
@@ -140,6 +181,7 @@ class RunsScreen(StepScreen):
         if job is None:
             return
         self.refresh_status()
+        step = job.state.step
         self.query_one("#stepbar", Static).update(step_bar(job))
         lines = [f"- {line}" for line in job.instructions()]
         plan = job.state.plan
@@ -150,8 +192,13 @@ class RunsScreen(StepScreen):
         if job.state.warnings:
             lines += ["", "Warnings:"] + [f"! {w}" for w in job.state.warnings]
         self.query_one("#todo", Static).update("\n".join(lines))
+        self.todo_text = "\n".join(lines)
+        self.query_one("#runs-title", Static).update("Runs (1x amplitude)" if is_four_run(job) else "Runs (1x)")
         self.query_one("#runs-list", Static).update("\n".join(runs_lines(job)))
-        step = job.state.step
+        split = static_couple_lines(plan) if step in ("correction", "trim") else []
+        split_w = self.query_one("#split", Static)
+        split_w.update("\n".join(split))
+        split_w.display = bool(split)
         caution = SAFETY_FIT if step in ("trial", "correction", "trim") else SAFETY_START if step == "reference" else ""
         self.query_one("#caution", Static).update(caution)
         self.refresh_bindings()
@@ -166,7 +213,8 @@ class RunsScreen(StepScreen):
             from runtrue.tui.screens.dialogs import ManualReadingForm
 
             speed = job.runs[-1].reading.speed_rpm if job.runs else job.machine.speed_rpm
-            form = ManualReadingForm([p.label for p in job.machine.pickups], speed, s.manual_unit)
+            form = ManualReadingForm([p.label for p in job.machine.pickups], speed, s.manual_unit,
+                                     amplitude_only=is_four_run(job))
 
             def typed(reading: Any) -> None:
                 s.manual_unit = form.chosen_unit
@@ -184,8 +232,10 @@ class RunsScreen(StepScreen):
         s.live.reset(s.link.latest_epoch)
         from runtrue.tui.screens.live import LiveScreen
 
+        four_run = is_four_run(job)
         self.app.push_screen(
-            LiveScreen(current_step_name(job) + " run", marks=polar_marks(job), auto=self.rt_app.auto_take),
+            LiveScreen(current_step_name(job) + " run", marks=polar_marks(job), auto=self.rt_app.auto_take,
+                       amplitude_only=four_run, earlier=amplitude_marks(job) if four_run else None),
             self._record,
         )
 
@@ -203,6 +253,12 @@ class RunsScreen(StepScreen):
         if reading is None:
             return
         job = self.session.job
+        if is_four_run(job):
+            from runtrue.jobs import RunReading
+
+            rr = RunReading.from_reading(reading)
+            if rr.has_phase:  # the meter's phase is not part of this method: keep the amplitudes only
+                reading = rr.amplitudes_only()
         try:
             run = job.record_run(reading)
         except Exception as exc:  # noqa: BLE001 - shown to the user, nothing recorded is lost
@@ -240,7 +296,7 @@ class RunsScreen(StepScreen):
                 self.notify(str(exc), severity="error")
             self.redraw()
 
-        self.app.push_screen(TrialWeightForm(t.mass_g, t.angle_deg), chosen)
+        self.app.push_screen(TrialWeightForm(t.mass_g, t.angle_deg, chalk=is_four_run(job)), chosen)
 
     def action_accept(self) -> None:
         job = self.session.job
