@@ -15,6 +15,7 @@ from textual.widgets import Input, OptionList
 from tui_helpers import FAN_FIELDS, fill, key, screen_name, screen_text, wait_until
 
 from runtrue.tui import make_app
+from runtrue.tui.screens.runs import RunsScreen
 
 SIZE = (80, 24)
 MAX_RUNS = 14  # one four-run cycle is 5 runs; a weak trial repeats its 3 runs; a second cycle is 4 more
@@ -35,6 +36,7 @@ async def test_whole_amplitude_only_job_on_the_simulated_fan_meets_the_grade(tmp
         job = app.session.job
         assert job.state.method == "four-run"
         runs_screen = app.screen
+        assert isinstance(runs_screen, RunsScreen)
         await wait_until(pilot, lambda: "chalk" in runs_screen.todo_text.lower(), what="chalk mark instructions")
         # the step bar shows the three trial runs
         await wait_until(pilot, lambda: "trial 3" in screen_text(app), what="four-run steps")
@@ -111,6 +113,12 @@ async def test_typed_amplitudes_without_phase_and_resume_from_the_machine_screen
         await pilot.press("enter")
         assert job.state.trial_number == 2
         assert not job.runs[0].reading.has_phase
+        # fitting: the trial weight moves from the first angle to the second, from the chalk mark
+        await pilot.press("f")
+        text = screen_text(app)
+        second = job.state.trial_angles_deg[1]
+        assert "CHALK" in text and "chalk mark" in text and "TAKE OFF" in text and f"at {second:.1f}" in text
+        await pilot.press("escape")
         job_id = job.job_id
     app = make_app("manual", store_path=db)
     async with app.run_test(size=SIZE) as pilot:
@@ -125,7 +133,7 @@ async def test_typed_amplitudes_without_phase_and_resume_from_the_machine_screen
         assert job.state.step == "trial" and job.state.trial_number == 2
         text = screen_text(app)
         assert "0.480 g" in text and "0.610 g" in text and "trial 2" in text
-        assert "trial run 2 of 3" in app.screen.todo_text
+        assert isinstance(app.screen, RunsScreen) and "trial run 2 of 3" in app.screen.todo_text
         # the second trial run, typed, and the job goes on to the third
         await pilot.press("r")
         fill(app.screen, {"speed": "1470", "amp0": "0.33"}, prefix="#")

@@ -108,10 +108,10 @@ class ManualReadingForm(_Form):
         if self.amplitude_only:
             self.chosen_unit = unit
             try:
-                in_g = [abs(convert_1x(complex(a, 0.0), unit, "g", speed)) for a in amps]
+                amps_g = [abs(convert_1x(complex(a, 0.0), unit, "g", speed)) for a in amps]
             except BalancingError as exc:
                 raise ValueError(str(exc)) from None
-            return RunReading.manual(in_g, None, speed)
+            return RunReading.manual(amps_g, None, speed)
         phases = [
             parse_float(self.value(f"phase{i}"), f"pickup {i + 1} phase", minimum=None) % 360.0
             for i in range(len(self.labels))

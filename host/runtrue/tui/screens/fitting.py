@@ -79,8 +79,11 @@ class FittingScreen(StepScreen):
         self.query_one("#fit-plane", Static).update(
             f"Plane {self.plane}/{m.n_planes}: r {spec.radius_mm:g} mm, {where}"
         )
+        from runtrue.tui.method import is_four_run
+
         self.query_one(FittingDial).show(
-            DialData(m.rotation, spec.position_angles_deg() or [], placements)
+            DialData(m.rotation, spec.position_angles_deg() or [], placements,
+                     mark_label="CHALK" if is_four_run(job) else "MARK")
         )
 
     def _prompt(self, item: FitItem) -> str:

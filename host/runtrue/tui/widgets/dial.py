@@ -27,6 +27,7 @@ class DialData:
     rotation: str = "cw"  # as seen by the user: "cw" or "ccw"
     positions_deg: list[float] = field(default_factory=list)  # fixed holes/slots (may be empty)
     placements: list[tuple[str, float, bool]] = field(default_factory=list)  # (label, angle, fitted)
+    mark_label: str = "MARK"  # "CHALK" for the amplitude-only method (a chalk mark is 0 deg)
 
 
 def screen_angle_deg(angle_deg: float, rotation: str) -> float:
@@ -58,7 +59,7 @@ def draw_dial(data: DialData, width_chars: int, height_chars: int) -> BrailleCan
         cv.label(int(lx // 2), int(ly // 4), label[:1], "bold green" if fitted else "bold yellow reverse")
     # reference mark at the top, outside the ring
     mid = int(cx // 2)
-    cv.label(mid - 1, 0, "MARK", "bold red")
+    cv.label(mid + 1 - len(data.mark_label) // 2, 0, data.mark_label, "bold red")
     cv.line(cx, 4, cx, cy - r + 1, "red")
     arrow = ARROW_CW if data.rotation == "cw" else ARROW_CCW
     cv.label(0, 0, f"{arrow} turns", "bold cyan")
