@@ -124,6 +124,7 @@ async def test_typed_amplitudes_without_phase_and_resume_from_the_machine_screen
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("n")
         ol = app.screen.query_one("#machines", OptionList)
+        assert "4-run" in str(ol.get_option(f"j{job_id}").prompt)  # the list says which method
         ol.focus()
         ol.highlighted = ol.get_option_index(f"j{job_id}")
         await pilot.press("enter")

@@ -98,3 +98,38 @@ def test_result_screen(snap_compare: Any) -> None:
         await _settle(pilot)
 
     assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)
+
+
+def test_amplitude_only_runs_screen_at_the_second_trial_run(snap_compare: Any) -> None:
+    async def run_before(pilot: Any) -> None:
+        await pilot.press("n")
+        fill(pilot.app.screen, FAN_FIELDS)
+        await pilot.press("f7", "f2", "r")
+        fill(pilot.app.screen, {"speed": "1470", "amp0": "0.412"}, prefix="#")
+        await pilot.press("enter", "r")
+        fill(pilot.app.screen, {"speed": "1470", "amp0": "0.371"}, prefix="#")
+        await pilot.press("enter")
+        await _settle(pilot)
+
+    assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)
+
+
+def test_live_screen_of_an_amplitude_only_job(snap_compare: Any) -> None:
+    async def run_before(pilot: Any) -> None:
+        app = pilot.app
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f7", "f2")
+        app.session.meter_state = "connected"
+        revs = []
+        for n in range(40):
+            wobble = 0.02 * cmath.exp(1j * math.radians(137.5 * n))
+            h1 = cmath.rect(0.52, math.radians(208)) + wobble
+            revs.append(Revolution(n, 60e6 / 1470, 163, 0, 1, [h1], [0.02 + 0.01j], [0.4]))
+        app.session.live.add(revs)
+        from runtrue.tui.screens.live import LiveScreen
+
+        app.push_screen(LiveScreen("trial 2 run", amplitude_only=True, earlier=[("R", [0.412]), ("T1", [0.371])]))
+        await _settle(pilot)
+
+    assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)

@@ -119,3 +119,20 @@ def test_static_couple_split_of_a_two_plane_correction() -> None:
     assert static_couple_lines(SimpleNamespace(planes=[SimpleNamespace(plane=1, correction=Weight(1, 1.0, 0.0, 100.0))])) == []
     # every line fits the runs screen's side pane
     assert all(len(line) <= 25 for line in lines)
+
+
+def test_live_rows_of_an_amplitude_only_job_show_no_phase() -> None:
+    from types import SimpleNamespace
+
+    from runtrue.tui.screens.live import amplitude_lines, channel_rows
+
+    ch = SimpleNamespace(amp_g=0.41, phase_deg=208.0, h2=0.02 + 0.01j, rms_g=0.3)
+    reading = SimpleNamespace(speed_rpm=1470.0, channels=[ch])
+    assert "208.0" in channel_rows(reading)[1]
+    row = channel_rows(reading, amplitude_only=True)[1]
+    assert "208" not in row and "unused" in row and "0.410 g" in row
+    # earlier runs and the reading now on one scale: the largest gets the full bar
+    lines = amplitude_lines([("R", [0.41]), ("T1", [0.205])], 0.82, 0)
+    assert "phase not used" in lines[1]
+    assert lines[-1] == "now " + "\N{FULL BLOCK}" * 12 + " 0.820 g"
+    assert lines[2] == "R   " + "\N{FULL BLOCK}" * 6 + "\N{LIGHT SHADE}" * 6 + " 0.410 g"

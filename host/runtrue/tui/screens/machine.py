@@ -117,7 +117,10 @@ class MachineScreen(StepScreen):
         if unfinished:
             ol.add_option(Option("-- resume a job --", disabled=True))
             for j in unfinished[:8]:
-                ol.add_option(Option(f"job {j.id} {j.machine_name}"[:24], id=f"j{j.id}"))
+                rec = store.get_job(j.id)
+                four_run = rec is not None and bool(rec.options.get("amplitude_only"))
+                tag = " 4-run" if four_run else ""  # amplitude-only jobs say so
+                ol.add_option(Option(f"job {j.id}{tag} {j.machine_name}"[:24], id=f"j{j.id}"))
 
     def _values(self) -> dict[str, str]:
         return {key: self.query_one(f"#f_{key}", Input).value for key, _, _ in FIELDS}
