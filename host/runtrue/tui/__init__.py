@@ -8,11 +8,14 @@ instrument, or None to use the first meter found (else the picker).
 Screens, one module each under ``runtrue.tui.screens`` (every key is shown in the footer):
 
 1. connect  - meters found, simulated machines, manual entry; device info and self-test (t)
-2. machine  - saved machines and unfinished jobs; the machine form; grade table (F3); start (F2)
+2. machine  - saved machines and unfinished jobs; the machine form; grade table (F3); start (F2);
+              F7: no reference mark, the amplitude-only (four-run) method, one plane only
 3. live     - 1x per pickup, speed, steadiness, polar scatter; take a reading (space) or when
-              steady (a); opened by the runs screen for each reading
-4. runs     - the step now (reference, trial, correction, trim) in plain instructions with the
-              angle convention and cautions; reading (r), fitting (f), trial weight (w)
+              steady (a); opened by the runs screen for each reading.  Four-run: amplitudes
+              only, earlier runs' amplitudes as bars instead of the polar plot (phase not used)
+4. runs     - the step now (reference, trial, correction, trim; four-run: trial 1-3) in plain
+              instructions with the angle convention and cautions; reading (r), fitting (f),
+              trial weight (w); for two planes the correction's static and couple parts
 5. fitting  - the rotor dial (mark, rotation, positions, placements) and a tick-off list with the
               force each weight must hold
 6. result   - before/after, residual against permissible, pass/fail; HTML report (h), CSV and
