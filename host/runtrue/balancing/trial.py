@@ -28,9 +28,9 @@ from runtrue.balancing.model import BalancingError
 TRIAL_FORCE_FRACTION = 0.10
 #: With a target grade: the trial unbalance is at least this many times the plane's allowance.
 TRIAL_GRADE_MULTIPLE = 5.0
-# Safety cap on the grade rule (our choice): a suggested trial never pulls with more than half
+# Safety cap on the grade rule (our choice): a suggested trial never pulls with more than 30 % of
 # the rotor's weight share at running speed, however small the allowance makes the 10 % rule look.
-TRIAL_FORCE_CAP_FRACTION = 0.5
+TRIAL_FORCE_CAP_FRACTION = 0.3
 #: Minimum change / noise ratio for a trustworthy trial run (see module docstring).
 TRIAL_MIN_RATIO = 10.0
 #: Without spreads: the change should be at least this fraction of the reference.  The trade's

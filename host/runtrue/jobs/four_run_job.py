@@ -51,6 +51,7 @@ from runtrue.jobs.workflow import (
     JobResult,
     TrialCheck,
     _plane_sums,
+    parse_grade,
 )
 
 METHOD = "four-run"
@@ -379,7 +380,8 @@ class AmplitudeOnlyJob(BalanceJob):
                 f"({u_est:.3g} g·mm)."
             )
         else:
-            sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=1)
+            sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=1,
+                                       grade=parse_grade(m.grade))
             mass, angle = float(sug.mass_g), None
             message = str(getattr(sug, "rule", ""))
         staying = [w for w in ref.weights if not self._is_trial(w)]
