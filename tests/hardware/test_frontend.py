@@ -99,3 +99,15 @@ def test_frontend_document_carries_the_current_figures() -> None:
     block = fe.document_block(text)
     assert block is not None, "FRONTEND.md lost its generated-figures markers"
     assert block == fe.render(), "FRONTEND.md is stale: run `python hardware/frontend.py --write`"
+
+
+def test_figures_quoted_above_the_specified_speed_match_the_filter() -> None:
+    # FRONTEND.md quotes the front end's cost above 15,000 rpm: 24,000 rpm about 0.91 and 25°
+    # (±5°), 30,000 rpm about 0.87 and 30°.  Second-order RC ladder, Horowitz & Hill, The Art of
+    # Electronics, 3rd ed., section 1.7 (single section; the ladder is its two-stage form).
+    rows = {r.speed_rpm: r for r in fe.speed_rows(speeds_rpm=(24000, 30000))}
+    assert round(rows[24000].amp_ratio, 2) == 0.91 and round(rows[24000].lag_deg) == 25
+    assert round(rows[24000].lag_spread_deg) == 5
+    assert round(rows[30000].amp_ratio, 2) == 0.87 and round(rows[30000].lag_deg) == 30
+    text = (ROOT / "hardware" / "FRONTEND.md").read_text(encoding="utf-8")
+    assert "at 24,000 rpm about 0.91" in text and "25° of lag (±5°" in text and "about 0.87 and\n  30°" in text
