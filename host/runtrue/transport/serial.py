@@ -137,7 +137,7 @@ class SerialTransport(Transport):
         except (serial.SerialException, OSError, ValueError) as exc:
             raise PortError(
                 f"cannot open {device}: {exc}. Check the meter is plugged in and that no other "
-                "program has the port open; `runtrue device check` lists the ports"
+                "program has the port open; the Connect screen of `runtrue app` lists the meters found"
             ) from None
         self._ser = ser
         self._timeout_s = 0.0
