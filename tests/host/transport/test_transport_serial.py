@@ -87,7 +87,7 @@ def test_pty_device_both_ways_and_loss_when_it_goes(tmp_path: Path) -> None:
 
 
 def test_missing_port_error_says_what_to_do() -> None:
-    with pytest.raises(PortError, match="cannot open /dev/does-not-exist.*plugged in.*runtrue device check"):
+    with pytest.raises(PortError, match="cannot open /dev/does-not-exist.*plugged in.*Connect screen of .runtrue app. lists the meters found"):
         open_transport("/dev/does-not-exist")
 
 
