@@ -26,6 +26,7 @@ from runtrue.tui.messages import (
 )
 from runtrue.tui.screens.connect import ConnectScreen
 from runtrue.tui.session import MANUAL_PORT, Session
+from runtrue.tui.units_text import METRIC
 
 # Our own palette: deep blue-grey ground, teal for what you can act on, amber for what to watch.
 RUNTRUE_THEME = Theme(
@@ -85,6 +86,7 @@ class RuntrueApp(App):
         self._failed_ports: set[str] = set()  # ports whose failure to open was already reported
         self.trial_removed = True  # take each trial weight off before the next run
         self.amplitude_only = False  # no reference mark: the four-run method (machine screen, F7)
+        self.units = METRIC  # display units, metric or imperial (machine screen, F8); jobs stay metric
 
     # -- start and stop -------------------------------------------------------------------------
     def on_mount(self) -> None:

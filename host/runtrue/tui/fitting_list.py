@@ -12,7 +12,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from runtrue.tui.format import DEG, centrifugal_force_n, force_text, mass_text
+from runtrue.tui.format import DEG, centrifugal_force_n
+from runtrue.tui.units_text import METRIC, force_text, mass_text, radius_text
 
 
 @dataclass(frozen=True)
@@ -36,7 +37,23 @@ def _multiset_minus(a: list[Any], b: list[Any]) -> list[Any]:
     return out
 
 
-def fit_items(job: Any) -> list[FitItem]:
+def imperial_lines(job: Any, units: str) -> list[str]:
+    """The runs screen's instructions come from the job in metric; with imperial display units,
+    one more line gives the weights to fit for the coming run in oz and in (nothing in metric)."""
+    if units == METRIC or job is None:
+        return []
+    on = list(job.runs[-1].weights) if job.runs else []
+    add = _multiset_minus(list(job.planned_weights()), on)
+    if not add:
+        return []
+    parts = [
+        f"plane {w.plane} {mass_text(w.mass_g, units)} at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}"
+        for w in add
+    ]
+    return [f"In oz and in, fit: {'; '.join(parts)}."]
+
+
+def fit_items(job: Any, units: str = METRIC) -> list[FitItem]:
     on = list(job.runs[-1].weights) if job.runs else []
     planned = list(job.planned_weights())
     remove = _multiset_minus(on, planned)
@@ -51,8 +68,8 @@ def fit_items(job: Any) -> list[FitItem]:
     for k, w in enumerate(remove):
         items.append(
             FitItem(f"r{k}", w.plane, "x", w.angle_deg, True,
-                    f"TAKE OFF {mass_text(w.mass_g)}: {w.label or 'weight'}\n"
-                    f"  plane {w.plane} at {w.angle_deg:.1f}{DEG}, r {w.radius_mm:g} mm")
+                    f"TAKE OFF {mass_text(w.mass_g, units)}: {w.label or 'weight'}\n"
+                    f"  plane {w.plane} at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}")
         )
     letters = "ABCDEFGHIJKLMNOPQRSTUVWXYZ"
     used: dict[int, int] = {}
@@ -66,8 +83,8 @@ def fit_items(job: Any) -> list[FitItem]:
         what = f" = {row.what}" if row is not None and row.what else ""
         items.append(
             FitItem(f"a{k}", w.plane, letters[k % 26], w.angle_deg, False,
-                    f"{letters[k % 26]} FIT {mass_text(w.mass_g)}{what}\n"
-                    f"  plane {w.plane} {where}at {w.angle_deg:.1f}{DEG}, r {w.radius_mm:g} mm\n"
-                    f"  secure for {force_text(force)}")
+                    f"{letters[k % 26]} FIT {mass_text(w.mass_g, units)}{what}\n"
+                    f"  plane {w.plane} {where}at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}\n"
+                    f"  secure for {force_text(force, units)}")
         )
     return items

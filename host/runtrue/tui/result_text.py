@@ -7,7 +7,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from runtrue.tui.format import DEG, amp_text, centrifugal_force_n, force_text, mass_text
+from runtrue.tui.format import DEG, amp_text, centrifugal_force_n
+from runtrue.tui.units_text import METRIC, force_text, mass_text, radius_text, unbalance_text
 
 
 def is_four_run_result(result: Any) -> bool:
@@ -59,7 +60,7 @@ def channel_lines(result: Any) -> list[str]:
     return lines
 
 
-def plane_lines(result: Any) -> list[str]:
+def plane_lines(result: Any, units: str = METRIC) -> list[str]:
     """Per plane: residual (with its 95 % uncertainty when known) against the permissible value."""
     lines = []
     residual = result.residual_unbalance_gmm
@@ -70,19 +71,32 @@ def plane_lines(result: Any) -> list[str]:
             r = residual[p - 1]
             u = unc[p - 1] if unc is not None and p - 1 < len(unc) else 0.0
             mark = "ok" if r + u <= perm else "TOO HIGH"
-            pm = f"+-{u:.0f}" if u else ""
-            lines.append(f"plane {p}: {about}{r:.1f}{pm} g.mm of {perm:.1f} g.mm allowed ({(r + u) / perm:.2f}x) {mark}")
-        else:
+            ratio = f"({(r + u) / perm:.2f}x) {mark}"
+            if units == METRIC:
+                pm = f"+-{u:.0f}" if u else ""
+                lines.append(f"plane {p}: {about}{r:.1f}{pm} g.mm of {perm:.1f} g.mm allowed {ratio}")
+            else:
+                pm = f" +-{unbalance_text(u, units)}" if u else ""
+                lines.append(f"plane {p}: {about}{unbalance_text(r, units)}{pm} of "
+                             f"{unbalance_text(perm, units)} allowed {ratio}")
+        elif units == METRIC:
             lines.append(f"plane {p}: residual not measured yet; {perm:.1f} g.mm allowed")
+        else:
+            lines.append(f"plane {p}: residual not measured yet; {unbalance_text(perm, units)} allowed")
     return lines
 
 
-def method_lines(result: Any) -> list[str]:
+def method_lines(result: Any, units: str = METRIC) -> list[str]:
     """How the job was balanced; for the four-run method, why the residual is an estimate."""
     if not is_four_run_result(result):
         return ["Method: influence coefficients, from 1x amplitude and phase (reference mark)."]
     h = getattr(result, "influence_magnitude", None)
-    h_txt = f"\n|H| = {h:.3g} g per g.mm (four-run solution)." if h else ""
+    if h and units != METRIC:
+        from runtrue.balancing.units import GMM_PER_OZIN
+
+        h_txt = f"\n|H| = {h * GMM_PER_OZIN:.3g} g per oz.in (four-run solution)."
+    else:
+        h_txt = f"\n|H| = {h:.3g} g per g.mm (four-run solution)." if h else ""
     return [
         "Method: amplitude-only (four-run): no reference mark; chalk mark for angles.",
         "The residual is the check-run amplitude / |H|, an ESTIMATE without phase: it",
@@ -90,13 +104,13 @@ def method_lines(result: Any) -> list[str]:
     ]
 
 
-def weights_lines(result: Any) -> list[str]:
+def weights_lines(result: Any, units: str = METRIC) -> list[str]:
     """The weights on the rotor now, each with the centrifugal force it must hold at speed."""
     if not result.weights_on:
         return ["No weights added."]
     return [
-        f"plane {w.plane}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}{DEG}, r {w.radius_mm:g} mm, "
-        f"{force_text(centrifugal_force_n(w.mass_g, w.radius_mm, result.speed_rpm))}"
+        f"plane {w.plane}: {mass_text(w.mass_g, units)} at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}, "
+        f"{force_text(centrifugal_force_n(w.mass_g, w.radius_mm, result.speed_rpm), units)}"
         + (f" ({w.label})" if w.label else "")
         for w in result.weights_on
     ]

@@ -14,18 +14,15 @@ import math
 from typing import Any
 
 from runtrue.tui.format import DEG
+from runtrue.tui.units_text import METRIC, unbalance_text
 
 #: One part counts as dominant when it is at least this many times the other, per plane (our choice).
 DOMINANT_RATIO = 2.0
 
 
-def gmm_text(u_gmm: float) -> str:
-    """An unbalance amount without exponent: ``4.56 g.mm``, ``1880 g.mm``, ``12.3 kg.mm``."""
-    if u_gmm >= 10_000:
-        return f"{u_gmm / 1000:.3g} kg.mm"
-    if u_gmm >= 100:
-        return f"{u_gmm:.0f} g.mm"
-    return f"{u_gmm:.3g} g.mm"
+def gmm_text(u_gmm: float, units: str = METRIC) -> str:
+    """An unbalance amount without exponent: ``4.56 g.mm``, ``1880 g.mm``, ``12.3 kg.mm`` (or oz.in)."""
+    return unbalance_text(u_gmm, units)
 
 
 def split_kind(static_gmm: complex, couple_gmm: complex) -> str:
@@ -38,7 +35,7 @@ def split_kind(static_gmm: complex, couple_gmm: complex) -> str:
     return "static + couple"
 
 
-def static_couple_lines(plan: Any) -> list[str]:
+def static_couple_lines(plan: Any, units: str = METRIC) -> list[str]:
     """For a plan correcting planes 1 and 2: ``["Correction: mostly static", "static 245 g.mm @
     30°", "couple ±88 g.mm @ 200°"]``; no lines for anything else (one plane, no plan)."""
     if plan is None or len(plan.planes) != 2:
@@ -56,6 +53,6 @@ def static_couple_lines(plan: Any) -> list[str]:
     c_ang = math.degrees(math.atan2(sc.couple_gmm.imag, sc.couple_gmm.real)) % 360.0
     return [
         f"Correction: {split_kind(sc.static_gmm, sc.couple_gmm)}",
-        f"static {gmm_text(abs(sc.static_gmm))} @ {s_ang:.0f}{DEG}",
-        f"couple \N{PLUS-MINUS SIGN}{gmm_text(abs(sc.couple_gmm))} @ {c_ang:.0f}{DEG}",
+        f"static {gmm_text(abs(sc.static_gmm), units)} @ {s_ang:.0f}{DEG}",
+        f"couple \N{PLUS-MINUS SIGN}{gmm_text(abs(sc.couple_gmm), units)} @ {c_ang:.0f}{DEG}",
     ]

@@ -18,6 +18,7 @@ from textual.widgets.option_list import Option
 from runtrue.tui.fitting_list import FitItem, fit_items
 from runtrue.tui.format import SAFETY_FIT, rotation_words
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.units_text import radius_text
 from runtrue.tui.widgets.dial import DialData, FittingDial
 
 
@@ -44,7 +45,7 @@ class FittingScreen(StepScreen):
     def on_mount(self) -> None:
         super().on_mount()
         job = self.session.job
-        self.items: list[FitItem] = fit_items(job) if job is not None else []
+        self.items: list[FitItem] = fit_items(job, self.rt_app.units) if job is not None else []
         self.ticked: set[str] = self.rt_app.ticked
         self.plane = min((i.plane for i in self.items), default=1)
         sl = self.query_one("#fit-list", OptionList)
@@ -77,7 +78,7 @@ class FittingScreen(StepScreen):
         ]
         where = "any angle" if spec.continuous else f"{len(spec.position_angles_deg() or [])} positions"
         self.query_one("#fit-plane", Static).update(
-            f"Plane {self.plane}/{m.n_planes}: r {spec.radius_mm:g} mm, {where}"
+            f"Plane {self.plane}/{m.n_planes}: r {radius_text(spec.radius_mm, self.rt_app.units)}, {where}"
         )
         from runtrue.tui.method import is_four_run
 

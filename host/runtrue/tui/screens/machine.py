@@ -11,17 +11,18 @@ from typing import Any, Iterable
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widget import Widget
-from textual.widgets import Input, Label, OptionList, Static
+from textual.widgets import Footer, Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
 from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields
 from runtrue.tui.method import TWO_PLANES_REFUSED, is_four_run, method_hint
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.units_text import IMPERIAL, METRIC, UNITS_WORDS, other_units, unbalance_text
 
 NEW = "new"
 
 
-def tolerance_text(values: dict[str, str]) -> str:
+def tolerance_text(values: dict[str, str], units: str = METRIC) -> str:
     """The permissible residual unbalance for what is typed so far (or what is missing)."""
     try:
         from runtrue.balancing import permissible_unbalance
@@ -34,6 +35,12 @@ def tolerance_text(values: dict[str, str]) -> str:
         tol = permissible_unbalance(grade, mass, speed, planes=planes)
     except Exception:  # noqa: BLE001 - incomplete form: say what the number needs
         return "Permissible residual unbalance: give mass, speed and grade."
+    if units != METRIC:
+        per = " + ".join(unbalance_text(u, units) for u in tol.per_plane_gmm)
+        return (
+            f"Permissible residual unbalance (ISO 21940-11): {unbalance_text(tol.permissible_unbalance_gmm, units)} "
+            f"(per plane {per}), {tol.permissible_eccentricity_um:.2f} um."
+        )
     per = " + ".join(f"{u:.0f}" for u in tol.per_plane_gmm)
     return (
         f"Permissible residual unbalance (ISO 21940-11): {tol.permissible_unbalance_gmm:.0f} g.mm "
@@ -65,8 +72,9 @@ class MachineScreen(StepScreen):
         Binding("f3", "grades", "Grade"),
         Binding("f4", "back", "Back"),
         Binding("f5", "trial_mode", "Trial"),
-        Binding("f6", "history", "History"),
+        Binding("f6", "history", "Jobs"),
         Binding("f7", "amplitude_mode", "No mark"),
+        Binding("f8", "units", "Units"),
         Binding("f1", "app.help", "Help"),
     ]
 
@@ -103,6 +111,7 @@ class MachineScreen(StepScreen):
                 self.notify(f"Could not describe the simulated machine: {exc}", severity="warning")
         self.query_one("#f_name", Input).focus()
         self._update_hint()
+        self.query_one(Footer).compact = True  # nine keys: fits 80 columns with single spacing
 
     def _fill_list(self) -> None:
         ol = self.query_one("#machines", OptionList)
@@ -158,7 +167,7 @@ class MachineScreen(StepScreen):
             mode = "taken off before the next run (F5)"
         else:
             mode = "left on, correction net of them (F5)"
-        lines = [tolerance_text(values), method_hint(amplitude_only), f"Trial weights: {mode}."]
+        lines = [tolerance_text(values, self.rt_app.units), method_hint(amplitude_only), f"Trial weights: {mode}."]
         if self._editing_id is not None:
             m = next((m for m in self._machines.values() if m.id == self._editing_id), None)
             if m is not None and m.influence is not None:
@@ -212,6 +221,15 @@ class MachineScreen(StepScreen):
         if app.amplitude_only:
             self.notify("No reference mark: the job uses the amplitude-only (four-run) method; you will chalk a 0\N{DEGREE SIGN} "
                         "mark on the rotor. F7 again to use the reference mark.", title="Amplitude-only", timeout=5)
+        self._update_hint()
+
+    def action_units(self) -> None:
+        """Show masses, radii and unbalance in metric or imperial units (display only)."""
+        app = self.rt_app
+        app.units = other_units(app.units)
+        form = " The machine form and the job stay metric (units in each label)." if app.units == IMPERIAL else ""
+        self.notify(f"Units shown: {app.units} ({UNITS_WORDS[app.units]}); forces in N.{form} F8 to switch.",
+                    title="Display units", timeout=5)
         self._update_hint()
 
     def action_back(self) -> None:

@@ -62,10 +62,11 @@ class ResultScreen(StepScreen):
         v.update(f" {sentence}")
         v.set_classes(cls)
         lines = [f"{res.machine_name}, job {res.job_id}: {res.runs} run(s), {res.speed_rpm:g} rpm, status {res.status}"]
-        lines += method_lines(res)
+        units = self.rt_app.units
+        lines += method_lines(res, units)
         lines += [""] + channel_lines(res)
-        lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res)
-        lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res)
+        lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res, units)
+        lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res, units)
         if res.warnings:
             lines += ["", "Notes:"] + [f"- {w}" for w in res.warnings]
         if is_four_run_result(res):

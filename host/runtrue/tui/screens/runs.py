@@ -18,6 +18,7 @@ from textual.widget import Widget
 from textual.widgets import Static
 
 from runtrue.tui.format import DEG, SAFETY_FIT, SAFETY_START, amp_text
+from runtrue.tui.fitting_list import imperial_lines
 from runtrue.tui.method import is_four_run
 from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.unbalance_split import static_couple_lines
@@ -184,6 +185,7 @@ class RunsScreen(StepScreen):
         step = job.state.step
         self.query_one("#stepbar", Static).update(step_bar(job))
         lines = [f"- {line}" for line in job.instructions()]
+        lines += [f"- {line}" for line in imperial_lines(job, self.rt_app.units)]
         plan = job.state.plan
         if plan is not None and plan.predicted:
             expected = expected_after_fitting(job)
@@ -195,7 +197,7 @@ class RunsScreen(StepScreen):
         self.todo_text = "\n".join(lines)
         self.query_one("#runs-title", Static).update("Runs (1x amplitude)" if is_four_run(job) else "Runs (1x)")
         self.query_one("#runs-list", Static).update("\n".join(runs_lines(job)))
-        split = static_couple_lines(plan) if step in ("correction", "trim") else []
+        split = static_couple_lines(plan, self.rt_app.units) if step in ("correction", "trim") else []
         split_w = self.query_one("#split", Static)
         split_w.update("\n".join(split))
         split_w.display = bool(split)
