@@ -123,3 +123,10 @@ async def test_imperial_toggle_on_the_machine_screen_shows_oz_and_in_on_the_fitt
         assert "r 6.30 in" in text  # 160 mm / 25.4
         assert "lbf" in text
         assert " g\n" not in text and " mm" not in text
+
+
+def test_help_says_where_the_units_switch_is_and_that_the_job_stays_metric() -> None:
+    from runtrue.tui.screens.help import help_text
+
+    text = " ".join(help_text().split())
+    assert "F8 on the machine screen" in text and "oz, in, oz.in" in text and "stay metric" in text
