@@ -10,9 +10,8 @@ each source, what could and could not be read of it, and the conversion.  Honest
   question, ``EXAM_SINGLE_PLANE``) whose printed answer was not available; and Rao's Example 9.1
   data (from memory).  All are also checked against an independent hand computation by the
   textbook's own graphical method (law of cosines).
-* Two planes: Rao's Example 9.2 data (from memory) and Tiwari's NPTEL Example 13.5 (published
-  data; the printed answer is an equation image that could not be read).  Checked against
-  Cramer's rule written out by hand.
+* Two planes: Rao's Example 9.2 data (from memory), checked against Cramer's rule written out
+  by hand.
 * Least squares: no printed least-squares example could be consulted; Rao's Example 9.2 data
   with one plane and both pickups is solved by Goodman's least-squares correction and checked
   against its closed form.
@@ -46,7 +45,6 @@ import json
 import math
 import sys
 
-import numpy as np
 import pytest
 
 from runtrue.balancing import (
@@ -54,7 +52,6 @@ from runtrue.balancing import (
     four_run,
     Weight,
     api_limit_gmm,
-    correction_from_influence,
     g_to_oz,
     gmm_to_ozin,
     in_to_mm,
@@ -433,60 +430,6 @@ def test_solve_command_on_the_rao_two_plane_example(
         assert g_to_oz(got["mass"]) == pytest.approx(m_oz, rel=1e-4)
         assert angle_diff_deg(got["angle"], ang) < 0.01
     assert len(data["influence"]) == 2 and all(len(row) == 2 for row in data["influence"])
-
-
-# NPTEL_13_5 -- R. Tiwari, *Rotor Dynamics* (NPTEL course 112103024, IIT Guwahati), module 13,
-# lecture 2, Example 13.5, https://archive.nptel.ac.in/content/storage2/courses/112103024/module13/lec2/7.html
-# (the same example is in Tiwari, *Rotor Systems: Analysis and Identification*, CRC Press 2017,
-# ch. 13 -- from memory).  "A rigid rotor machine ... is symmetric about its center-line. A trial
-# balance mass of 0.3 kg is sited at end 1 at an angle of 30 deg relative to some reference
-# position; this causes changes in vibration vectors of 50 um at 61 deg at end 1 and 42 um at
-# 130 deg at end 2. ... calculate the balance mass required at each end ... if the measured
-# unbalance vibrations are -30 um at 230 deg at end 1 and -70 um at 330 deg at end 2."
-# (The stored page lost the degree signs: "300", "610", "1300", "2300", "3300".)  The printed
-# solution is in equation images that could not be read, so the check is the hand computation.
-# Conversion: angles as given (one sense throughout); 0.3 kg = 300 g at 1 mm (no radius given).
-# Symmetry gives the second plane's coefficients: a22 = a11, a12 = a21 -- this is the engine's
-# stored-coefficient path.  Reading the "-" before 30 and 70 as a dash (amplitudes 30 and 70 um);
-# read as a sign instead, both corrections turn by 180 deg (also checked below).
-
-
-def _nptel_influence_per_gmm() -> np.ndarray:
-    trial_gmm = phasor(300.0 * 1.0, 30)
-    a11 = phasor(50, 61) / trial_gmm
-    a21 = phasor(42, 130) / trial_gmm
-    return np.array([[a11, a21], [a21, a11]])
-
-
-def test_nptel_symmetric_machine_influence_coefficients() -> None:
-    # The source's definition: change of vibration per kg of trial mass at 0 deg.
-    a = _nptel_influence_per_gmm() * 1000.0  # um per kg at 1 mm
-    assert polar(a[0, 0])[0] == pytest.approx(50 / 0.3, rel=1e-12)  # 166.7 um/kg
-    assert angle_diff_deg(polar(a[0, 0])[1], 61 - 30) < 1e-9
-    assert polar(a[1, 0])[0] == pytest.approx(42 / 0.3, rel=1e-12)  # 140 um/kg
-    assert angle_diff_deg(polar(a[1, 0])[1], 130 - 30) < 1e-9
-
-
-@pytest.mark.parametrize("sign", [1.0, -1.0], ids=["dash", "minus-sign"])
-def test_nptel_two_plane_example_from_stored_coefficients(sign: float) -> None:
-    a = _nptel_influence_per_gmm()
-    reading = [sign * phasor(30, 230), sign * phasor(70, 330)]
-    sol = correction_from_influence(a, reading, radius_mm=[1.0, 1.0])
-    # Hand: Cramer's rule on the symmetric 2x2 system a U = V, correction -U.
-    a11, a21 = complex(a[0, 0]), complex(a[1, 0])
-    det = a11 * a11 - a21 * a21
-    u1 = (reading[0] * a11 - a21 * reading[1]) / det
-    u2 = (a11 * reading[1] - a21 * reading[0]) / det
-    for got, want in zip(sol.corrections, (-u1, -u2)):
-        m_g, ang = polar(want)
-        assert got.mass_g == pytest.approx(m_g, rel=1e-9)
-        assert angle_diff_deg(got.angle_deg, ang) < 1e-6
-    # Rounded (dash reading): about 0.333 kg at 28.9 deg at end 1, 0.188 kg at 151.2 deg at end 2.
-    turn = 0.0 if sign > 0 else 180.0
-    assert sol.corrections[0].mass_g / 1000 == pytest.approx(0.333, abs=0.0005)
-    assert angle_diff_deg(sol.corrections[0].angle_deg, 28.9 + turn) < 0.05
-    assert sol.corrections[1].mass_g / 1000 == pytest.approx(0.188, abs=0.0005)
-    assert angle_diff_deg(sol.corrections[1].angle_deg, 151.2 + turn) < 0.05
 
 
 # ============================================================================================
