@@ -19,12 +19,14 @@ Conventions (DEVELOPERS.md, issue 3; used by every module of ``runtrue.balancing
 
 from __future__ import annotations
 
-import cmath
 import math
 from dataclasses import dataclass, field
 from typing import Sequence
 
 import numpy as np
+
+# One phasor convention for the whole package: the readings layer's (DEVELOPERS.md).
+from runtrue.readings.units import amp_phase, phasor
 
 
 class BalancingError(ValueError):
@@ -39,17 +41,6 @@ def wrap_deg(angle_deg: float) -> float:
     if a >= 360.0:  # fmod of a tiny negative number can round up to 360
         a = 0.0
     return a
-
-
-def phasor(amp: float, phase_deg: float) -> complex:
-    """The complex reading ``amp * e^{+j*phase}`` (phase as a lag, degrees; any finite angle,
-    wrapped exactly before conversion so 761 deg gives the same number as 41 deg)."""
-    return complex(cmath.rect(float(amp), math.radians(math.fmod(float(phase_deg), 360.0))))
-
-
-def amp_phase(value: complex) -> tuple[float, float]:
-    """``(amp, phase_deg)`` of a complex reading or unbalance, phase wrapped into [0, 360)."""
-    return abs(value), wrap_deg(math.degrees(cmath.phase(value)))
 
 
 @dataclass(frozen=True)

@@ -28,8 +28,9 @@ DETECTORS = ("peak", "rms", "pk-pk")
 
 
 def phasor(amp: float, lag_deg: float) -> complex:
-    """The reading ``amp * e^{+j*lag}`` (amp in g peak, lag in degrees after the mark)."""
-    return cmath.rect(amp, math.radians(lag_deg))
+    """The reading ``amp * e^{+j*lag}`` (amp in g peak, lag in degrees after the mark; any finite
+    angle, wrapped exactly before conversion so 761 deg gives the same number as 41 deg)."""
+    return complex(cmath.rect(float(amp), math.radians(math.fmod(float(lag_deg), 360.0))))
 
 
 def lag_deg(z: complex) -> float:
