@@ -13,6 +13,7 @@ import statistics
 from dataclasses import dataclass, field
 from typing import Any
 
+from runtrue.device.advice import FLAG_ADVICE
 from runtrue.deploy.install import OpenClient, Out, _default_open_client, _describe, local_firmware_version
 
 STREAM_REVS = 20
@@ -126,12 +127,10 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
     if flagged:
         words.append("flags: " + ", ".join(f"{k} x{v}" for k, v in sorted(flagged.items())))
     ok = len(usable) >= max(1, math.ceil(0.9 * len(revs)))  # common practice: nine in ten clean
-    if flagged.get("missing pulse"):
-        words.append("missed pulses: move the sensor closer, enlarge or clean the mark, or try the other edge")
-    if flagged.get("extra pulse"):
-        words.append("extra pulses: something else reflects (bolt heads, shiny paint); mask it or narrow the mark")
-    if flagged.get("clipped"):
-        words.append("clipping: the vibration exceeds the sensor's range at this speed")
+    for name, heading in (("missing pulse", "missed pulses"), ("extra pulse", "extra pulses"),
+                          ("clipped", "clipping")):
+        if flagged.get(name):
+            words.append(f"{heading}: {FLAG_ADVICE[name]}")
     if spread > 0.02:
         words.append("the speed wanders by more than 2 %: wait for the machine to settle before measuring")
     return ok, "; ".join(words)

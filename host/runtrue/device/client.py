@@ -21,6 +21,7 @@ import collections
 import time
 from typing import Any, Callable
 
+from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import FrameDecoder
@@ -61,24 +62,10 @@ def _no_answer_text(port: str) -> str:
     )
 
 
-FLAGGED_LIMIT = 50  # flagged revolutions tolerated while collecting usable ones (our choice)
-
-_FLAG_ADVICE = {
-    "clipped": "the vibration exceeds the sensor's range: remove or reduce the trial weight, or check "
-    "the pickup is fixed firmly",
-    "missing pulse": "the reference sensor misses its mark: move it closer, clean or enlarge the mark, "
-    "or try the other edge",
-    "extra pulse": "the reference sensor sees more than one mark: mask other shiny parts or narrow the mark",
-    "speed jump": "the speed is not steady: let the machine settle, check belts and the drive",
-    "dropped samples": "the meter is losing samples: close other programs on the link, or lower the sample rate",
-    "no fit": "the revolutions are too long or too short for the sample rate: check the speed and --rate",
-}
-
-
 def _flagged_advice(port: str, n_flagged: int, n_good: int, n_wanted: int, flagged: dict[str, int]) -> str:
     names = sorted(flagged, key=lambda k: -flagged[k])
     seen = ", ".join(f"{k} x{flagged[k]}" for k in names) or "unknown flags"
-    advice = "; ".join(_FLAG_ADVICE[k] for k in names if k in _FLAG_ADVICE) or "run `runtrue device check`"
+    advice = "; ".join(f"{k}: {FLAG_ADVICE[k]}" for k in names if k in FLAG_ADVICE) or "run `runtrue device check`"
     return (f"{n_flagged} revolutions from the meter on {port} were flagged and left out "
             f"({n_good} of {n_wanted} usable so far; {seen}): {advice}")
 

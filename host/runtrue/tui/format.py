@@ -11,7 +11,7 @@ import math
 
 DEG = "\N{DEGREE SIGN}"
 PHASE_NOTE = f"phase = lag after the mark, 0-360{DEG}"
-ANGLE_NOTE = f"weight angles from the mark, against rotation"
+ANGLE_NOTE = "weight angles from the mark, against rotation"
 
 SAFETY_FIT = (
     "STOP and LOCK OUT the machine before touching the rotor. Secure every weight for the "

@@ -34,9 +34,9 @@ class LiveState:
         self._rate_window: deque[float] = deque(maxlen=40)
         self.done: Any = None  # the Reading when complete
         self.min_epoch = 0  # batches from before the rotor last changed are ignored
-        self.last_flags: list[str] = []
-        self.last_rev_at = -1.0
-        self.refused_while_taking = 0  # flagged revolutions since the reading was asked for  # clock time of the last revolution (any), -1 before the first  # why the last revolution was left out (MISSING_PULSE, ...)
+        self.last_flags: list[str] = []  # why the last revolution was left out ("missing pulse", ...)
+        self.last_rev_at = -1.0  # clock time of the last revolution (any), -1 before the first
+        self.refused_while_taking = 0  # flagged revolutions since the reading was asked for
 
     # -- feeding ----------------------------------------------------------------------------------
     def reset(self, min_epoch: int | None = None) -> None:

@@ -21,7 +21,6 @@ from runtrue.tui.method import PHASE_NOT_USED_NOTE
 from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.widgets.polar import PolarData, PolarPlot
 
-REFUSED_WARN = 50  # flagged revolutions during one reading before saying what to check
 NO_REVS_S = 3.0  # say so when no revolution came for this long
 REFRESH_S = 0.25  # redraw period: a few times a second is enough, and kind to a Pi over SSH
 
@@ -158,10 +157,15 @@ class LiveScreen(StepScreen):
                 "No revolutions: is the machine running, and does the reference sensor see its mark "
                 "once per revolution (sensor LED, gap, mark contrast)?"
             )
-        if live.busy and live.refused_while_taking >= REFUSED_WARN:
+        from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT
+
+        if live.busy and live.refused_while_taking >= FLAGGED_LIMIT:
+            names = [f.replace("_", " ").lower() for f in live.last_flags]
+            advice = "; ".join(f"{n}: {FLAG_ADVICE[n]}" for n in names if n in FLAG_ADVICE)
             notes.append(
                 f"{live.refused_while_taking} revolutions refused while taking this reading. Esc, stop the "
-                "machine and check: a weight that makes the sensor clip, a loose reference sensor or mark."
+                "machine and check: "
+                + (advice or "a weight that makes the sensor clip, a loose reference sensor or mark") + "."
             )
         elif live.last_flags:
             flags = ", ".join(f.replace("_", " ").lower() for f in live.last_flags)

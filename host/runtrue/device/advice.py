@@ -1,0 +1,18 @@
+"""What to do about each revolution flag (PROTOCOL.md, REV flags), in the words shown to the user
+by the device client, `runtrue device check` and the application.  Common practice."""
+
+from __future__ import annotations
+
+#: Flagged revolutions tolerated while collecting usable ones, before saying what to check (our choice).
+FLAGGED_LIMIT = 50
+
+#: Flag name (as in ``runtrue.protocol.messages.FLAG_NAMES``) -> what to check or do.
+FLAG_ADVICE = {
+    "clipped": "the vibration exceeds the sensor's range at this speed: remove or reduce any trial "
+    "weight, or check the pickup is fixed firmly",
+    "missing pulse": "move the sensor closer, enlarge or clean the mark, or try the other edge",
+    "extra pulse": "something else reflects (bolt heads, shiny paint): mask it or narrow the mark",
+    "speed jump": "the speed is not steady: let the machine settle, check belts and the drive",
+    "dropped samples": "the meter is losing samples: close other programs on the link, or lower the sample rate",
+    "no fit": "the revolutions are too long or too short for the sample rate: check the speed and --rate",
+}
