@@ -9,5 +9,12 @@ import pytest
 def _clean_environment(monkeypatch: pytest.MonkeyPatch, tmp_path_factory: pytest.TempPathFactory) -> None:
     # NO_COLOR changes Textual's output and so the snapshots (toolchain.md).
     monkeypatch.delenv("NO_COLOR", raising=False)
+    # TERM=linux (a test run on the Linux console) or RUNTRUE_PLAIN would switch the plots to plain
+    # characters and so change the snapshots; plain mode is tested by asking for it.
+    monkeypatch.delenv("RUNTRUE_PLAIN", raising=False)
+    monkeypatch.setenv("TERM", "xterm-256color")
+    from runtrue.tui.widgets.braille import use_plain
+
+    use_plain(False)
     # Never touch the user's real job database from a test.
     monkeypatch.setenv("RUNTRUE_DATA_DIR", str(tmp_path_factory.mktemp("runtrue-data")))

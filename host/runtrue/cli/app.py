@@ -3,7 +3,8 @@
 Without ``--port`` the application uses the first meter found; with none plugged in it opens
 on the picker (meters, simulated machines, manual entry).  ``PORT`` is a serial device,
 ``sim:NAME`` for a simulated machine (``runtrue scenarios`` lists them) or ``manual`` for
-readings typed in from another instrument.  Imports nothing heavy until it runs.
+readings typed in from another instrument.  ``--plain`` draws plots without braille.
+Imports nothing heavy until it runs.
 """
 
 from __future__ import annotations
@@ -23,6 +24,9 @@ def register(subparsers: Any) -> None:
                    help="serial device, sim:NAME (a simulated machine) or manual (type readings in)")
     p.add_argument("--seed", type=int, default=None, metavar="N",
                    help="random seed of a simulated machine (the same seed gives the same machine)")
+    p.add_argument("--plain", action="store_true", default=None,
+                   help="draw plots and the fitting dial with plain characters, for terminals without braille "
+                   "(automatic on the Linux console, TERM=linux; or set RUNTRUE_PLAIN=1)")
 
 
 def _check_port(port: str) -> None:
@@ -45,5 +49,5 @@ def run(args: argparse.Namespace) -> int:
         _check_port(args.port)
     from runtrue.tui import make_app  # the Textual application, only when asked for
 
-    make_app(args.port, seed=args.seed).run()
+    make_app(args.port, seed=args.seed, plain=args.plain).run()
     return 0

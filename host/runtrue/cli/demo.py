@@ -31,6 +31,9 @@ def register(subparsers: Any) -> None:
                    help=f"simulator scenario (default {DEFAULT_SCENARIO}; `runtrue scenarios` lists them)")
     p.add_argument("--seed", type=int, default=None, metavar="N", help="random seed: the same seed gives the same job")
     p.add_argument("--auto", action="store_true", help="run a whole job with no interaction")
+    p.add_argument("--plain", action="store_true", default=None,
+                   help="draw plots and the fitting dial with plain characters, for terminals without braille "
+                   "(automatic on the Linux console, TERM=linux; or set RUNTRUE_PLAIN=1)")
     p.add_argument("--json", action="store_true", help="with --auto: print one JSON object")
     p.add_argument("--revs", type=int, default=None, metavar="N",
                    help="with --auto: revolutions averaged per reading (default 40)")
@@ -75,7 +78,7 @@ def run(args: argparse.Namespace) -> int:
     if not args.auto:
         from runtrue.tui import make_app  # the Textual application, only when asked for
 
-        make_app(port="sim:" + args.scenario, seed=args.seed).run()
+        make_app(port="sim:" + args.scenario, seed=args.seed, plain=args.plain).run()
         return 0
     return _run_auto(args)
 

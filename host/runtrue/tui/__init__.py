@@ -40,7 +40,8 @@ def make_app(port: str | None = None, *, seed: int | None = None, **options: Any
     ``opener`` (replaces ``runtrue.device.open_meter``), ``post_interval_s`` (how often
     revolutions are handed to the screen), ``max_revs_per_s`` (cap for a non-realtime simulator),
     ``auto_take`` (take each reading by itself once steady), ``report_dir`` (where reports go,
-    default ./reports)."""
+    default ./reports), ``plain`` (plots and the dial in plain characters instead of braille;
+    default: on the Linux console, TERM=linux, or as RUNTRUE_PLAIN=1/0 says)."""
     from runtrue.tui.app import RuntrueApp
 
     return RuntrueApp(port, seed=seed, **options)

@@ -13,6 +13,7 @@ from typing import Any, Callable
 
 from textual.app import App
 from textual.binding import Binding
+from textual.scrollbar import ScrollBar, ScrollBarRender
 from textual.theme import Theme
 
 from runtrue.tui.link import MeterLink
@@ -27,6 +28,7 @@ from runtrue.tui.messages import (
 from runtrue.tui.screens.connect import ConnectScreen
 from runtrue.tui.session import MANUAL_PORT, Session
 from runtrue.tui.units_text import METRIC
+from runtrue.tui.widgets.braille import plain_wanted, use_plain
 
 # Our own palette: deep blue-grey ground, teal for what you can act on, amber for what to watch.
 RUNTRUE_THEME = Theme(
@@ -43,6 +45,20 @@ RUNTRUE_THEME = Theme(
     error="#E05A4F",
     dark=True,
 )
+
+
+# Key names for the footer in plain mode: Textual shows some keys as symbols the Linux console's
+# fonts lack (checked against Debian's console-setup fonts).
+PLAIN_KEYS = {"\N{RETURN SYMBOL}": "Enter", "\N{ERASE TO THE LEFT}": "Bksp", "\N{UPWARDS ARROW}": "Up",
+              "\N{DOWNWARDS ARROW}": "Down", "\N{LEFTWARDS ARROW}": "Left", "\N{RIGHTWARDS ARROW}": "Right"}
+
+
+class PlainScrollBarRender(ScrollBarRender):
+    """Scroll bars in whole cells: the eighth-block characters of the thumb's ends are missing
+    from the Linux console's fonts.  The thumb stays visible without colour (reverse video)."""
+
+    VERTICAL_BARS = [" "] * 8
+    HORIZONTAL_BARS = [" "] * 8
 
 
 class RuntrueApp(App):
@@ -69,8 +85,18 @@ class RuntrueApp(App):
         auto_take: bool = False,
         report_dir: str | None = None,
         max_revs_per_s: float | None = None,
+        plain: bool | None = None,
     ) -> None:
         super().__init__()
+        # plots and the dial in plain characters (no braille): by default on the Linux console
+        self.plain = plain_wanted() if plain is None else bool(plain)
+        use_plain(self.plain)
+        ScrollBar.renderer = PlainScrollBarRender if self.plain else ScrollBarRender
+        if self.plain:
+            self.add_class("-plain")
+        # 8/16 colours (the Linux console, TERM=xterm, old Windows consoles): styles that stay legible
+        if self.plain or self.console.color_system in ("standard", "windows"):
+            self.add_class("-few-colours")
         self.session = Session(
             seed=seed, realtime=realtime, revs_per_reading=revs_per_reading, store_path=store_path
         )
@@ -227,6 +253,13 @@ class RuntrueApp(App):
         what = message.what.replace("_", " ")
         self.notify(f"The meter could not do {what}: {message.reason}", title="Meter", severity="error", timeout=8)
         self._tell_screen(message)
+
+    def get_key_display(self, binding: Binding) -> str:
+        text = super().get_key_display(binding)
+        if self.plain:
+            for symbol, name in PLAIN_KEYS.items():
+                text = text.replace(symbol, name)
+        return text
 
     def action_help(self) -> None:
         from runtrue.tui.screens.help import HelpScreen

@@ -1,15 +1,27 @@
-"""A tiny braille-dot canvas: plots drawn with text characters, for any terminal (even over SSH).
+"""Text canvases: plots drawn with characters, for any terminal (even over SSH).
 
-Each character cell holds a 2 x 4 grid of dots (Unicode block "Braille Patterns", U+2800-U+28FF,
-dot numbering as in the Unicode standard, chapter 22.6).  A terminal cell is about twice as tall
-as it is wide, so the dots come out roughly square and circles look round.
+Two canvases with one interface (:class:`Canvas`), chosen by one setting (:func:`use_plain`,
+read by :func:`new_canvas`):
 
-Pure drawing code: no Textual, no I/O.  Widgets turn the lines into Rich text.
+* :class:`BrailleCanvas` -- each character cell holds a 2 x 4 grid of dots (Unicode block
+  "Braille Patterns", U+2800-U+28FF, dot numbering as in the Unicode standard, chapter 22.6).  A
+  terminal cell is about twice as tall as it is wide, so the dots come out roughly square and
+  circles look round.
+* :class:`PlainCanvas` -- the same dot grid, shown with plain ASCII strokes (``- | / \\ . '``),
+  for terminals whose font has no braille: the Linux console (TERM=linux, e.g. a Raspberry Pi
+  at its own screen), old Windows consoles.  Points drawn with :meth:`Canvas.point` carry a
+  symbol (``o``, ``*``) so they stay distinct from lines without colour; label characters the
+  console font lacks are replaced (:data:`PLAIN_TEXT`).
+
+Callers draw in dot coordinates either way, so a plot's geometry does not change with the
+canvas.  Pure drawing code: no Textual, no I/O.  Widgets turn the rows into Rich text.
 """
 
 from __future__ import annotations
 
 import math
+import os
+from collections.abc import Mapping
 
 _BRAILLE_BASE = 0x2800
 # bit for dot (column x 0..1, row y 0..3) inside one cell
@@ -17,7 +29,7 @@ _DOT_BITS = ((0x01, 0x02, 0x04, 0x40), (0x08, 0x10, 0x20, 0x80))
 
 
 class BrailleCanvas:
-    """A grid of ``width_chars`` x ``height_chars`` cells, i.e. (2w) x (4h) dots.
+    """A grid of ``width_chars`` x ``height_chars`` cells, i.e. (2w) x (4h) dots, in braille.
 
     Dot coordinates: x to the right, y downwards, both from 0.  Text labels can be laid over
     cells; a label replaces the dots of the cells it covers.
@@ -48,6 +60,10 @@ class BrailleCanvas:
         self._cells[row][col] |= _DOT_BITS[xi % 2][yi % 4]
         if style:
             self._styles[(col, row)] = style
+
+    def point(self, x: float, y: float, style: str = "", symbol: str = "") -> None:
+        """A data point at (x, y); a braille dot here (``symbol`` is for the plain canvas)."""
+        self.set(x, y, style)
 
     def line(self, x0: float, y0: float, x1: float, y1: float, style: str = "") -> None:
         steps = int(max(abs(x1 - x0), abs(y1 - y0))) + 1
@@ -90,6 +106,123 @@ class BrailleCanvas:
     def lines(self) -> list[str]:
         """Plain text lines (no styles): handy for tests."""
         return ["".join(ch for ch, _ in row) for row in self.rows()]
+
+
+# Label characters the Linux console's fonts lack (checked against Debian's console-setup fonts),
+# and what the plain canvas shows instead.
+PLAIN_TEXT = {
+    "\N{CLOCKWISE OPEN CIRCLE ARROW}": "(cw)",
+    "\N{ANTICLOCKWISE OPEN CIRCLE ARROW}": "(ccw)",
+    "\N{HORIZONTAL ELLIPSIS}": "...",
+}
+
+
+def plain_text(text: str) -> str:
+    """``text`` with the characters of :data:`PLAIN_TEXT` replaced and any other non-Latin-1 one as ``?``."""
+    out = []
+    for ch in text:
+        ch = PLAIN_TEXT.get(ch, ch)
+        out.append(ch if all(ord(c) < 0x100 for c in ch) else "?")
+    return "".join(out)
+
+
+def _plain_stroke(bits: int, east_west: bool = False) -> str:
+    """The ASCII character closest in shape to the lit dots of one cell (2 columns x 4 rows).
+
+    ``east_west``: the cells left and right are lit too, so a one-row step inside this cell is
+    part of a shallow curve (drawn ``-``), not a diagonal.
+    """
+    lit = [(c, r) for c in (0, 1) for r in range(4) if bits & _DOT_BITS[c][r]]
+    if not lit:
+        return " "
+    rows = [r for _, r in lit]
+    cols = {c for c, _ in lit}
+    span = max(rows) - min(rows)
+    if any((0, r) in lit and (1, r) in lit and (0, r + 1) in lit and (1, r + 1) in lit for r in range(3)):
+        return "o"  # a 2 x 2 block of dots: a spot (a hole, a point), not a stroke
+    if len(cols) == 1:
+        if span >= 2:
+            return "|"
+        return "." if min(rows) >= 2 else "'"
+    left = [r for c, r in lit if c == 0]
+    right = [r for c, r in lit if c == 1]
+    slope = sum(right) / len(right) - sum(left) / len(left)  # rows grow downwards
+    if abs(slope) >= 1.0 and not (east_west and span <= 1):
+        return "\\" if slope > 0 else "/"
+    if span >= 3:
+        return "|"
+    return "_" if min(rows) >= 3 else "-"
+
+
+class PlainCanvas(BrailleCanvas):
+    """The same dot grid as :class:`BrailleCanvas`, shown with plain ASCII strokes.
+
+    Each cell becomes the stroke its dots look most like (``-``, ``|``, ``/``, ``\\``, ``.``,
+    ``'``, and ``o`` for a spot of 2 x 2 dots or more); a point drawn with a symbol shows that symbol; labels show as written, with the
+    characters the console fonts lack replaced.
+    """
+
+    def __init__(self, width_chars: int, height_chars: int) -> None:
+        super().__init__(width_chars, height_chars)
+        self._symbols: dict[tuple[int, int], tuple[str, str]] = {}
+
+    def point(self, x: float, y: float, style: str = "", symbol: str = "") -> None:
+        if not symbol:
+            self.set(x, y, style)
+            return
+        col, row = int(round(x)) // 2, int(round(y)) // 4
+        if 0 <= col < self.width_chars and 0 <= row < self.height_chars and x > -0.5 and y > -0.5:
+            self._symbols[(col, row)] = (symbol[:1], style)
+
+    def label(self, col: int, row: int, text: str, style: str = "") -> None:
+        super().label(col, row, plain_text(text), style)
+
+    def rows(self) -> list[list[tuple[str, str]]]:
+        out: list[list[tuple[str, str]]] = []
+        for r in range(self.height_chars):
+            row: list[tuple[str, str]] = []
+            for c in range(self.width_chars):
+                if (c, r) in self._labels:
+                    row.append(self._labels[(c, r)])
+                elif (c, r) in self._symbols:
+                    row.append(self._symbols[(c, r)])
+                else:
+                    cells = self._cells[r]
+                    east_west = 0 < c < self.width_chars - 1 and bool(cells[c - 1]) and bool(cells[c + 1])
+                    row.append((_plain_stroke(cells[c], east_west), self._styles.get((c, r), "")))
+            out.append(row)
+        return out
+
+
+Canvas = BrailleCanvas  # the interface both canvases offer
+
+_plain = False
+
+
+def plain_wanted(env: Mapping[str, str] = os.environ) -> bool:
+    """The default: plain characters on the Linux console (TERM=linux), whose fonts have no
+    braille; ``RUNTRUE_PLAIN=1`` / ``=0`` in the environment says so either way anywhere."""
+    value = env.get("RUNTRUE_PLAIN", "").strip().lower()
+    if value in ("1", "yes", "true", "on"):
+        return True
+    if value in ("0", "no", "false", "off"):
+        return False
+    return env.get("TERM", "") == "linux"
+
+
+def use_plain(on: bool) -> None:
+    """Draw every plot from now on with plain characters (True) or braille (False)."""
+    global _plain
+    _plain = bool(on)
+
+
+def plain_in_use() -> bool:
+    return _plain
+
+
+def new_canvas(width_chars: int, height_chars: int) -> BrailleCanvas:
+    """A canvas of the kind chosen by :func:`use_plain`."""
+    return PlainCanvas(width_chars, height_chars) if _plain else BrailleCanvas(width_chars, height_chars)
 
 
 def nice_full_scale(value: float) -> float:

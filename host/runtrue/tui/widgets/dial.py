@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 from rich.text import Text
 from textual.widget import Widget
 
-from runtrue.tui.widgets.braille import BrailleCanvas
+from runtrue.tui.widgets.braille import BrailleCanvas, new_canvas
 from runtrue.tui.widgets.polar import canvas_text
 
 ARROW_CW = "\N{CLOCKWISE OPEN CIRCLE ARROW}"  # the rotor turns this way
@@ -36,7 +36,7 @@ def screen_angle_deg(angle_deg: float, rotation: str) -> float:
 
 
 def draw_dial(data: DialData, width_chars: int, height_chars: int) -> BrailleCanvas:
-    cv = BrailleCanvas(width_chars, height_chars)
+    cv = new_canvas(width_chars, height_chars)
     cx = (cv.width_dots - 1) / 2
     cy = (cv.height_dots - 1) / 2
     r = max(3.0, min(cx, cy) - 4)

@@ -1,8 +1,10 @@
-"""Polar plot of 1x readings, drawn with braille dots.
+"""Polar plot of 1x readings, drawn with braille dots (or plain characters, see braille.py).
 
 Convention shown on the plot: phase lag in degrees after the reference mark, 0 deg at the top,
 lag increasing clockwise; radius is the 1x amplitude.  Recent revolutions are faint dots, the
 vector average is a line from the centre, and earlier readings (reference, trial) are letters.
+On the plain canvas the revolutions are ``o`` and the tip of the average ``*``, so each kind of
+mark has its own shape as well as its own colour.
 """
 
 from __future__ import annotations
@@ -14,7 +16,7 @@ from dataclasses import dataclass, field
 from rich.text import Text
 from textual.widget import Widget
 
-from runtrue.tui.widgets.braille import BrailleCanvas, nice_full_scale
+from runtrue.tui.widgets.braille import BrailleCanvas, new_canvas, nice_full_scale
 
 CAPTION = "0\N{DEGREE SIGN} up, lag cw"
 
@@ -38,7 +40,7 @@ def _to_xy(v: complex, cx: float, cy: float, r_dots: float, full_scale: float) -
 
 def draw_polar(data: PolarData, width_chars: int, height_chars: int) -> tuple[BrailleCanvas, float]:
     """Draw ``data`` on a new canvas; returns it and the full-scale amplitude of the outer ring."""
-    cv = BrailleCanvas(width_chars, height_chars)
+    cv = new_canvas(width_chars, height_chars)
     cx = (cv.width_dots - 1) / 2
     cy = (cv.height_dots - 1) / 2
     r = max(2.0, min(cx, cy) - 1)
@@ -54,10 +56,11 @@ def draw_polar(data: PolarData, width_chars: int, height_chars: int) -> tuple[Br
             cv.set(cx, cy - r + k, "grey37")
     for v in data.scatter:
         x, y = _to_xy(v, cx, cy, r, fs)
-        cv.set(x, y, "cyan")
+        cv.point(x, y, "cyan", "o")
     if data.mean is not None:
         x, y = _to_xy(data.mean, cx, cy, r, fs)
         cv.line(cx, cy, x, y, "bold yellow")
+        cv.point(x, y, "bold yellow", "*")
     for letter, v in data.marks:
         x, y = _to_xy(v, cx, cy, r, fs)
         cv.label(int(x // 2), int(y // 4), letter[:1], "bold magenta")
