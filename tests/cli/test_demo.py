@@ -107,19 +107,22 @@ def test_console_command_prints_the_contract() -> None:
 def test_without_auto_the_application_opens_on_the_simulator(monkeypatch: pytest.MonkeyPatch) -> None:
     import types
 
-    calls: list[tuple[str, int | None]] = []
+    calls: list[tuple[str, int | None, bool | None]] = []
 
     class FakeApp:
         def run(self) -> None:
-            calls.append(("run", None))
+            calls.append(("run", None, None))
 
-    def make_app(port: str, seed: int | None = None) -> FakeApp:
-        calls.append((port, seed))
+    def make_app(port: str, seed: int | None = None, plain: bool | None = None) -> FakeApp:
+        calls.append((port, seed, plain))
         return FakeApp()
 
     monkeypatch.setitem(sys.modules, "runtrue.tui", types.SimpleNamespace(make_app=make_app))
     assert main(["demo", "--scenario", "sander", "--seed", "5"]) == 0
-    assert calls == [("sim:sander", 5), ("run", None)]
+    assert calls == [("sim:sander", 5, None), ("run", None, None)], "no --plain: the terminal decides"
+    calls.clear()
+    assert main(["demo", "--plain"]) == 0
+    assert calls[0] == ("sim:fan", None, True), "--plain: plots in plain characters"
 
 
 # -- amplitude-only (four-run) method: `--no-phase` ------------------------------------------------
