@@ -260,3 +260,22 @@ def test_plain_fitting_screen_without_colour(snap_compare: Any, monkeypatch: pyt
     app = make_app("manual", plain=True)
     assert app.no_color
     assert snap_compare(app, terminal_size=SIZE, run_before=run_before)
+
+
+async def test_f9_switches_the_plots_between_braille_and_plain_characters() -> None:
+    app = make_app("manual", plain=False)
+    async with app.run_test(size=SIZE) as pilot:
+        app.session.meter_state = "connected"
+        app.session.live.add(_steady_revs(0.41, 208))
+        from runtrue.tui.screens.live import LiveScreen
+
+        app.push_screen(LiveScreen("look", can_take=False))
+        await _settle(pilot)
+        assert _has_braille(screen_text(app))
+        await pilot.press("f9")
+        await _settle(pilot)
+        text = screen_text(app)
+        assert app.plain and not _has_braille(text) and "*" in text
+        await pilot.press("f9")
+        await _settle(pilot)
+        assert not app.plain and _has_braille(screen_text(app))

@@ -70,6 +70,7 @@ class RuntrueApp(App):
     BINDINGS = [
         Binding("ctrl+q", "quit", "Quit", priority=True),
         Binding("f1", "help", "Help", show=False),
+        Binding("f9", "toggle_plain", "Plain", show=False),
     ]
 
     def __init__(
@@ -89,14 +90,8 @@ class RuntrueApp(App):
     ) -> None:
         super().__init__()
         # plots and the dial in plain characters (no braille): by default on the Linux console
-        self.plain = plain_wanted() if plain is None else bool(plain)
-        use_plain(self.plain)
-        ScrollBar.renderer = PlainScrollBarRender if self.plain else ScrollBarRender
-        if self.plain:
-            self.add_class("-plain")
-        # 8/16 colours (the Linux console, TERM=xterm, old Windows consoles): styles that stay legible
-        if self.plain or self.console.color_system in ("standard", "windows"):
-            self.add_class("-few-colours")
+        self.plain = False
+        self._set_plain(plain_wanted() if plain is None else bool(plain))
         self.session = Session(
             seed=seed, realtime=realtime, revs_per_reading=revs_per_reading, store_path=store_path
         )
@@ -253,6 +248,22 @@ class RuntrueApp(App):
         what = message.what.replace("_", " ")
         self.notify(f"The meter could not do {what}: {message.reason}", title="Meter", severity="error", timeout=8)
         self._tell_screen(message)
+
+    def _set_plain(self, on: bool) -> None:
+        self.plain = on
+        use_plain(on)
+        ScrollBar.renderer = PlainScrollBarRender if on else ScrollBarRender
+        self.set_class(on, "-plain")
+        # 8/16 colours (the Linux console, TERM=xterm, old Windows consoles): styles that stay legible
+        self.set_class(on or self.console.color_system in ("standard", "windows"), "-few-colours")
+
+    def action_toggle_plain(self) -> None:
+        """F9: plots and dial in plain characters or braille (for a font that shows braille as boxes)."""
+        self._set_plain(not self.plain)
+        for widget in self.screen.query("*"):
+            widget.refresh()
+        self.notify("Plots in plain characters." if self.plain else "Plots in braille dots.",
+                    title="F9", timeout=3)
 
     def get_key_display(self, binding: Binding) -> str:
         text = super().get_key_display(binding)
