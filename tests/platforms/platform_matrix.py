@@ -164,13 +164,15 @@ def pip(*args: str) -> subprocess.CompletedProcess[str]:
 def index_reachable() -> tuple[bool, str]:
     """(True, "") if PyPI answers, else (False, pip's last words)."""
     try:
-        res = pip("index", "versions", "pyserial", "--json")
+        res = pip("index", "versions", "pyserial", "--json", "--retries", "1", "--timeout", "15")
     except subprocess.TimeoutExpired:
         return False, f"no answer from {INDEX_URL} within {PIP_TIMEOUT_S} s"
     if res.returncode == 0:
         return True, ""
-    lines = [ln for ln in res.stderr.splitlines() if ln.strip()]
-    return False, lines[-1] if lines else f"pip exit status {res.returncode}"
+    lines = [ln.strip() for ln in res.stderr.splitlines() if ln.strip()]
+    network = [ln for ln in lines if re.search(r"connection|resolve|timed out|unreachable|SSL", ln, re.I)]
+    why = (network or lines or [f"pip exit status {res.returncode}"])[-1]
+    return False, why[:300]
 
 
 @dataclass
