@@ -258,6 +258,9 @@ def resolve(target: Target, python: str, reqs: list[Requirement]) -> Outcome:
 # with the Python of Raspberry Pi OS bookworm.  The app and its firmware extra are checked everywhere.
 TEST_TARGETS = ("linux-x86_64", "linux-aarch64", "linux-armv7l")
 TEST_PYTHONS = ("3.11",)
+# Where the reference extra (scipy) must install from wheels; tests/run tries it everywhere and the
+# tests that need it skip where it did not install.
+REFERENCE_TARGETS = ("linux-x86_64", "linux-aarch64")
 
 
 @dataclass(frozen=True)
@@ -282,6 +285,8 @@ def jobs(groups: dict[str, list[Requirement]], targets: Iterable[Target] = TARGE
             names = ["app", "firmware"]
             if target.key in TEST_TARGETS and python in TEST_PYTHONS:
                 names.append("test")
+                if target.key in REFERENCE_TARGETS:
+                    names.append("reference")
             every = [r for g in names for r in groups.get(g, [])]
             reqs = list({str(r): r for r in for_target(every, target.marker_env(python))}.values())
             out.append(Job(target, python, tuple(n for n in names if n in groups), tuple(reqs)))

