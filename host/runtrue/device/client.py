@@ -40,6 +40,8 @@ from runtrue.protocol.messages import (
     Ack,
     CommandEncoder,
     DeviceInfo,
+    InfoAssembler,
+    InfoPart,
     Message,
     RevStats,
     Revolution,
@@ -94,6 +96,7 @@ class MeterClient:
         self._acks: dict[int, Ack] = {}
         self._selftest: SelfTest | None = None
         self._selftest_parts: dict[int, dict[str, Any]] = {}
+        self._info_parts = InfoAssembler()
         self._frames_seen = 0
         self._flush_next = True  # start with a lone 0x00: the meter drops any half-received frame
         self._resync_pending = False
@@ -126,6 +129,15 @@ class MeterClient:
             self._acks[message.cmd_seq] = message
         elif isinstance(message, DeviceInfo):
             self.info = message
+        elif isinstance(message, InfoPart):
+            try:
+                info = self._info_parts.feed(message)
+            except MessageError as exc:
+                self.message_errors += 1
+                self.log.append(f"bad message: {exc}")
+                return
+            if info is not None:
+                self.info = info
         elif isinstance(message, Status):
             self.last_status = message
         elif isinstance(message, SelfTest):

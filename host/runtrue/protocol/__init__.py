@@ -31,6 +31,8 @@ from runtrue.protocol.messages import (
     Ack,
     CommandEncoder,
     DeviceInfo,
+    InfoAssembler,
+    InfoPart,
     Message,
     RevStats,
     Revolution,
@@ -43,7 +45,7 @@ from runtrue.protocol.messages import (
 
 __all__ = [
     "CRC32_CHECK", "MAX_PAYLOAD", "MAX_WIRE_FRAME", "PROTOCOL_VERSION",
-    "Ack", "CobsError", "CommandEncoder", "CrcError", "DeviceInfo", "Frame", "FrameDecoder",
+    "Ack", "CobsError", "CommandEncoder", "CrcError", "DeviceInfo", "Frame", "InfoAssembler", "InfoPart", "FrameDecoder",
     "FrameLengthError", "FramingError", "Message", "MessageError", "ProtocolError", "RevStats", "Revolution",
     "SelfTest", "Status", "Text", "Unknown", "VersionError", "cobs_decode", "cobs_encode", "crc32",
     "decode_frame", "encode_frame", "parse_message",

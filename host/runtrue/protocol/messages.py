@@ -138,6 +138,38 @@ class DeviceInfo:
 
 
 @dataclass(frozen=True)
+class InfoPart:
+    """One frame of an INFO sent in several parts (``part`` of ``parts``); join them with
+    :class:`InfoAssembler`."""
+
+    part: int
+    parts: int
+    fields: dict[str, Any]
+
+
+class InfoAssembler:
+    """Joins INFO parts (firmware/PROTOCOL.md: the meter splits INFO into frames of at most
+    240 bytes): ``feed(part)`` returns the :class:`DeviceInfo` once every part has come."""
+
+    def __init__(self) -> None:
+        self._parts: dict[int, dict[str, Any]] = {}
+        self._expected = 0
+
+    def feed(self, msg: InfoPart) -> DeviceInfo | None:
+        if msg.part == 0 or msg.parts != self._expected:
+            self._parts = {}
+            self._expected = msg.parts
+        self._parts[msg.part] = msg.fields
+        if len(self._parts) < self._expected:
+            return None
+        merged: dict[str, Any] = {}
+        for i in sorted(self._parts):
+            merged.update(self._parts[i])
+        self._parts = {}
+        return info_from_dict(merged)
+
+
+@dataclass(frozen=True)
 class RevStats:
     """REV: the meter's exact integer sums of one completed revolution.
 
@@ -258,7 +290,7 @@ class Unknown:
     payload: bytes
 
 
-Message = Union[DeviceInfo, RevStats, Status, Ack, SelfTest, Text, Unknown]
+Message = Union[DeviceInfo, InfoPart, RevStats, Status, Ack, SelfTest, Text, Unknown]
 
 
 def _json_object(payload: bytes, what: str) -> dict[str, Any]:
@@ -277,8 +309,23 @@ def _int_list(v: Any) -> list[float]:
     return [float(x) for x in v]
 
 
-def parse_info(payload: bytes) -> DeviceInfo:
+def parse_info(payload: bytes) -> DeviceInfo | InfoPart:
+    """INFO, or one part of it (a meter sends INFO in parts when it does not fit one frame)."""
     obj = _json_object(payload, "INFO")
+    if "parts" in obj:
+        try:
+            part, parts = int(obj.pop("part")), int(obj.pop("parts"))
+        except (KeyError, TypeError, ValueError, OverflowError) as exc:
+            raise MessageError(f"INFO part garbles 'part'/'parts': {exc}") from None
+        if not 0 <= part < parts <= 16:
+            raise MessageError(f"INFO part {part} of {parts}")
+        if parts > 1:
+            return InfoPart(part, parts, obj)
+    return info_from_dict(obj)
+
+
+def info_from_dict(obj: dict[str, Any]) -> DeviceInfo:
+    """The :class:`DeviceInfo` of a (joined) INFO object; raises :class:`MessageError`."""
     try:
         adc_bits = int(obj.get("adc_bits", 12))
         if not 1 <= adc_bits <= 16:
