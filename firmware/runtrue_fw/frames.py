@@ -15,7 +15,7 @@ board writes `wire[:n]` with `hw.write(wire, n)` (DEVELOPERS.md, the board contr
 
 try:
     from runtrue_fw.kernels_viper import cobs_encode_into, crc32_into
-except (SyntaxError, ImportError):   # CPython, or a port without viper (WebAssembly)
+except (SyntaxError, ImportError, AttributeError):   # CPython (or a shim), or a port without viper
     from runtrue_fw.kernels import cobs_encode_into, crc32_into
 from runtrue_fw.kernels import make_crc_table
 

@@ -31,7 +31,7 @@ from runtrue_fw.edges import DEBOUNCE_Q8, EdgeTracker, Q8_MASK, wrap_diff_q8
 try:
     from runtrue_fw.kernels_viper import deinterleave, rev_sums
     KERNELS = "viper"
-except (SyntaxError, ImportError):   # CPython, or a port without viper (WebAssembly)
+except (SyntaxError, ImportError, AttributeError):   # CPython (or a shim), or a port without viper
     from runtrue_fw.kernels import deinterleave, rev_sums
     KERNELS = "portable"
 
