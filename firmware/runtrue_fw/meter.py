@@ -101,6 +101,9 @@ class Meter:
         info = hw.info()
         self._board = str(info.get("board", ""))
         self._adc_bits = int(info.get("adc_bits", 12))
+        if not 8 <= self._adc_bits <= 12:
+            # the kernels' word budget (kernels.py): |code - offset| <= 2**11
+            raise ValueError("adc_bits must be 8..12")
         self._full_code = (1 << self._adc_bits) - 1
         self._adc_offset = 1 << (self._adc_bits - 1)
         self._channels_max = int(info.get("channels_max", 1))

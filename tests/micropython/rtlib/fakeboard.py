@@ -26,13 +26,19 @@ class FakeBoard:
         self.stopped = 0
         self.ms = 1000
         self.dropped = 0
+        self.lost_edges = 0
         self.cpu = 123
         self.repl = 0
 
     # board contract
-    def write(self, buf):
-        self.out.extend(buf)
-        return len(buf)
+    def write(self, buf, n=None):
+        if n is None:
+            n = len(buf)
+        i = 0
+        while i < n:
+            self.out.append(buf[i])
+            i += 1
+        return n
 
     def configure(self, channel_mask, rate_hz):
         self.mask = channel_mask
@@ -54,13 +60,17 @@ class FakeBoard:
     def info(self):
         return {"board": "fake", "adc_bits": self.adc_bits, "channels_max": self.channels_max,
                 "counts_per_g": self.counts_per_g, "zero_code": self.zero_code,
-                "serial": "e66038b713526d2a", "round_robin": self.round_robin}
+                "serial": "e66038b713526d2a", "round_robin": self.round_robin,
+                "fe": [1.834e-4, 1.504e-10]}
 
     def cpu_load_permille(self):
         return self.cpu
 
     def dropped_samples(self):
         return self.dropped
+
+    def edges_lost(self):
+        return self.lost_edges
 
     def enter_repl(self):
         self.repl += 1
