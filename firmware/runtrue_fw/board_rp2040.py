@@ -215,9 +215,11 @@ class Board:
         self._load_permille = 0
 
     # ------------------------------------------------------------------ hw interface
-    def write(self, buf) -> int:
-        n = self._out.write(buf)
-        return len(buf) if n is None else n
+    def write(self, buf, n: int) -> int:
+        """The board contract's write(buf, n): send buf[:n] now (the Meter reuses buf).  The stream
+        method's length argument avoids slicing, so nothing is allocated."""
+        r = self._out.write(buf, n)
+        return n if r is None else r
 
     def configure(self, channel_mask: int, rate_hz: float) -> float:
         """Select channels (bits 0-2) and the per-channel rate; returns the actual rate in Hz."""

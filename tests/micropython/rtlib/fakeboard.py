@@ -12,13 +12,14 @@ from math import cos, pi, floor
 
 class FakeBoard:
     def __init__(self, channels_max=3, adc_bits=12, counts_per_g=None, zero_code=None,
-                 round_robin=False):
+                 round_robin=False, out_capacity=1 << 18):
         self.channels_max = channels_max
         self.adc_bits = adc_bits
         self.counts_per_g = counts_per_g or [400.0] * channels_max
         self.zero_code = zero_code or [2048.0] * channels_max
         self.round_robin = round_robin
-        self.out = bytearray()
+        self.out = bytearray(out_capacity)   # preallocated: write() allocates nothing
+        self.n_out = 0
         self.mask = (1 << channels_max) - 1
         self.rate_hz = 0.0
         self.falling = False
@@ -32,12 +33,17 @@ class FakeBoard:
 
     # board contract
     def write(self, buf, n=None):
+        """The board contract's write(buf, n): copies buf[:n] at once (the Meter reuses buf)."""
         if n is None:
             n = len(buf)
+        o = self.n_out
+        if o + n > len(self.out):
+            return 0                      # full: the Meter counts a tx overflow
         i = 0
         while i < n:
-            self.out.append(buf[i])
+            self.out[o + i] = buf[i]
             i += 1
+        self.n_out = o + n
         return n
 
     def configure(self, channel_mask, rate_hz):
@@ -76,8 +82,8 @@ class FakeBoard:
         self.repl += 1
 
     def take_output(self):
-        data = bytes(self.out)
-        self.out = bytearray()
+        data = bytes(self.out[:self.n_out])
+        self.n_out = 0
         return data
 
 
