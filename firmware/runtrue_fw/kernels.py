@@ -27,8 +27,8 @@ s as (s >> 24, s & 0xFFFFFF) so that lo + s is never formed.  The cosine table i
 so that viper's unsigned 16-bit loads read it directly.
 
 Sources: CRC-32/ISO-HDLC (reflected polynomial 0xEDB88320, init and xorout 0xFFFFFFFF, check
-0xCBF43926; Greg Cook, "Catalogue of parametrised CRC algorithms"), computed a nibble at a time
-from a 16-entry table; COBS after S. Cheshire and M. Baker, "Consistent Overhead Byte Stuffing",
+0xCBF43926; Greg Cook, "Catalogue of parametrised CRC algorithms"), computed a byte at a time
+from a 256-entry table (1 KiB); COBS after S. Cheshire and M. Baker, "Consistent Overhead Byte Stuffing",
 IEEE/ACM Transactions on Networking 7(2), 1999.
 """
 
@@ -62,10 +62,8 @@ P_BASIS = 100    # work: 12 basis values (+16384) for each of FOLD_EVERY frames
 P_WORDS = 484
 HI_BIAS = 1 << 20
 
-_CRC_NIBBLE = (
-    0x00000000, 0x1DB71064, 0x3B6E20C8, 0x26D930AC, 0x76DC4190, 0x6B6B51F4, 0x4DB26158, 0x5005713C,
-    0xEDB88320, 0xF00F9344, 0xD6D6A3E8, 0xCB61B38C, 0x9B64C2B0, 0x86D3D2D4, 0xA00AE278, 0xBDBDF21C,
-)
+_CRC_POLY_LO = 0x8320      # reflected polynomial 0xEDB88320, low and high halves
+_CRC_POLY_HI = 0xEDB8
 
 
 def make_params():
@@ -83,11 +81,21 @@ def make_kernel_table():
 
 
 def make_crc_table():
-    """CRC-32 nibble table as 16 half-words pairs (array('H'), low half then high half)."""
-    out = array("H", bytes(64))
-    for j in range(16):
-        out[2 * j] = _CRC_NIBBLE[j] & 0xFFFF
-        out[2 * j + 1] = _CRC_NIBBLE[j] >> 16
+    """CRC-32 byte table (reflected polynomial 0xEDB88320) as 256 pairs of half-words in an
+    array('H'): low half then high half, so every value is a small int on any port."""
+    out = array("H", bytes(1024))
+    for j in range(256):
+        lo = j
+        hi = 0
+        for _ in range(8):
+            carry = lo & 1
+            lo = (lo >> 1) | ((hi & 1) << 15)
+            hi >>= 1
+            if carry:
+                lo ^= _CRC_POLY_LO
+                hi ^= _CRC_POLY_HI
+        out[2 * j] = lo
+        out[2 * j + 1] = hi
     return out
 
 
@@ -367,13 +375,9 @@ def crc32_into(buf, n: int, ctab) -> int:
     hi = 0xFFFF
     i = 0
     while i < n:
-        lo ^= buf[i]
-        k = 0
-        while k < 2:
-            x = lo & 15
-            lo = ((lo >> 4) | ((hi & 15) << 12)) ^ ctab[2 * x]
-            hi = (hi >> 4) ^ ctab[2 * x + 1]
-            k += 1
+        x = (lo ^ buf[i]) & 255
+        lo = ((lo >> 8) | ((hi & 255) << 8)) ^ ctab[2 * x]
+        hi = (hi >> 8) ^ ctab[2 * x + 1]
         i += 1
     lo ^= 0xFFFF
     hi ^= 0xFFFF

@@ -271,13 +271,9 @@ def crc32_into(buf: ptr8, n: int, ctab: ptr16) -> int:
     hi = 0xFFFF
     i = 0
     while i < n:
-        lo ^= buf[i]
-        k = 0
-        while k < 2:
-            x = lo & 15
-            lo = ((lo >> 4) | ((hi & 15) << 12)) ^ ctab[2 * x]
-            hi = (hi >> 4) ^ ctab[2 * x + 1]
-            k += 1
+        x = (lo ^ buf[i]) & 255
+        lo = ((lo >> 8) | ((hi & 255) << 8)) ^ ctab[2 * x]
+        hi = (hi >> 8) ^ ctab[2 * x + 1]
         i += 1
     lo ^= 0xFFFF
     hi ^= 0xFFFF

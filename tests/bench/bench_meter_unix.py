@@ -120,13 +120,18 @@ out = {"kernels": KERNELS, "rows": []}
 NB = 400
 for nch in (1, 2, 3):
     # two speeds: total = frames * c_frame + revs * c_rev, solved for c_frame and c_rev
-    t_slow, a_slow, r_slow = run(nch, 400.3, NB)
-    t_fast, a_fast, r_fast = run(nch, 20.3, NB)
+    best = None
+    for _ in range(3):      # the fastest of three: this machine is shared
+        t_slow, a_slow, r_slow = run(nch, 400.3, NB)
+        t_fast, a_fast, r_fast = run(nch, 20.3, NB)
+        if best is None or t_slow + t_fast < best[0] + best[3]:
+            best = (t_slow, a_slow, r_slow, t_fast, a_fast, r_fast)
+    t_slow, a_slow, r_slow, t_fast, a_fast, r_fast = best
     frames = NB * 256
     c_rev = (t_fast - t_slow) / (r_fast - r_slow)
     c_frame = (t_slow - r_slow * c_rev) / frames
     out["rows"].append({"nch": nch, "us_per_frame": c_frame, "us_per_rev": c_rev,
-                        "bare_us_per_frame": bare(nch, NB) / frames,
+                        "bare_us_per_frame": min(bare(nch, NB) for _ in range(3)) / frames,
                         "alloc_slow": a_slow, "alloc_fast": a_fast, "revs_slow": r_slow,
                         "revs_fast": r_fast, "frames": frames})
 print(json.dumps(out))
@@ -211,16 +216,16 @@ def main() -> int:
     print(f"kernels: {data['kernels']}; old float path here {old:.3f} us/sample/channel; "
           f"chip/unix factor {factor:.0f} (158 us on the emulated RP2040 / this)")
     print("ch | us/frame | us/rev | bare loop us/frame | Meter/bare | heap B/frame | heap B/rev | "
-          "chip est. us/frame | chip est. us/rev | CPU at 4 kS/s, 12,000 rpm")
+          "chip est. us/frame | chip est. us/rev | chip est. CPU at 4 kS/s: 6,000 / 9,000 / 12,000 rpm")
     for r in data["rows"]:
         per_frame_alloc = r["alloc_slow"] / r["frames"]
         per_rev_alloc = (r["alloc_fast"] - r["alloc_slow"]) / max(1, r["revs_fast"] - r["revs_slow"])
         chip_frame = r["us_per_frame"] * factor
         chip_rev = r["us_per_rev"] * factor
-        load = (4000 * chip_frame + 200 * chip_rev) / 1e6
+        loads = [(4000 * chip_frame + rpm / 60 * chip_rev) / 1e4 for rpm in (6000, 9000, 12000)]
         print(f"{r['nch']} | {r['us_per_frame']:.3f} | {r['us_per_rev']:.2f} | {r['bare_us_per_frame']:.3f} | "
               f"{r['us_per_frame'] / r['bare_us_per_frame']:.2f} | {per_frame_alloc:.3f} | {per_rev_alloc:.1f} | "
-              f"{chip_frame:.1f} | {chip_rev:.0f} | {100 * load:.0f} %")
+              f"{chip_frame:.1f} | {chip_rev:.0f} | " + " / ".join(f"{v:.0f} %" for v in loads))
     print(f"start-up: smallest -X heapsize for a 3-channel Meter: {startup_min_heap_kib()} KiB")
     return 0
 

@@ -221,7 +221,7 @@ def test_identify_answers_info_then_ack() -> None:
     assert info["counts_per_g"] == [400.0, 400.0] and info["zero_code"] == [2048.0, 2048.0]
     assert info["basis"] == "q14c1024h4l2" and info["adc_offset"] == 2048 and info["line_hz"] == 50
     assert info["line_inc"] == round(50 / 4000 * 2**30) and info["fe"] == [1.834e-4, 1.504e-10]
-    assert info["max_rpm"] == 12000 and info["min_rpm"] == 60
+    assert info["max_rpm"] == 10000 and info["min_rpm"] == 60
     assert _acks(frames) == [(seq, fr.C_IDENTIFY, fr.ACK_OK, "")]
 
 
