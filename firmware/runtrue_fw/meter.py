@@ -96,8 +96,11 @@ class _Zeros:
 class Meter:
     """The meter.  See DEVELOPERS.md ("Firmware: Meter and board") for the board contract."""
 
-    def __init__(self, hw) -> None:
+    def __init__(self, hw, rev_sums_kernel=None) -> None:
+        """`rev_sums_kernel`: another implementation of kernels.rev_sums (the simulator passes a
+        numpy twin held to it bit for bit); None uses the viper or portable kernel."""
         self._hw = hw
+        self._rev_sums = rev_sums_kernel if rev_sums_kernel is not None else rev_sums
         info = hw.info()
         self._board = str(info.get("board", ""))
         self._adc_bits = int(info.get("adc_bits", 12))
@@ -363,7 +366,7 @@ class Meter:
             p[_k.P_INC] = inc1
             p[_k.P_A1] = basis.first_angle(inc1, first_off_q8)
             p[_k.P_LINE] = self._line_inc
-            rev_sums(self._ring, self._ktab, p, body)  # type: ignore[arg-type]
+            self._rev_sums(self._ring, self._ktab, p, body)
             k = 0
             while k < n_slots:
                 if p[_k.P_MIN + k] <= 0 or p[_k.P_MAX + k] >= self._full_code:
