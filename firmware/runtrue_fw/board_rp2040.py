@@ -234,6 +234,7 @@ class Board:
         self._backlog = 0          # samples the DMA wrote that the loop has not fed yet
         self._rpos = 0             # ring index of the next sample to feed (a frame boundary)
         self._frames_fed = 0       # frames fed to the Meter since START, modulo 2**22
+        self._misaligned = False   # a conversion was lost (FIFO overflow): channels may be rotated
         self._last_count = 0
         self._t_start_us = 0
         self._anc_us = 0           # timebase anchor: a ticks_us instant ...
@@ -325,6 +326,7 @@ class Board:
         self._backlog = 0
         self._rpos = 0
         self._frames_fed = 0
+        self._misaligned = False
         self._last_count = _DMA_RELOAD_COUNT
         self._edge_head = 0
         self._edge_tail = 0
@@ -582,14 +584,20 @@ class Board:
             self._rpos = (a + count) % _RING_SAMPLES
             self._backlog -= count
             frames -= take
-            self._frames_fed = (self._frames_fed + take) & _FRAME_MASK
+            first_frame = self._frames_fed
+            self._frames_fed = (first_frame + take) & _FRAME_MASK
             meter.feed_samples(self._block, take)
+            if self._misaligned:
+                meter.mark_dropped(first_frame, self._frames_fed)
         mem = self._mem
         fcs = mem[self._fcs_addr]
         if fcs & _ADC_FCS_OVER:
-            # A conversion found the FIFO full: the DMA did not keep up and a sample was lost.
-            # (Not expected with the DMA at high priority; the Meter flags the current block.)
+            # A conversion found the FIFO full: the DMA did not keep up and one conversion was
+            # lost, so every later sample may belong to the next channel.  Not expected with the
+            # DMA at high priority; if it happens, every frame from here to the next START is
+            # marked dropped, so no revolution with rotated channels goes out unflagged.
             self._dropped = (self._dropped + 1) & _COUNTER_MASK
+            self._misaligned = True
             mem[self._fcs_addr] = fcs | _ADC_FCS_OVER
 
     def _drain_fifo(self) -> None:

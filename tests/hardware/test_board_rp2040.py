@@ -231,8 +231,13 @@ def test_a_fifo_overflow_is_counted_and_cleared(rig: Rig) -> None:
     board.poll(RecordingMeter(n_ch=3))
     assert board.dropped_samples() == 1
     assert not rig.mem.values[ADC_FCS] >> 11 & 1
-    board.poll(RecordingMeter(n_ch=3))
+    meter = RecordingMeter(n_ch=3)
+    DmaSim(rig, board).produce([0] * 300)
+    board.poll(meter)
     assert board.dropped_samples() == 1
+    # one conversion lost: the channels may be rotated from here, so every later frame is
+    # marked dropped until the next START
+    assert meter.frames == 100 and meter.dropped_frames == [(0, 100)]
 
 
 # ---------------------------------------------------------------- edges on the sample timebase
