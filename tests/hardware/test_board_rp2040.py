@@ -341,3 +341,23 @@ def test_board_module_compiles_for_the_rp2040_with_mpy_cross(tmp_path: Path) -> 
                          capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
     assert not re.search(r"^from __future__", src.read_text(), re.M), "MicroPython has no __future__ module"
+
+
+@pytest.mark.parametrize("work_us", [150, 700, 2500])
+def test_cpu_load_is_the_share_of_each_second_not_spent_asleep(rig: Rig, work_us: int) -> None:
+    """The fake clock moves only when the Meter works (work_us per pass) and when the loop sleeps
+    (1 ms per pass): the true load is work / (work + 1 ms); the board must report it within 1 %."""
+    board = rig.board()
+
+    class BusyMeter(RecordingMeter):
+        passes = 0
+
+        def service(self) -> None:
+            rig.clock.now_us += work_us
+            self.passes += 1
+            if self.passes >= 3000:
+                board.enter_repl()
+
+    board.run(BusyMeter())
+    truth = work_us / (work_us + 1000)
+    assert board.cpu_load_permille() == pytest.approx(1000 * truth, abs=10)
