@@ -41,7 +41,7 @@ needs_mpy_cross = pytest.mark.skipif(
 
 def test_firmware_files_are_found() -> None:
     names = {p.name for p in FW_FILES}
-    assert {"meter.py", "frames.py", "edges.py", "phasor.py", "kernels.py", "kernels_viper.py"} <= names
+    assert {"meter.py", "frames.py", "edges.py", "basis.py", "envelope.py", "kernels.py", "kernels_viper.py"} <= names
 
 
 @pytest.mark.parametrize("path", FW_FILES, ids=lambda p: str(p.relative_to(FIRMWARE)))
