@@ -153,7 +153,7 @@ def meter_basis_q14(geom: RevGeometry) -> np.ndarray:
 
 
 def meter_basis(geom: RevGeometry) -> np.ndarray:
-    """Phi as float (Q14 values / 16384): b = Phi^T y is the meter's sums / 16384."""
+    """Phi as float (Q14 values / 16384): Phi^T y is the meter's sums / 16384 (Sy unscaled)."""
     return meter_basis_q14(geom) / Q14
 
 
@@ -263,6 +263,11 @@ class FitResult:
     collisions: tuple[LineCollision, ...] = ()
 
 
+def sums_to_projections(sums: Sequence[int], cols: Sequence[int]) -> np.ndarray:
+    """b = Phi^T y (float Phi) from the meter's sums: Sy as it is, the others carry the Q14 scale."""
+    return np.array([float(sums[c]) if c == 0 else float(sums[c]) / Q14 for c in cols])
+
+
 def fitted_columns(geom: RevGeometry, orders: Sequence[int], line_terms: Sequence[int]) -> tuple[int, ...]:
     cols = [0]
     for k in orders:
@@ -297,7 +302,7 @@ def fit_revolution(
     p = meter_basis(geom) if phi is None else phi
     pk = p[:, cols]
     theta = model_basis(geom, accel, amp_exponent)[:, cols] if accel else pk
-    b = np.array([float(sums[c]) for c in cols]) / Q14
+    b = sums_to_projections(sums, cols)
     a = pk.T @ theta
     x = np.linalg.solve(a, b)
     a_inv = np.linalg.inv(a)
