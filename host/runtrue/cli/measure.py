@@ -82,6 +82,7 @@ def _pick_port(port: str | None) -> str:
 def _measure(args: Any, port: str) -> dict[str, Any]:
     from runtrue.device import MeterError, Revolution, open_meter
     from runtrue.readings import amp_phase, vector_average
+    from runtrue.readings.admit import counts, why_left_out
     from runtrue.readings.units import convert_1x
     from runtrue.transport import PortError, TransportLost
 
@@ -114,12 +115,12 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
                     "sensor sees its mark once per revolution (its gap, its LED, --edge), or give a longer --timeout"
                 )
             seen += 1
-            if rev.usable:
+            if counts(rev):
                 usable.append(rev)
                 if machine is not None:
                     truth.append(list(machine.expected_1x()))
             else:
-                flags_seen.update(rev.flag_names)
+                flags_seen.update(why_left_out(rev))
             if seen >= limit:
                 raise UsageError(
                     f"only {len(usable)} of {seen} revolutions were usable ({', '.join(sorted(flags_seen))}): "

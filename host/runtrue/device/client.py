@@ -22,6 +22,7 @@ import time
 from typing import Any, Callable
 
 from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT
+from runtrue.readings.admit import counts, why_left_out
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import FrameDecoder
@@ -343,9 +344,9 @@ class MeterClient:
                     f"({len(out)} of {n} so far): is the machine running, and does the reference "
                     "sensor see its mark once per revolution (check its LED, gap and the --edge setting)?"
                 )
-            if usable_only and not rev.usable:
+            if usable_only and not counts(rev):
                 n_flagged += 1
-                for name in rev.flag_names:
+                for name in why_left_out(rev):
                     flagged[name] = flagged.get(name, 0) + 1
                 if n_flagged >= limit:
                     raise AllRevolutionsFlagged(_flagged_advice(self.port, n_flagged, len(out), n, flagged), flagged)

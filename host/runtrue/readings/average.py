@@ -1,7 +1,8 @@
 """Vector averaging of revolutions into a reading (DEVELOPERS.md, "Readings").
 
-Only usable revolutions (no flag in bits 0-4, firmware/PROTOCOL.md) are averaged, and only those
-with the channel set of the first usable one.  Per channel:
+Only revolutions that count (:func:`runtrue.readings.admit.counts`: nothing flagged that
+disqualifies them, and not the FIRST after START) are averaged, and only those with the channel
+set of the first that counts.  Per channel:
 
 * ``mean``: the arithmetic mean of the revolutions' complex 1x vectors (g peak, phase lag);
   averaging vectors, not amplitudes, is what rejects noise that is not synchronous with the
@@ -30,6 +31,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from runtrue.protocol.messages import Revolution
+from runtrue.readings.admit import counts
 from runtrue.readings.confidence import ConfidenceEllipse, confidence_ellipse, confidence_radius
 from runtrue.readings.units import amp_phase
 
@@ -77,11 +79,11 @@ def spread_of_mean(z: np.ndarray) -> float:
 def vector_average(revs: Iterable[Revolution], level: float = 0.95) -> Reading:
     """Average the usable revolutions of ``revs`` into a :class:`Reading`."""
     revs = list(revs)
-    usable = [r for r in revs if r.usable]
+    usable = [r for r in revs if counts(r)]
     if not usable:
         raise NoUsableRevolutions(
             f"none of the {len(revs)} revolution(s) can be averaged (all flagged: missing or extra "
-            "pulses, speed jumps, clipping or dropped samples)"
+            "pulses, speed jumps, clipping, dropped samples, or the first after start)"
         )
     mask = usable[0].channel_mask
     kept = [r for r in usable if r.channel_mask == mask]

@@ -88,6 +88,7 @@ class VirtualMachine:
         self._skew_corrected = True
         self._line_phase = self._rng.uniform(0.0, TWO_PI, size=len(sc.pickups))
         self._missed_next = False
+        self._passages = 0  # mark passages so far (for the scenario's missed_marks)
 
     # ---- weights and unbalance -----------------------------------------------------------
     def add_weight(self, plane: int, mass_g: float, angle_deg: float, radius_mm: float) -> int:
@@ -324,6 +325,9 @@ class VirtualMachine:
                 break
             if base > theta0:  # a new passage of the mark: maybe missed as a whole
                 self._missed_next = bool(self._rng.random() < sc.missed_per_rev)
+                if self._passages in sc.missed_marks:
+                    self._missed_next = True
+                self._passages += 1
             if not self._missed_next:
                 if theta0 < base <= theta_end:
                     targets.append((base, True))

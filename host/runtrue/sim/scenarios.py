@@ -86,6 +86,7 @@ class Scenario:
     coast_down_rpm_per_s: float = 100.0  # deceleration when switched off
     glitch_per_rev: float = 0.0  # expected spurious reference pulses per revolution
     missed_per_rev: float = 0.0  # probability that the mark is not seen on a revolution
+    missed_marks: tuple[int, ...] = ()  # mark passages (0 = the first after the machine starts) never seen
     glitch_width_us: float = 30.0
     edge_jitter_us: float = 0.5  # RMS timing jitter of the reference edges
     front_end: FrontEnd = field(default_factory=FrontEnd)

@@ -13,6 +13,7 @@ import time
 from collections import deque
 from typing import Any, Callable
 
+from runtrue.readings.admit import counts, why_left_out
 from runtrue.tui.steady import Steadiness, judge_steadiness
 
 
@@ -59,11 +60,11 @@ class LiveState:
             self.total_revs += 1
             self.seen.append(rev)
             self._rate_window.append(now)
-            if not getattr(rev, "usable", True):
+            if not counts(rev):
                 self.unusable_revs += 1
                 if self.busy:
                     self.refused_while_taking += 1
-                self.last_flags = list(getattr(rev, "flag_names", []))
+                self.last_flags = why_left_out(rev)
                 continue
             self.recent.append(rev)
             if self.waiting_for_steady and self.steadiness().steady:
