@@ -77,9 +77,12 @@ class VirtualMachine:
         self._next_id = 1
         self.t_s = 0.0
         self._theta = float(self._rng.uniform(0.0, TWO_PI))  # rotor angle since a mark passage
-        self._nominal_rpm = sc.speed_rpm
-        self._target_rpm = sc.speed_rpm
+        self._nominal_rpm = sc.speed_rpm if sc.start_rpm is None else sc.start_rpm
+        self._target_rpm = self._nominal_rpm
         self._ramp_rpm_per_s = 0.0
+        self._profile = sc.speed_profile  # followed until set_speed_rpm takes over
+        self._profile_i = 0
+        self._hold_left_s = 0.0
         self._drift = 0.0  # relative speed wander (OU state)
         self._omega = self._omega_now()
         self._omega_dot = 0.0
@@ -147,6 +150,7 @@ class VirtualMachine:
         if not (math.isfinite(speed_rpm) and speed_rpm >= 0.0):
             raise ValueError(f"speed must be 0 rpm or more, not {speed_rpm!r}")
         with self._lock:
+            self._profile = ()
             self._target_rpm = float(speed_rpm)
             if ramp_rpm_per_s is None:
                 self._nominal_rpm = float(speed_rpm)
@@ -174,9 +178,31 @@ class VirtualMachine:
     def _omega_now(self) -> float:
         return TWO_PI / 60.0 * self._nominal_rpm * (1.0 + self._drift)
 
+    def _profile_tick(self, dt_s: float) -> None:
+        """Follow the scenario's speed profile: next step once the ramp is done and the hold over."""
+        if not self._profile or self._ramp_rpm_per_s > 0.0:
+            return
+        if self._hold_left_s > 0.0:
+            self._hold_left_s -= dt_s
+            return
+        if self._profile_i >= len(self._profile):
+            if not self.scenario.profile_repeat:
+                self._profile = ()
+                return
+            self._profile_i = 0
+        step = self._profile[self._profile_i]
+        self._profile_i += 1
+        self._target_rpm = float(step.to_rpm)
+        self._hold_left_s = float(step.hold_s)
+        if step.rpm_per_s > 0.0:
+            self._ramp_rpm_per_s = float(step.rpm_per_s)
+        else:
+            self._nominal_rpm = float(step.to_rpm)
+
     def _step_speed(self, dt_s: float) -> float:
         """Advance nominal speed and wander by dt; return the new angular speed (rad/s)."""
         sc = self.scenario
+        self._profile_tick(dt_s)
         if self._ramp_rpm_per_s > 0.0:
             step = self._ramp_rpm_per_s * dt_s
             if abs(self._target_rpm - self._nominal_rpm) <= step:
@@ -297,6 +323,12 @@ class VirtualMachine:
                 sig += pk.line_g * abs(h_line) * np.cos(
                     TWO_PI * f_line * t_abs + self._line_phase[ch] + cmath.phase(h_line)
                 )
+            if pk.line_hum_g and self._target_rpm > 0.0:  # mains hum at multiples of the line frequency
+                t_abs = self.t_s + tau
+                for mult, amp in pk.line_hum_g:
+                    h = complex(lowpass_response(mult * sc.line_hz, fe.lowpass_a1_s, fe.lowpass_a2_s2))
+                    sig += amp * abs(h) * np.cos(TWO_PI * mult * sc.line_hz * t_abs
+                                                 + 0.5 * mult * self._line_phase[ch] + cmath.phase(h))
             if pk.noise_g:
                 sig += self._rng.normal(0.0, pk.noise_g, n_frames)
             out[:, col] = sig + pk.dc_offset_g
