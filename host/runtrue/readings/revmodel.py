@@ -370,3 +370,127 @@ def frontend_correction(freq_hz: float, a1_s: float, a2_s2: float) -> FrontEndCo
         g_tol = max(g_tol, abs(abs(hc) / gain - 1.0))
         l_tol = max(l_tol, abs(-math.degrees(cmath.phase(hc)) - lag))
     return FrontEndCorrection(freq_hz, gain, lag, g_tol, l_tol)
+
+
+# ---- several revolutions with one line tone ------------------------------------------------------
+
+@dataclass(frozen=True)
+class RevInput:
+    """One revolution of a joint fit: where its samples are, the meter's sums of one channel, its
+    acceleration (turns per sample^2) and the index of its first sample since START (so that the
+    line tone's phase can be carried from one revolution to the next)."""
+
+    geom: RevGeometry
+    sums: Sequence[int]
+    accel: float = 0.0
+    first_sample: int = 0
+
+
+@dataclass(frozen=True)
+class JointResult:
+    """Per-revolution orders (codes) and the shared line tones (codes, phase at sample 0)."""
+
+    orders: list[dict[int, complex]]
+    lines: dict[int, complex]
+    cov_unit: np.ndarray = field(repr=False)  # of the stacked parameters / sigma^2
+    crlb_unit: np.ndarray = field(repr=False)
+    index: list[dict[str, int]] = field(repr=False, default_factory=list)  # rev -> column name -> stacked index
+    line_index: dict[str, int] = field(default_factory=dict)
+    collisions: tuple[LineCollision, ...] = ()
+
+
+def _rotation(phase_turns: float) -> np.ndarray:
+    """M with (c_local, s_local) = M (c, s) for a tone c cos(t) + s sin(t) seen from a local angle
+    psi = t - phase."""
+    a = 2.0 * math.pi * phase_turns
+    return np.array([[math.cos(a), math.sin(a)], [-math.sin(a), math.cos(a)]])
+
+
+def fit_joint(
+    revs: Sequence[RevInput],
+    *,
+    orders: Sequence[int] = range(1, N_HARMONICS + 1),
+    line_hz: float = 0.0,
+    speed_hz: float = 0.0,
+    amp_exponent: float = 2.0,
+) -> JointResult:
+    """Fit several revolutions together: each revolution has its own dc and orders (IV form on
+    the modelled angle, as :func:`fit_revolution`), the line tones are ONE sinusoid each across
+    all of them (amplitude and phase constant, phase carried by the sample count; the meter's
+    own quantised ``line_inc``).  The tones then stand apart from the orders once their phases
+    have walked apart over the revolutions, which one revolution alone cannot do.
+
+    Block elimination of the normal equations (each revolution's own parameters solved in terms
+    of the shared ones; Golub and Van Loan, *Matrix Computations*, 4th ed. 2013, section 3.2,
+    block LU -- from memory).  A line term is left out (and reported) when it stays within
+    ``COLLISION_CYCLES`` cycles of an order over the whole span of the revolutions.
+    """
+    n = len(revs)
+    if n == 0:
+        raise ValueError("no revolutions to fit")
+    line_inc = revs[0].geom.line_inc
+    lines: list[int] = []
+    collisions: list[LineCollision] = []
+    if line_inc:
+        for c in line_collisions(speed_hz, line_hz, orders):
+            gap_cycles = c.gap_pct / 100.0 * c.order  # per revolution
+            if gap_cycles * n < COLLISION_CYCLES:
+                collisions.append(c)
+        dropped = {c.line_term for c in collisions}
+        lines = [m for m in range(1, N_LINE + 1) if m not in dropped]
+    local_cols = fitted_columns(revs[0].geom, orders, ())
+    line_cols = [c for m in lines for c in line_columns(m)]
+    n_loc, n_line = len(local_cols), len(line_cols)
+    # stacked parameters: rev 0 locals, rev 1 locals, ..., shared line (c, s) per tone
+    n_par = n * n_loc + n_line
+    s_mat = np.zeros((n_line, n_line))
+    s_rhs = np.zeros(n_line)
+    per_rev = []
+    big_a = np.zeros((n_par, n_par))  # instruments^T model, stacked (for the covariance)
+    big_z = np.zeros((n_par, n_par))  # instruments^T instruments
+    big_t = np.zeros((n_par, n_par))  # model^T model (Fisher information / sigma^2)
+    for r, rv in enumerate(revs):
+        phi = meter_basis(rv.geom)
+        theta = model_basis(rv.geom, rv.accel, amp_exponent) if rv.accel else phi
+        b = sums_to_projections(rv.sums, list(local_cols) + line_cols)
+        po, pl = phi[:, local_cols], phi[:, line_cols]
+        to, tl = theta[:, local_cols], theta[:, line_cols]
+        # the shared tones seen from this revolution's local line angle
+        rot = np.zeros((n_line, n_line))
+        for j, m in enumerate(lines):
+            phase = ((m * line_inc) & fwb.TURN_MASK) * rv.first_sample % (fwb.TURN_MASK + 1) / TURN
+            rot[2 * j:2 * j + 2, 2 * j:2 * j + 2] = _rotation(phase)
+        tl_shared = tl @ rot
+        pl_shared = pl @ rot
+        a_oo = po.T @ to
+        a_ol = po.T @ tl_shared
+        a_lo = pl_shared.T @ to
+        a_ll = pl_shared.T @ tl_shared
+        b_o = b[:n_loc]
+        b_l = rot.T @ b[n_loc:]
+        a_oo_inv = np.linalg.inv(a_oo)
+        s_mat += a_ll - a_lo @ a_oo_inv @ a_ol
+        s_rhs += b_l - a_lo @ a_oo_inv @ b_o
+        per_rev.append((a_oo_inv, a_ol, b_o))
+        sl = slice(r * n_loc, (r + 1) * n_loc)
+        sh = slice(n * n_loc, n_par)
+        zi = np.hstack([po, pl_shared])
+        ti = np.hstack([to, tl_shared])
+        idx = list(range(sl.start, sl.stop)) + list(range(sh.start, sh.stop))
+        big_a[np.ix_(idx, idx)] += zi.T @ ti
+        big_z[np.ix_(idx, idx)] += zi.T @ zi
+        big_t[np.ix_(idx, idx)] += ti.T @ ti
+    shared = np.linalg.solve(s_mat, s_rhs) if n_line else np.zeros(0)
+    orders_out: list[dict[int, complex]] = []
+    index: list[dict[str, int]] = []
+    for r, (a_oo_inv, a_ol, b_o) in enumerate(per_rev):
+        x = a_oo_inv @ (b_o - a_ol @ shared)
+        pos = {c: i for i, c in enumerate(local_cols)}
+        orders_out.append({k: complex(x[pos[harmonic_columns(k)[0]]], x[pos[harmonic_columns(k)[1]]]) for k in orders})
+        index.append({COLUMN_NAMES[c]: r * n_loc + i for i, c in enumerate(local_cols)})
+    lines_out = {m: complex(shared[2 * j], shared[2 * j + 1]) for j, m in enumerate(lines)}
+    a_inv = np.linalg.inv(big_a)
+    cov = a_inv @ big_z @ a_inv.T
+    crlb = np.linalg.inv(big_t)
+    line_index = {COLUMN_NAMES[c]: n * n_loc + i for i, c in enumerate(line_cols)}
+    return JointResult(orders_out, lines_out, cov, crlb, index, line_index, tuple(collisions))
