@@ -388,15 +388,19 @@ class RevInput:
 
 @dataclass(frozen=True)
 class JointResult:
-    """Per-revolution orders (codes) and the shared line tones (codes, phase at sample 0)."""
+    """A reading fitted from several revolutions' sums at once.
 
-    orders: list[dict[int, complex]]
+    ``orders``: the running-speed orders at the reference speed (the root mean square of the
+    revolutions' mean speeds), codes; ``lines``: the line tones, codes, phase at sample 0.
+    """
+
+    orders: dict[int, complex]
     lines: dict[int, complex]
     cov_unit: np.ndarray = field(repr=False)  # of the stacked parameters / sigma^2
     crlb_unit: np.ndarray = field(repr=False)
-    index: list[dict[str, int]] = field(repr=False, default_factory=list)  # rev -> column name -> stacked index
-    line_index: dict[str, int] = field(default_factory=dict)
+    index: dict[str, int] = field(default_factory=dict)  # shared column name -> stacked index
     collisions: tuple[LineCollision, ...] = ()
+    speed_ref: float = 0.0  # the reference speed, turns per sample
 
 
 def _rotation(phase_turns: float) -> np.ndarray:
@@ -414,16 +418,19 @@ def fit_joint(
     speed_hz: float = 0.0,
     amp_exponent: float = 2.0,
 ) -> JointResult:
-    """Fit several revolutions together: each revolution has its own dc and orders (IV form on
-    the modelled angle, as :func:`fit_revolution`), the line tones are ONE sinusoid each across
-    all of them (amplitude and phase constant, phase carried by the sample count; the meter's
-    own quantised ``line_inc``).  The tones then stand apart from the orders once their phases
-    have walked apart over the revolutions, which one revolution alone cannot do.
+    """Fit several revolutions of a steady reading together, from their sums: each revolution has
+    its own dc; the running-speed orders are common to all (each revolution's scaled by the
+    square of its mean speed over the reference speed, the unbalance force), on the modelled
+    angle (IV form, as :func:`fit_revolution`); each line tone is ONE sinusoid across all of
+    them (amplitude and phase constant, phase carried by the sample count with the meter's
+    quantised ``line_inc``).  A tone near an order, which one revolution cannot tell from it,
+    stands apart once its phase has walked against the rotor's over the revolutions.
 
-    Block elimination of the normal equations (each revolution's own parameters solved in terms
-    of the shared ones; Golub and Van Loan, *Matrix Computations*, 4th ed. 2013, section 3.2,
-    block LU -- from memory).  A line term is left out (and reported) when it stays within
-    ``COLLISION_CYCLES`` cycles of an order over the whole span of the revolutions.
+    Block elimination of the normal equations (the revolutions' own dc solved in terms of the
+    common parameters; G. H. Golub and C. F. Van Loan, *Matrix Computations*, 4th ed. 2013,
+    section 3.2, block LU -- from memory).  A line term is left out (and reported) when it stays
+    within ``COLLISION_CYCLES`` cycles of an order over the whole span of the revolutions.
+    The revolutions need not be consecutive; ``first_sample`` places each one in time.
     """
     n = len(revs)
     if n == 0:
@@ -433,64 +440,57 @@ def fit_joint(
     collisions: list[LineCollision] = []
     if line_inc:
         for c in line_collisions(speed_hz, line_hz, orders):
-            gap_cycles = c.gap_pct / 100.0 * c.order  # per revolution
-            if gap_cycles * n < COLLISION_CYCLES:
+            if c.gap_pct / 100.0 * c.order * n < COLLISION_CYCLES:
                 collisions.append(c)
         dropped = {c.line_term for c in collisions}
         lines = [m for m in range(1, N_LINE + 1) if m not in dropped]
-    local_cols = fitted_columns(revs[0].geom, orders, ())
+    order_cols = [c for k in orders for c in harmonic_columns(k)]
     line_cols = [c for m in lines for c in line_columns(m)]
-    n_loc, n_line = len(local_cols), len(line_cols)
-    # stacked parameters: rev 0 locals, rev 1 locals, ..., shared line (c, s) per tone
-    n_par = n * n_loc + n_line
-    s_mat = np.zeros((n_line, n_line))
-    s_rhs = np.zeros(n_line)
+    shared_cols = order_cols + line_cols
+    n_sh = len(shared_cols)
+    speeds = np.array([1.0 / rv.geom.length_samples for rv in revs])
+    speed_ref = float(np.sqrt(np.mean(speeds**2)))
+    n_par = n + n_sh  # each revolution's dc, then the shared columns
+    s_mat = np.zeros((n_sh, n_sh))
+    s_rhs = np.zeros(n_sh)
     per_rev = []
-    big_a = np.zeros((n_par, n_par))  # instruments^T model, stacked (for the covariance)
+    big_a = np.zeros((n_par, n_par))  # instruments^T model (stacked)
     big_z = np.zeros((n_par, n_par))  # instruments^T instruments
-    big_t = np.zeros((n_par, n_par))  # model^T model (Fisher information / sigma^2)
+    big_t = np.zeros((n_par, n_par))  # model^T model: Fisher information / sigma^2
     for r, rv in enumerate(revs):
         phi = meter_basis(rv.geom)
         theta = model_basis(rv.geom, rv.accel, amp_exponent) if rv.accel else phi
-        b = sums_to_projections(rv.sums, list(local_cols) + line_cols)
-        po, pl = phi[:, local_cols], phi[:, line_cols]
-        to, tl = theta[:, local_cols], theta[:, line_cols]
-        # the shared tones seen from this revolution's local line angle
-        rot = np.zeros((n_line, n_line))
+        # the shared parameters seen from this revolution: orders scaled, tones rotated
+        tr = np.zeros((n_sh, n_sh))
+        scale = (speeds[r] / speed_ref) ** amp_exponent
+        n_o = len(order_cols)
+        tr[:n_o, :n_o] = np.eye(n_o) * scale
         for j, m in enumerate(lines):
             phase = ((m * line_inc) & fwb.TURN_MASK) * rv.first_sample % (fwb.TURN_MASK + 1) / TURN
-            rot[2 * j:2 * j + 2, 2 * j:2 * j + 2] = _rotation(phase)
-        tl_shared = tl @ rot
-        pl_shared = pl @ rot
-        a_oo = po.T @ to
-        a_ol = po.T @ tl_shared
-        a_lo = pl_shared.T @ to
-        a_ll = pl_shared.T @ tl_shared
-        b_o = b[:n_loc]
-        b_l = rot.T @ b[n_loc:]
-        a_oo_inv = np.linalg.inv(a_oo)
-        s_mat += a_ll - a_lo @ a_oo_inv @ a_ol
-        s_rhs += b_l - a_lo @ a_oo_inv @ b_o
-        per_rev.append((a_oo_inv, a_ol, b_o))
-        sl = slice(r * n_loc, (r + 1) * n_loc)
-        sh = slice(n * n_loc, n_par)
-        zi = np.hstack([po, pl_shared])
-        ti = np.hstack([to, tl_shared])
-        idx = list(range(sl.start, sl.stop)) + list(range(sh.start, sh.stop))
+            i0 = n_o + 2 * j
+            tr[i0:i0 + 2, i0:i0 + 2] = _rotation(phase)
+        b = sums_to_projections(rv.sums, [0] + shared_cols)
+        z0, zs = phi[:, 0], phi[:, shared_cols] @ tr  # instruments (the meter's basis)
+        t0, ts = theta[:, 0], theta[:, shared_cols] @ tr  # the model
+        a00 = float(z0 @ t0)
+        a0s = z0 @ ts
+        as0 = zs.T @ t0
+        s_mat += zs.T @ ts - np.outer(as0, a0s) / a00
+        b_s = tr.T @ b[1:]
+        s_rhs += b_s - as0 * b[0] / a00
+        per_rev.append((a00, a0s, b[0]))
+        idx = [r] + list(range(n, n_par))
+        zi = np.column_stack([z0, zs])
+        ti = np.column_stack([t0, ts])
         big_a[np.ix_(idx, idx)] += zi.T @ ti
         big_z[np.ix_(idx, idx)] += zi.T @ zi
         big_t[np.ix_(idx, idx)] += ti.T @ ti
-    shared = np.linalg.solve(s_mat, s_rhs) if n_line else np.zeros(0)
-    orders_out: list[dict[int, complex]] = []
-    index: list[dict[str, int]] = []
-    for r, (a_oo_inv, a_ol, b_o) in enumerate(per_rev):
-        x = a_oo_inv @ (b_o - a_ol @ shared)
-        pos = {c: i for i, c in enumerate(local_cols)}
-        orders_out.append({k: complex(x[pos[harmonic_columns(k)[0]]], x[pos[harmonic_columns(k)[1]]]) for k in orders})
-        index.append({COLUMN_NAMES[c]: r * n_loc + i for i, c in enumerate(local_cols)})
-    lines_out = {m: complex(shared[2 * j], shared[2 * j + 1]) for j, m in enumerate(lines)}
+    shared = np.linalg.solve(s_mat, s_rhs)
+    pos = {c: i for i, c in enumerate(shared_cols)}
+    orders_out = {k: complex(shared[pos[harmonic_columns(k)[0]]], shared[pos[harmonic_columns(k)[1]]]) for k in orders}
+    lines_out = {m: complex(shared[pos[line_columns(m)[0]]], shared[pos[line_columns(m)[1]]]) for m in lines}
     a_inv = np.linalg.inv(big_a)
     cov = a_inv @ big_z @ a_inv.T
     crlb = np.linalg.inv(big_t)
-    line_index = {COLUMN_NAMES[c]: n * n_loc + i for i, c in enumerate(line_cols)}
-    return JointResult(orders_out, lines_out, cov, crlb, index, line_index, tuple(collisions))
+    index = {COLUMN_NAMES[c]: n + i for i, c in enumerate(shared_cols)}
+    return JointResult(orders_out, lines_out, cov, crlb, index, tuple(collisions), speed_ref)

@@ -244,3 +244,56 @@ def test_front_end_correction_gives_back_the_vibration_before_the_filter() -> No
     corr = rm.frontend_correction(f, METER_A1_S, METER_A2_S2)
     assert corr.apply(measured) == pytest.approx(vib, abs=1e-12)
     assert "lag" in corr.text and "+-" in corr.text
+
+
+# ---- several revolutions fitted together ------------------------------------------------------
+
+def _bench_synth():
+    sys.path.insert(0, str(Path(__file__).parents[2] / "bench"))
+    import disturbances
+
+    return disturbances
+
+
+def test_joint_fit_separates_100_hz_hum_from_the_4x_that_one_revolution_cannot() -> None:
+    """1470 rpm: 100 Hz is 2 % from 4x.  A tone ten times the 1x (20 dB) wrecks a single
+    revolution's 1x (the line term must be dropped); ten revolutions fitted together with the
+    tone common to all give the 1x to within the noise, with no warning left."""
+    d = _bench_synth()
+    rng = np.random.default_rng(8)
+    m = d.Machine(speed_hz=1470 / 60, amp_codes=100.0, line_codes=1000.0, sigma_codes=1.0)
+    revs = d.synth(m, 10, rng)
+    single = rm.fit_revolution(revs[4].geom, revs[4].sums, line_hz=50.0, speed_hz=m.speed_hz)
+    assert single.collisions and abs(single.orders[1] - revs[4].truth) > 5.0
+    joint = rm.fit_joint([rm.RevInput(r.geom, r.sums, 0.0, r.first_sample) for r in revs],
+                         line_hz=50.0, speed_hz=m.speed_hz)
+    truth = np.mean([r.truth for r in revs])
+    i = joint.index["cos1x"]
+    sd = math.sqrt(joint.crlb_unit[i, i]) * 1.0
+    assert not joint.collisions
+    assert abs(joint.orders[1] - truth) < 5 * sd
+    assert abs(joint.lines[2]) == pytest.approx(1000.0, rel=0.01)
+
+
+def test_joint_fit_of_a_steady_reading_is_the_mean_of_the_revolutions() -> None:
+    d = _bench_synth()
+    rng = np.random.default_rng(9)
+    m = d.Machine(speed_hz=1100 / 60, amp_codes=300.0, line_hz=0.0, sigma_codes=3.0)
+    revs = d.synth(m, 8, rng)
+    joint = rm.fit_joint([rm.RevInput(r.geom, r.sums, 0.0, r.first_sample) for r in revs])
+    singles = [rm.fit_revolution(r.geom, r.sums).orders[1] for r in revs]
+    assert joint.orders[1] == pytest.approx(np.mean(singles), abs=0.05)
+
+
+def test_joint_fit_under_a_speed_ramp_gives_the_1x_at_the_reference_speed() -> None:
+    d = _bench_synth()
+    rng = np.random.default_rng(10)
+    m = d.Machine(speed_hz=24.5, amp_codes=400.0, change_per_rev=0.1, line_hz=50.0)
+    revs = d.synth(m, 12, rng)
+    acc = d.accels(revs)
+    inner = revs[1:-1]
+    joint = rm.fit_joint([rm.RevInput(r.geom, r.sums, a, r.first_sample) for r, a in zip(inner, acc[1:-1])],
+                         line_hz=50.0, speed_hz=24.5)
+    truth = np.mean([r.truth for r in inner])  # the 1x scales with speed squared: mean = at the RMS speed
+    assert abs(math.degrees(cmath.phase(joint.orders[1] / truth))) < 0.02
+    assert abs(joint.orders[1]) / abs(truth) == pytest.approx(1.0, abs=2e-4)
