@@ -95,8 +95,13 @@ class SimBoard:
         return len(self._out)
 
     # ---- hw interface (DEVELOPERS.md, "Firmware: Meter and board") -------------------------------
-    def write(self, buf: bytes | bytearray | memoryview) -> None:
-        self._out += bytes(buf)
+    def write(self, buf: bytes | bytearray | memoryview, n: int | None = None) -> int:
+        """hw.write(buf, n): the first ``n`` bytes of ``buf`` (all if n is None); the Meter reuses
+        ``buf``, so they are copied at once.  Returns the bytes taken."""
+        if n is None:
+            n = len(buf)
+        self._out += memoryview(buf)[:n]
+        return n
 
     def configure(self, channel_mask: int, rate_hz: float) -> float:
         mask = int(channel_mask) & 0b111
@@ -143,8 +148,13 @@ class SimBoard:
             "counts_per_g": [fe.counts_per_g] * n,
             "zero_code": [float(fe.zero_code)] * n,
             "serial": f"{self.serial}-{self.machine.scenario.name}",
-            "round_robin": True,  # channel k of a frame converted k/n_ch sample later; the Meter corrects
+            "round_robin": True,  # channel k of a frame converted k/n_ch sample later; the host corrects
+            "fe": [fe.lowpass_a1_s, fe.lowpass_a2_s2],  # H(s) = 1/(1 + a1 s + a2 s^2) of this front end
         }
+
+    def edges_lost(self) -> int:
+        """Edges lost before the Meter saw them (the simulated board loses none)."""
+        return 0
 
     def cpu_load_permille(self) -> int:
         return 0  # not modelled (see module docstring)
