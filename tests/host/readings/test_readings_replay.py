@@ -12,7 +12,9 @@ import pytest
 
 from runtrue.device import MeterClient
 from runtrue.protocol.frames import FrameDecoder
-from runtrue.protocol.messages import DeviceInfo, Revolution, parse_message
+from runtrue.device import revfit
+from runtrue.protocol.messages import InfoAssembler, InfoPart, RevStats, parse_message
+from runtrue.readings.admit import counts
 from runtrue.readings import vector_average
 from runtrue.transport.base import Transport
 
@@ -63,10 +65,11 @@ def test_capture_decodes_cleanly_and_averages_to_the_truth(capture: Path) -> Non
     decoder = FrameDecoder()
     messages = [parse_message(f) for f in decoder.feed(capture.read_bytes())]
     assert decoder.errors == 0 and decoder.lost_frames == 0
-    info = next(m for m in messages if isinstance(m, DeviceInfo))
-    assert info.proto == 1 and info.board == meta["board"]
-    revs = [m for m in messages if isinstance(m, Revolution)]
-    assert sum(r.usable for r in revs) >= meta["usable_revs"]
+    assembler = InfoAssembler()
+    info = next(i for i in (assembler.feed(m) for m in messages if isinstance(m, InfoPart)) if i is not None)
+    assert info.proto == 2 and info.board == meta["board"]
+    revs = [revfit.revolution_from_info(m, info) for m in messages if isinstance(m, RevStats)]
+    assert sum(counts(r) for r in revs) >= meta["usable_revs"]
     reading = vector_average(revs)
     assert len(reading.channels) == len(meta["expected"])
     for ch, truth in zip(reading.channels, meta["expected"]):
