@@ -94,6 +94,7 @@ class MeterClient:
         self.connected = True
         self.streaming = False
         self._revs: collections.deque[Revolution] = collections.deque(maxlen=REV_QUEUE_MAX)
+        self._last_stats: RevStats | None = None  # for the speed change within the next revolution
         self._acks: dict[int, Ack] = {}
         self._selftest: SelfTest | None = None
         self._selftest_parts: dict[int, dict[str, Any]] = {}
@@ -125,7 +126,9 @@ class MeterClient:
                 self.message_errors += 1
                 self.log.append(f"revolution {message.rev} before the meter's INFO: left out")
                 return
-            self._revs.append(revfit.revolution_from_info(message, self.info))
+            prev = revfit.previous_length(self._last_stats, message)
+            self._last_stats = message
+            self._revs.append(revfit.revolution_from_info(message, self.info, prev))
         elif isinstance(message, Ack):
             self._acks[message.cmd_seq] = message
         elif isinstance(message, DeviceInfo):

@@ -214,6 +214,14 @@ class Revolution:
     h2: list[complex]
     rms_g: list[float]
     h3: list[complex] = field(default_factory=list)  # 3x phasors (empty where not fitted)
+    # What the host's fit modelled (runtrue.readings.revmodel); defaults: nothing modelled.
+    warnings: tuple[str, ...] = ()  # e.g. line hum too close to an order to be told apart
+    fe_lag_deg: float = 0.0  # front-end lag taken out of the 1x (already corrected in h1)
+    fe_lag_tol_deg: float = 0.0  # its spread over the parts' tolerances
+    fe_gain: float = 1.0  # front-end gain divided out of the 1x
+    fe_gain_tol: float = 0.0
+    accel: float = 0.0  # modelled angular acceleration, turns per sample squared
+    stats: RevStats | None = field(default=None, compare=False, repr=False)  # the sums it came from
 
     @property
     def speed_rpm(self) -> float:

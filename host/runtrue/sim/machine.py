@@ -18,8 +18,9 @@ its values at the block's start and end speeds (quasi-steady response: transient
 dynamics during fast speed changes are not modelled).
 
 Convention of :meth:`VirtualMachine.expected_1x`: the meter's (PROTOCOL.md): ``amp e^{+j lag}``
-with ``lag`` the phase lag after the ACTIVE reference edge as the meter detects it, including the
-anti-alias filter and the reference conditioning delay; the sampling offset of a channel within
+with ``lag`` the phase lag after the ACTIVE reference edge as the host reports it: the vibration
+itself (the host divides the anti-alias filter's response out, from the meter's INFO ``fe``),
+including the reference conditioning delay; the sampling offset of a channel within
 the ADC's round-robin is included only if the meter does not correct it (it does when the
 board's ``info()`` says ``round_robin``, as SimBoard's does).
 """
@@ -218,8 +219,10 @@ class VirtualMachine:
         return self._omega_now()
 
     # ---- responses ----------------------------------------------------------------------------
-    def _pickup_phasors_g(self, omega: float, omega_dot: float, unbalance: list[complex]) -> np.ndarray:
-        """P_i (g): pickup i's 1x is Re(P_i e^{j Theta}), after the anti-alias filter."""
+    def _pickup_phasors_g(self, omega: float, omega_dot: float, unbalance: list[complex],
+                          with_filter: bool = True) -> np.ndarray:
+        """P_i (g): pickup i's 1x is Re(P_i e^{j Theta}), after the anti-alias filter (unless not
+        ``with_filter``: the vibration itself)."""
         sc = self.scenario
         if omega <= 0.0:
             return np.zeros(len(sc.pickups), dtype=complex)
@@ -229,6 +232,8 @@ class VirtualMachine:
             [pk.axial_mm for pk in sc.pickups], [pk.angle_deg for pk in sc.pickups],
         )
         fe = sc.front_end
+        if not with_filter:
+            return p / G0_M_PER_S2
         return p / G0_M_PER_S2 * lowpass_response(omega / TWO_PI, fe.lowpass_a1_s, fe.lowpass_a2_s2)
 
     def expected_1x(self) -> list[complex]:
@@ -244,7 +249,8 @@ class VirtualMachine:
             return self._expected_at(TWO_PI * speed_rpm / 60.0, TWO_PI * speed_change_rpm_per_s / 60.0)
 
     def _expected_at(self, omega: float, omega_dot: float = 0.0) -> list[complex]:
-        p = self._pickup_phasors_g(omega, omega_dot, self.unbalance_gmm())
+        # the host divides the front end's response out (INFO's fe, runtrue.device.revfit)
+        p = self._pickup_phasors_g(omega, omega_dot, self.unbalance_gmm(), with_filter=False)
         shift = omega * self.scenario.front_end.ref_delay_us * 1e-6
         if self._falling:
             shift += math.radians(self.scenario.mark_width_deg)
