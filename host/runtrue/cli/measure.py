@@ -11,7 +11,11 @@ keys)::
 * ``amp``: g, 1x peak; ``phase``: lag in degrees after the reference mark, 0-360;
   ``spread``: the standard deviation of the mean vector, g (see runtrue.readings.average).
 * Added keys: ``rpm_sd``, ``revs``, ``rejected``, ``lost_frames``, ``port``, ``conventions``;
-  per channel ``channel`` (physical number), ``confidence`` (95 % radius, g), ``velocity_mm_s_rms``.
+  per channel ``channel`` (physical number), ``confidence`` (95 % radius, g), ``velocity_mm_s_rms``;
+  ``warnings`` (list of texts: what the fit could not separate, e.g. line hum near an order);
+  ``front_end`` ({``lag_deg``, ``lag_tol_deg``, ``gain``, ``gain_tol``}: the anti-alias filter's
+  lag taken out of the 1x phase and gain divided out of its amplitude, with their spread over
+  the parts' tolerances; null when the meter did not give its front end).
 * ``expected`` (simulator only): each channel's noise-free 1x vector from the virtual machine
   (``transport.machine.expected_1x()``), sampled as each averaged revolution arrived and
   averaged like the measurement, so it is the truth for the same revolutions even while the
@@ -151,6 +155,10 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         "lost_frames": client.lost_frames,
         "port": port,
         "conventions": CONVENTIONS,
+        "warnings": list(reading.warnings),
+        "front_end": ({"lag_deg": reading.fe_lag_deg, "lag_tol_deg": reading.fe_lag_tol_deg,
+                       "gain": reading.fe_gain, "gain_tol": reading.fe_gain_tol}
+                      if reading.frontend_text else None),
     }
     if machine is not None and truth:
         expected = []
@@ -177,6 +185,12 @@ def _table(result: dict[str, Any]) -> str:
         if expected:
             line += f"   simulator truth {expected[i]['amp']:.4f} g at {expected[i]['phase']:.1f}"
         lines.append(line)
+    fe = result.get("front_end")
+    if fe:
+        lines.append(f"front end corrected: lag {fe['lag_deg']:.2f} +-{fe['lag_tol_deg']:.2f} deg, "
+                     f"gain {fe['gain']:.3f} +-{100 * fe['gain_tol']:.1f} %")
+    for w in result.get("warnings", []):
+        lines.append(f"WARNING: {w}")
     return "\n".join(lines)
 
 

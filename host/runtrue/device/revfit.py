@@ -291,7 +291,7 @@ def revolution(stats: RevStats, settings: FitSettings, prev_length_q8: int | Non
     c1 = fe[0]
     return Revolution(
         stats.rev, period_us, stats.n_samples, stats.flags, stats.channel_mask, h1, h2, rms, h3,
-        warnings=tuple(c.message for c in fit.collisions),
+        line_collisions=tuple((c.line_hz, c.order, c.gap_pct) for c in fit.collisions),
         fe_lag_deg=c1.lag_deg if c1 else 0.0, fe_lag_tol_deg=c1.lag_tol_deg if c1 else 0.0,
         fe_gain=c1.gain if c1 else 1.0, fe_gain_tol=c1.gain_tol if c1 else 0.0,
         accel=accel, stats=stats,

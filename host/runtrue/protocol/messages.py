@@ -215,7 +215,7 @@ class Revolution:
     rms_g: list[float]
     h3: list[complex] = field(default_factory=list)  # 3x phasors (empty where not fitted)
     # What the host's fit modelled (runtrue.readings.revmodel); defaults: nothing modelled.
-    warnings: tuple[str, ...] = ()  # e.g. line hum too close to an order to be told apart
+    line_collisions: tuple[tuple[float, int, float], ...] = ()  # (line tone Hz, order k, gap %) not separable
     fe_lag_deg: float = 0.0  # front-end lag taken out of the 1x (already corrected in h1)
     fe_lag_tol_deg: float = 0.0  # its spread over the parts' tolerances
     fe_gain: float = 1.0  # front-end gain divided out of the 1x
@@ -240,6 +240,17 @@ class Revolution:
     @property
     def flag_names(self) -> list[str]:
         return [name for bit, name in FLAG_NAMES.items() if self.flags & bit]
+
+    @property
+    def warnings(self) -> list[str]:
+        """What the fit could not separate in this revolution, in words."""
+        return [line_hum_warning(hz, k, gap) for hz, k, gap in self.line_collisions]
+
+
+def line_hum_warning(line_hz: float, order: int, gap_pct: float) -> str:
+    """The user's words for a line tone too close to a running-speed order."""
+    return (f"line hum at {line_hz:.0f} Hz is within {max(gap_pct, 0.1):.1f} % of {order}x: "
+            "average longer or change speed")
 
 
 @dataclass(frozen=True)

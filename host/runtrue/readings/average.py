@@ -20,6 +20,11 @@ set of the first that counts.  Per channel:
 * ``h2``: the mean 2x vector; ``rms_g``: the quadratic mean of the per-revolution RMS.
 
 Speed: mean and sample standard deviation of the per-revolution speeds in rpm.
+
+What the host's fit modelled travels with the reading: ``warnings`` (each distinct warning of the
+revolutions averaged, e.g. line hum too close to an order, with how many revolutions had it)
+and the front end's correction of the 1x (mean over the revolutions: ``fe_lag_deg`` taken out,
+``fe_gain`` divided out, with their spread over the parts' tolerances).
 """
 
 from __future__ import annotations
@@ -30,7 +35,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from runtrue.protocol.messages import Revolution
+from runtrue.protocol.messages import Revolution, line_hum_warning
 from runtrue.readings.admit import counts
 from runtrue.readings.confidence import ConfidenceEllipse, confidence_ellipse, confidence_radius
 from runtrue.readings.units import amp_phase
@@ -62,6 +67,19 @@ class Reading:
     channels: list[ChannelReading]
     n_rejected: int = 0
     channel_mask: int = 0
+    warnings: tuple[str, ...] = ()
+    fe_lag_deg: float = 0.0
+    fe_lag_tol_deg: float = 0.0
+    fe_gain: float = 1.0
+    fe_gain_tol: float = 0.0
+
+    @property
+    def frontend_text(self) -> str:
+        """One short line on the front-end correction ("" when none was made)."""
+        if self.fe_gain == 1.0 and self.fe_lag_deg == 0.0:
+            return ""
+        return (f"front end corrected: lag {self.fe_lag_deg:.2f} +-{self.fe_lag_tol_deg:.2f} deg, "
+                f"gain {self.fe_gain:.3f} +-{100 * self.fe_gain_tol:.1f} %")
 
 
 class NoUsableRevolutions(ValueError):
@@ -113,6 +131,16 @@ def vector_average(revs: Iterable[Revolution], level: float = 0.95) -> Reading:
                 scatter_g=spread * math.sqrt(n) if n > 1 else math.inf,
             )
         )
+    seen: dict[tuple[float, int], list[float]] = {}
+    for r in kept:
+        for hz, k, gap in getattr(r, "line_collisions", ()):
+            seen.setdefault((hz, k), []).append(gap)
+    warnings = tuple(f"{line_hum_warning(hz, k, float(np.mean(g)))} ({len(g)} of {n} revolutions)"
+                     for (hz, k), g in seen.items())
+
+    def mean_of(name: str, default: float) -> float:
+        return float(np.mean([float(getattr(r, name, default)) for r in kept]))
+
     return Reading(
         speed_rpm=float(speeds.mean()),
         speed_sd_rpm=float(speeds.std(ddof=1)) if n > 1 else 0.0,
@@ -120,4 +148,9 @@ def vector_average(revs: Iterable[Revolution], level: float = 0.95) -> Reading:
         channels=channels,
         n_rejected=len(revs) - n,
         channel_mask=mask,
+        warnings=warnings,
+        fe_lag_deg=mean_of("fe_lag_deg", 0.0),
+        fe_lag_tol_deg=mean_of("fe_lag_tol_deg", 0.0),
+        fe_gain=mean_of("fe_gain", 1.0),
+        fe_gain_tol=mean_of("fe_gain_tol", 0.0),
     )

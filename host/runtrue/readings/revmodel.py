@@ -230,8 +230,9 @@ class LineCollision:
 
     @property
     def message(self) -> str:
-        return (f"line hum at {self.line_hz:.0f} Hz is within {max(self.gap_pct, 0.1):.1f} % of "
-                f"{self.order}x: average longer or change speed")
+        from runtrue.protocol.messages import line_hum_warning
+
+        return line_hum_warning(self.line_hz, self.order, self.gap_pct)
 
 
 def line_collisions(speed_hz: float, line_hz: float, orders: Sequence[int] = range(1, N_HARMONICS + 1)) -> list[LineCollision]:
