@@ -15,7 +15,9 @@ keys)::
   ``warnings`` (list of texts: what the fit could not separate, e.g. line hum near an order);
   ``front_end`` ({``lag_deg``, ``lag_tol_deg``, ``gain``, ``gain_tol``}: the anti-alias filter's
   lag taken out of the 1x phase and gain divided out of its amplitude, with their spread over
-  the parts' tolerances; null when the meter did not give its front end).
+  the parts' tolerances; null when the meter did not give its front end); ``fit``: ``"joint"``
+  when the 1x is the joint fit of all the revolutions' sums (line hum fitted across them,
+  runtrue.readings.joint), ``"vector average"`` otherwise.
 * ``expected`` (simulator only): each channel's noise-free 1x vector from the virtual machine
   (``transport.machine.expected_1x()``), sampled as each averaged revolution arrived and
   averaged like the measurement, so it is the truth for the same revolutions even while the
@@ -135,7 +137,7 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         raise UsageError(str(exc)) from None
     finally:
         client.close()
-    reading = vector_average(usable)
+    reading = vector_average(usable, info=client.info)
     out: dict[str, Any] = {
         "rpm": reading.speed_rpm,
         "channels": [
@@ -156,6 +158,7 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         "port": port,
         "conventions": CONVENTIONS,
         "warnings": list(reading.warnings),
+        "fit": reading.fit,
         "front_end": ({"lag_deg": reading.fe_lag_deg, "lag_tol_deg": reading.fe_lag_tol_deg,
                        "gain": reading.fe_gain, "gain_tol": reading.fe_gain_tol}
                       if reading.frontend_text else None),

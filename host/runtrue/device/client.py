@@ -95,6 +95,7 @@ class MeterClient:
         self.streaming = False
         self._revs: collections.deque[Revolution] = collections.deque(maxlen=REV_QUEUE_MAX)
         self._last_stats: RevStats | None = None  # for the speed change within the next revolution
+        self._clock = revfit.SampleClock()  # where each revolution's samples lie, for the line tone
         self._acks: dict[int, Ack] = {}
         self._selftest: SelfTest | None = None
         self._selftest_parts: dict[int, dict[str, Any]] = {}
@@ -128,7 +129,8 @@ class MeterClient:
                 return
             prev = revfit.previous_length(self._last_stats, message)
             self._last_stats = message
-            self._revs.append(revfit.revolution_from_info(message, self.info, prev))
+            first, run = self._clock.place(message)
+            self._revs.append(revfit.revolution_from_info(message, self.info, prev, first, run))
         elif isinstance(message, Ack):
             self._acks[message.cmd_seq] = message
         elif isinstance(message, DeviceInfo):

@@ -252,7 +252,8 @@ def fit_sums(stats: RevStats, settings: FitSettings, accel: float = 0.0) -> Revo
     return RevolutionFit(terms, g, fits, collisions)
 
 
-def revolution(stats: RevStats, settings: FitSettings, prev_length_q8: int | None = None) -> Revolution:
+def revolution(stats: RevStats, settings: FitSettings, prev_length_q8: int | None = None,
+               first_sample: int = -1, run_id: int = 0) -> Revolution:
     """The :class:`Revolution` (phasors in g, round-robin delay undone, front end taken out) of
     one REV.  ``prev_length_q8``: the previous revolution's length, when it was a true turn just
     before this one; the speed change it shows is modelled within this revolution.
@@ -278,12 +279,15 @@ def revolution(stats: RevStats, settings: FitSettings, prev_length_q8: int | Non
     h2: list[complex] = []
     h3: list[complex] = []
     rms: list[float] = []
+    per_code: list[complex] = []
     step_rad = 2.0 * math.pi * 256.0 / stats.length_q8
     for rank, (ch, cf) in enumerate(zip(channels, fit.channels)):
         cpg = settings.counts_per_g[ch] if ch < len(settings.counts_per_g) else settings.counts_per_g[-1]
         delta = step_rad * rank / n_ch if settings.round_robin and n_ch > 1 else 0.0
         hk = [cf.phasor(k) * complex(math.cos(k * delta), math.sin(k * delta)) / cpg for k in (1, 2, 3)]
         hk = [c.apply(h) if c is not None else h for c, h in zip(fe, hk)]
+        one = complex(math.cos(delta), math.sin(delta)) / cpg
+        per_code.append(fe[0].apply(one) if fe[0] is not None else one)
         h1.append(hk[0])
         h2.append(hk[1])
         h3.append(hk[2])  # 0 where 3x was not fitted
@@ -294,13 +298,38 @@ def revolution(stats: RevStats, settings: FitSettings, prev_length_q8: int | Non
         line_collisions=tuple((c.line_hz, c.order, c.gap_pct) for c in fit.collisions),
         fe_lag_deg=c1.lag_deg if c1 else 0.0, fe_lag_tol_deg=c1.lag_tol_deg if c1 else 0.0,
         fe_gain=c1.gain if c1 else 1.0, fe_gain_tol=c1.gain_tol if c1 else 0.0,
-        accel=accel, stats=stats,
+        accel=accel, stats=stats, first_sample=first_sample, run_id=run_id, h1_per_code=tuple(per_code),
     )
 
 
-def revolution_from_info(stats: RevStats, info: DeviceInfo, prev_length_q8: int | None = None) -> Revolution:
+def revolution_from_info(stats: RevStats, info: DeviceInfo, prev_length_q8: int | None = None,
+                         first_sample: int = -1, run_id: int = 0) -> Revolution:
     """:func:`revolution` with the settings of the meter's INFO."""
-    return revolution(stats, FitSettings.from_info(info), prev_length_q8)
+    return revolution(stats, FitSettings.from_info(info), prev_length_q8, first_sample, run_id)
+
+
+class SampleClock:
+    """Places revolutions in an unbroken run of samples: consecutive revolutions share their edge,
+    so the next one's first sample follows the last one's samples.  A new run starts after START,
+    a gap in the revolution numbers, or lost samples (the line tone's phase is carried only
+    within a run)."""
+
+    def __init__(self) -> None:
+        self.run_id = 0
+        self._last: RevStats | None = None
+        self._first = 0
+
+    def place(self, stats: RevStats) -> tuple[int, int]:
+        """(first_sample, run_id) of ``stats``."""
+        last = self._last
+        if (last is None or stats.rev != last.rev + 1 or last.flags & (FLAG_DROPPED_SAMPLES | FLAG_NO_FIT)
+                or stats.flags & (FLAG_DROPPED_SAMPLES | FLAG_FIRST)):
+            self.run_id += 1
+            self._first = 0
+        else:
+            self._first += int(last.n_samples)
+        self._last = stats
+        return self._first, self.run_id
 
 
 #: Flags after which a revolution's period is not one true turn (or not just before the next).

@@ -222,6 +222,9 @@ class Revolution:
     fe_gain_tol: float = 0.0
     accel: float = 0.0  # modelled angular acceleration, turns per sample squared
     stats: RevStats | None = field(default=None, compare=False, repr=False)  # the sums it came from
+    first_sample: int = -1  # index of its first sample in an unbroken run of samples (-1: unknown)
+    run_id: int = 0  # which unbroken run of samples (a new one after START or lost samples)
+    h1_per_code: tuple[complex, ...] = ()  # per channel: h1 = (1x in codes, cos + j sin) * this
 
     @property
     def speed_rpm(self) -> float:

@@ -32,6 +32,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -72,6 +73,7 @@ class Reading:
     fe_lag_tol_deg: float = 0.0
     fe_gain: float = 1.0
     fe_gain_tol: float = 0.0
+    fit: str = "vector average"  # or "joint" (runtrue.readings.joint)
 
     @property
     def frontend_text(self) -> str:
@@ -94,8 +96,12 @@ def spread_of_mean(z: np.ndarray) -> float:
     return math.sqrt(float(np.sum(np.abs(z - z.mean()) ** 2)) / (n * (n - 1)))
 
 
-def vector_average(revs: Iterable[Revolution], level: float = 0.95) -> Reading:
-    """Average the usable revolutions of ``revs`` into a :class:`Reading`."""
+def vector_average(revs: Iterable[Revolution], level: float = 0.95, info: Any = None) -> Reading:
+    """Average the usable revolutions of ``revs`` into a :class:`Reading`.
+
+    With the meter's ``info`` (``DeviceInfo``) and revolutions that carry their sums, the mean
+    1x is the joint fit of all of them (:mod:`runtrue.readings.joint`: line hum fitted across
+    the revolutions); the spread and confidence still come from the revolutions' scatter."""
     revs = list(revs)
     usable = [r for r in revs if counts(r)]
     if not usable:
@@ -110,10 +116,15 @@ def vector_average(revs: Iterable[Revolution], level: float = 0.95) -> Reading:
     h1 = np.array([r.h1 for r in kept], dtype=complex)  # shape (n, channels)
     h2 = np.array([r.h2 for r in kept], dtype=complex)
     rms = np.array([r.rms_g for r in kept], dtype=float)
+    joint = None
+    if info is not None:
+        from runtrue.readings.joint import joint_1x
+
+        joint = joint_1x(kept, info)
     channels: list[ChannelReading] = []
     for i, ch in enumerate(kept[0].channels):
         z = h1[:, i]
-        mean = complex(z.mean())
+        mean = complex(z.mean()) if joint is None else joint[0][i]
         amp, phase = amp_phase(mean)
         ellipse = confidence_ellipse(z, level)
         spread = spread_of_mean(z)
@@ -137,6 +148,8 @@ def vector_average(revs: Iterable[Revolution], level: float = 0.95) -> Reading:
             seen.setdefault((hz, k), []).append(gap)
     warnings = tuple(f"{line_hum_warning(hz, k, float(np.mean(g)))} ({len(g)} of {n} revolutions)"
                      for (hz, k), g in seen.items())
+    if joint is not None:  # fitted across the revolutions: only what is still inseparable over their span
+        warnings = tuple(f"{c.message} (over all {n} revolutions)" for c in joint[1])
 
     def mean_of(name: str, default: float) -> float:
         return float(np.mean([float(getattr(r, name, default)) for r in kept]))
@@ -153,4 +166,5 @@ def vector_average(revs: Iterable[Revolution], level: float = 0.95) -> Reading:
         fe_lag_tol_deg=mean_of("fe_lag_tol_deg", 0.0),
         fe_gain=mean_of("fe_gain", 1.0),
         fe_gain_tol=mean_of("fe_gain_tol", 0.0),
+        fit="joint" if joint is not None else "vector average",
     )
