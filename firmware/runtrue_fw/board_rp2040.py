@@ -110,6 +110,10 @@ _LOAD_WINDOW_US = const(1_000_000)
 # does not say).  Unverified on hardware; hardware/BRINGUP.md (timing check) measures it.
 _FIRST_SAMPLE_PERIODS = const(1)
 _CALIBRATION_FILE = "runtrue_calib.json"
+# The front end's H(s) = 1/(1 + a1 s + a2 s^2) from hardware/frontend.py's design values (INFO
+# "fe"; tests/hardware/test_frontend.py keeps them in step).
+FE_A1_S = 1.834e-4
+FE_A2_S2 = 1.504e-10
 
 # Nominal sensor: ratiometric, 0.1 x supply per g, zero at half supply (hardware/FRONTEND.md),
 # so counts per g = 4096 * 0.1 = 409.6 whatever the supply.  Replaced by runtrue_calib.json.
@@ -215,9 +219,11 @@ class Board:
         self._load_permille = 0
 
     # ------------------------------------------------------------------ hw interface
-    def write(self, buf) -> int:
-        n = self._out.write(buf)
-        return len(buf) if n is None else n
+    def write(self, buf, n: int) -> int:
+        """The board contract's write(buf, n): send buf[:n] now (the Meter reuses buf).  The stream
+        method's length argument avoids slicing, so nothing is allocated."""
+        r = self._out.write(buf, n)
+        return n if r is None else r
 
     def configure(self, channel_mask: int, rate_hz: float) -> float:
         """Select channels (bits 0-2) and the per-channel rate; returns the actual rate in Hz."""
@@ -348,6 +354,7 @@ class Board:
             "zero_code": list(self._zero_code),
             "serial": serial,
             "round_robin": True,  # channel k of a frame is converted k conversion periods late
+            "fe": [FE_A1_S, FE_A2_S2],
         }
 
     def cpu_load_permille(self) -> int:

@@ -85,7 +85,7 @@ def crc32(data) -> int:
     n = len(data)
     buf = bytearray(n + 4)
     buf[:n] = data
-    crc32_into(buf, n, _CRC_TABLE)
+    crc32_into(buf, n, _CRC_TABLE)  # type: ignore[arg-type]  # viper ptr args take buffers
     return buf[n] | (buf[n + 1] << 8) | (buf[n + 2] << 16) | (buf[n + 3] << 24)
 
 
@@ -96,7 +96,7 @@ def _crc_ok(body, n: int) -> bool:
     b1 = body[m + 1]
     b2 = body[m + 2]
     b3 = body[m + 3]
-    crc32_into(body, m, _CRC_TABLE)
+    crc32_into(body, m, _CRC_TABLE)  # type: ignore[arg-type]
     return body[m] == b0 and body[m + 1] == b1 and body[m + 2] == b2 and body[m + 3] == b3
 
 
@@ -146,8 +146,8 @@ class FrameWriter:
         body[1] = ftype
         body[2] = self.seq & 0xFF
         body[3] = self.seq >> 8
-        end = crc32_into(body, HEADER_LEN + n, self._ctab)
-        m = cobs_encode_into(body, end, self.wire)
+        end = crc32_into(body, HEADER_LEN + n, self._ctab)  # type: ignore[arg-type]
+        m = cobs_encode_into(body, end, self.wire)  # type: ignore[arg-type]
         self.wire[m] = 0
         self.seq = (self.seq + 1) & 0xFFFF
         return m + 1

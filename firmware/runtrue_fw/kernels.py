@@ -18,13 +18,17 @@ fits 2**25 and a block of ``FOLD_EVERY`` = 32 products fits 2**30.  Each block a
 folded into a pair (hi, lo) with lo in [0, 2**24): lo + block stays below 2**31, and the
 total hi*2**24 + lo stays below 2**39 (int40) for revolutions up to 2**14 samples.
 
-Angles (2**-30 turn) are kept in accumulators stepped each frame, modulo 2**30: the sum of two
-30-bit values is below 2**31.  The cosine table is stored offset by +16384 (``make_kernel_table``)
+Angles (2**-30 turn) are kept in accumulators stepped each frame, modulo 2**30, by adding the
+step less one turn and adding the turn back if negative, so no sum reaches 2**30: the portable
+kernel stays in small ints even on a 32-bit port (MicroPython's small ints are 31-bit), apart
+from a block sum at its extreme (exactly 2**30, full-scale codes in phase with a basis value at
+-1 for 32 samples), which there becomes one short-lived long int.  The fold splits each block sum
+s as (s >> 24, s & 0xFFFFFF) so that lo + s is never formed.  The cosine table is stored offset by +16384 (``make_kernel_table``)
 so that viper's unsigned 16-bit loads read it directly.
 
 Sources: CRC-32/ISO-HDLC (reflected polynomial 0xEDB88320, init and xorout 0xFFFFFFFF, check
-0xCBF43926; Greg Cook, "Catalogue of parametrised CRC algorithms"), computed a nibble at a time
-from a 16-entry table; COBS after S. Cheshire and M. Baker, "Consistent Overhead Byte Stuffing",
+0xCBF43926; Greg Cook, "Catalogue of parametrised CRC algorithms"), computed a byte at a time
+from a 256-entry table (1 KiB); COBS after S. Cheshire and M. Baker, "Consistent Overhead Byte Stuffing",
 IEEE/ACM Transactions on Networking 7(2), 1999.
 """
 
@@ -58,10 +62,8 @@ P_BASIS = 100    # work: 12 basis values (+16384) for each of FOLD_EVERY frames
 P_WORDS = 484
 HI_BIAS = 1 << 20
 
-_CRC_NIBBLE = (
-    0x00000000, 0x1DB71064, 0x3B6E20C8, 0x26D930AC, 0x76DC4190, 0x6B6B51F4, 0x4DB26158, 0x5005713C,
-    0xEDB88320, 0xF00F9344, 0xD6D6A3E8, 0xCB61B38C, 0x9B64C2B0, 0x86D3D2D4, 0xA00AE278, 0xBDBDF21C,
-)
+_CRC_POLY_LO = 0x8320      # reflected polynomial 0xEDB88320, low and high halves
+_CRC_POLY_HI = 0xEDB8
 
 
 def make_params():
@@ -79,11 +81,21 @@ def make_kernel_table():
 
 
 def make_crc_table():
-    """CRC-32 nibble table as 16 half-words pairs (array('H'), low half then high half)."""
-    out = array("H", bytes(64))
-    for j in range(16):
-        out[2 * j] = _CRC_NIBBLE[j] & 0xFFFF
-        out[2 * j + 1] = _CRC_NIBBLE[j] >> 16
+    """CRC-32 byte table (reflected polynomial 0xEDB88320) as 256 pairs of half-words in an
+    array('H'): low half then high half, so every value is a small int on any port."""
+    out = array("H", bytes(1024))
+    for j in range(256):
+        lo = j
+        hi = 0
+        for _ in range(8):
+            carry = lo & 1
+            lo = (lo >> 1) | ((hi & 1) << 15)
+            hi >>= 1
+            if carry:
+                lo ^= _CRC_POLY_LO
+                hi ^= _CRC_POLY_HI
+        out[2 * j] = lo
+        out[2 * j + 1] = hi
     return out
 
 
@@ -142,18 +154,41 @@ def rev_sums(ring, table, p, out) -> None:
         p[10 + c] = 65535
         p[13 + c] = 0
         c += 1
+    # angles modulo one turn (2**30) without ever forming a sum of 2**30 or more: x + y is
+    # taken as x + (y - 2**30), plus 2**30 if negative (small ints on any 32-bit port)
     h1 = a1 & m
-    h2 = (a1 + a1) & m
-    h3 = (h2 + a1) & m
-    h4 = (h2 + h2) & m
+    h2 = h1 + ((h1 - m) - 1)
+    if h2 < 0:
+        h2 = (h2 + m) + 1
+    h3 = h2 + ((h1 - m) - 1)
+    if h3 < 0:
+        h3 = (h3 + m) + 1
+    h4 = h2 + ((h2 - m) - 1)
+    if h4 < 0:
+        h4 = (h4 + m) + 1
     d1 = inc1 & m
-    d2 = (d1 + d1) & m
-    d3 = (d2 + d1) & m
-    d4 = (d2 + d2) & m
+    d2 = d1 + ((d1 - m) - 1)
+    if d2 < 0:
+        d2 = (d2 + m) + 1
+    d3 = d2 + ((d1 - m) - 1)
+    if d3 < 0:
+        d3 = (d3 + m) + 1
+    d4 = d2 + ((d2 - m) - 1)
+    if d4 < 0:
+        d4 = (d4 + m) + 1
     l1 = 0
     l2 = 0
     e1 = linc & m
-    e2 = (e1 + e1) & m
+    e2 = e1 + ((e1 - m) - 1)
+    if e2 < 0:
+        e2 = (e2 + m) + 1
+    # the steps less one turn (each in [-2**30, 0))
+    d1 = (d1 - m) - 1
+    d2 = (d2 - m) - 1
+    d3 = (d3 - m) - 1
+    d4 = (d4 - m) - 1
+    e1 = (e1 - m) - 1
+    e2 = (e2 - m) - 1
     i0 = 0
     while i0 < n:
         nb = n - i0
@@ -205,12 +240,24 @@ def rev_sums(ring, table, p, out) -> None:
             t = x >> 20
             v = table[t]
             p[bb + 11] = v + (((table[t + 1] - v) * ((x >> 6) & 0x3FFF)) >> 14)
-            h1 = (h1 + d1) & m
-            h2 = (h2 + d2) & m
-            h3 = (h3 + d3) & m
-            h4 = (h4 + d4) & m
-            l1 = (l1 + e1) & m
-            l2 = (l2 + e2) & m
+            h1 += d1
+            if h1 < 0:
+                h1 = (h1 + m) + 1
+            h2 += d2
+            if h2 < 0:
+                h2 = (h2 + m) + 1
+            h3 += d3
+            if h3 < 0:
+                h3 = (h3 + m) + 1
+            h4 += d4
+            if h4 < 0:
+                h4 = (h4 + m) + 1
+            l1 += e1
+            if l1 < 0:
+                l1 = (l1 + m) + 1
+            l2 += e2
+            if l2 < 0:
+                l2 = (l2 + m) + 1
             bb += 12
             f += 1
         # every channel over the block: 14 block sums in locals, then folded
@@ -261,47 +308,47 @@ def rev_sums(ring, table, p, out) -> None:
             p[10 + c] = lo_code
             p[13 + c] = hi_code
             w = 16 + c * 14
-            x = p[w + 42] + s0
-            p[w + 0] = p[w + 0] + (x >> 24)
+            x = p[w + 42] + (s0 & 0xFFFFFF)
+            p[w + 0] = p[w + 0] + (s0 >> 24) + (x >> 24)
             p[w + 42] = x & 0xFFFFFF
-            x = p[w + 43] + s1
-            p[w + 1] = p[w + 1] + (x >> 24)
+            x = p[w + 43] + (s1 & 0xFFFFFF)
+            p[w + 1] = p[w + 1] + (s1 >> 24) + (x >> 24)
             p[w + 43] = x & 0xFFFFFF
-            x = p[w + 44] + s2
-            p[w + 2] = p[w + 2] + (x >> 24)
+            x = p[w + 44] + (s2 & 0xFFFFFF)
+            p[w + 2] = p[w + 2] + (s2 >> 24) + (x >> 24)
             p[w + 44] = x & 0xFFFFFF
-            x = p[w + 45] + s3
-            p[w + 3] = p[w + 3] + (x >> 24)
+            x = p[w + 45] + (s3 & 0xFFFFFF)
+            p[w + 3] = p[w + 3] + (s3 >> 24) + (x >> 24)
             p[w + 45] = x & 0xFFFFFF
-            x = p[w + 46] + s4
-            p[w + 4] = p[w + 4] + (x >> 24)
+            x = p[w + 46] + (s4 & 0xFFFFFF)
+            p[w + 4] = p[w + 4] + (s4 >> 24) + (x >> 24)
             p[w + 46] = x & 0xFFFFFF
-            x = p[w + 47] + s5
-            p[w + 5] = p[w + 5] + (x >> 24)
+            x = p[w + 47] + (s5 & 0xFFFFFF)
+            p[w + 5] = p[w + 5] + (s5 >> 24) + (x >> 24)
             p[w + 47] = x & 0xFFFFFF
-            x = p[w + 48] + s6
-            p[w + 6] = p[w + 6] + (x >> 24)
+            x = p[w + 48] + (s6 & 0xFFFFFF)
+            p[w + 6] = p[w + 6] + (s6 >> 24) + (x >> 24)
             p[w + 48] = x & 0xFFFFFF
-            x = p[w + 49] + s7
-            p[w + 7] = p[w + 7] + (x >> 24)
+            x = p[w + 49] + (s7 & 0xFFFFFF)
+            p[w + 7] = p[w + 7] + (s7 >> 24) + (x >> 24)
             p[w + 49] = x & 0xFFFFFF
-            x = p[w + 50] + s8
-            p[w + 8] = p[w + 8] + (x >> 24)
+            x = p[w + 50] + (s8 & 0xFFFFFF)
+            p[w + 8] = p[w + 8] + (s8 >> 24) + (x >> 24)
             p[w + 50] = x & 0xFFFFFF
-            x = p[w + 51] + s9
-            p[w + 9] = p[w + 9] + (x >> 24)
+            x = p[w + 51] + (s9 & 0xFFFFFF)
+            p[w + 9] = p[w + 9] + (s9 >> 24) + (x >> 24)
             p[w + 51] = x & 0xFFFFFF
-            x = p[w + 52] + s10
-            p[w + 10] = p[w + 10] + (x >> 24)
+            x = p[w + 52] + (s10 & 0xFFFFFF)
+            p[w + 10] = p[w + 10] + (s10 >> 24) + (x >> 24)
             p[w + 52] = x & 0xFFFFFF
-            x = p[w + 53] + s11
-            p[w + 11] = p[w + 11] + (x >> 24)
+            x = p[w + 53] + (s11 & 0xFFFFFF)
+            p[w + 11] = p[w + 11] + (s11 >> 24) + (x >> 24)
             p[w + 53] = x & 0xFFFFFF
-            x = p[w + 54] + s12
-            p[w + 12] = p[w + 12] + (x >> 24)
+            x = p[w + 54] + (s12 & 0xFFFFFF)
+            p[w + 12] = p[w + 12] + (s12 >> 24) + (x >> 24)
             p[w + 54] = x & 0xFFFFFF
-            x = p[w + 55] + s13
-            p[w + 13] = p[w + 13] + (x >> 24)
+            x = p[w + 55] + (s13 & 0xFFFFFF)
+            p[w + 13] = p[w + 13] + (s13 >> 24) + (x >> 24)
             p[w + 55] = x & 0xFFFFFF
             c += 1
         i0 += nb
@@ -328,13 +375,9 @@ def crc32_into(buf, n: int, ctab) -> int:
     hi = 0xFFFF
     i = 0
     while i < n:
-        lo ^= buf[i]
-        k = 0
-        while k < 2:
-            x = lo & 15
-            lo = ((lo >> 4) | ((hi & 15) << 12)) ^ ctab[2 * x]
-            hi = (hi >> 4) ^ ctab[2 * x + 1]
-            k += 1
+        x = (lo ^ buf[i]) & 255
+        lo = ((lo >> 8) | ((hi & 255) << 8)) ^ ctab[2 * x]
+        hi = (hi >> 8) ^ ctab[2 * x + 1]
         i += 1
     lo ^= 0xFFFF
     hi ^= 0xFFFF

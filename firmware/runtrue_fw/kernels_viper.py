@@ -53,18 +53,41 @@ def rev_sums(ring: ptr16, table: ptr16, p: ptr32, out: ptr8):
         p[10 + c] = 65535
         p[13 + c] = 0
         c += 1
+    # angles modulo one turn (2**30) without ever forming a sum of 2**30 or more: x + y is
+    # taken as x + (y - 2**30), plus 2**30 if negative (small ints on any 32-bit port)
     h1 = a1 & m
-    h2 = (a1 + a1) & m
-    h3 = (h2 + a1) & m
-    h4 = (h2 + h2) & m
+    h2 = h1 + ((h1 - m) - 1)
+    if h2 < 0:
+        h2 = (h2 + m) + 1
+    h3 = h2 + ((h1 - m) - 1)
+    if h3 < 0:
+        h3 = (h3 + m) + 1
+    h4 = h2 + ((h2 - m) - 1)
+    if h4 < 0:
+        h4 = (h4 + m) + 1
     d1 = inc1 & m
-    d2 = (d1 + d1) & m
-    d3 = (d2 + d1) & m
-    d4 = (d2 + d2) & m
+    d2 = d1 + ((d1 - m) - 1)
+    if d2 < 0:
+        d2 = (d2 + m) + 1
+    d3 = d2 + ((d1 - m) - 1)
+    if d3 < 0:
+        d3 = (d3 + m) + 1
+    d4 = d2 + ((d2 - m) - 1)
+    if d4 < 0:
+        d4 = (d4 + m) + 1
     l1 = 0
     l2 = 0
     e1 = linc & m
-    e2 = (e1 + e1) & m
+    e2 = e1 + ((e1 - m) - 1)
+    if e2 < 0:
+        e2 = (e2 + m) + 1
+    # the steps less one turn (each in [-2**30, 0))
+    d1 = (d1 - m) - 1
+    d2 = (d2 - m) - 1
+    d3 = (d3 - m) - 1
+    d4 = (d4 - m) - 1
+    e1 = (e1 - m) - 1
+    e2 = (e2 - m) - 1
     i0 = 0
     while i0 < n:
         nb = n - i0
@@ -116,12 +139,24 @@ def rev_sums(ring: ptr16, table: ptr16, p: ptr32, out: ptr8):
             t = x >> 20
             v = table[t]
             p[bb + 11] = v + (((table[t + 1] - v) * ((x >> 6) & 0x3FFF)) >> 14)
-            h1 = (h1 + d1) & m
-            h2 = (h2 + d2) & m
-            h3 = (h3 + d3) & m
-            h4 = (h4 + d4) & m
-            l1 = (l1 + e1) & m
-            l2 = (l2 + e2) & m
+            h1 += d1
+            if h1 < 0:
+                h1 = (h1 + m) + 1
+            h2 += d2
+            if h2 < 0:
+                h2 = (h2 + m) + 1
+            h3 += d3
+            if h3 < 0:
+                h3 = (h3 + m) + 1
+            h4 += d4
+            if h4 < 0:
+                h4 = (h4 + m) + 1
+            l1 += e1
+            if l1 < 0:
+                l1 = (l1 + m) + 1
+            l2 += e2
+            if l2 < 0:
+                l2 = (l2 + m) + 1
             bb += 12
             f += 1
         # every channel over the block: 14 block sums in locals, then folded
@@ -172,47 +207,47 @@ def rev_sums(ring: ptr16, table: ptr16, p: ptr32, out: ptr8):
             p[10 + c] = lo_code
             p[13 + c] = hi_code
             w = 16 + c * 14
-            x = p[w + 42] + s0
-            p[w + 0] = p[w + 0] + (x >> 24)
+            x = p[w + 42] + (s0 & 0xFFFFFF)
+            p[w + 0] = p[w + 0] + (s0 >> 24) + (x >> 24)
             p[w + 42] = x & 0xFFFFFF
-            x = p[w + 43] + s1
-            p[w + 1] = p[w + 1] + (x >> 24)
+            x = p[w + 43] + (s1 & 0xFFFFFF)
+            p[w + 1] = p[w + 1] + (s1 >> 24) + (x >> 24)
             p[w + 43] = x & 0xFFFFFF
-            x = p[w + 44] + s2
-            p[w + 2] = p[w + 2] + (x >> 24)
+            x = p[w + 44] + (s2 & 0xFFFFFF)
+            p[w + 2] = p[w + 2] + (s2 >> 24) + (x >> 24)
             p[w + 44] = x & 0xFFFFFF
-            x = p[w + 45] + s3
-            p[w + 3] = p[w + 3] + (x >> 24)
+            x = p[w + 45] + (s3 & 0xFFFFFF)
+            p[w + 3] = p[w + 3] + (s3 >> 24) + (x >> 24)
             p[w + 45] = x & 0xFFFFFF
-            x = p[w + 46] + s4
-            p[w + 4] = p[w + 4] + (x >> 24)
+            x = p[w + 46] + (s4 & 0xFFFFFF)
+            p[w + 4] = p[w + 4] + (s4 >> 24) + (x >> 24)
             p[w + 46] = x & 0xFFFFFF
-            x = p[w + 47] + s5
-            p[w + 5] = p[w + 5] + (x >> 24)
+            x = p[w + 47] + (s5 & 0xFFFFFF)
+            p[w + 5] = p[w + 5] + (s5 >> 24) + (x >> 24)
             p[w + 47] = x & 0xFFFFFF
-            x = p[w + 48] + s6
-            p[w + 6] = p[w + 6] + (x >> 24)
+            x = p[w + 48] + (s6 & 0xFFFFFF)
+            p[w + 6] = p[w + 6] + (s6 >> 24) + (x >> 24)
             p[w + 48] = x & 0xFFFFFF
-            x = p[w + 49] + s7
-            p[w + 7] = p[w + 7] + (x >> 24)
+            x = p[w + 49] + (s7 & 0xFFFFFF)
+            p[w + 7] = p[w + 7] + (s7 >> 24) + (x >> 24)
             p[w + 49] = x & 0xFFFFFF
-            x = p[w + 50] + s8
-            p[w + 8] = p[w + 8] + (x >> 24)
+            x = p[w + 50] + (s8 & 0xFFFFFF)
+            p[w + 8] = p[w + 8] + (s8 >> 24) + (x >> 24)
             p[w + 50] = x & 0xFFFFFF
-            x = p[w + 51] + s9
-            p[w + 9] = p[w + 9] + (x >> 24)
+            x = p[w + 51] + (s9 & 0xFFFFFF)
+            p[w + 9] = p[w + 9] + (s9 >> 24) + (x >> 24)
             p[w + 51] = x & 0xFFFFFF
-            x = p[w + 52] + s10
-            p[w + 10] = p[w + 10] + (x >> 24)
+            x = p[w + 52] + (s10 & 0xFFFFFF)
+            p[w + 10] = p[w + 10] + (s10 >> 24) + (x >> 24)
             p[w + 52] = x & 0xFFFFFF
-            x = p[w + 53] + s11
-            p[w + 11] = p[w + 11] + (x >> 24)
+            x = p[w + 53] + (s11 & 0xFFFFFF)
+            p[w + 11] = p[w + 11] + (s11 >> 24) + (x >> 24)
             p[w + 53] = x & 0xFFFFFF
-            x = p[w + 54] + s12
-            p[w + 12] = p[w + 12] + (x >> 24)
+            x = p[w + 54] + (s12 & 0xFFFFFF)
+            p[w + 12] = p[w + 12] + (s12 >> 24) + (x >> 24)
             p[w + 54] = x & 0xFFFFFF
-            x = p[w + 55] + s13
-            p[w + 13] = p[w + 13] + (x >> 24)
+            x = p[w + 55] + (s13 & 0xFFFFFF)
+            p[w + 13] = p[w + 13] + (s13 >> 24) + (x >> 24)
             p[w + 55] = x & 0xFFFFFF
             c += 1
         i0 += nb
@@ -236,13 +271,9 @@ def crc32_into(buf: ptr8, n: int, ctab: ptr16) -> int:
     hi = 0xFFFF
     i = 0
     while i < n:
-        lo ^= buf[i]
-        k = 0
-        while k < 2:
-            x = lo & 15
-            lo = ((lo >> 4) | ((hi & 15) << 12)) ^ ctab[2 * x]
-            hi = (hi >> 4) ^ ctab[2 * x + 1]
-            k += 1
+        x = (lo ^ buf[i]) & 255
+        lo = ((lo >> 8) | ((hi & 255) << 8)) ^ ctab[2 * x]
+        hi = (hi >> 8) ^ ctab[2 * x + 1]
         i += 1
     lo ^= 0xFFFF
     hi ^= 0xFFFF

@@ -19,11 +19,13 @@ k-th enabled channel of a frame was converted k/n_ch of a sample period after th
 round robin); INFO says so and the host's fit corrects for it.
 """
 
+import gc
 import json
 import struct
 from array import array
 
 from runtrue_fw import FW_VERSION, basis, envelope
+from runtrue_fw.buffers import RING_FRAMES, zeros as _zeros
 from runtrue_fw import frames as fr
 from runtrue_fw import kernels as _k
 from runtrue_fw.edges import DEBOUNCE_Q8, EdgeTracker, Q8_MASK, wrap_diff_q8
@@ -41,8 +43,7 @@ except ImportError:  # CPython
     def const(x):  # type: ignore[no-redef,misc]
         return x
 
-RING_FRAMES = const(8192)          # ring per channel (power of two); 48 KiB for 3 channels
-_RING_MASK = const(8191)
+_RING_MASK = const(8191)           # RING_FRAMES (buffers.py) - 1; 48 KiB ring for 3 channels
 FRAME_MASK = const(0x3FFFFF)       # frame index modulo 2**22 (its q8 position fits 2**30)
 _FRAME_HALF = const(0x200000)
 MAX_REV_SAMPLES = envelope.MAX_REV_SAMPLES
@@ -71,36 +72,21 @@ def _wrap_frames(d: int) -> int:
     return d
 
 
-def _zeros(typecode: str, n: int):
-    """array(typecode) of n zeros, allocated once in place (no transient copy of the size)."""
-    a = array(typecode, _Zeros(n))
-    return a
-
-
-class _Zeros:
-    """n zeros with a length: MicroPython's array() sizes the array from len() and fills it."""
-
-    def __init__(self, n: int) -> None:
-        self.n = n
-
-    def __len__(self) -> int:
-        return self.n
-
-    def __iter__(self):
-        i = 0
-        while i < self.n:
-            yield 0
-            i += 1
-
-
 class Meter:
     """The meter.  See DEVELOPERS.md ("Firmware: Meter and board") for the board contract."""
 
-    def __init__(self, hw) -> None:
+    def __init__(self, hw, rev_sums_kernel=None, ring=None) -> None:
+        """`rev_sums_kernel`: another implementation of kernels.rev_sums (the simulator passes a
+        numpy twin held to it bit for bit); None uses the viper or portable kernel.  `ring`: the
+        sample ring allocated early (buffers.meter_ring; main.py), else allocated here."""
         self._hw = hw
+        self._rev_sums = rev_sums_kernel if rev_sums_kernel is not None else rev_sums
         info = hw.info()
         self._board = str(info.get("board", ""))
         self._adc_bits = int(info.get("adc_bits", 12))
+        if not 8 <= self._adc_bits <= 12:
+            # the kernels' word budget (kernels.py): |code - offset| <= 2**11
+            raise ValueError("adc_bits must be 8..12")
         self._full_code = (1 << self._adc_bits) - 1
         self._adc_offset = 1 << (self._adc_bits - 1)
         self._channels_max = int(info.get("channels_max", 1))
@@ -113,8 +99,13 @@ class Meter:
         self._fe = [float(v) for v in info.get("fe", [])]
         self._board_edges_lost = getattr(hw, "edges_lost", None)
 
-        # Buffers, allocated once and in place (start-up peak: firmware/README.md).
-        self._ring = _zeros("H", RING_FRAMES * self._channels_max)
+        # Buffers, allocated once and in place (start-up peak: firmware/README.md); the largest
+        # first, after a collection, so that it finds one free stretch of the heap.
+        if ring is not None and len(ring) >= RING_FRAMES * self._channels_max:
+            self._ring = ring
+        else:
+            gc.collect()
+            self._ring = _zeros("H", RING_FRAMES * self._channels_max)
         self._ktab = _k.make_kernel_table()
         self._pk = _k.make_params()
         self._pk[_k.P_MASK] = _RING_MASK
@@ -360,7 +351,7 @@ class Meter:
             p[_k.P_INC] = inc1
             p[_k.P_A1] = basis.first_angle(inc1, first_off_q8)
             p[_k.P_LINE] = self._line_inc
-            rev_sums(self._ring, self._ktab, p, body)  # type: ignore[arg-type]
+            self._rev_sums(self._ring, self._ktab, p, body)  # type: ignore[arg-type]  # viper ptr args
             k = 0
             while k < n_slots:
                 if p[_k.P_MIN + k] <= 0 or p[_k.P_MAX + k] >= self._full_code:

@@ -146,9 +146,11 @@ class FakeHost:
                 return out
 
         class _Out:
-            def write(self, data: bytes) -> int:
-                host.from_board += data
-                return len(data)
+            def write(self, data: bytes, max_len: int | None = None) -> int:
+                # MicroPython's stream write(buf, max_len) sends at most max_len bytes of buf
+                n = len(data) if max_len is None else min(max_len, len(data))
+                host.from_board += bytes(data[:n])
+                return n
 
         self.stdin = types.SimpleNamespace(buffer=_In())
         self.stdout = types.SimpleNamespace(buffer=_Out())

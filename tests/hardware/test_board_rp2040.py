@@ -260,7 +260,7 @@ def test_command_bytes_from_the_host_reach_the_meter_and_writes_go_out_raw(rig: 
     rig.host.to_board += b"\x03\x00\x81abc\x00"
     board.poll(meter)
     assert bytes(meter.commands) == b"\x03\x00\x81abc\x00"
-    board.write(b"\x00\x0a\x0d\xff")
+    assert board.write(b"\x00\x0a\x0d\xff\x55", 4) == 4   # write(buf, n): the first n bytes
     assert bytes(rig.host.from_board) == b"\x00\x0a\x0d\xff"
 
 

@@ -14,6 +14,7 @@ import math
 import pytest
 
 from rp2040_fake import Rig
+from runtrue.device import revfit
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import (
     CMD_IDENTIFY,
@@ -22,7 +23,9 @@ from runtrue.protocol.messages import (
     CMD_START,
     CommandEncoder,
     DeviceInfo,
-    Revolution,
+    InfoAssembler,
+    InfoPart,
+    RevStats,
     parse_message,
     set_channels_payload,
     set_rate_payload,
@@ -80,9 +83,12 @@ def test_meter_on_the_board_reports_the_true_1x_lag_of_every_channel(rig: Rig) -
 
     decoder = FrameDecoder()
     messages = [parse_message(f) for f in decoder.feed(bytes(rig.host.from_board))]
-    info = [m for m in messages if isinstance(m, DeviceInfo)]
-    assert info and info[0].board == "rp2040" and info[0].channels_max == 3
-    revs = [m for m in messages if isinstance(m, Revolution) and m.usable]
+    joiner = InfoAssembler()
+    info = [joiner.feed(m) for m in messages if isinstance(m, InfoPart)] + [m for m in messages if isinstance(m, DeviceInfo)]
+    info = [i for i in info if i is not None]
+    assert info and info[-1].board == "rp2040" and info[-1].channels_max == 3 and info[-1].round_robin
+    revs = [revfit.revolution_from_info(m, info[-1]) for m in messages if isinstance(m, RevStats)]
+    revs = [r for r in revs if r.usable]
     assert len(revs) >= 8
     for rev in revs:
         assert rev.speed_rpm == pytest.approx(SPEED_HZ * 60, rel=1e-4)

@@ -155,6 +155,7 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         "revs": reading.n_revs,
         "rejected": seen - reading.n_revs,
         "lost_frames": client.lost_frames,
+        "envelope_warning": client.envelope_warning,
         "port": port,
         "conventions": CONVENTIONS,
         "warnings": list(reading.warnings),
@@ -194,6 +195,8 @@ def _table(result: dict[str, Any]) -> str:
                      f"gain {fe['gain']:.3f} +-{100 * fe['gain_tol']:.1f} %")
     for w in result.get("warnings", []):
         lines.append(f"WARNING: {w}")
+    if result.get("envelope_warning"):
+        lines.append(f"WARNING: {result['envelope_warning']}")
     return "\n".join(lines)
 
 

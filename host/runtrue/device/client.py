@@ -22,7 +22,7 @@ import time
 from typing import Any, Callable
 
 from runtrue.device import revfit
-from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT
+from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning
 from runtrue.readings.admit import counts, why_left_out
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.protocol.errors import MessageError
@@ -90,6 +90,7 @@ class MeterClient:
         self.last_status: Status | None = None
         self.log: collections.deque[str] = collections.deque(maxlen=200)
         self.message_errors = 0
+        self.envelope_warning: str | None = None  # set while the latest revolution is outside the envelope
         self.reconnects = 0
         self.connected = True
         self.streaming = False
@@ -130,7 +131,12 @@ class MeterClient:
             prev = revfit.previous_length(self._last_stats, message)
             self._last_stats = message
             first, run = self._clock.place(message)
-            self._revs.append(revfit.revolution_from_info(message, self.info, prev, first, run))
+            rev = revfit.revolution_from_info(message, self.info, prev, first, run)
+            warning = envelope_warning(rev.speed_rpm, self.info.min_rpm, self.info.max_rpm)
+            if warning and warning != self.envelope_warning:
+                self.log.append(warning)
+            self.envelope_warning = warning
+            self._revs.append(rev)
         elif isinstance(message, Ack):
             self._acks[message.cmd_seq] = message
         elif isinstance(message, DeviceInfo):

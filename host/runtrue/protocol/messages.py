@@ -264,10 +264,10 @@ class Status:
     cpu_load_permille: int
     dropped_samples: int
     edges_rejected: int
-    edges_lost: int  # lost before the edge logic saw them (board queue and meter queue overflows)
     revs_sent: int
     tx_overflows: int
     streaming: bool
+    edges_lost: int = 0  # lost before the edge logic saw them (board queue and meter queue overflows)
 
 
 @dataclass(frozen=True)
@@ -425,7 +425,7 @@ def parse_status(payload: bytes) -> Status:
     if len(payload) != _STATUS.size:
         raise MessageError(f"STATUS payload of {len(payload)} bytes; it should be {_STATUS.size}")
     up, cpu, dropped, rejected, lost, sent, overflows, streaming = _STATUS.unpack(payload)
-    return Status(up, cpu, dropped, rejected, lost, sent, overflows, bool(streaming))
+    return Status(up, cpu, dropped, rejected, sent, overflows, bool(streaming), edges_lost=lost)
 
 
 def parse_ack(payload: bytes) -> Ack:

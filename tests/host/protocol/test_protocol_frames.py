@@ -198,4 +198,4 @@ def test_info_parts_join_into_one_device_info() -> None:
     assert joiner.feed(parts[0]) is None
     info = joiner.feed(parts[1])
     assert info is not None and info.proto == 2 and info.basis == "q14c1024h4l2" and info.line_inc == 13421773
-    assert info.round_robin and info.adc_offset == 2048 and info.fe == [0.0001834, 1.504e-10] and info.max_rpm == 12000
+    assert info.round_robin and info.adc_offset == 2048 and info.fe == [0.0001834, 1.504e-10] and info.max_rpm == 10000

@@ -72,7 +72,7 @@ def test_rev_with_inconsistent_length_mask_or_sum_count_is_a_message_error() -> 
 
 def test_status_info_ack_selftest_text() -> None:
     status = parse_message(Frame(2, 0x03, 0, struct.pack("<IHIIIIIB", 1000, 345, 2, 3, 4, 99, 0, 1)))
-    assert status == Status(1000, 345, 2, 3, 4, 99, 0, True)
+    assert status == Status(1000, 345, 2, 3, 99, 0, True, edges_lost=4)
     info_obj = {"fw": "0.2.0", "board": "sim", "proto": 2, "channels_max": 3, "channel_mask": 3,
                 "rate_hz": 4000.0, "adc_bits": 12, "counts_per_g": [400, 400, 400],
                 "zero_code": [2048, 2048, 2048], "edge": "falling", "streaming": False, "serial": "E66"}

@@ -75,7 +75,7 @@ INFO_TEXT = ('{"part":0,"parts":2,"fw":"0.2.0","board":"rp2040","proto":2,'
              '"rate_hz":4000.0,"adc_bits":12,"adc_offset":2048,"counts_per_g":[409.5,409.5,409.5]}')
 INFO2_TEXT = ('{"part":1,"parts":2,"zero_code":[2048.0,2047.5,2049.0],"edge":"falling","streaming":false,"basis":"q14c1024h4l2",'
               '"line_hz":50,"line_inc":13421773,"round_robin":true,"fe":[0.0001834,1.504e-10],'
-              '"max_rpm":12000,"min_rpm":60}')
+              '"max_rpm":10000,"min_rpm":60}')
 _BIG = (1 << 39) - 1
 SELFTEST_TEXT = ('{"pass":false,"checks":[{"name":"sample_rate","pass":true,"value":4000.0,'
                  '"unit":"Hz","note":""},{"name":"ch1_signal","pass":false,"value":0.0,'

@@ -1,0 +1,63 @@
+"""The meter's revolution kernel with numpy, for the simulator only (host side).
+
+Same contract and the same integers as ``runtrue_fw.kernels.rev_sums`` (the 14 sums of
+``runtrue_fw.basis`` per channel, min/max codes, int40 output in the REV payload), computed with
+the host fit's bit-exact cosine (:mod:`runtrue.device.revfit`) and exact int64 sums
+(every sum is below 2**39).  The simulator runs the real Meter under CPython, where the portable
+kernel costs ~6 ms per revolution; this twin is ~30x faster.  tests/host/sim/test_sim_fastsums.py
+holds it to the portable kernel bit for bit.  The firmware never uses it.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from runtrue.device import revfit
+from runtrue_fw import kernels as k
+
+
+def rev_sums(ring, table, p, out) -> None:  # noqa: ARG001 (table: same signature as the kernels)
+    n = p[k.P_N]
+    nch = p[k.P_NCH]
+    start = p[k.P_START]
+    mask = p[k.P_MASK]
+    slot = p[k.P_SLOT]
+    off = p[k.P_OFFSET]
+    o = p[k.P_OUT]
+    inc1 = p[k.P_INC]
+    a1 = p[k.P_A1]
+    b = basis_q14_from_angles(n, inc1, a1, p[k.P_LINE])
+    ring_np = np.frombuffer(ring, dtype=np.uint16)
+    idx = (start + np.arange(n)) & mask
+    for c in range(nch):
+        codes = ring_np[c * slot + idx].astype(np.int64)
+        y = codes - off
+        sums = [int(y.sum())] + [int(v) for v in (y @ b[:, 1:])] + [int(y @ y)]
+        for j, v in enumerate(sums):
+            lo = v & 0xFFFFFF
+            hi = (v >> 24) & 0xFFFF
+            at = o + 70 * c + 5 * j
+            out[at] = lo & 255
+            out[at + 1] = (lo >> 8) & 255
+            out[at + 2] = lo >> 16
+            out[at + 3] = hi & 255
+            out[at + 4] = hi >> 8
+        p[k.P_MIN + c] = int(codes.min()) if n else 65535
+        p[k.P_MAX + c] = int(codes.max()) if n else 0
+
+
+def basis_q14_from_angles(n: int, inc1: int, a1: int, line_inc: int) -> np.ndarray:
+    """revfit.basis_q14 from the kernel's own parameters (angle step and first angle)."""
+    m = 0x3FFFFFFF
+    i = np.arange(n, dtype=np.int64)
+    out = np.empty((n, 13), dtype=np.int64)
+    out[:, 0] = 16384
+    for kk in range(1, 5):
+        a = (kk * a1 + i * ((kk * inc1) & m)) & m
+        out[:, 2 * kk - 1] = revfit._cos_q14(a)
+        out[:, 2 * kk] = revfit._sin_q14(a)
+    for mm in (1, 2):
+        a = (i * ((mm * line_inc) & m)) & m
+        out[:, 8 + 2 * mm - 1] = revfit._cos_q14(a)
+        out[:, 8 + 2 * mm] = revfit._sin_q14(a)
+    return out
