@@ -53,7 +53,7 @@ def joint_1x(revs: Sequence[Any], info: Any) -> tuple[list[complex], tuple[revmo
         ]
         try:
             fit = revmodel.fit_joint(inputs, orders=orders, line_hz=float(getattr(info, "line_hz", 0.0)),
-                                     speed_hz=speed_hz)
+                                     speed_hz=speed_hz, with_cov=False)
         except np.linalg.LinAlgError:
             return None
         per_code = complex(np.mean([r.h1_per_code[ch] for r in revs]))

@@ -418,6 +418,7 @@ def fit_joint(
     line_hz: float = 0.0,
     speed_hz: float = 0.0,
     amp_exponent: float = 2.0,
+    with_cov: bool = True,
 ) -> JointResult:
     """Fit several revolutions of a steady reading together, from their sums: each revolution has
     its own dc; the running-speed orders are common to all (each revolution's scaled by the
@@ -455,9 +456,10 @@ def fit_joint(
     s_mat = np.zeros((n_sh, n_sh))
     s_rhs = np.zeros(n_sh)
     per_rev = []
-    big_a = np.zeros((n_par, n_par))  # instruments^T model (stacked)
-    big_z = np.zeros((n_par, n_par))  # instruments^T instruments
-    big_t = np.zeros((n_par, n_par))  # model^T model: Fisher information / sigma^2
+    size = n_par if with_cov else 0
+    big_a = np.zeros((size, size))  # instruments^T model (stacked)
+    big_z = np.zeros((size, size))  # instruments^T instruments
+    big_t = np.zeros((size, size))  # model^T model: Fisher information / sigma^2
     for r, rv in enumerate(revs):
         phi = meter_basis(rv.geom)
         theta = model_basis(rv.geom, rv.accel, amp_exponent) if rv.accel else phi
@@ -480,6 +482,8 @@ def fit_joint(
         b_s = tr.T @ b[1:]
         s_rhs += b_s - as0 * b[0] / a00
         per_rev.append((a00, a0s, b[0]))
+        if not with_cov:
+            continue
         idx = [r] + list(range(n, n_par))
         zi = np.column_stack([z0, zs])
         ti = np.column_stack([t0, ts])
@@ -490,8 +494,11 @@ def fit_joint(
     pos = {c: i for i, c in enumerate(shared_cols)}
     orders_out = {k: complex(shared[pos[harmonic_columns(k)[0]]], shared[pos[harmonic_columns(k)[1]]]) for k in orders}
     lines_out = {m: complex(shared[pos[line_columns(m)[0]]], shared[pos[line_columns(m)[1]]]) for m in lines}
-    a_inv = np.linalg.inv(big_a)
-    cov = a_inv @ big_z @ a_inv.T
-    crlb = np.linalg.inv(big_t)
+    if with_cov:
+        a_inv = np.linalg.inv(big_a)
+        cov = a_inv @ big_z @ a_inv.T
+        crlb = np.linalg.inv(big_t)
+    else:  # the estimate only (a reading's mean): skip the stacked covariance
+        cov = crlb = np.zeros((0, 0))
     index = {COLUMN_NAMES[c]: n + i for i, c in enumerate(shared_cols)}
     return JointResult(orders_out, lines_out, cov, crlb, index, tuple(collisions), speed_ref)
