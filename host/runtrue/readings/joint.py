@@ -33,7 +33,7 @@ def joint_1x(revs: Sequence[Any], info: Any) -> tuple[list[complex], tuple[revmo
     run = revs[0].run_id
     if any(r.stats is None or r.first_sample < 0 or r.run_id != run or not r.h1_per_code for r in revs):
         return None
-    line_inc = int(getattr(info, "line_inc", 0))
+    line_inc = int(_field(info, "line_inc"))
     n_orders = []
     for r in revs:
         terms = choose_terms(int(r.stats.n_samples), line_inc)
@@ -52,7 +52,7 @@ def joint_1x(revs: Sequence[Any], info: Any) -> tuple[list[complex], tuple[revmo
             for r in revs
         ]
         try:
-            fit = revmodel.fit_joint(inputs, orders=orders, line_hz=float(getattr(info, "line_hz", 0.0)),
+            fit = revmodel.fit_joint(inputs, orders=orders, line_hz=float(_field(info, "line_hz")),
                                      speed_hz=speed_hz, with_cov=False)
         except np.linalg.LinAlgError:
             return None
@@ -60,3 +60,9 @@ def joint_1x(revs: Sequence[Any], info: Any) -> tuple[list[complex], tuple[revmo
         out.append(fit.orders[1] * per_code)
         collisions = fit.collisions
     return out, collisions
+
+
+def _field(info: Any, name: str) -> float:
+    """A number from the meter's INFO, as a DeviceInfo or its dict (0 when absent)."""
+    value = info.get(name, 0) if isinstance(info, dict) else getattr(info, name, 0)
+    return value or 0

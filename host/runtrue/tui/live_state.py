@@ -38,6 +38,7 @@ class LiveState:
         self.last_flags: list[str] = []  # why the last revolution was left out ("missing pulse", ...)
         self.last_rev_at = -1.0  # clock time of the last revolution (any), -1 before the first
         self.refused_while_taking = 0  # flagged revolutions since the reading was asked for
+        self.info: Any = None  # the meter's INFO: a taken reading is then the joint fit of its revolutions
 
     # -- feeding ----------------------------------------------------------------------------------
     def reset(self, min_epoch: int | None = None) -> None:
@@ -95,7 +96,7 @@ class LiveState:
         from runtrue.readings import vector_average
 
         self.collecting = False
-        self.done = vector_average(self.collected[: self.target_revs])
+        self.done = vector_average(self.collected[: self.target_revs], info=self.info)
 
     # -- showing ----------------------------------------------------------------------------------
     @property

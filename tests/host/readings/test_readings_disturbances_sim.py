@@ -105,3 +105,21 @@ def test_measure_warns_when_too_few_revolutions_to_separate_the_hum(capsys: pyte
     # 0.08 turn against the 2x: still inseparable, and the user is told
     assert "WARNING: line hum at 50 Hz is within 2.0 % of 2x: average longer or change speed" in out
     assert "100 Hz" not in out
+
+
+def test_the_apps_taken_reading_is_the_joint_fit_too() -> None:
+    from runtrue.tui.live_state import LiveState
+
+    t = SimTransport(_hum_fan(), seed=8)
+    c = MeterClient(t, t.name)
+    info = c.identify()
+    c.start()
+    revs = [c.read_revolution(5.0) for _ in range(26)]
+    truth = t.machine.expected_1x()[0]
+    c.close()
+    state = LiveState()
+    state.info = info.raw  # the application keeps INFO as its dict
+    state.start_taking(20)
+    state.add(revs)
+    assert state.done is not None and state.done.fit == "joint"
+    assert abs(state.done.channels[0].mean - truth) < 0.01 * abs(truth)
