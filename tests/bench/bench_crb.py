@@ -353,12 +353,15 @@ def main_model(trials: int, seed: int) -> None:
     print(f"signals (tests/bench/disturbances.py), 1x = {A_CODES:g} codes, whole-code samples, 4 kS/s.")
     print("ratio = std / sqrt(CRLB) (amplitude, phase); cost = sqrt(CRLB / bound of a 1x-only fit);")
     print("bias of the phase +- its standard error; warned = share of readings with a line-hum warning")
+    print(f"readings: {trials} of one revolution, {max(50, trials // 2)} of ten per case; a ratio estimated from "
+          f"T readings is itself uncertain by about +-{100 / math.sqrt(2 * max(50, trials // 2)):.1f} % (T = "
+          f"{max(50, trials // 2)}), +-{100 / math.sqrt(2 * trials):.1f} % (T = {trials})")
     print(f"{'case':56} {'smp/rev':>7} {'amp':>5} {'ph':>5} {'cost':>5} {'bias amp':>8} {'bias ph deg':>16} "
           f"{'sd ph':>6} {'warned':>6}")
     print(f"{'':56} {'':>7} {'ratio':>5} {'ratio':>5} {'':>5} {'%':>8} {'':>16} {'deg':>6}")
     worst_white = worst_dist = worst_bias = 0.0
     for i, case in enumerate(dcases()):
-        n_trials = trials if case.n_revs == 1 else max(50, trials // 5)
+        n_trials = trials if case.n_revs == 1 else max(50, trials // 2)
         r = run_dcase(case, n_trials, seed + i)
         ratio = max(r["ratio_a"], r["ratio_p"])
         if case.estimator == "model" and not (r["warned"] > 0.5 and case.machine.line_codes):
