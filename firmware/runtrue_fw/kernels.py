@@ -122,6 +122,23 @@ def deinterleave(block, ring, p) -> None:
         i += 1
 
 
+def copy_wrapped(src, dst, p) -> None:
+    """dst[:p[1]] = p[1] samples of the ring `src` (p[2] long) from index p[0], wrapping.
+
+    The board copies whole frames out of its DMA ring with it (no slicing, no allocation).
+    """
+    a = p[0]
+    n = p[1]
+    size = p[2]
+    i = 0
+    while i < n:
+        dst[i] = src[a]
+        a += 1
+        if a == size:
+            a = 0
+        i += 1
+
+
 def rev_sums(ring, table, p, out) -> None:
     """The 14 sums of every enabled channel over one revolution, and min/max codes.
 

@@ -31,6 +31,20 @@ def deinterleave(block: ptr16, ring: ptr16, p: ptr32):
 
 
 @micropython.viper
+def copy_wrapped(src: ptr16, dst: ptr16, p: ptr32):
+    a = p[0]
+    n = p[1]
+    size = p[2]
+    i = 0
+    while i < n:
+        dst[i] = src[a]
+        a += 1
+        if a == size:
+            a = 0
+        i += 1
+
+
+@micropython.viper
 def rev_sums(ring: ptr16, table: ptr16, p: ptr32, out: ptr8):
     n = p[0]
     nch = p[1]

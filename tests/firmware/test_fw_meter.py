@@ -377,3 +377,68 @@ def test_any_command_bytes_are_answered_and_never_crash_the_meter(items) -> None
     acks = _acks(host.frames())         # every frame the meter wrote decodes (CRC, COBS)
     assert acks[-1][:3] == (seq, fr.C_STATUS, fr.ACK_OK)
     assert all(a[2] in (0, 1, 2, 3, 4) for a in acks)
+
+
+def test_set_line_chooses_the_line_tone_and_is_busy_while_streaming() -> None:
+    hw = FakeBoard()
+    m = Meter(hw)
+    host = Host(m, hw)
+    host.command(fr.C_SET_LINE, b"\x3c")
+    host.command(fr.C_SET_LINE, b"\x37")
+    host.command(fr.C_SET_LINE, b"")
+    frames = host.frames()
+    assert [(a[1], a[2]) for a in _acks(frames)] == [(fr.C_SET_LINE, 0), (fr.C_SET_LINE, 1), (fr.C_SET_LINE, 1)]
+    infos = [json.loads(p) for t, _, p in frames if t == fr.T_INFO]
+    info = {**infos[0], **infos[1]}
+    assert info["line_hz"] == 60 and info["line_inc"] == round(60 / 4000 * 2**30)
+    host.command(fr.C_SET_LINE, b"\x00")
+    merged: dict = {}
+    for t, _, p in host.frames():
+        if t == fr.T_INFO:
+            merged.update(json.loads(p))
+    assert merged["line_hz"] == 0 and merged["line_inc"] == 0
+    host.command(fr.C_START)
+    host.command(fr.C_SET_LINE, b"\x32")
+    assert _acks(host.frames())[-1][2] == fr.ACK_BUSY
+
+
+def test_counters_wrap_below_2_30_and_stay_small_ints() -> None:
+    m, hw, host = _started()
+    m._rev_index = (1 << 30) - 1
+    m._revs_sent = (1 << 30) - 1
+    sh = Shaft(4000, RPM, [(0.5, 30.0, 0.0, 0.0, 0.0)] * 3, t0_samples=0.375)
+    stream(m, hw, sh, 1000)
+    revs = drive.revs_of(host.frames())
+    assert [r["rev"] for r in revs[:3]] == [(1 << 30) - 1, 0, 1]     # wraps at 2**30 (PROTOCOL.md)
+    assert all(v < 1 << 30 for v in m.status_fields())
+    assert m.status_fields()[5] == len(revs) - 1                  # revs_sent wrapped too
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.integers(1, 3), st.integers(0, 2900), st.integers(1, 900), st.sampled_from([20.3, 97.3125, 333.7]))
+def test_an_overrun_of_any_length_and_position_flags_every_revolution_it_touches(nch, drop_first, drop_len, spr) -> None:
+    hw = FakeBoard(channels_max=nch)
+    m = Meter(hw)
+    host = Host(m, hw)
+    host.command(fr.C_START)
+    host.frames()
+    sh = Shaft(4000, 4000 * 60 / spr, [(0.5, 30.0, 0.0, 0.0, 0.0)] * nch, t0_samples=0.375)
+    n = 3000
+    edges = sh.edges_q8(n)
+    k = 0
+    for f in range(0, n, 50):
+        while k < len(edges) and edges[k] < (f + 50) * 256:
+            m.feed_edge(edges[k])
+            k += 1
+        m.feed_samples(sh.block(f, 50, hw.counts_per_g, hw.zero_code), 50)
+        lo, hi = max(drop_first, f), min(drop_first + drop_len, f + 50)
+        if lo < hi:
+            m.mark_dropped(lo, hi)
+        m.service()
+    m.service()
+    revs = drive.revs_of(host.frames())
+    assert revs
+    for r in revs:
+        e0, e1 = edges[r["rev"]] / 256, edges[r["rev"] + 1] / 256
+        touched = e0 < drop_first + drop_len and e1 > drop_first
+        assert bool(r["flags"] & fr.F_DROPPED_SAMPLES) == touched, (r["rev"], r["flags"])

@@ -90,18 +90,22 @@ def basis_q14(n_samples: int, first_off_q8: int, length_q8: int, line_inc: int) 
     16384), columns in the order of the sums: 1, cos/sin of orders 1..4, cos/sin of line tones
     1..2.  Bit-exact with ``basis.cos_q14``/``sin_q14`` as ``reference_sums`` uses them."""
     inc1 = basis.rev_increment(length_q8)
-    a1 = basis.first_angle(inc1, first_off_q8)
-    i = np.arange(n_samples, dtype=np.int64)
+    return basis_q14_from_angles(n_samples, inc1, basis.first_angle(inc1, first_off_q8), line_inc)
+
+
+def basis_q14_from_angles(n_samples: int, inc1: int, a1: int, line_inc: int) -> np.ndarray:
+    """:func:`basis_q14` from the angle step per sample and the first sample's angle (the
+    kernels' own parameters): all six angles at once, cosines and sines in two table passes."""
+    i = np.arange(n_samples, dtype=np.int64)[:, None]
+    k = np.arange(1, N_ORDERS + 1, dtype=np.int64)
+    m = np.arange(1, N_LINE + 1, dtype=np.int64)
+    start = np.concatenate([(k * a1) & _MASK, np.zeros(N_LINE, dtype=np.int64)])
+    step = np.concatenate([(k * inc1) & _MASK, (m * line_inc) & _MASK])
+    ang = (start + i * step) & _MASK
     out = np.empty((n_samples, N_BASIS), dtype=np.int64)
     out[:, 0] = basis.Q14_ONE
-    for k in range(1, N_ORDERS + 1):
-        a = (k * a1 + i * ((k * inc1) & _MASK)) & _MASK
-        out[:, 2 * k - 1] = _cos_q14(a)
-        out[:, 2 * k] = _sin_q14(a)
-    for m in range(1, N_LINE + 1):
-        a = (i * ((m * line_inc) & _MASK)) & _MASK
-        out[:, 2 * N_ORDERS + 2 * m - 1] = _cos_q14(a)
-        out[:, 2 * N_ORDERS + 2 * m] = _sin_q14(a)
+    out[:, 1::2] = _cos_q14(ang)
+    out[:, 2::2] = _sin_q14(ang)
     return out
 
 

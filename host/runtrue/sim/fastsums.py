@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from runtrue.device import revfit
+from runtrue.device.revfit import basis_q14_from_angles
 from runtrue_fw import kernels as k
 
 
@@ -44,20 +44,3 @@ def rev_sums(ring, table, p, out) -> None:  # noqa: ARG001 (table: same signatur
             out[at + 4] = hi >> 8
         p[k.P_MIN + c] = int(codes.min()) if n else 65535
         p[k.P_MAX + c] = int(codes.max()) if n else 0
-
-
-def basis_q14_from_angles(n: int, inc1: int, a1: int, line_inc: int) -> np.ndarray:
-    """revfit.basis_q14 from the kernel's own parameters (angle step and first angle)."""
-    m = 0x3FFFFFFF
-    i = np.arange(n, dtype=np.int64)
-    out = np.empty((n, 13), dtype=np.int64)
-    out[:, 0] = 16384
-    for kk in range(1, 5):
-        a = (kk * a1 + i * ((kk * inc1) & m)) & m
-        out[:, 2 * kk - 1] = revfit._cos_q14(a)
-        out[:, 2 * kk] = revfit._sin_q14(a)
-    for mm in (1, 2):
-        a = (i * ((mm * line_inc) & m)) & m
-        out[:, 8 + 2 * mm - 1] = revfit._cos_q14(a)
-        out[:, 8 + 2 * mm] = revfit._sin_q14(a)
-    return out
