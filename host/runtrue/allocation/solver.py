@@ -6,8 +6,11 @@ Objective (issue 4), compared lexicographically, residuals rounded to 1e-9·|cor
    good-enough value ``g`` counts as ``g``.  Without one, ``g`` is 1 % of the correction
    (:data:`DEFAULT_GOOD_ENOUGH_FRACTION`): a measured correction is rarely known better than
    a few per cent (influence coefficients move with speed and temperature; common practice),
-   and a strictly smallest residual buys invisible gains with many more pieces.  Pass
-   ``good_enough_gmm=0`` for the strictly smallest residual;
+   and a strictly smallest residual buys invisible gains with many more pieces.  With a STRIP
+   the default is instead the unbalance of one cutting step at the largest radius used (if
+   that is smaller): a strip is cut to any length for the same effort, so the lengths come out
+   as the exact split rounded to the cutting step, not the lightest pair that only just meets
+   1 %.  Pass ``good_enough_gmm=0`` for the strictly smallest residual;
 2. (with ``prefer_fewer_positions``: the fewest positions receiving weight;)
 3. the fewest pieces on the rotor afterwards (new pieces and strip pieces, plus old weights
    that stay or are moved);
@@ -104,9 +107,12 @@ def _strip_ladder(strip: Strip, target_gmm: float, r_min: float, mass_limit: flo
     return [strip.min_mm + i * strip.step_mm for i in range(max(0, n))]
 
 
-def _good_enough(good_enough_gmm: float | None, T: complex) -> float:
+def _good_enough(good_enough_gmm: float | None, T: complex, strip_step_gmm: float | None = None) -> float:
     if good_enough_gmm is None:
-        return DEFAULT_GOOD_ENOUGH_FRACTION * abs(T)
+        g = DEFAULT_GOOD_ENOUGH_FRACTION * abs(T)
+        if strip_step_gmm is not None:
+            g = min(g, strip_step_gmm)
+        return g
     return float(good_enough_gmm)
 
 
@@ -176,7 +182,10 @@ def allocate(
     if not usable:
         raise AllocationError("no usable positions: give at least one position that is not excluded")
     T, r_c = correction_vector(correction, correction_radius_mm, positions.radii_mm[usable[0]])
-    g = _good_enough(good_enough_gmm, T)
+    step_gmm = None
+    if strip is not None:
+        step_gmm = strip.grams_per_mm * strip.step_mm * max(positions.radii_mm[pi] for pi in usable)
+    g = _good_enough(good_enough_gmm, T, step_gmm)
     P = len(usable)
     local = {pi: j for j, pi in enumerate(usable)}
     u = np.array([weight_gmm(1.0, positions.angles_deg[pi], positions.radii_mm[pi]) for pi in usable])
