@@ -9,9 +9,10 @@ fast for fine cutting steps, where a length ladder has hundreds of rungs:
   with vector u, ``|R − w·u|²`` is a convex quadratic in w, minimal at ``w* = Re(R·ū)/|u|²``.
   Over the arithmetic ladder ``w_i = w_0 + i·Δw`` (clamped to the allowed rungs) the best rung
   under the key is one of three: the rungs either side of ``w*`` (the smallest residual: a
-  parabola is symmetric about its vertex), and the LIGHTEST rung whose residual is within the
-  good-enough value g (the interval ``|w − w*| ≤ sqrt(g² − d²)/|u|``, d the distance of R from
-  the line of u; any rung in it ties on the first key component, so the lightest wins).  All
+  parabola is symmetric about its vertex), and the LIGHTEST rung on the best residual level
+  those reach (level: ``max(|R|, g)`` rounded to the quantum; the rungs on it fill the interval
+  ``|w − w*| ≤ sqrt(ρ² − d²)/|u|``, ρ the level's upper edge and d the distance of R from the
+  line of u; they tie on the first key component, so the lightest wins).  All
   three are tried, so the last position is exact for the whole key, mass included.
 * **Last two positions by a vectorised sweep.**  For each pair of positions, every rung of the
   first is tried at once (numpy) and the second is found by rounding.
@@ -91,12 +92,17 @@ class StripSearch:
         x = (wstar - self.w0) / self.dw
         lo = np.clip(np.floor(x), 0, top)
         hi = np.clip(np.ceil(x), 0, top)
-        # lightest rung within the good-enough disk (widened by half a quantum: levels are rounded)
-        g = self.g + 0.5 * self.q
+        # The lightest rung on the best residual level reachable here: every rung with
+        # |residual| < (level + 1/2)·quantum ties on the first key component (the level is
+        # max(|R|, g) rounded to the quantum), so the lightest of them is the candidate.
+        r_lo = np.abs(R - (self.w0 + self.dw * lo) * u)
+        r_hi = np.abs(R - (self.w0 + self.dw * hi) * u)
+        level = np.floor(np.maximum(np.minimum(r_lo, r_hi), self.g) / self.q + 0.5)
+        radius = (level + 0.5) * self.q * (1.0 - 1e-12)
         d = np.abs((R * np.conj(u)).imag) / np.sqrt(uu)
-        half = np.sqrt(np.maximum(g * g - d * d, 0.0)) / np.sqrt(uu)
+        half = np.sqrt(np.maximum(radius * radius - d * d, 0.0)) / np.sqrt(uu)
         light = np.clip(np.ceil((wstar - half - self.w0) / self.dw - 1e-9), 0, top)
-        light = np.where(d <= g, light, lo)
+        light = np.where(d <= radius, light, lo)
         idx = np.arange(np.size(R))
         rungs = np.concatenate([lo.ravel(), hi.ravel(), light.ravel()]).astype(np.int64)
         return np.concatenate([idx, idx, idx]), rungs
