@@ -437,6 +437,96 @@ def residual_upper_bound_gmm(amp: float, amp_sd: float | None, gain: float, gain
     return (float(amp) + Z95 * float(amp_sd)) / low
 
 
+def expected_relative_error(
+    trial_ratio: float,
+    noise_fraction: float,
+    trial_angles_deg: Sequence[float] = (0.0, 120.0, 240.0),
+    relative_sd: float = 0.0,
+) -> float:
+    """Expected error of the amplitude-only correction, relative to the unbalance: the RMS of
+    ``sqrt(trace cov(u)) / |u|`` from the fit's covariance (the inverse Fisher information of the
+    model, the same ``(J^T J)^-1`` the fit reports), averaged over the unbalance's unknown angle
+    relative to the trials (every 10 deg).  ``trial_ratio`` = |trial unbalance| / |u|;
+    ``noise_fraction`` = the amplitude's standard deviation / the reference amplitude (an absolute
+    floor); ``relative_sd`` adds a part proportional to each amplitude (repeatability)."""
+    rho = float(trial_ratio)
+    t = np.array([0j] + [rho * np.exp(1j * math.radians(a)) for a in trial_angles_deg])
+    total = 0.0
+    angles = np.radians(np.arange(0.0, 360.0, 10.0))
+    for phi in angles:
+        u = complex(math.cos(phi), math.sin(phi))
+        z = u + t
+        d = np.abs(z)
+        sig = np.hypot(noise_fraction, relative_sd * d)
+        dd = np.where(d > 0, d, 1.0)
+        j = np.column_stack([z.real / dd / sig, z.imag / dd / sig, d / sig])
+        try:
+            cov = np.linalg.inv(j.T @ j)
+        except np.linalg.LinAlgError:
+            return math.inf
+        total += float(cov[0, 0] + cov[1, 1])
+    return math.sqrt(total / len(angles))
+
+
+@dataclass(frozen=True)
+class AmplitudePlan:
+    """A planned amplitude-only cycle: the trial unbalance (g*mm), its angles, the expected
+    relative error of the correction (RMS, 1 sd) and a sentence saying why."""
+
+    trial_gmm: float
+    trial_angles_deg: tuple[float, ...]
+    expected_relative_error: float
+    rule: str
+
+
+def plan_amplitude_only(
+    reference_amp: float,
+    amp_sd: float,
+    gain: float,
+    permissible_gmm: float,
+    max_trial_gmm: float,
+    relative_sd: float = 0.0,
+    max_angles: int = 6,
+) -> AmplitudePlan:
+    """Trial size and number of trial positions for a cycle, from the expected error.
+
+    Known before the cycle: its reference amplitude and scatter, and ``gain`` = |a| from an
+    earlier fit (so the unbalance is about ``reference_amp / gain``).  The trial ratio is chosen
+    from 0.5 to 3 times that unbalance (capped by ``max_trial_gmm``, a safety limit) to make the
+    expected error smallest; then trial positions are added (3, 4, ... equally spaced, up to
+    ``max_angles``) until the expected 95 % error of the correction, as unbalance, is within half
+    the permissible residual (our choice), or the limit is reached (the rule sentence says so)."""
+    if not (reference_amp > 0 and gain > 0 and max_trial_gmm > 0 and permissible_gmm > 0):
+        raise BalancingError("planning needs a reference amplitude, a gain, a permissible residual and a trial limit above 0")
+    u_est = reference_amp / gain
+    noise = max(float(amp_sd), 0.0) / reference_amp
+    best: tuple[float, float] | None = None
+    for ratio in np.geomspace(0.5, 3.0, 11):
+        ratio = float(min(ratio, max_trial_gmm / u_est))
+        err = expected_relative_error(ratio, noise, relative_sd=relative_sd)
+        if best is None or err < best[1] * (1 - 1e-9):
+            best = (ratio, err)
+    assert best is not None
+    ratio = best[0]
+    target = 0.5 * permissible_gmm / u_est  # relative error allowed at 95 %
+    n = 3
+    err = best[1]
+    while n < max_angles and Z95 * err > target:
+        n += 1
+        err = expected_relative_error(ratio, noise, tuple(360.0 * k / n for k in range(n)), relative_sd)
+    angles = tuple(360.0 * k / n for k in range(n))
+    rule = (
+        f"Trial unbalance {ratio:.2g} times the estimated unbalance ({u_est:.3g} g*mm), at {n} positions "
+        f"{360.0 / n:g} deg apart: expected error of the correction {err:.1%} (1 sd)"
+    )
+    if Z95 * err > target:
+        rule += (
+            f"; even so its 95 % error ({Z95 * err * u_est:.3g} g*mm) exceeds half the permissible "
+            f"{permissible_gmm:.3g} g*mm: average more revolutions for steadier readings"
+        )
+    return AmplitudePlan(ratio * u_est, angles, err, rule + ".")
+
+
 def four_run(
     amplitudes: Sequence[float],
     trial_mass_g: float,

@@ -139,3 +139,29 @@ def test_runs_with_spreads_give_the_uncertainty_of_the_correction() -> None:
     assert sol.mass_sd_g is not None and sol.mass_sd_g[0] > 0
     assert sol.angle_sd_deg is not None and 0 < sol.angle_sd_deg[0] < 10
     assert solve_amplitude_only([Run(r.weights, r.readings) for r in runs]).mass_sd_g is None
+
+
+def test_expected_error_used_for_planning_matches_simulation() -> None:
+    from runtrue.balancing.four_run import expected_relative_error
+
+    rng = np.random.default_rng(29)
+    for ratio, noise, angles in ((1.0, 0.02, (0, 120, 240)), (2.0, 0.05, (0, 90, 180, 270))):
+        sq = []
+        for _ in range(600):
+            u = 1000 * np.exp(1j * rng.uniform(0, 2 * math.pi))
+            t = np.array([0j] + [ratio * 1000 * np.exp(1j * math.radians(x)) for x in angles])
+            sd = np.full(len(t), noise)
+            v = np.abs(np.abs(u + t) / 1000 + sd * rng.normal(size=len(t)))
+            sq.append(abs(fit_amplitudes(v, t, sd).unbalance_gmm - u) ** 2 / 1e6)
+        assert math.sqrt(np.mean(sq)) == pytest.approx(expected_relative_error(ratio, noise, angles), rel=0.15)
+
+
+def test_plan_adds_trial_positions_when_the_readings_are_noisy() -> None:
+    from runtrue.balancing.four_run import plan_amplitude_only
+
+    quiet = plan_amplitude_only(1.0, 0.01, 1e-3, 100.0, 2000.0)
+    noisy = plan_amplitude_only(1.0, 0.04, 1e-3, 100.0, 2000.0)
+    assert len(quiet.trial_angles_deg) == 3
+    assert len(noisy.trial_angles_deg) > 3
+    assert quiet.trial_gmm <= 2000.0 and noisy.trial_gmm <= 2000.0  # the safety limit holds
+    assert Z95 * noisy.expected_relative_error * 1000.0 <= 50.0 or "average more" in noisy.rule
