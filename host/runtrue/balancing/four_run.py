@@ -70,6 +70,8 @@ Z95_ONE_SIDED = 1.6448536269514722
 #: Levenberg-Marquardt: iteration cap and relative step size at which it stops.
 LM_MAX_ITER = 200
 LM_TOL = 1e-12
+#: Levenberg-Marquardt is run from this many distinct starting points (the best by profiled cost).
+MAX_STARTS = 3
 
 
 @dataclass
@@ -238,12 +240,14 @@ def fit_amplitudes(
     cands = np.concatenate([np.array(starts, dtype=complex), grid])
     d = np.abs(cands[:, None] + t[None, :])
     g, cost = _profile_gains(d, v, w)
+    # Refine the MAX_STARTS best distinct candidates (linear starts and grid points ranked alike
+    # by their profiled cost).
     order = np.argsort(cost)
-    picked = list(range(len(starts)))  # every linear start
+    picked: list[int] = []
     for c in order:
-        if len(picked) >= len(starts) + 4:
+        if len(picked) >= MAX_STARTS:
             break
-        if c >= len(starts) and all(abs(cands[c] - cands[q]) > 0.05 * t_scale for q in picked):
+        if all(abs(cands[c] - cands[q]) > 0.05 * t_scale for q in picked):
             picked.append(int(c))
     best: tuple[float, np.ndarray, bool] | None = None
     for c in picked:
