@@ -138,3 +138,26 @@ def test_stock_optimal_is_never_beaten_by_exhaustive_search(seed: int) -> None:
     if a.optimal:
         assert ours <= ref
     assert ours[0] <= ref[0] or not a.optimal
+
+
+@pytest.mark.slow
+def test_strict_mode_proven_answer_equals_a_milp_reference() -> None:
+    # 8 positions x 3 sizes, strictly smallest residual: the allocator proves its answer and a
+    # mixed-integer reference (scipy's milp, HiGHS, 256-gon residual) finds nothing better.
+    from allocation_reference import milp_reference
+
+    rng = random.Random(5)
+    angles = [360 * i / 8 + rng.uniform(0, 10) for i in range(8)]
+    sizes = sorted(rng.sample([0.5, 1.0, 1.5, 2.0, 3.0, 5.0, 7.5, 10.0], 3))
+    counts = [rng.choice([2, 3, 4]) for _ in range(3)]
+    t = rng.uniform(0, 2 * math.pi)
+    T = rng.uniform(5, 20) * 120 * complex(math.cos(t), math.sin(t))
+    a = allocate(T, Positions.at_angles(angles, 120.0), stock=Stock.of(list(zip(sizes, counts))),
+                 max_pieces_per_position=2, good_enough_gmm=0, max_nodes=10**5)
+    assert a.optimal
+    ref = milp_reference(Case(T, angles, [120.0] * 8, sizes, counts, 2, None, 0.0), time_limit_s=3.0)
+    assert ref is not None
+    q = STRICT_RESOLUTION_FRACTION * abs(T)
+    assert abs(a.residual_gmm) <= ref[0] * (1 + 1e-4) + q
+    if abs(abs(a.residual_gmm) - ref[0]) <= q:
+        assert (a.piece_count, round(a.added_mass_g, 6)) <= (ref[1], round(ref[2], 6))
