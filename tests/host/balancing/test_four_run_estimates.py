@@ -116,7 +116,7 @@ def test_unknown_scatter_gives_no_bound_and_no_pass() -> None:
 def test_a_quiet_second_pickup_improves_the_estimate_and_a_noisy_one_does_no_harm() -> None:
     rng = np.random.default_rng(23)
     one, two, noisy = [], [], []
-    for _ in range(300):
+    for _ in range(150):
         u, a, t = random_rotor(rng)
         true = a * np.abs(u + t)
         sd = 0.05 * true
@@ -147,7 +147,7 @@ def test_expected_error_used_for_planning_matches_simulation() -> None:
     rng = np.random.default_rng(29)
     for ratio, noise, angles in ((1.0, 0.02, (0, 120, 240)), (2.0, 0.05, (0, 90, 180, 270))):
         sq = []
-        for _ in range(600):
+        for _ in range(350):
             u = 1000 * np.exp(1j * rng.uniform(0, 2 * math.pi))
             t = np.array([0j] + [ratio * 1000 * np.exp(1j * math.radians(x)) for x in angles])
             sd = np.full(len(t), noise)
