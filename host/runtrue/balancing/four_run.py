@@ -453,6 +453,8 @@ def expected_relative_error(
     relative to the trials (every 10 deg).  ``trial_ratio`` = |trial unbalance| / |u|;
     ``noise_fraction`` = the amplitude's standard deviation / the reference amplitude (an absolute
     floor); ``relative_sd`` adds a part proportional to each amplitude (repeatability)."""
+    if noise_fraction <= 0 and relative_sd <= 0:
+        return 0.0  # exact readings: no error
     rho = float(trial_ratio)
     t = np.array([0j] + [rho * np.exp(1j * math.radians(a)) for a in trial_angles_deg])
     total = 0.0
@@ -461,7 +463,7 @@ def expected_relative_error(
         u = complex(math.cos(phi), math.sin(phi))
         z = u + t
         d = np.abs(z)
-        sig = np.hypot(noise_fraction, relative_sd * d)
+        sig = np.maximum(np.hypot(noise_fraction, relative_sd * d), 1e-12)
         dd = np.where(d > 0, d, 1.0)
         j = np.column_stack([z.real / dd / sig, z.imag / dd / sig, d / sig])
         try:
@@ -495,9 +497,9 @@ def plan_amplitude_only(
     """Trial size and number of trial positions for a cycle, from the expected error.
 
     Known before the cycle: its reference amplitude and scatter, and ``gain`` = |a| from an
-    earlier fit (so the unbalance is about ``reference_amp / gain``).  The trial ratio is chosen
-    from 0.5 to 3 times that unbalance (capped by ``max_trial_gmm``, a safety limit) to make the
-    expected error smallest; then trial positions are added (3, 4, ... equally spaced, up to
+    earlier fit (so the unbalance is about ``reference_amp / gain``).  The trial is chosen from
+    0.5 times that unbalance up to ``max_trial_gmm`` (a safety limit; at least 3 times it, if the
+    limit allows) to make the expected error smallest; then trial positions are added (3, 4, ... equally spaced, up to
     ``max_angles``) until the expected 95 % error of the correction, as unbalance, is within half
     the permissible residual (our choice), or the limit is reached (the rule sentence says so)."""
     if not (reference_amp > 0 and gain > 0 and max_trial_gmm > 0 and permissible_gmm > 0):
@@ -505,10 +507,10 @@ def plan_amplitude_only(
     u_est = reference_amp / gain
     noise = max(float(amp_sd), 0.0) / reference_amp
     best: tuple[float, float] | None = None
-    for ratio in np.geomspace(0.5, 3.0, 11):
+    for ratio in np.geomspace(0.5, max(3.0, max_trial_gmm / u_est), 15):
         ratio = float(min(ratio, max_trial_gmm / u_est))
         err = expected_relative_error(ratio, noise, relative_sd=relative_sd)
-        if best is None or err < best[1] * (1 - 1e-9):
+        if best is None or err <= best[1] * (1 + 1e-9):  # ties: the larger trial
             best = (ratio, err)
     assert best is not None
     ratio = best[0]

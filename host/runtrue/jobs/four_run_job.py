@@ -26,7 +26,9 @@ What this module adds to the method, and why (our choices, stated to the user):
 * **Trims.**  Trim runs by the amplitude-only method are not standard.  When the check run after
   the correction does not pass, the job says so and offers another four-run cycle starting from
   the corrected state: the check run is that cycle's reference run, the correction weights stay
-  on, and the trial weight (sized from the estimated residual) goes to three angles again.  The
+  on, and the trial weight goes to three angles again, sized from the expected error of the
+  cycle (``four_run.plan_amplitude_only``: the estimated residual, the reading's scatter and the
+  fitted ``|H|``), never above the first cycle's trial.  The
   user may stop instead.  ``max_trim_runs`` limits these extra cycles.
 * **Weak trial.**  When the trial's effect (``|H|`` times the trial unbalance) is under the
   engine's ``MIN_TRIAL_EFFECT_FRACTION`` of the cycle's reference amplitude, the solution is
@@ -373,14 +375,16 @@ class AmplitudeOnlyJob(BalanceJob):
             first = next((w for r in self.runs for w in r.weights if self._is_trial(w)), None)
             u_est = ref.reading.channels[pick].amp_g / h_mag
             perm = float(list(self._tolerance.per_plane_gmm)[0])
-            target_gmm = max(LATER_TRIAL_MULTIPLE * u_est, perm)
-            if first is not None:
-                target_gmm = min(target_gmm, abs(first.unbalance_gmm))
-            mass, angle = target_gmm / spec.radius_mm, None
-            message = (
-                f"Trial weight sized at {LATER_TRIAL_MULTIPLE:g} times the estimated residual unbalance "
-                f"({u_est:.3g} g·mm)."
-            )
+            # Trial size from the expected error of the cycle (three positions, as every cycle),
+            # never above the first cycle's trial.
+            from runtrue.balancing.four_run import plan_amplitude_only
+
+            ch = ref.reading.channels[pick]
+            limit = abs(first.unbalance_gmm) if first is not None else max(LATER_TRIAL_MULTIPLE * u_est, perm)
+            sd = ch.spread_g / math.sqrt(2.0) if math.isfinite(ch.spread_g) else 0.0
+            plan = plan_amplitude_only(ch.amp_g, sd, h_mag, perm, limit, max_angles=3)
+            mass, angle = plan.trial_gmm / spec.radius_mm, None
+            message = plan.rule
         else:
             sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=1,
                                        grade=parse_grade(m.grade))
