@@ -332,6 +332,30 @@ def bench_solve(n_runs: int = 5000) -> None:
     unc = json.loads(out.getvalue())["uncertainty"]
     print(f"runtrue solve, {n_runs} runs x 3 pickups, 2 planes, with spreads: {dt:.2f} s (exit {rc}); "
           f"uncertainty {unc}")
+    # The former method (one refit per reading part, finite differences), on fewer runs.
+    from runtrue.balancing import influence as infl
+    from runtrue.balancing.uncertainty import propagate
+    from runtrue.cli.solve import parse_runs
+
+    for n in (250, 1000):
+        runs, _radius, _amp = parse_runs(solve_input(n))
+        x = infl._design(runs, 2)
+        y = np.array([[complex(z) for z in r.readings] for r in runs])
+        wts = infl._row_weights(runs)
+        sd = np.array([r.spreads for r in runs], dtype=float)
+
+        def refit(yy: np.ndarray) -> np.ndarray:
+            rr, aa = infl._fit(x, yy, wts)
+            return infl._correct(aa, rr)
+
+        t0 = time.perf_counter()
+        propagate(refit, y, sd, refit(y))
+        t_old = time.perf_counter() - t0
+        rr, aa = infl._fit(x, y, wts)
+        t0 = time.perf_counter()
+        infl._propagate_closed_form(x, wts, aa, rr, sd)
+        t_new = time.perf_counter() - t0
+        print(f"  uncertainty alone, {n} runs: refit per reading {t_old:.2f} s, closed form {t_new:.4f} s")
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -165,3 +165,24 @@ def test_plan_adds_trial_positions_when_the_readings_are_noisy() -> None:
     assert len(noisy.trial_angles_deg) > 3
     assert quiet.trial_gmm <= 2000.0 and noisy.trial_gmm <= 2000.0  # the safety limit holds
     assert Z95 * noisy.expected_relative_error * 1000.0 <= 50.0 or "average more" in noisy.rule
+
+
+def test_solve_command_gives_the_amplitude_only_uncertainty(capsys: pytest.CaptureFixture[str], tmp_path) -> None:
+    import json
+
+    from runtrue.cli import main
+
+    a, u = 0.004, phasor(1500, 70)
+    runs = [{"readings": [{"amp": a * abs(u), "spread": 0.1}]}]
+    for ang in (0, 120, 240):
+        w = Weight(1, 12, ang, 100)
+        runs.append({"weights": [{"plane": 1, "mass": 12, "angle": ang, "radius": 100}],
+                     "readings": [{"amp": a * abs(u + w.unbalance_gmm), "spread": 0.1}]})
+    path = tmp_path / "runs.json"
+    path.write_text(json.dumps({"runs": runs}))
+    assert main(["solve", str(path)]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["method"] == "four-run"
+    assert out["corrections"][0]["mass"] == pytest.approx(15.0, rel=1e-4)
+    (unc,) = out["uncertainty"]
+    assert unc["mass_sd"] > 0 and 0 < unc["angle_sd"] < 10
