@@ -34,9 +34,11 @@ Levenberg-Marquardt (K. Levenberg, *Q. Appl. Math.* 2, 1944; D. W. Marquardt, *J
 started from the linear solution and from a coarse grid of ``u`` on which each gain has its
 closed-form least-squares value (variable projection: Golub & Pereyra, *SIAM J. Numer. Anal.*
 10(2), 1973), so a poor linear start cannot trap it.  The uncertainty is the usual asymptotic
-covariance of a weighted least-squares estimate, ``(J^T J)^-1`` with ``J`` the Jacobian of the
-normalised residuals at the optimum (Nocedal & Wright sec. 10.3; GUM, JCGM 100:2008, 5.1), when
-the readings' scatter is known; it is checked by simulation in the tests (95 % intervals).
+covariance of a maximum-likelihood estimate, the inverse of the observed information (the
+Hessian of half the sum of squared normalised residuals at the optimum: ``J^T J`` plus the
+residuals times their second derivatives; ``(J^T J)^-1`` alone when that is not positive
+definite; Nocedal & Wright sec. 10.3; GUM, JCGM 100:2008, 5.1), when the readings' scatter is
+known; it is checked by simulation in the tests (95 % intervals).
 """
 
 from __future__ import annotations
@@ -269,15 +271,38 @@ def fit_amplitudes(
         for i in range(n_pick):
             j[:, i, 2 + i] = dist / sig[:, i]
         jm = j.reshape(n_runs * n_pick, 2 + n_pick)
+        # Observed information: J^T J plus the residuals times their second derivatives
+        # (d^2|z|/du^2 = (I - n n^T)/|z|, n = z/|z|; d^2/du dg_i = n), which the curvature of
+        # |u + T| near a small amplitude makes count; Gauss-Newton's J^T J alone when that is
+        # not positive definite.
+        res = (p[2:][None, :] * dist[:, None] - v) / sig  # runs x pickups
+        nz = np.stack([z.real / dd, z.imag / dd], axis=1)  # runs x 2
+        proj = np.eye(2)[None, :, :] - nz[:, :, None] * nz[:, None, :]
+        info_gn = jm.T @ jm
+        info = info_gn.copy()
+        info[:2, :2] += np.einsum("k,kab->ab", np.sum(res * p[2:][None, :] / sig, axis=1) / dd, proj)
+        for i in range(n_pick):
+            cross = np.sum((res[:, i] / sig[:, i])[:, None] * nz, axis=0)
+            info[:2, 2 + i] += cross
+            info[2 + i, :2] += cross
         # Columns scaled to unit length first: u (g*mm) and the gains (reading per g*mm) differ
         # by many orders of magnitude, which would otherwise swamp the small singular values.
-        scale = np.linalg.norm(jm, axis=0)
+        scale = np.sqrt(np.abs(np.diag(info_gn)))
         scale = np.where(scale > 0, scale, 1.0)
-        js = jm / scale
-        try:
-            cov = np.linalg.pinv(js.T @ js) / np.outer(scale, scale)
-        except np.linalg.LinAlgError:
-            cov = None
+        for m in (info, info_gn):
+            ms = m / np.outer(scale, scale)
+            try:
+                if np.min(np.linalg.eigvalsh(ms)) <= 1e-12 * np.max(np.abs(ms)):
+                    continue
+                cov = np.linalg.inv(ms) / np.outer(scale, scale)
+                break
+            except np.linalg.LinAlgError:
+                continue
+        if cov is None:
+            try:
+                cov = np.linalg.pinv(info_gn / np.outer(scale, scale)) / np.outer(scale, scale)
+            except np.linalg.LinAlgError:
+                cov = None
     if exact:
         cov = np.zeros((2 + n_pick, 2 + n_pick))
     return AmplitudeFit(
