@@ -186,6 +186,12 @@ class Allocation:
     nodes: int = 0
 
     @property
+    def status(self) -> str:
+        """``"optimal"`` when proven optimal under the stated objective, else ``"best found"``
+        (then ``bound_gmm`` is what is proven: no allocation leaves less residual)."""
+        return "optimal" if self.optimal else "best found"
+
+    @property
     def residual_fraction(self) -> float:
         """|residual| / |correction| (0 when the correction is zero)."""
         c = abs(self.correction_gmm)

@@ -6,8 +6,15 @@ Objective (issue 4), compared lexicographically, residuals rounded to 1e-9·|cor
    good-enough value ``g`` counts as ``g``.  Without one, ``g`` is 1 % of the correction
    (:data:`DEFAULT_GOOD_ENOUGH_FRACTION`): a measured correction is rarely known better than
    a few per cent (influence coefficients move with speed and temperature; common practice),
-   and a strictly smallest residual buys invisible gains with many more pieces.  Pass
-   ``good_enough_gmm=0`` for the strictly smallest residual;
+   and a strictly smallest residual buys invisible gains with many more pieces.  With a STRIP
+   the default is instead the unbalance of one cutting step at the largest radius used (if
+   that is smaller): a strip is cut to any length for the same effort, so the lengths come out
+   as the exact split rounded to the cutting step, not the lightest pair that only just meets
+   1 %.  Pass ``good_enough_gmm=0`` for the strictly smallest residual ("strict mode"; residuals
+   are then compared to :data:`STRICT_RESOLUTION_FRACTION` of the correction, 0.01 %, or with
+   a strip to one cutting step's unbalance at the smallest radius, if coarser, so that
+   far-below-measurable gains do not buy heavier sets; when the search cannot prove its answer
+   within its budget, the allocation says "best found" and gives its proven lower bound);
 2. (with ``prefer_fewer_positions``: the fewest positions receiving weight;)
 3. the fewest pieces on the rotor afterwards (new pieces and strip pieces, plus old weights
    that stay or are moved);
@@ -54,6 +61,8 @@ MAX_REMOVABLE_OLD_WEIGHTS = 8
 MAX_STRIP_LENGTHS = 2000
 #: good-enough residual, as a fraction of the correction, when the caller gives none
 DEFAULT_GOOD_ENOUGH_FRACTION = 0.01
+#: strict mode (good-enough 0): residuals compared to this fraction of the correction (our choice)
+STRICT_RESOLUTION_FRACTION = 1e-4
 #: a best fit leaving more than this fraction of the correction gets a plain warning (our choice)
 POOR_FIT_FRACTION = 0.25
 
@@ -101,12 +110,16 @@ def _strip_ladder(strip: Strip, target_gmm: float, r_min: float, mass_limit: flo
             f"the strip allows {n} different lengths; give a coarser step_mm or a max_mm "
             f"(at most {MAX_STRIP_LENGTHS} lengths)"
         )
-    return [strip.min_mm + i * strip.step_mm for i in range(max(0, n))]
+    # lengths exact to the cutting step (no 17.080000000000002 on a fitting sheet)
+    return [round(strip.min_mm + i * strip.step_mm, 9) for i in range(max(0, n))]
 
 
-def _good_enough(good_enough_gmm: float | None, T: complex) -> float:
+def _good_enough(good_enough_gmm: float | None, T: complex, strip_step_gmm: float | None = None) -> float:
     if good_enough_gmm is None:
-        return DEFAULT_GOOD_ENOUGH_FRACTION * abs(T)
+        g = DEFAULT_GOOD_ENOUGH_FRACTION * abs(T)
+        if strip_step_gmm is not None:
+            g = min(g, strip_step_gmm)
+        return g
     return float(good_enough_gmm)
 
 
@@ -176,7 +189,10 @@ def allocate(
     if not usable:
         raise AllocationError("no usable positions: give at least one position that is not excluded")
     T, r_c = correction_vector(correction, correction_radius_mm, positions.radii_mm[usable[0]])
-    g = _good_enough(good_enough_gmm, T)
+    step_gmm = None
+    if strip is not None:
+        step_gmm = strip.grams_per_mm * strip.step_mm * max(positions.radii_mm[pi] for pi in usable)
+    g = _good_enough(good_enough_gmm, T, step_gmm)
     P = len(usable)
     local = {pi: j for j, pi in enumerate(usable)}
     u = np.array([weight_gmm(1.0, positions.angles_deg[pi], positions.radii_mm[pi]) for pi in usable])
@@ -223,7 +239,15 @@ def allocate(
             "can be weighed up at once (mark the rest to stay)"
         )
     fixed = [i for i, w in enumerate(existing) if not w.may_remove and not w.may_move]
-    quantum = 1e-9 * max(abs(T), 1.0)
+    # Residuals are compared after rounding to this quantum.  Strict mode (g = 0) compares them
+    # to STRICT_RESOLUTION_FRACTION of the correction: finer differences are far below anything
+    # measurable and would only buy heavier sets of pieces; it also lets the search prove its
+    # answer once a residual under half a quantum is found.
+    # With a strip the strict resolution is one cutting step's unbalance at the smallest radius:
+    # a residual finer than the cut itself is luck, not a better fit.
+    quantum = (STRICT_RESOLUTION_FRACTION if g == 0 else 1e-9) * max(abs(T), 1.0)
+    if g == 0 and strip is not None:
+        quantum = max(quantum, strip.grams_per_mm * strip.step_mm * min(positions.radii_mm[pi] for pi in usable))
 
     best = None
     best_meta = None

@@ -5,10 +5,15 @@ Same objective and the same branch-and-bound argument as :mod:`runtrue.allocatio
 lexicographic optimistic keys from valid lower bounds), with two exact shortcuts that make it
 fast for fine cutting steps, where a length ladder has hundreds of rungs:
 
-* **Last position by rounding.**  With residual R and a strip piece of mass w at a position
-  with vector u, ``|R − w·u|²`` is a convex quadratic in w, minimal at ``w* = Re(R·ū)/|u|²``;
-  over the arithmetic ladder ``w_i = w_0 + i·Δw`` (clamped to the allowed rungs) the best rung
-  is the one nearest to ``w*`` (a parabola is symmetric about its vertex).
+* **Last position in closed form.**  With residual R and a strip piece of mass w at a position
+  with vector u, ``|R − w·u|²`` is a convex quadratic in w, minimal at ``w* = Re(R·ū)/|u|²``.
+  Over the arithmetic ladder ``w_i = w_0 + i·Δw`` (clamped to the allowed rungs) the best rung
+  under the key is one of three: the rungs either side of ``w*`` (the smallest residual: a
+  parabola is symmetric about its vertex), and the LIGHTEST rung on the best residual level
+  those reach (level: ``max(|R|, g)`` rounded to the quantum; the rungs on it fill the interval
+  ``|w − w*| ≤ sqrt(ρ² − d²)/|u|``, ρ the level's upper edge and d the distance of R from the
+  line of u; they tie on the first key component, so the lightest wins).  All
+  three are tried, so the last position is exact for the whole key, mass included.
 * **Last two positions by a vectorised sweep.**  For each pair of positions, every rung of the
   first is tried at once (numpy) and the second is found by rounding.
 
@@ -77,10 +82,30 @@ class StripSearch:
         level = np.floor(np.maximum(rho, self.g) / self.q + 0.5)
         return np.lexsort((np.floor(rho / self.q + 0.5), np.floor(mass * 1e6 + 0.5), level))
 
-    def _round_rung(self, R: np.ndarray, q: int) -> np.ndarray:
-        wstar = (R * np.conj(self.u[q])).real / self.uu[q]
-        i = np.rint((wstar - self.w0) / self.dw)
-        return np.clip(i, 0, self.n_rungs[q] - 1).astype(np.int64)
+    def _candidate_rungs(self, R: np.ndarray, q: np.ndarray | int) -> tuple[np.ndarray, np.ndarray]:
+        """For residuals ``R`` and positions ``q`` (broadcast): the three candidate rungs (see the
+        module docstring) as (index into R, rung), flattened."""
+        u = self.u[q]
+        uu = self.uu[q]
+        top = np.broadcast_to(self.n_rungs[q] - 1, np.shape(R))
+        wstar = (R * np.conj(u)).real / uu
+        x = (wstar - self.w0) / self.dw
+        lo = np.clip(np.floor(x), 0, top)
+        hi = np.clip(np.ceil(x), 0, top)
+        # The lightest rung on the best residual level reachable here: every rung with
+        # |residual| < (level + 1/2)·quantum ties on the first key component (the level is
+        # max(|R|, g) rounded to the quantum), so the lightest of them is the candidate.
+        r_lo = np.abs(R - (self.w0 + self.dw * lo) * u)
+        r_hi = np.abs(R - (self.w0 + self.dw * hi) * u)
+        level = np.floor(np.maximum(np.minimum(r_lo, r_hi), self.g) / self.q + 0.5)
+        radius = (level + 0.5) * self.q * (1.0 - 1e-12)
+        d = np.abs((R * np.conj(u)).imag) / np.sqrt(uu)
+        half = np.sqrt(np.maximum(radius * radius - d * d, 0.0)) / np.sqrt(uu)
+        light = np.clip(np.ceil((wstar - half - self.w0) / self.dw - 1e-9), 0, top)
+        light = np.where(d <= radius, light, lo)
+        idx = np.arange(np.size(R))
+        rungs = np.concatenate([lo.ravel(), hi.ravel(), light.ravel()]).astype(np.int64)
+        return np.concatenate([idx, idx, idx]), rungs
 
     def _offer(self, rho: float, pieces: int, mass: float, chosen: list[tuple[int, int]], R: complex) -> None:
         k = self.key(rho, pieces, mass)
@@ -98,8 +123,8 @@ class StripSearch:
         if not len(qs):
             return
         self._tick()
-        wstar = (R * np.conj(self.u[qs])).real / self.uu[qs]
-        i = np.clip(np.rint((wstar - self.w0) / self.dw), 0, self.n_rungs[qs] - 1).astype(np.int64)
+        which, i = self._candidate_rungs(np.full(len(qs), R, dtype=complex), qs)
+        qs = qs[which]
         w = self.w0 + self.dw * i
         Rn = R - w * self.u[qs]
         rho = np.abs(Rn)
@@ -124,16 +149,16 @@ class StripSearch:
                 if self.n_rungs[q] == 0:
                     continue
                 self._tick()
-                iq = self._round_rung(R1, q)
+                which, iq = self._candidate_rungs(R1, q)
                 wq = self.w0 + self.dw * iq
-                Rn = R1 - wq * self.u[q]
+                Rn = R1[which] - wq * self.u[q]
                 rho = np.abs(Rn)
-                m = mass + wp + wq
+                m = mass + wp[which] + wq
                 j = int(self._keys_order(rho, m)[0])
                 k = self.key(float(rho[j]), pieces, float(m[j]))
                 if self.best_key is None or k < self.best_key:
                     self.best_key = k
-                    self.best = chosen + [(p, int(ip[j])), (q, int(iq[j]))]
+                    self.best = chosen + [(p, int(ip[which[j]])), (q, int(iq[j]))]
                     self.best_R = complex(Rn[j])
 
     def _dfs(self, R: complex, start: int, b: int, pieces: int, mass: float, chosen: list[tuple[int, int]]) -> None:

@@ -42,16 +42,25 @@ Trial weights (``trial``)
 
 Uncertainty (``uncertainty``)
     Give ``Run.spreads`` (or ``spreads=`` to correction_from_influence) and the Solution carries
-    mass_sd_g / angle_sd_deg (1 standard deviation, first-order GUM propagation); a spread of
-    math.inf means "scatter unknown" (equal weights, no uncertainty, a warning);
-    propagate(func, y, sd, c0) -> (sd along, sd across) is the general tool.
+    mass_sd_g / angle_sd_deg (1 standard deviation, first-order GUM propagation, sensitivities in
+    closed form: cost linear in the number of runs); a spread of math.inf means "scatter
+    unknown" (equal weights, no uncertainty, a warning);
+    propagate(func, y, sd, c0) -> (sd along, sd across) is the general tool (finite differences);
+    propagate_jacobian(d_re, d_im, sd, c0) the same from known sensitivities.
 
-Amplitude only (``four_run``)
+Amplitude only (``four_run``): maximum-likelihood fit of the amplitudes (linear solution as start)
     four_run(amplitudes: Sequence[float], trial_mass_g: float, trial_angles_deg: Sequence[float],
         radius_mm: float, plane: int = 1, correction_radius_mm: float | None = None) -> Solution
         amplitudes[0] is the reference run, then one per trial angle (3 or more angles).
     solve_amplitude_only(runs: Sequence[Run], radius_mm: float | None = None) -> Solution
-        the same from Run objects whose readings are amplitudes (any trial masses and angles).
+        the same from Run objects whose readings are amplitudes (any trial masses and angles);
+        every pickup is used; with spreads on every run, mass_sd_g / angle_sd_deg are given.
+    four_run.amplitude_only(amplitudes (runs [x pickups]), trial_gmm, radius_mm, plane=1,
+        amp_sd=None) -> Solution      (Solution.amplitude_fit: AmplitudeFit)
+    four_run.fit_amplitudes(amplitudes, trial_gmm, amp_sd=None) -> AmplitudeFit
+        .unbalance_gmm, .gains (|a| per pickup), .cov, .gain_sd(pickup), .chi2, .dof
+    four_run.residual_upper_bound_gmm(amp, amp_sd, gain, gain_sd) -> float
+        upper 95 % bound of a check run's residual unbalance (inf when it cannot be bounded)
         NOTE: a four-run Solution's influence holds |a| only (phase unknown, shown as 0) and its
         predicted reading is an amplitude: never save it as a machine's stored coefficients.
 

@@ -33,7 +33,7 @@ import numpy as np
 from runtrue.balancing.forces import check_mass_g, check_radius_mm
 from runtrue.balancing.model import BalancingError, Run, Solution, Weight
 from runtrue.balancing.trial import TRIAL_MIN_CHANGE_FRACTION, check_trial_effect
-from runtrue.balancing.uncertainty import propagate
+from runtrue.balancing.uncertainty import propagate, propagate_jacobian
 
 #: Warn when the column-normalised influence matrix has a condition number above this.  The
 #: relative error of the correction can be up to cond times the relative error of the readings
@@ -317,6 +317,57 @@ def _known_spreads(runs: Sequence[Run]) -> tuple[list[Run], list[str]]:
     ]
 
 
+def _sensitivities(
+    x: np.ndarray, wts: np.ndarray, a: np.ndarray, r: np.ndarray
+) -> tuple[np.ndarray, np.ndarray] | None:
+    """Closed-form derivative of the correction with respect to every reading.
+
+    Per pickup i the weighted fit is linear: ``b_i = M_i y_i`` with ``M_i = pinv(W_i X) W_i``, so
+    reading (k, i) moves ``R_i`` by ``M_i[0, k]`` and row i of ``A`` by ``M_i[1:, k]`` per unit.
+    The correction solves the normal equations ``A^H (R + A C) = 0``; differentiating them
+    (Golub & Van Loan, *Matrix Computations*, 4th ed., sec. 5.3, perturbation of least squares)::
+
+        dC = -(A^H A)^-1 [A^H (dR + dA C) + dA^H e],   e = R + A C
+
+    With a change ``delta`` of reading (k, i): ``dR + dA C = unit_i * g_k * delta`` where
+    ``g_k = M_i[0, k] + M_i[1:, k] . C``, and ``dA^H e = conj(M_i[1:, k]) * conj(delta) * e_i``; the
+    conjugate makes the map real-linear only, so the real and imaginary parts are returned apart.
+    Returns (d_re, d_im), each (runs * pickups) x planes, readings ordered run by run; None when
+    there are fewer pickups than planes or ``A^H A`` is singular (the caller falls back)."""
+    n_runs = x.shape[0]
+    n_pickups, n_planes = a.shape
+    if n_pickups < n_planes:
+        return None
+    try:
+        g_inv = np.linalg.inv(a.conj().T @ a)
+    except np.linalg.LinAlgError:
+        return None
+    if not np.all(np.isfinite(g_inv)):
+        return None
+    c = -g_inv @ (a.conj().T @ r)
+    e = r + a @ c
+    d_re = np.zeros((n_runs, n_pickups, n_planes), dtype=complex)
+    d_im = np.zeros((n_runs, n_pickups, n_planes), dtype=complex)
+    for i in range(n_pickups):
+        w = wts[:, i]
+        m = np.linalg.pinv(x * w[:, None]) * w[None, :]  # (1+P) x runs
+        g = m[0, :] + c @ m[1:, :]  # runs
+        t1 = a[i, :].conj()[:, None] * g[None, :]  # planes x runs
+        t2 = m[1:, :].conj() * e[i]
+        d_re[:, i, :] = (-(g_inv @ (t1 + t2))).T
+        d_im[:, i, :] = (-(g_inv @ (1j * t1 - 1j * t2))).T
+    return d_re.reshape(n_runs * n_pickups, n_planes), d_im.reshape(n_runs * n_pickups, n_planes)
+
+
+def _propagate_closed_form(
+    x: np.ndarray, wts: np.ndarray, a: np.ndarray, r: np.ndarray, sd: np.ndarray
+) -> tuple[np.ndarray, np.ndarray] | None:
+    sens = _sensitivities(x, wts, a, r)
+    if sens is None:
+        return None
+    return propagate_jacobian(sens[0], sens[1], sd.ravel(), _correct(a, r))
+
+
 def _solve(runs: Sequence[Run], radius_mm: Mapping[int, float] | None) -> Solution:
     """The unguarded body of :func:`solve`."""
     n_pickups, n_planes = _check_runs(runs)
@@ -341,11 +392,14 @@ def _solve(runs: Sequence[Run], radius_mm: Mapping[int, float] | None) -> Soluti
     if wts is not None:
         sd = np.array([[float(v) for v in run.spreads] for run in runs])  # type: ignore[union-attr]
 
-        def func(yy: np.ndarray) -> np.ndarray:
-            rr, aa = _fit(x, yy, wts)
-            return _correct(aa, rr)
+        unc = _propagate_closed_form(x, wts, a, r, sd)
+        if unc is None:  # fewer pickups than planes (minimum-norm answer): differences of the solver
 
-        unc = propagate(func, y, sd, _correct(a, r))
+            def func(yy: np.ndarray) -> np.ndarray:
+                rr, aa = _fit(x, yy, wts)
+                return _correct(aa, rr)
+
+            unc = propagate(func, y, sd, _correct(a, r))
     if dof > 0 and wts is not None:
         # Misfit far beyond the stated scatter means the machine is not behaving linearly.
         chi = float(np.sqrt(np.mean(np.abs(resid * wts) ** 2)))
@@ -405,7 +459,10 @@ def _stored(a: np.ndarray, r: np.ndarray, radii: list[float], spreads: Sequence[
             spreads = None
     if spreads is not None:
         sd = np.array([[float(s) for s in spreads]])
-        unc = propagate(lambda yy: _correct(a, yy[0]), r[None, :], sd, _correct(a, r))
+        # C = -pinv(A) r is complex-linear in r: reading i moves it by -pinv(A)[:, i] per unit.
+        p_inv = np.linalg.pinv(a)
+        d = -p_inv.T  # readings x planes
+        unc = propagate_jacobian(d, 1j * d, sd.ravel(), _correct(a, r))
     return _finish(a, r, radii, warnings, "stored", 0.0, unc)
 
 

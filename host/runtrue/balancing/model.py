@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Sequence
+from typing import Any, Sequence
 
 import numpy as np
 
@@ -100,6 +100,7 @@ class Solution:
     ``fit_rms``: root-mean-square misfit of the runs to the linear model (0 when exactly
     determined), reading units.
     ``method``: "influence" (exactly determined), "least-squares", "stored" or "four-run".
+    ``amplitude_fit``: for "four-run", the fit behind it (gains per pickup and their covariance).
     """
 
     corrections: list[Weight]
@@ -112,6 +113,8 @@ class Solution:
     angle_sd_deg: list[float] | None = None
     fit_rms: float = 0.0
     method: str = "influence"
+    #: amplitude-only solutions: the maximum-likelihood fit (``four_run.AmplitudeFit``), else None
+    amplitude_fit: Any = None
 
     @property
     def correction_gmm(self) -> list[complex]:

@@ -4,10 +4,15 @@ Source: first-order (linearised) propagation of uncertainty, JCGM 100:2008 *Eval
 measurement data - Guide to the expression of uncertainty in measurement* (GUM), clause 5.1
 (law of propagation of uncertainty), applied to the real and imaginary parts of each reading
 as independent inputs with equal standard deviations (spread / sqrt(2) each; a circular
-scatter, as vector averaging of a steady 1x signal gives).  Sensitivities by central finite
-differences of the whole solution, so the same code serves every solver.  The output is split
-into the component along the correction (its size: mass uncertainty) and across it (its
-direction: angle uncertainty = across / |C| radians).
+scatter, as vector averaging of a steady 1x signal gives).  The output is split into the
+component along the correction (its size: mass uncertainty) and across it (its direction: angle
+uncertainty = across / |C| radians).
+
+Sensitivities: :func:`propagate_jacobian` takes them in closed form from the solver (the
+influence-coefficient solver differentiates its own least-squares solution, see
+``influence._sensitivities``; cost linear in the number of readings); :func:`propagate` finds
+them by central finite differences of any solver (one solve per reading part: quadratic cost
+when each solve is linear in the readings; kept as the general tool and the tests' yardstick).
 """
 
 from __future__ import annotations
@@ -44,6 +49,28 @@ def propagate(
             d = (func(yp) - func(ym)) / (2.0 * h)  # dC / d(part), per plane
             v = np.stack([d.real, d.imag], axis=1)  # planes x 2
             cov += sigma * sigma * np.einsum("pi,pj->pij", v, v)
+    return split_along_across(cov, c0)
+
+
+def propagate_jacobian(d_re: np.ndarray, d_im: np.ndarray, sd: np.ndarray, c0: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """First-order propagation from closed-form sensitivities.
+
+    ``d_re[n, p]`` / ``d_im[n, p]``: the change of correction p (complex g*mm) per unit change of
+    the real / imaginary part of reading n; ``sd[n]`` the reading's spread (each part has
+    sd/sqrt(2)).  Returns (sd along C, sd across C) per plane, in g*mm, as :func:`propagate`.
+    """
+    var = (np.asarray(sd, dtype=float).ravel() ** 2) / 2.0
+    cov = np.zeros((c0.shape[0], 2, 2))
+    for d in (d_re, d_im):
+        v = np.stack([d.real, d.imag], axis=2)  # readings x planes x 2
+        cov += np.einsum("n,npi,npj->pij", var, v, v)
+    return split_along_across(cov, c0)
+
+
+def split_along_across(cov: np.ndarray, c0: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per plane, the standard deviation along the correction and across it from the 2x2
+    covariance of its real and imaginary parts."""
+    n_planes = c0.shape[0]
     along = np.zeros(n_planes)
     across = np.zeros(n_planes)
     for p in range(n_planes):

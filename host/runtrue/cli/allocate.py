@@ -19,7 +19,8 @@ centrifugal force of each placement, ``force_n``), ``existing`` (old weights: ``
 
 Output: ``placements`` (``{"angle", "radius", "pieces": [masses]}`` or ``"length_mm"``; added
 ``position``, ``mass``, ``moved_existing``, ``force_n``), ``residual`` ``{"mass", "angle",
-"radius"}`` at the correction radius, ``residual_fraction``; added ``optimal``,
+"radius"}`` at the correction radius, ``residual_fraction``; added ``optimal`` (proven under
+the stated objective), ``status`` ("optimal" or "best found"),
 ``residual_bound_gmm``, ``pieces``, ``added_mass``, ``kept_existing``, ``removed_existing``,
 ``warnings``, ``conventions``.
 """
@@ -262,6 +263,7 @@ def run(args: argparse.Namespace) -> int:
                      "radius": _r(a.correction_radius_mm, 4)},
         "residual_fraction": _r(a.residual_fraction, 6),
         "optimal": a.optimal,
+        "status": a.status,
         "residual_bound_gmm": _r(a.bound_gmm, 6),
         "pieces": a.piece_count,
         "added_mass": _r(a.added_mass_g),

@@ -3,8 +3,9 @@
 Method: the four-run method (a reference run, then one trial weight moved to three angles,
 classically 0°, 120° and 240°) as taught in field balancing texts, e.g. Wowk, *Machinery
 Vibration: Balancing*, McGraw-Hill 1995, "balancing without phase" (from memory).  The maths is
-``runtrue.balancing.four_run.amplitude_only``: linear least squares on the squared amplitudes,
-which accepts any trial angles (three or more), so on a rotor with fixed holes the three
+``runtrue.balancing.four_run.amplitude_only``: a maximum-likelihood fit of the amplitudes of
+every pickup (started from linear least squares on the squared amplitudes), which accepts any
+trial angles (three or more), so on a rotor with fixed holes the three
 positions closest to 0°/120°/240° are used at their true angles.
 
 What this module adds to the method, and why (our choices, stated to the user):
@@ -17,14 +18,17 @@ What this module adds to the method, and why (our choices, stated to the user):
   typed in with amplitudes only has phase ``None`` and works the same).
 * **Grade check without phase.**  The residual unbalance is estimated as
   ``U_res ≈ amplitude / |H|`` with ``|H|`` the influence magnitude the four-run solution finds
-  (g per g·mm) on the pickup the cycle used; it is an estimate without phase (it cannot tell the
-  unbalance from other 1× vibration), and its 95 % uncertainty is the reading's confidence
-  radius over ``|H|``.  Passed means estimate plus uncertainty within the permissible value,
-  as in the phase method.
+  (g per g·mm) on the pickup with the largest reference amplitude; it is an estimate without
+  phase (it cannot tell the unbalance from other 1× vibration).  Its upper 95 % bound takes in
+  both the amplitude's scatter and the uncertainty of the fitted ``|H|``
+  (``four_run.residual_upper_bound_gmm``); passed means that upper bound is within the
+  permissible value.
 * **Trims.**  Trim runs by the amplitude-only method are not standard.  When the check run after
   the correction does not pass, the job says so and offers another four-run cycle starting from
   the corrected state: the check run is that cycle's reference run, the correction weights stay
-  on, and the trial weight (sized from the estimated residual) goes to three angles again.  The
+  on, and the trial weight goes to three angles again, sized from the expected error of the
+  cycle (``four_run.plan_amplitude_only``: the estimated residual, the reading's scatter and the
+  fitted ``|H|``), never above the first cycle's trial.  The
   user may stop instead.  ``max_trim_runs`` limits these extra cycles.
 * **Weak trial.**  When the trial's effect (``|H|`` times the trial unbalance) is under the
   engine's ``MIN_TRIAL_EFFECT_FRACTION`` of the cycle's reference amplitude, the solution is
@@ -118,7 +122,7 @@ class AmplitudeOnlyJob(BalanceJob):
 
     def __init__(self, store: JobStore, job_id: int, machine: Machine, options: dict[str, Any]) -> None:
         self._cycle_base = 0  # index in self.runs of the current cycle's reference run
-        self._checks: dict[int, tuple[int, float]] = {}  # check run seq -> (pickup index, |H|)
+        self._checks: dict[int, tuple[int, float, float | None]] = {}  # check run seq -> (pickup, |H|, its sd)
         self._user_trial: tuple[int, Weight] | None = None  # (cycle, trial chosen by the user)
         super().__init__(store, job_id, machine, options)
         self.state.method = METHOD
@@ -250,8 +254,8 @@ class AmplitudeOnlyJob(BalanceJob):
         passed: bool | None = None
         h_mag: float | None = None
         if check is not None and check.seq in self._checks:
-            pick, h_mag = self._checks[check.seq]
-            residual, unc, passed = self._estimate(check, pick, h_mag)
+            pick, h_mag, h_sd = self._checks[check.seq]
+            residual, unc, passed = self._estimate(check, pick, h_mag, h_sd)
         res.channels = chans
         res.residual_unbalance_gmm = residual
         res.residual_uncertainty_gmm = unc
@@ -278,13 +282,17 @@ class AmplitudeOnlyJob(BalanceJob):
         pos = _position_number(self.machine, 1, t.angle_deg)
         return f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
 
-    def _estimate(self, run: RunRecord, pick: int, h_mag: float) -> tuple[list[float], list[float], bool]:
+    def _estimate(
+        self, run: RunRecord, pick: int, h_mag: float, h_sd: float | None
+    ) -> tuple[list[float], list[float], bool]:
+        from runtrue.balancing.four_run import residual_upper_bound_gmm
+
         ch = run.reading.channels[pick]
         residual = ch.amp_g / h_mag
-        conf = ch.confidence_g if math.isfinite(ch.confidence_g) else 0.0
-        unc = conf / h_mag
+        # Upper 95 % bound from the amplitude's scatter AND the fitted |H|'s uncertainty.
+        upper = residual_upper_bound_gmm(ch.amp_g, ch.spread_g / math.sqrt(2.0), h_mag, h_sd)
         perm = float(list(self._tolerance.per_plane_gmm)[0])
-        return [residual], [unc], residual + unc <= perm
+        return [residual], [upper - residual], upper <= perm
 
     def _cycle_solution(self, base: int, end: int) -> tuple[Any, int]:
         """The four-run solution from runs ``base`` (the cycle's reference) up to ``end`` and the
@@ -298,14 +306,9 @@ class AmplitudeOnlyJob(BalanceJob):
         pick = max(range(len(amps0)), key=lambda i: amps0[i])
         u0 = _plane_sums(ref.weights).get(1, 0j)
         trials = [_plane_sums(r.weights).get(1, 0j) - u0 for r in runs]
-        amps = [r.reading.channels[pick].amp_g for r in runs]
-        sol = amplitude_only(amps, trials, self.machine.planes[0].radius_mm, plane=1)
-        if self.machine.n_pickups > 1:
-            sol.warnings.insert(
-                0,
-                f"Amplitude-only method: pickup {pick + 1} ({self.machine.pickups[pick].label}), which has the "
-                "largest reference amplitude in this cycle, is used; the others are not.",
-            )
+        amps = [[c.amp_g for c in r.reading.channels] for r in runs]
+        sds = [[c.spread_g / math.sqrt(2.0) for c in r.reading.channels] for r in runs]
+        sol = amplitude_only(amps, trials, self.machine.planes[0].radius_mm, plane=1, amp_sd=sds)
         return sol, pick
 
     def _advance(self, run: RunRecord) -> None:
@@ -325,11 +328,12 @@ class AmplitudeOnlyJob(BalanceJob):
         # The check run after a correction.
         base = self._cycle_base
         sol, pick = self._cycle_solution(base, len(self.runs) - 1)
-        h_mag = float(abs(sol.influence[0, 0]))
-        residual, unc, passed = self._estimate(run, pick, h_mag)
+        h_mag = float(abs(sol.influence[pick, 0]))
+        h_sd = sol.amplitude_fit.gain_sd(pick)
+        residual, unc, passed = self._estimate(run, pick, h_mag, h_sd)
         if run.kind == "trim":
             s.trims_done += 1
-        self._checks[run.seq] = (pick, h_mag)
+        self._checks[run.seq] = (pick, h_mag, h_sd)
         if not self._replaying:
             self.store.save_result(self.job_id, self.result().to_dict())
         if passed:
@@ -367,18 +371,20 @@ class AmplitudeOnlyJob(BalanceJob):
         elif previous is not None:
             mass, angle = previous.mass_g * scale, previous.angle_deg
         elif cycle > 1 and self._checks:
-            pick, h_mag = self._checks[ref.seq] if ref.seq in self._checks else next(reversed(self._checks.values()))
+            pick, h_mag, _sd = self._checks[ref.seq] if ref.seq in self._checks else next(reversed(self._checks.values()))
             first = next((w for r in self.runs for w in r.weights if self._is_trial(w)), None)
             u_est = ref.reading.channels[pick].amp_g / h_mag
             perm = float(list(self._tolerance.per_plane_gmm)[0])
-            target_gmm = max(LATER_TRIAL_MULTIPLE * u_est, perm)
-            if first is not None:
-                target_gmm = min(target_gmm, abs(first.unbalance_gmm))
-            mass, angle = target_gmm / spec.radius_mm, None
-            message = (
-                f"Trial weight sized at {LATER_TRIAL_MULTIPLE:g} times the estimated residual unbalance "
-                f"({u_est:.3g} g·mm)."
-            )
+            # Trial size from the expected error of the cycle (three positions, as every cycle),
+            # never above the first cycle's trial.
+            from runtrue.balancing.four_run import plan_amplitude_only
+
+            ch = ref.reading.channels[pick]
+            limit = abs(first.unbalance_gmm) if first is not None else max(LATER_TRIAL_MULTIPLE * u_est, perm)
+            sd = ch.spread_g / math.sqrt(2.0) if math.isfinite(ch.spread_g) else 0.0
+            plan = plan_amplitude_only(ch.amp_g, sd, h_mag, perm, limit, max_angles=3)
+            mass, angle = plan.trial_gmm / spec.radius_mm, None
+            message = plan.rule
         else:
             sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=1,
                                        grade=parse_grade(m.grade))
@@ -429,7 +435,7 @@ class AmplitudeOnlyJob(BalanceJob):
                 "trial weight (the runs already taken are kept in the solution)."
             )
             return
-        h_mag = float(abs(sol.influence[0, 0]))
+        h_mag = float(abs(sol.influence[pick, 0]))
         v0 = self.runs[base].reading.channels[pick].amp_g
         u0 = _plane_sums(self.runs[base].weights).get(1, 0j)
         t_max = max(abs(_plane_sums(r.weights).get(1, 0j) - u0) for r in self.runs[base:])

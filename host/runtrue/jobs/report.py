@@ -254,8 +254,8 @@ def render_html(store: JobStore, job_id: int) -> str:
         out.append(
             '<p class="note">The residual unbalance is an estimate without phase: the last check run\'s amplitude '
             f"divided by the influence magnitude |H| that its four-run cycle found{_e(h)}; it cannot tell "
-            "unbalance from other 1x vibration. ± is its 95 % uncertainty from the reading's scatter. The plane "
-            "passes when the residual plus that uncertainty is within the permissible value.</p>"
+            "unbalance from other 1x vibration. ± reaches its upper 95 % bound, from the reading's scatter and the "
+            "uncertainty of |H|. The plane passes when that upper bound is within the permissible value.</p>"
         )
     else:
         out.append(

@@ -35,7 +35,7 @@ def _u(case: Case) -> np.ndarray:
     return np.array([r * np.exp(1j * math.radians(a)) for a, r in zip(case.angles_deg, case.radii_mm)])
 
 
-def brute_force(case: Case, prefer_fewer_positions: bool = False) -> tuple:
+def brute_force(case: Case, prefer_fewer_positions: bool = False, quantum_fraction: float = 1e-7) -> tuple:
     """(residual, pieces, mass, positions) of the best allocation, by full enumeration."""
     u = _u(case)
     P, K = len(u), len(case.sizes_g)
@@ -63,11 +63,12 @@ def brute_force(case: Case, prefer_fewer_positions: bool = False) -> tuple:
         rho = abs(R)
         pieces = sum(sum(c) for c in choice)
         npos = sum(1 for c in choice if sum(c) > 0)
-        level = round(max(rho, g) / (1e-7 * scale))
+        q = quantum_fraction * scale
+        level = math.floor(max(rho, g) / q + 0.5)
         if prefer_fewer_positions:
-            key = (level, npos, pieces, round(sum(masses), 6), round(rho / (1e-7 * scale)))
+            key = (level, npos, pieces, round(sum(masses), 6), math.floor(rho / q + 0.5))
         else:
-            key = (level, pieces, round(sum(masses), 6), round(rho / (1e-7 * scale)), npos)
+            key = (level, pieces, round(sum(masses), 6), math.floor(rho / q + 0.5), npos)
         if best is None or key < best[0]:
             best = (key, (rho, pieces, sum(masses), npos))
     assert best is not None

@@ -97,7 +97,7 @@ def test_too_few_runs_and_bad_amplitudes_are_refused() -> None:
         four_run([5, 6, 4, 3], 0, [0, 120, 240], 100)
 
 
-def test_amplitude_only_from_runs_uses_the_loudest_pickup() -> None:
+def test_amplitude_only_from_runs_uses_every_pickup() -> None:
     a1, a2 = phasor(0.004, 217), phasor(0.001, 40)
     u = phasor(1500, 70)
     ws = [[], [Weight(1, 12, 0, 100)], [Weight(1, 12, 120, 100)], [Weight(1, 12, 240, 100)]]
@@ -107,7 +107,8 @@ def test_amplitude_only_from_runs_uses_the_loudest_pickup() -> None:
         runs.append(Run(w, [abs(a2 * tot), abs(a1 * tot)]))
     sol = solve_amplitude_only(runs)
     assert sol.corrections[0].unbalance_gmm == pytest.approx(-u, rel=1e-9)
-    assert "pickup 2" in sol.warnings[0]
+    assert [abs(z) for z in sol.influence[:, 0]] == pytest.approx([abs(a2), abs(a1)], rel=1e-9)
+    assert not any("not used" in w for w in sol.warnings)
     with pytest.raises(BalancingError, match="exactly one trial weight"):
         solve_amplitude_only(runs[:3] + [Run([Weight(2, 12, 240, 100)], [1.0, 1.0])])
 

@@ -11,7 +11,9 @@ each source, what could and could not be read of it, and the conversion.  Honest
   data (from memory).  All are also checked against an independent hand computation by the
   textbook's own graphical method (law of cosines).
 * Two planes: Rao's Example 9.2 data (from memory), checked against Cramer's rule written out
-  by hand.
+  by hand.  The senses in which that source measures its phase readings and its weight angles
+  are NOT known from memory, and the answer depends on them (see below): both readings are
+  computed and neither is claimed as the book's printed answer.
 * Least squares: no printed least-squares example could be consulted; Rao's Example 9.2 data
   with one plane and both pickups is solved by Goodman's least-squares correction and checked
   against its closed form.
@@ -29,9 +31,13 @@ vibration vectors and the weight positions on ONE polar diagram with ONE sense o
 assumes exactly what our convention states: turning a weight by theta turns its effect by theta
 in the same sense.  So a source angle counterclockwise (ccw) from the phase mark is taken as our
 angle unchanged, and a clockwise (cw) one as its negative; the correction comes back as an angle
-ccw from the mark.  Choosing the other sense instead mirrors every angle and mirrors the answer
-(``test_mirrored_angles_mirror_the_correction`` proves it), so the choice cannot change a
-result.  Units: the engine is linear in the reading unit (mils, mm, um are kept as given); masses
+ccw from the mark.  Reading EVERY angle (phases and weights together) in the other sense mirrors
+the answer (``test_mirrored_angles_mirror_the_correction``), so that choice alone changes
+nothing.  But a source may measure its phase readings in one sense and its weight angles in the
+other (a lag read against rotation, weights placed with rotation, say): then the weight angles
+alone are flipped, and the answer CHANGES (``test_rao_two_plane_answer_depends_on_the_weight_angle_sense``).
+So each example below states the senses its source uses, and where they are not known (data
+from memory) says so and gives no printed answer.  Units: the engine is linear in the reading unit (mils, mm, um are kept as given); masses
 go in as grams and radii as mm (``oz_to_g``, ``in_to_mm``) and come back through the same
 factors.  Where a source gives masses without a radius, any one radius used for trial and
 correction cancels; 1 mm is used.
@@ -355,9 +361,12 @@ def test_solve_command_on_the_rao_single_plane_example(
 #   original unbalance                 8.5 mils at 60 deg    6.5 mils at 205 deg
 #   W_L = 10.0 oz at 270 deg, left     6.0 mils at 125 deg   4.5 mils at 230 deg
 #   W_R = 12.0 oz at 180 deg, right    6.0 mils at 35 deg    10.5 mils at 160 deg
-# all angles from the reference mark in one sense (taken as ccw); no radius is given, so 1 mm
-# is used for trials and corrections (it cancels).  The printed answer is not recalled reliably
-# enough to quote; the check is Cramer's rule by hand (``hand_two_plane``).  Note for anyone
+# Angle senses: NOT known from memory.  Read with phases and weight angles in the same sense
+# (taken as ccw), the answer is 10.06 oz at 325.6 deg and 5.88 oz at 68.3 deg; read with the weight
+# angles in the opposite sense to the phases, it is 10.06 oz at 214.4 deg and 5.88 oz at 291.7 deg
+# (in the weight angles' own sense).  Neither is claimed to be the book's printed answer until the
+# book is checked.  No radius is given, so 1 mm is used for trials and corrections (it cancels).
+# The check is Cramer's rule by hand (``hand_two_plane``), in the same-sense reading.  Note for anyone
 # comparing with the book: the method there solves for the UNBALANCE; our correction is that
 # vector turned by 180 deg.
 # ============================================================================================
@@ -387,7 +396,8 @@ def test_two_plane_rao_turbine_example_matches_cramers_rule() -> None:
         m_oz, ang = polar(want)
         assert g_to_oz(got.mass_g) == pytest.approx(m_oz, rel=1e-9)
         assert angle_diff_deg(got.angle_deg, ang) < 1e-6
-    # Rounded, in the book's units: about 10.06 oz at 325.6 deg and 5.88 oz at 68.3 deg.
+    # Rounded, in the book's units, same-sense reading (hand computation, not a printed answer):
+    # about 10.06 oz at 325.6 deg and 5.88 oz at 68.3 deg.
     assert g_to_oz(sol.corrections[0].mass_g) == pytest.approx(10.06, abs=0.005)
     assert angle_diff_deg(sol.corrections[0].angle_deg, 325.6) < 0.05
     assert g_to_oz(sol.corrections[1].mass_g) == pytest.approx(5.88, abs=0.005)
@@ -395,9 +405,26 @@ def test_two_plane_rao_turbine_example_matches_cramers_rule() -> None:
     assert max(abs(z) for z in sol.predicted) < 1e-9
 
 
+def test_rao_two_plane_answer_depends_on_the_weight_angle_sense() -> None:
+    # Weight angles measured in the opposite sense to the phase readings: the weights' angles
+    # alone flip (our convention has them in the same sense), and the answer moves.  Expressed
+    # back in the weight angles' own sense: about 214.4 deg and 291.7 deg instead of 325.6 and 68.3.
+    runs = _rao_9_2_runs()
+    flipped = [runs[0]] + [Run([Weight(w.plane, w.mass_g, -w.angle_deg, w.radius_mm) for w in r.weights], r.readings)
+                           for r in runs[1:]]
+    same = solve(runs).corrections
+    opposite = solve(flipped).corrections
+    own_sense = [(-w.angle_deg) % 360.0 for w in opposite]
+    assert angle_diff_deg(own_sense[0], 214.4) < 0.05
+    assert angle_diff_deg(own_sense[1], 291.7) < 0.05
+    assert angle_diff_deg(same[0].angle_deg, own_sense[0]) > 100  # not a mirror image: a different answer
+    assert g_to_oz(opposite[0].mass_g) == pytest.approx(10.06, abs=0.005)
+    assert g_to_oz(opposite[1].mass_g) == pytest.approx(5.88, abs=0.005)
+
+
 def test_mirrored_angles_mirror_the_correction() -> None:
-    # If the source's angles were really the other way round, every angle flips sign: the
-    # correction flips with them (same masses), so the ccw/cw choice cannot change an answer.
+    # Every angle of the data (phases AND weights) read the other way round: the correction
+    # flips with them (same masses).  This is the only sense change that leaves the answer alone.
     a = solve(_rao_9_2_runs()).corrections
     b = solve(_rao_9_2_runs(mirror=True)).corrections
     for wa, wb in zip(a, b):
