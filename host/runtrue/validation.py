@@ -121,7 +121,8 @@ def whole(value: Any, what: str, lo: int, hi: int, *, field: str = "") -> int:
         n = int(x)
     if not lo <= n <= hi:
         shown = str(n) if abs(n) < 10**15 else f"{float(n):.3g}"
-        raise ValidationError(f"{what} must be {lo}-{hi}, got {shown}", field)
+        bound = f"at least {lo} (up to {hi})" if n < lo else f"at most {hi} (from {lo})"
+        raise ValidationError(f"{what} must be {bound}, got {shown}", field)
     return n
 
 

@@ -45,5 +45,6 @@ def run(args: argparse.Namespace) -> int:
         _check_port(args.port)
     from runtrue.tui import make_app  # the Textual application, only when asked for
 
-    make_app(args.port, seed=args.seed).run()
-    return 0
+    app = make_app(args.port, seed=args.seed)
+    app.run()
+    return 2 if getattr(app, "failure", "") or getattr(app, "return_code", 0) else 0

@@ -17,7 +17,15 @@ import argparse
 import json
 from typing import Any
 
+from runtrue import validation as v
+from runtrue.cli import checked
+
 DEFAULT_SCENARIO = "fan"
+MAX_DEMO_RUNS = 50
+
+
+def _max_runs(text: str) -> int:
+    return v.whole(text, "--max-runs", 2, MAX_DEMO_RUNS)
 
 
 def register(subparsers: Any) -> None:
@@ -25,22 +33,24 @@ def register(subparsers: Any) -> None:
         "demo",
         help="the application on the built-in simulator (--auto: a whole job, headless)",
         description="Balance a virtual machine. Without --auto the terminal application opens on the "
-        "simulator; with --auto a whole job (reference, trial, correction, trims) runs headless.",
+        "simulator; with --auto a whole job (reference, trial, correction, trims) runs headless. "
+        f"Limits: --seed 0-{v.MAX_SEED}, --revs 2-{v.MAX_REVS}, --max-runs 2-{MAX_DEMO_RUNS}, "
+        f"--resume a job number 1-{v.MAX_JOB_ID}.",
     )
     p.add_argument("--scenario", default=DEFAULT_SCENARIO, metavar="NAME",
                    help=f"simulator scenario (default {DEFAULT_SCENARIO}; `runtrue scenarios` lists them)")
-    p.add_argument("--seed", type=int, default=None, metavar="N", help="random seed: the same seed gives the same job")
+    p.add_argument("--seed", type=checked(v.seed), default=None, metavar="N", help="random seed: the same seed gives the same job")
     p.add_argument("--auto", action="store_true", help="run a whole job with no interaction")
     p.add_argument("--json", action="store_true", help="with --auto: print one JSON object")
-    p.add_argument("--revs", type=int, default=None, metavar="N",
+    p.add_argument("--revs", type=checked(v.revs), default=None, metavar="N",
                    help="with --auto: revolutions averaged per reading (default 40)")
-    p.add_argument("--max-runs", type=int, default=None, metavar="N",
+    p.add_argument("--max-runs", type=checked(_max_runs), default=None, metavar="N",
                    help="with --auto: stop after this many runs (default 12)")
     p.add_argument("--no-phase", action="store_true",
                    help="with --auto: balance by amplitudes only (the four-run method; one-plane scenarios)")
     p.add_argument("--db", default=None, metavar="FILE",
                    help="with --auto: record the job in this job database (default: kept in memory only)")
-    p.add_argument("--resume", type=int, default=None, metavar="JOB",
+    p.add_argument("--resume", type=checked(v.job_id), default=None, metavar="JOB",
                    help="with --auto and --db: carry on with an unfinished job of that database")
 
 
@@ -62,10 +72,6 @@ def _check_args(args: argparse.Namespace) -> None:
             raise UsageError(
                 f"--no-phase balances one plane, but scenario {args.scenario!r} has {n_planes}: choose one of {one}"
             )
-    if args.revs is not None and not 2 <= args.revs <= 10_000:
-        raise UsageError("--revs must be between 2 and 10000")
-    if args.max_runs is not None and args.max_runs < 2:
-        raise UsageError("--max-runs must be at least 2 (a reference and a correction)")
     if args.resume is not None and args.db is None:
         raise UsageError("--resume needs --db FILE (the database holding the job)")
 
@@ -75,8 +81,9 @@ def run(args: argparse.Namespace) -> int:
     if not args.auto:
         from runtrue.tui import make_app  # the Textual application, only when asked for
 
-        make_app(port="sim:" + args.scenario, seed=args.seed).run()
-        return 0
+        app = make_app(port="sim:" + args.scenario, seed=args.seed)
+        app.run()
+        return 2 if getattr(app, "failure", "") or getattr(app, "return_code", 0) else 0
     return _run_auto(args)
 
 
@@ -86,7 +93,9 @@ def _run_auto(args: argparse.Namespace) -> int:
     from runtrue.jobs.headless import DEFAULT_REVS, MAX_RUNS, MAX_RUNS_AMPLITUDE_ONLY, run_demo
     from runtrue.jobs.store import JobStore
 
-    store = JobStore(args.db) if args.db else None
+    from runtrue.cli.jobs import open_store
+
+    store = open_store(args.db, create=args.resume is None) if args.db else None
     try:
         if args.resume is not None:
             assert store is not None
