@@ -36,7 +36,7 @@ from runtrue import validation as v
 from runtrue.cli import UsageError
 from runtrue.cli.jsonio import LIMITS_HELP, load_json
 
-MAX_NODES = 20_000  # search nodes: about 1.2 ms each at worst on a 2-core test machine (25 s); default 5,000
+MAX_NODES = v.MAX_SEARCH_NODES  # search nodes (default 5,000)
 STRIP_MIN_STEP_MM = 0.1
 
 CONVENTIONS = (
