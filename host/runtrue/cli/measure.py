@@ -115,12 +115,12 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         flags_seen: set[str] = set()
         limit = 10 * args.revs + 20
         while len(usable) < args.revs:
+            counts = client.counts()
             rev = client.read_revolution(args.timeout)
             if rev is None:
+                cause = client.diagnose(counts, waited_s=args.timeout)
                 raise UsageError(
-                    f"no revolution from {port} within {args.timeout:g} s ({len(usable)} of {args.revs} so far): "
-                    "are the reference pulses missing? Check the machine is running and the reference "
-                    "sensor sees its mark once per revolution (its gap, its LED, --edge), or give a longer --timeout"
+                    f"no revolution from {port} within {args.timeout:g} s ({len(usable)} of {args.revs} so far): {cause}"
                 )
             seen += 1
             if rev.usable:
@@ -135,10 +135,15 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
                     "steady the speed, check the reference mark and the pickup's range, then measure again"
                 )
         client.stop()
-    except (MeterError, TransportLost) as exc:
+    except TransportLost as exc:
+        raise UsageError(f"{exc}, then measure again") from None
+    except MeterError as exc:
         raise UsageError(str(exc)) from None
     finally:
-        client.close()
+        try:
+            client.close()
+        except Exception:  # noqa: BLE001 - the port may already be gone; the message above says why
+            pass
     reading = vector_average(usable)
     out: dict[str, Any] = {
         "rpm": reading.speed_rpm,
