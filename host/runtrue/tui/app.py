@@ -89,6 +89,24 @@ class RuntrueApp(App):
         self.units = METRIC  # display units, metric or imperial (machine screen, F8); jobs stay metric
         self.failure: str = ""  # the one line shown after an unexpected error ended the application
 
+    # -- notifications ----------------------------------------------------------------------------
+    def notify(self, message: str, *, title: str = "", severity: Any = "information",
+               timeout: float | None = None, markup: bool = True) -> None:
+        """Every notification goes to the current step screen's notice line (under the title bar,
+        covering nothing) as one text; dialogs and help, which have no such line, keep Textual's
+        toast."""
+        super().notify(message, title=title, severity=severity, timeout=timeout, markup=markup)
+        show = getattr(self.screen, "show_notice", None) if self._screen_stack else None
+        if show is not None:
+            text = " ".join(str(message).split())
+            show(f"{title}: {text}" if title else text, str(severity), float(timeout or 6.0))
+
+    def clear_notifications(self) -> None:
+        super().clear_notifications()
+        show = getattr(self.screen, "show_notice", None) if self._screen_stack else None
+        if show is not None:
+            show("")
+
     # -- an unexpected error ----------------------------------------------------------------------
     def _handle_exception(self, error: Exception) -> None:
         """A bug or an unforeseen state: no traceback on screen.  The traceback goes to the error
