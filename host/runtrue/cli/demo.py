@@ -91,7 +91,7 @@ def _run_auto(args: argparse.Namespace) -> int:
     from runtrue.cli import UsageError
     from runtrue.device import MeterError
     from runtrue.jobs.headless import DEFAULT_REVS, MAX_RUNS, MAX_RUNS_AMPLITUDE_ONLY, run_demo
-    from runtrue.jobs.store import JobStore
+    from runtrue.jobs.store import RecordError
 
     from runtrue.cli.jobs import open_store
 
@@ -116,6 +116,8 @@ def _run_auto(args: argparse.Namespace) -> int:
             amplitude_only=args.no_phase,
         )
         data = outcome.to_json()
+    except RecordError as exc:
+        raise UsageError(f"{exc}; this job cannot be resumed, start a new one") from None
     except MeterError as exc:
         where = f" (the job so far is kept in {args.db}; --resume carries on)" if args.db else ""
         raise UsageError(f"the simulated meter could not give a reading: {exc}{where}") from None

@@ -88,27 +88,35 @@ def _write(text: str, output: str | None) -> None:
 def run(args: argparse.Namespace) -> int:
     if args.jobs_command is None:
         raise UsageError("say what to do: list, show JOB, report JOB or export JOB")
+    from runtrue.jobs.store import RecordError
+
     store = _open_store(args)
     try:
-        if args.jobs_command == "list":
-            return _list(store, args)
-        rec = _job_or_fail(store, args.job)
-        if args.jobs_command == "show":
-            return _show(store, rec)
-        if args.jobs_command == "report":
-            from runtrue.jobs.report import render_html
-
-            out = args.output or f"runtrue-job-{rec.id}.html"
-            _write(render_html(store, rec.id), out)
-            return 0
-        if args.jobs_command == "export":
-            from runtrue.jobs.export import job_json, runs_csv
-
-            text = runs_csv(store, rec.id) if args.format == "csv" else json.dumps(job_json(store, rec.id), indent=1) + "\n"
-            _write(text, args.output)
-            return 0
+        return _run(store, args)
+    except RecordError as exc:
+        raise UsageError(f"{exc}; the other jobs are unaffected (`runtrue jobs list`)") from None
     finally:
         store.close()
+
+
+def _run(store: Any, args: argparse.Namespace) -> int:
+    if args.jobs_command == "list":
+        return _list(store, args)
+    rec = _job_or_fail(store, args.job)
+    if args.jobs_command == "show":
+        return _show(store, rec)
+    if args.jobs_command == "report":
+        from runtrue.jobs.report import render_html
+
+        out = args.output or f"runtrue-job-{rec.id}.html"
+        _write(render_html(store, rec.id), out)
+        return 0
+    if args.jobs_command == "export":
+        from runtrue.jobs.export import job_json, runs_csv
+
+        text = runs_csv(store, rec.id) if args.format == "csv" else json.dumps(job_json(store, rec.id), indent=1) + "\n"
+        _write(text, args.output)
+        return 0
     return 0
 
 
@@ -126,7 +134,8 @@ def _list(store: Any, args: argparse.Namespace) -> int:
         return 0
     print(f"{'job':>5}  {'started':20}  {'status':8}  {'runs':>4}  machine")
     for j in jobs:
-        print(f"{j.id:>5}  {j.started_at:20}  {j.status:8}  {j.n_runs:>4}  {j.machine_name}")
+        problem = j.problem or (store.job_problem(j.id) if j.status == "open" else "")
+        print(f"{j.id:>5}  {j.started_at[:20]:20}  {j.status:8}  {j.n_runs:>4}  {problem or j.machine_name}")
     if machine_id is not None:
         trend = store.trend(machine_id)
         if trend:
