@@ -190,8 +190,8 @@ def _build(data: Any) -> tuple[dict, Any]:
     assert mass is not None and angle is not None and radius is not None
     if mass < 0:
         raise UsageError(f"correction mass is negative ({mass:g} g); give a positive mass and its angle")
-    if mass > 0:
-        _limit(v.weight_g, mass, "correction mass")
+    if mass > v.WEIGHT_MAX_G:
+        _limit(v.weight_g, mass, "correction mass")  # refused with the limit and the advice
     radius = _radius(radius, "correction radius")
     angle = _limit(v.angle_deg, angle, "correction angle")
     if "positions" not in data:

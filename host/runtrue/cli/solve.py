@@ -291,7 +291,9 @@ def run(args: argparse.Namespace) -> int:
     out = solution_json(sol)
     if speed is not None:
         for entry, w in zip(out["corrections"], sol.corrections):
-            entry["force_n"] = _r(centrifugal_force_n(w.mass_g, w.radius_mm, speed)) if w.mass_g > 0 else 0.0
+            # Below the lightest weight (round-off of a zero correction) there is nothing to hold.
+            entry["force_n"] = (_r(centrifugal_force_n(w.mass_g, w.radius_mm, speed))
+                                if w.mass_g >= v.WEIGHT_MIN_G else 0.0)
         out["safety"] = SAFETY
     json.dump(out, sys.stdout, indent=2)
     sys.stdout.write("\n")
