@@ -272,6 +272,9 @@ def _build(data: Any) -> tuple[dict, Any]:
     gf = _num(data, "good_enough_fraction", "input", required=False)
     if ge is not None and ge < 0 or gf is not None and gf < 0:
         raise UsageError("good_enough must be zero or positive")
+    if ge is not None and ge > v.WEIGHT_MAX_G * v.RADIUS_MAX_MM or gf is not None and gf > 1:
+        raise UsageError(f"good_enough is at most {v.WEIGHT_MAX_G * v.RADIUS_MAX_MM:g} g.mm and "
+                         "good_enough_fraction at most 1 (the whole correction)")
     if ge is not None or gf is not None:  # an explicit 0 asks for the strictly smallest residual
         opts["good_enough_gmm"] = max(ge or 0.0, (gf or 0.0) * mass * radius)
     opts["prefer_fewer_positions"] = bool(data.get("prefer_fewer_positions", False))
