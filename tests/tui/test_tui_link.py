@@ -140,4 +140,4 @@ def test_a_failure_inside_the_link_thread_is_reported_as_meter_lost_and_the_link
         link.close()
     lost = next(m for m in posted if isinstance(m, MeterLost))
     assert "unexpectedly" in lost.reason and "TypeError" in lost.reason
-    assert (tmp_path / "runtrue-errors.log").read_text().count("a message the client did not foresee") == 1
+    assert (tmp_path / "runtrue-errors.log").read_text().count("TypeError: a message the client did not foresee") == 1
