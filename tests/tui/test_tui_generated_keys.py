@@ -5,6 +5,7 @@ database holding stopped, empty and odd jobs: whatever is typed, the application
 from __future__ import annotations
 
 import asyncio
+import os
 import shutil
 import sys
 from pathlib import Path
@@ -84,7 +85,8 @@ async def _drive(start: str, steps: list[str], tmp: Path) -> None:
 @pytest.mark.slow  # about 2 s an example (the application starts each time); 15 examples in all
 @pytest.mark.parametrize("start", ["connect", "machine", "runs", "result of a job stopped before any reading",
                                    "resumed empty job"])
-@settings(max_examples=3, deadline=None, derandomize=True,
+@settings(max_examples=int(os.environ.get("RUNTRUE_FUZZ_EXAMPLES", "3")), deadline=None,
+          derandomize="RUNTRUE_FUZZ_EXAMPLES" not in os.environ,
           suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
 @given(steps=SEQUENCES)
 def test_any_keys_on_any_screen_never_break_the_application(start: str, steps: list[str], tmp_path: Path) -> None:
