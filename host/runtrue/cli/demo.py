@@ -79,7 +79,10 @@ def _check_args(args: argparse.Namespace) -> None:
 def run(args: argparse.Namespace) -> int:
     _check_args(args)
     if not args.auto:
+        from runtrue.cli.app import check_job_database
         from runtrue.tui import make_app  # the Textual application, only when asked for
+
+        check_job_database()
 
         app = make_app(port="sim:" + args.scenario, seed=args.seed)
         app.run()
