@@ -336,9 +336,11 @@ class MeterClient:
             return last
         checks: list[dict[str, Any]] = []
         for i in sorted(self._selftest_parts):
-            checks.extend(self._selftest_parts[i].get("checks", []))
+            part = self._selftest_parts[i].get("checks", [])
+            checks.extend(c for c in part if isinstance(c, dict)) if isinstance(part, list) else None
         result: dict[str, Any] = {"pass": bool(last.get("pass")), "checks": checks}
-        expected = int(last.get("parts") or len(self._selftest_parts))
+        parts = last.get("parts")
+        expected = parts if isinstance(parts, int) and 0 < parts < 1000 else len(self._selftest_parts)
         if len(self._selftest_parts) < expected:
             result["missing_parts"] = expected - len(self._selftest_parts)
         return result
