@@ -150,8 +150,9 @@ class MeterClient:
         elif isinstance(message, Status):
             self.last_status = message
         elif isinstance(message, SelfTest):
+            raw = dict(message.raw)  # raises on a payload that is not an object: counted by feed()
+            self._selftest_parts[int(raw.get("part", 0) or 0)] = raw
             self._selftest = message
-            self._selftest_parts[int(message.raw.get("part", 0) or 0)] = dict(message.raw)
         elif isinstance(message, Text):
             self.log.append(message.text)
 
