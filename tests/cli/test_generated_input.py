@@ -20,13 +20,13 @@ SETTINGS = settings(max_examples=_EXAMPLES, deadline=None, derandomize="RUNTRUE_
 # Values a user might type, including the ones that broke runtrue before.
 VALUES = st.sampled_from([
     "0", "1", "2", "3", "-1", "1e30", "1e-30", "nan", "inf", "-inf", "x", "", " ", "9" * 25, "0x10",
-    "sim:fan", "sim:roller", "sim:nosuch", "manual", "/nonexistent", "/tmp", "-", "G6.3", "6.3", "all",
+    "sim:fan", "sim:roller", "sim:nosuch", "manual", "no/such/dir/x", "/tmp", "-", "G6.3", "6.3", "all",
     "0,1", "7", "rising", "falling", "csv", "json", "\x00", "é", "--", "-h",
 ])
 
 OPTIONS = {
     "measure": ["--port", "--revs", "--json", "--seed", "--rate", "--edge", "--channels", "--timeout"],
-    "demo": ["--scenario", "--seed", "--json", "--revs", "--max-runs", "--no-phase", "--resume"],
+    "demo": ["--scenario", "--seed", "--json", "--revs", "--max-runs", "--no-phase", "--resume", "--auto", "--db"],
     "app": ["--port", "--seed"],
     "scenarios": [],
     "tolerance": ["--grade", "--mass-kg", "--rpm", "--planes", "--distances-mm", "--journal-load-kg"],
@@ -41,7 +41,7 @@ def argvs(draw: st.DrawFn) -> list[str]:
     tokens = draw(st.lists(st.one_of(st.sampled_from(OPTIONS[command] or ["--x"]), VALUES), max_size=6))
     argv = [command, *tokens]
     if command in ("measure", "device") and "--port" not in argv:
-        argv += ["--port", draw(st.sampled_from(["sim:fan", "sim:nosuch", "/nonexistent"]))]
+        argv += ["--port", draw(st.sampled_from(["sim:fan", "sim:nosuch", "/dev/no-such-meter"]))]
     if command == "measure":
         argv += ["--revs", "2"]  # a real measurement stays short; the generated --revs comes first
     if "-h" in argv or "--help" in argv:
