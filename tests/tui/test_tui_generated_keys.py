@@ -76,6 +76,10 @@ async def _drive(start: str, steps: list[str], tmp: Path) -> None:
             for k in keys:
                 app.simulate_key(k)
             await asyncio.sleep(0.02)  # let each step land (pilot.press waits for idle: slow here)
+        for _ in range(250):  # every queued key handled before the application closes
+            if app._message_queue.empty():
+                break
+            await asyncio.sleep(0.02)
         await pilot.pause(0.1)
         assert app.failure == ""
         runs_before = len(store.runs(ids["huge_trial"]))

@@ -115,9 +115,12 @@ class RuntrueApp(App):
         in the job database before the screen shows it, so the job resumes from the Machine
         screen).  Textual stops the message loop that raised, so carrying on is not safe."""
         from rich.text import Text
+        from textual.app import ScreenStackError
 
         from runtrue.errorlog import log_exception, one_line
 
+        if isinstance(error, ScreenStackError) and (self._exit or self._closing or not self._screen_stack):
+            return  # a key still queued while the application closes: nothing went wrong
         where = log_exception(error, "runtrue app")
         self.failure = (
             f"runtrue: unexpected error ({one_line(error, 100)}); the job is kept: start runtrue again "
