@@ -21,7 +21,14 @@ from runtrue import validation as v
 from runtrue.cli import checked
 
 DEFAULT_SCENARIO = "fan"
-MAX_DEMO_RUNS = 50
+MAX_DEMO_RUNS = 20
+#: Revolutions per reading in a headless demo: with MAX_DEMO_RUNS, at most 20,000 simulated
+#: revolutions, about 20 s at worst on a 2-core machine (the roller, two channels).
+MAX_DEMO_REVS = 1_000
+
+
+def _demo_revs(text: str) -> int:
+    return v.whole(text, "--revs", 2, MAX_DEMO_REVS)
 
 
 def _max_runs(text: str) -> int:
@@ -34,7 +41,7 @@ def register(subparsers: Any) -> None:
         help="the application on the built-in simulator (--auto: a whole job, headless)",
         description="Balance a virtual machine. Without --auto the terminal application opens on the "
         "simulator; with --auto a whole job (reference, trial, correction, trims) runs headless. "
-        f"Limits: --seed 0-{v.MAX_SEED}, --revs 2-{v.MAX_REVS}, --max-runs 2-{MAX_DEMO_RUNS}, "
+        f"Limits: --seed 0-{v.MAX_SEED}, --revs 2-{MAX_DEMO_REVS}, --max-runs 2-{MAX_DEMO_RUNS}, "
         f"--resume a job number 1-{v.MAX_JOB_ID}.",
     )
     p.add_argument("--scenario", default=DEFAULT_SCENARIO, metavar="NAME",
@@ -42,7 +49,7 @@ def register(subparsers: Any) -> None:
     p.add_argument("--seed", type=checked(v.seed), default=None, metavar="N", help="random seed: the same seed gives the same job")
     p.add_argument("--auto", action="store_true", help="run a whole job with no interaction")
     p.add_argument("--json", action="store_true", help="with --auto: print one JSON object")
-    p.add_argument("--revs", type=checked(v.revs), default=None, metavar="N",
+    p.add_argument("--revs", type=checked(_demo_revs), default=None, metavar="N",
                    help="with --auto: revolutions averaged per reading (default 40)")
     p.add_argument("--max-runs", type=checked(_max_runs), default=None, metavar="N",
                    help="with --auto: stop after this many runs (default 12)")
