@@ -18,8 +18,12 @@ _FAILURE_PREFIXES = ("check failed: ", "install failed: ", "the simulator did no
                      "the simulator reports firmware", "if the board runs MicroPython but not the meter")
 
 
+#: Revolutions streamed by `device check`: about 40 s at 1,500 rpm at most.
+MAX_CHECK_REVS = 1_000
+
+
 def _check_revs(text: str) -> int:
-    return v.revs(text, "--revs", lo=0)
+    return v.whole(text, "--revs", 0, MAX_CHECK_REVS)
 
 
 def register(subparsers: Any) -> None:
@@ -34,7 +38,7 @@ def register(subparsers: Any) -> None:
     chk = sub.add_parser("check", help="run the meter's self-test and explain each result")
     chk.add_argument("--port", help="serial port of the meter (default: the one USB board found), or sim:NAME")
     chk.add_argument("--revs", type=checked(_check_revs), default=20, metavar="N",
-                     help=f"revolutions to stream for the reference-pulse check, 0-{v.MAX_REVS} "
+                     help=f"revolutions to stream for the reference-pulse check, 0-{MAX_CHECK_REVS} "
                      "(0: skip, e.g. machine stopped)")
     chk.add_argument("--seed", type=checked(v.seed), default=None, help=argparse.SUPPRESS)
     parser.set_defaults(device_parser=parser)
