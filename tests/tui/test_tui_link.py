@@ -111,3 +111,33 @@ def test_a_closed_link_posts_nothing_more() -> None:
     n = len(posted)
     time.sleep(0.2)
     assert len(posted) == n
+
+
+def test_a_failure_inside_the_link_thread_is_reported_as_meter_lost_and_the_link_opens_again(tmp_path, monkeypatch) -> None:
+    monkeypatch.setenv("RUNTRUE_DATA_DIR", str(tmp_path))
+    posted: list[Any] = []
+    meters: list[FakeMeter] = []
+
+    class Broken(FakeMeter):
+        def read_revolution(self, timeout_s: float) -> Any:
+            if self.rev >= 3:
+                raise TypeError("a message the client did not foresee")
+            return super().read_revolution(timeout_s)
+
+    def opener(port: str, seed: Any, realtime: bool) -> FakeMeter:
+        m = Broken() if not meters else FakeMeter()
+        meters.append(m)
+        return m
+
+    link = MeterLink("sim:fake", posted.append, opener=opener, post_interval_s=0.02, retry_s=0.05)
+    link.start()
+    try:
+        link.stream(True)
+        wait_for(lambda: any(isinstance(m, MeterLost) for m in posted))
+        wait_for(lambda: sum(isinstance(m, MeterConnected) for m in posted) >= 2)
+        wait_for(lambda: meters[-1].streaming and meters[-1].rev > 3)
+    finally:
+        link.close()
+    lost = next(m for m in posted if isinstance(m, MeterLost))
+    assert "unexpectedly" in lost.reason and "TypeError" in lost.reason
+    assert (tmp_path / "runtrue-errors.log").read_text().count("TypeError: a message the client did not foresee") == 1

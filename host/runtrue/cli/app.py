@@ -12,6 +12,9 @@ from __future__ import annotations
 import argparse
 from typing import Any
 
+from runtrue import validation as v
+from runtrue.cli import checked
+
 
 def register(subparsers: Any) -> None:
     p = subparsers.add_parser(
@@ -22,8 +25,8 @@ def register(subparsers: Any) -> None:
     )
     p.add_argument("--port", default=None, metavar="PORT",
                    help="serial device, sim:NAME (a simulated machine) or manual (type readings in)")
-    p.add_argument("--seed", type=int, default=None, metavar="N",
-                   help="random seed of a simulated machine (the same seed gives the same machine)")
+    p.add_argument("--seed", type=checked(v.seed), default=None, metavar="N",
+                   help=f"random seed of a simulated machine, 0-{v.MAX_SEED} (the same seed gives the same machine)")
     p.add_argument("--plain", action="store_true", default=None,
                    help="draw plots and the fitting dial with plain characters, for terminals without braille "
                    "(automatic on the Linux console, TERM=linux; or set RUNTRUE_PLAIN=1)")
@@ -44,10 +47,20 @@ def _check_port(port: str) -> None:
             )
 
 
+def check_job_database() -> None:
+    """Open the job database once before the application starts, so a file that cannot be used
+    is named in one line here rather than failing inside a screen."""
+    from runtrue.cli.jobs import open_store
+
+    open_store(None, create=True).close()
+
+
 def run(args: argparse.Namespace) -> int:
     if args.port is not None:
         _check_port(args.port)
+    check_job_database()
     from runtrue.tui import make_app  # the Textual application, only when asked for
 
-    make_app(args.port, seed=args.seed, plain=args.plain).run()
-    return 0
+    app = make_app(args.port, seed=args.seed, plain=args.plain)
+    app.run()
+    return 2 if getattr(app, "failure", "") or getattr(app, "return_code", 0) else 0

@@ -17,7 +17,22 @@ import argparse
 import json
 from typing import Any
 
+from runtrue import validation as v
+from runtrue.cli import checked
+
 DEFAULT_SCENARIO = "fan"
+MAX_DEMO_RUNS = 20
+#: Revolutions per reading in a headless demo: with MAX_DEMO_RUNS, at most 20,000 simulated
+#: revolutions, about 20 s at worst on a 2-core machine (the roller, two channels).
+MAX_DEMO_REVS = 1_000
+
+
+def _demo_revs(text: str) -> int:
+    return v.whole(text, "--revs", 2, MAX_DEMO_REVS)
+
+
+def _max_runs(text: str) -> int:
+    return v.whole(text, "--max-runs", 2, MAX_DEMO_RUNS)
 
 
 def register(subparsers: Any) -> None:
@@ -25,26 +40,28 @@ def register(subparsers: Any) -> None:
         "demo",
         help="the application on the built-in simulator (--auto: a whole job, headless)",
         description="Balance a virtual machine. Without --auto the terminal application opens on the "
-        "simulator; with --auto a whole job (reference, trial, correction, trims) runs headless.",
+        "simulator; with --auto a whole job (reference, trial, correction, trims) runs headless. "
+        f"Limits: --seed 0-{v.MAX_SEED}, --revs 2-{MAX_DEMO_REVS}, --max-runs 2-{MAX_DEMO_RUNS}, "
+        f"--resume a job number 1-{v.MAX_JOB_ID}.",
     )
     p.add_argument("--scenario", default=DEFAULT_SCENARIO, metavar="NAME",
                    help=f"simulator scenario (default {DEFAULT_SCENARIO}; `runtrue scenarios` lists them), or a "
                    "scenario file PATH.toml / PATH.json")
-    p.add_argument("--seed", type=int, default=None, metavar="N", help="random seed: the same seed gives the same job")
+    p.add_argument("--seed", type=checked(v.seed), default=None, metavar="N", help="random seed: the same seed gives the same job")
     p.add_argument("--auto", action="store_true", help="run a whole job with no interaction")
     p.add_argument("--plain", action="store_true", default=None,
                    help="draw plots and the fitting dial with plain characters, for terminals without braille "
                    "(automatic on the Linux console, TERM=linux; or set RUNTRUE_PLAIN=1)")
     p.add_argument("--json", action="store_true", help="with --auto: print one JSON object")
-    p.add_argument("--revs", type=int, default=None, metavar="N",
+    p.add_argument("--revs", type=checked(_demo_revs), default=None, metavar="N",
                    help="with --auto: revolutions averaged per reading (default 40)")
-    p.add_argument("--max-runs", type=int, default=None, metavar="N",
+    p.add_argument("--max-runs", type=checked(_max_runs), default=None, metavar="N",
                    help="with --auto: stop after this many runs (default 12)")
     p.add_argument("--no-phase", action="store_true",
                    help="with --auto: balance by amplitudes only (the four-run method; one-plane scenarios)")
     p.add_argument("--db", default=None, metavar="FILE",
                    help="with --auto: record the job in this job database (default: kept in memory only)")
-    p.add_argument("--resume", type=int, default=None, metavar="JOB",
+    p.add_argument("--resume", type=checked(v.job_id), default=None, metavar="JOB",
                    help="with --auto and --db: carry on with an unfinished job of that database")
 
 
@@ -74,10 +91,6 @@ def _check_args(args: argparse.Namespace) -> None:
             raise UsageError(
                 f"--no-phase balances one plane, but scenario {args.scenario!r} has {n_planes}: choose one of {one}"
             )
-    if args.revs is not None and not 2 <= args.revs <= 10_000:
-        raise UsageError("--revs must be between 2 and 10000")
-    if args.max_runs is not None and args.max_runs < 2:
-        raise UsageError("--max-runs must be at least 2 (a reference and a correction)")
     if args.resume is not None and args.db is None:
         raise UsageError("--resume needs --db FILE (the database holding the job)")
 
@@ -85,10 +98,14 @@ def _check_args(args: argparse.Namespace) -> None:
 def run(args: argparse.Namespace) -> int:
     _check_args(args)
     if not args.auto:
+        from runtrue.cli.app import check_job_database
         from runtrue.tui import make_app  # the Textual application, only when asked for
 
-        make_app(port="sim:" + args.scenario, seed=args.seed, plain=args.plain).run()
-        return 0
+        check_job_database()
+
+        app = make_app(port="sim:" + args.scenario, seed=args.seed, plain=args.plain)
+        app.run()
+        return 2 if getattr(app, "failure", "") or getattr(app, "return_code", 0) else 0
     return _run_auto(args)
 
 
@@ -96,9 +113,11 @@ def _run_auto(args: argparse.Namespace) -> int:
     from runtrue.cli import UsageError
     from runtrue.device import MeterError
     from runtrue.jobs.headless import DEFAULT_REVS, MAX_RUNS, MAX_RUNS_AMPLITUDE_ONLY, run_demo
-    from runtrue.jobs.store import JobStore
+    from runtrue.jobs.store import RecordError
 
-    store = JobStore(args.db) if args.db else None
+    from runtrue.cli.jobs import open_store
+
+    store = open_store(args.db, create=args.resume is None) if args.db else None
     try:
         if args.resume is not None:
             assert store is not None
@@ -119,6 +138,8 @@ def _run_auto(args: argparse.Namespace) -> int:
             amplitude_only=args.no_phase,
         )
         data = outcome.to_json()
+    except RecordError as exc:
+        raise UsageError(f"{exc}; this job cannot be resumed, start a new one") from None
     except MeterError as exc:
         where = f" (the job so far is kept in {args.db}; --resume carries on)" if args.db else ""
         raise UsageError(f"the simulated meter could not give a reading: {exc}{where}") from None

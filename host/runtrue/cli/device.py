@@ -7,7 +7,23 @@ USB board that looks like a meter is used.  See hardware/BRINGUP.md.
 from __future__ import annotations
 
 import argparse
+import sys
 from typing import Any
+
+from runtrue import validation as v
+from runtrue.cli import UsageError, checked
+
+#: Lines of the install and check routines that say why they failed: they go to standard error.
+_FAILURE_PREFIXES = ("check failed: ", "install failed: ", "the simulator did not answer",
+                     "the simulator reports firmware", "if the board runs MicroPython but not the meter")
+
+
+#: Revolutions streamed by `device check`: about 40 s at 1,500 rpm at most.
+MAX_CHECK_REVS = 1_000
+
+
+def _check_revs(text: str) -> int:
+    return v.whole(text, "--revs", 0, MAX_CHECK_REVS)
 
 
 def register(subparsers: Any) -> None:
@@ -21,16 +37,15 @@ def register(subparsers: Any) -> None:
     inst.add_argument("--port", help="serial port of the board (default: the one USB board found), or sim:NAME")
     chk = sub.add_parser("check", help="run the meter's self-test and explain each result")
     chk.add_argument("--port", help="serial port of the meter (default: the one USB board found), or sim:NAME")
-    chk.add_argument("--revs", type=int, default=20, metavar="N",
-                     help="revolutions to stream for the reference-pulse check (0: skip, e.g. machine stopped)")
-    chk.add_argument("--seed", type=int, default=None, help=argparse.SUPPRESS)
+    chk.add_argument("--revs", type=checked(_check_revs), default=20, metavar="N",
+                     help=f"revolutions to stream for the reference-pulse check, 0-{MAX_CHECK_REVS} "
+                     "(0: skip, e.g. machine stopped)")
+    chk.add_argument("--seed", type=checked(v.seed), default=None, help=argparse.SUPPRESS)
     parser.set_defaults(device_parser=parser)
 
 
 def resolve_port(port: str | None) -> str:
     """The port to use: the one given, or the single USB board that looks like a meter."""
-    from runtrue.cli import UsageError
-
     if port:
         return port
     from runtrue.transport.serial import find_meter_ports
@@ -52,8 +67,6 @@ def resolve_port(port: str | None) -> str:
 
 
 def _check_port_name(port: str) -> None:
-    from runtrue.cli import UsageError
-
     if port.startswith("sim:"):
         from runtrue.transport import scenario_names
 
@@ -64,29 +77,34 @@ def _check_port_name(port: str) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from runtrue.cli import UsageError
-
+    """Progress and the check report go to standard output; a failure ends in one line on
+    standard error and exit status 2 (the top-level handler in ``runtrue.cli``)."""
     action = getattr(args, "device_command", None)
     if action is None:
         args.device_parser.print_help()
         return 0
     port = resolve_port(args.port)
     _check_port_name(port)
-    if action == "check" and args.revs < 0:
-        raise UsageError("--revs must be 0 or more")
-    try:
-        if action == "install":
-            from runtrue.deploy import install
+    failures: list[str] = []
 
-            return install(port)
-        if action == "check":
-            from runtrue.deploy import check
+    def out(line: str) -> None:
+        if line.startswith(_FAILURE_PREFIXES):
+            failures.append(line)
+        else:
+            print(line, flush=True)
 
-            return check(port, stream_revs=args.revs, seed=args.seed)
-    except (UsageError, KeyboardInterrupt):
-        raise
-    except Exception as exc:  # a bug or an unforeseen device state: one clear line, never a traceback
-        print(f"runtrue device {action}: unexpected error ({type(exc).__name__}: {exc}); "
-              "please report it with the output of `runtrue --version`")
-        return 1
-    raise UsageError(f"unknown device action {action!r}: use install or check")
+    if action == "install":
+        from runtrue.deploy import install
+
+        code = install(port, out=out)
+    elif action == "check":
+        from runtrue.deploy import check
+
+        code = check(port, stream_revs=args.revs, seed=args.seed, out=out)
+    else:
+        raise UsageError(f"unknown device action {action!r}: use install or check")
+    if code != 0 or failures:
+        text = "; ".join(failures) or "some checks failed: see the advice above (hardware/BRINGUP.md)"
+        sys.stdout.flush()
+        raise UsageError(text)
+    return 0

@@ -17,92 +17,110 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from runtrue import validation as v
+from runtrue.cli import UsageError, checked
+
 
 def register(subparsers: Any) -> None:
     p = subparsers.add_parser("jobs", help="recorded balancing jobs: list, show, report, export",
-                              description="The balancing jobs recorded in the job database.")
+                              description="The balancing jobs recorded in the job database. "
+                              f"JOB is a job number, 1-{v.MAX_JOB_ID}. A record the program cannot "
+                              "read is listed as unreadable, with the reason, and skipped.")
     p.add_argument("--db", default=None, metavar="FILE", help="job database (default: the user's data directory)")
     sub = p.add_subparsers(dest="jobs_command", metavar="ACTION")
     ls = sub.add_parser("list", help="jobs, newest first")
     ls.add_argument("--machine", default=None, metavar="NAME", help="only this machine's jobs")
     ls.add_argument("--open", action="store_true", help="only unfinished jobs (to resume)")
     sh = sub.add_parser("show", help="one job: machine, runs and result")
-    sh.add_argument("job", type=int, metavar="JOB")
+    sh.add_argument("job", type=checked(v.job_id), metavar="JOB")
     rp = sub.add_parser("report", help="write the HTML report of a job")
-    rp.add_argument("job", type=int, metavar="JOB")
+    rp.add_argument("job", type=checked(v.job_id), metavar="JOB")
     rp.add_argument("-o", "--output", default=None, metavar="FILE", help="where to write it (- for standard output)")
     ex = sub.add_parser("export", help="export a job's runs as CSV or JSON")
-    ex.add_argument("job", type=int, metavar="JOB")
+    ex.add_argument("job", type=checked(v.job_id), metavar="JOB")
     ex.add_argument("--format", choices=("csv", "json"), default="csv")
     ex.add_argument("-o", "--output", default=None, metavar="FILE", help="where to write it (default standard output)")
 
 
-def _open_store(args: argparse.Namespace) -> Any:
-    from runtrue.cli import UsageError
-    from runtrue.jobs.store import JobStore
+def open_store(path: str | None, *, create: bool = False) -> Any:
+    """The job store at ``path`` (default: the user's), or UsageError saying why it cannot be used."""
+    from runtrue.jobs.store import JobStore, StoreError
 
-    if args.db is not None and not Path(args.db).exists():
-        raise UsageError(f"no job database at {args.db}; check the path")
+    if path is not None:
+        p = Path(path)
+        if p.is_dir():
+            raise UsageError(f"{path} is a folder; give the job database file (e.g. {p / 'runtrue.sqlite'})")
+        if not create and not p.exists():
+            raise UsageError(f"no job database at {path}; check the path")
     try:
-        return JobStore(args.db)
-    except Exception as exc:  # sqlite3.DatabaseError and OSError: say which file
-        raise UsageError(f"cannot open the job database {args.db or '(default)'}: {exc}") from None
+        return JobStore(path)
+    except StoreError as exc:
+        raise UsageError(str(exc)) from None
+
+
+def _open_store(args: argparse.Namespace) -> Any:
+    return open_store(args.db)
 
 
 def _job_or_fail(store: Any, job_id: int) -> Any:
-    from runtrue.cli import UsageError
+    from runtrue.jobs.store import RecordError
 
-    rec = store.get_job(job_id)
+    try:
+        rec = store.get_job(job_id)
+    except RecordError as exc:
+        raise UsageError(f"{exc}; the other jobs are unaffected (`runtrue jobs list`)") from None
     if rec is None:
         raise UsageError(f"there is no job {job_id}; `runtrue jobs list` shows the jobs")
     return rec
 
 
 def _write(text: str, output: str | None) -> None:
-    from runtrue.cli import UsageError
-
     if output is None or output == "-":
         sys.stdout.write(text)
         return
     try:
         Path(output).write_text(text, encoding="utf-8")
     except OSError as exc:
-        raise UsageError(f"cannot write {output}: {exc.strerror}") from None
+        raise UsageError(f"cannot write {output}: {exc.strerror or exc}") from None
     print(output)
 
 
 def run(args: argparse.Namespace) -> int:
-    from runtrue.cli import UsageError
-
     if args.jobs_command is None:
         raise UsageError("say what to do: list, show JOB, report JOB or export JOB")
+    from runtrue.jobs.store import RecordError
+
     store = _open_store(args)
     try:
-        if args.jobs_command == "list":
-            return _list(store, args)
-        rec = _job_or_fail(store, args.job)
-        if args.jobs_command == "show":
-            return _show(store, rec)
-        if args.jobs_command == "report":
-            from runtrue.jobs.report import render_html
-
-            out = args.output or f"runtrue-job-{rec.id}.html"
-            _write(render_html(store, rec.id), out)
-            return 0
-        if args.jobs_command == "export":
-            from runtrue.jobs.export import job_json, runs_csv
-
-            text = runs_csv(store, rec.id) if args.format == "csv" else json.dumps(job_json(store, rec.id), indent=1) + "\n"
-            _write(text, args.output)
-            return 0
+        return _run(store, args)
+    except RecordError as exc:
+        raise UsageError(f"{exc}; the other jobs are unaffected (`runtrue jobs list`)") from None
     finally:
         store.close()
+
+
+def _run(store: Any, args: argparse.Namespace) -> int:
+    if args.jobs_command == "list":
+        return _list(store, args)
+    rec = _job_or_fail(store, args.job)
+    if args.jobs_command == "show":
+        return _show(store, rec)
+    if args.jobs_command == "report":
+        from runtrue.jobs.report import render_html
+
+        out = args.output or f"runtrue-job-{rec.id}.html"
+        _write(render_html(store, rec.id), out)
+        return 0
+    if args.jobs_command == "export":
+        from runtrue.jobs.export import job_json, runs_csv
+
+        text = runs_csv(store, rec.id) if args.format == "csv" else json.dumps(job_json(store, rec.id), indent=1) + "\n"
+        _write(text, args.output)
+        return 0
     return 0
 
 
 def _list(store: Any, args: argparse.Namespace) -> int:
-    from runtrue.cli import UsageError
-
     machine_id = None
     if args.machine is not None:
         m = store.get_machine(args.machine)
@@ -116,7 +134,8 @@ def _list(store: Any, args: argparse.Namespace) -> int:
         return 0
     print(f"{'job':>5}  {'started':20}  {'status':8}  {'runs':>4}  machine")
     for j in jobs:
-        print(f"{j.id:>5}  {j.started_at:20}  {j.status:8}  {j.n_runs:>4}  {j.machine_name}")
+        problem = j.problem or (store.job_problem(j.id) if j.status == "open" else "")
+        print(f"{j.id:>5}  {j.started_at[:20]:20}  {j.status:8}  {j.n_runs:>4}  {problem or j.machine_name}")
     if machine_id is not None:
         trend = store.trend(machine_id)
         if trend:

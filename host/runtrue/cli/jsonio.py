@@ -1,5 +1,7 @@
 """Reading a JSON input file (or standard input) for the JSON-in/JSON-out sub-commands, with
-one-line messages for every way it can be wrong."""
+one-line messages for every way it can be wrong.  Limits: at most
+``runtrue.validation.MAX_JSON_BYTES`` bytes, nested at most ``MAX_JSON_DEPTH`` deep, finite
+numbers only."""
 
 from __future__ import annotations
 
@@ -8,25 +10,75 @@ import sys
 from typing import Any
 
 from runtrue.cli import UsageError
+from runtrue.validation import MAX_JSON_BYTES, MAX_JSON_DEPTH
+
+LIMITS_HELP = (f"Input limits: at most {MAX_JSON_BYTES // 1000} kB, nested at most {MAX_JSON_DEPTH} deep, "
+               "finite numbers only.")
 
 
 def _reject_constant(name: str) -> float:
     raise UsageError(f"{name} is not a number; give finite numbers only")
 
 
+def _too_large(x: str) -> float:
+    v = float(x)
+    if v in (float("inf"), float("-inf")):
+        raise UsageError(f"the number {x[:20]} is too large; give finite numbers only")
+    return v
+
+
+def _big_int(x: str) -> int:
+    if len(x.lstrip("-")) > 30:
+        raise UsageError(f"the number {x[:20]}... has {len(x)} digits; give a plausible value")
+    return int(x)
+
+
+def _depth(obj: Any) -> int:
+    """Nesting depth of parsed JSON, without recursion."""
+    deepest = 0
+    stack: list[tuple[Any, int]] = [(obj, 1)]
+    while stack:
+        node, d = stack.pop()
+        if isinstance(node, dict):
+            deepest = max(deepest, d)
+            stack.extend((v, d + 1) for v in node.values())
+        elif isinstance(node, list):
+            deepest = max(deepest, d)
+            stack.extend((v, d + 1) for v in node)
+    return deepest
+
+
+def _read(path: str) -> bytes:
+    if path == "-":
+        stream = getattr(sys.stdin, "buffer", None)
+        if stream is None:  # a text stream (tests): encode it back
+            return sys.stdin.read(MAX_JSON_BYTES + 1).encode("utf-8", "surrogateescape")
+        return stream.read(MAX_JSON_BYTES + 1)
+    with open(path, "rb") as f:
+        return f.read(MAX_JSON_BYTES + 1)
+
+
 def load_json(path: str) -> Any:
     """The parsed JSON of ``path`` (``-`` for standard input); NaN and Infinity are refused."""
     try:
-        if path == "-":
-            text = sys.stdin.read()
-        else:
-            with open(path, encoding="utf-8") as f:
-                text = f.read()
+        raw = _read(path)
+    except IsADirectoryError:
+        raise UsageError(f"{path} is a folder; give a JSON file") from None
     except OSError as exc:
         raise UsageError(f"cannot read {path}: {exc.strerror or exc}") from None
+    if len(raw) > MAX_JSON_BYTES:
+        raise UsageError(f"{path} is larger than {MAX_JSON_BYTES // 1000} kB; a job description is far smaller, "
+                         "check it is the right file")
+    try:
+        text = raw.decode("utf-8")
     except UnicodeDecodeError:
         raise UsageError(f"{path} is not UTF-8 text; give a JSON file") from None
     try:
-        return json.loads(text, parse_constant=_reject_constant)
+        data = json.loads(text, parse_constant=_reject_constant, parse_float=_too_large, parse_int=_big_int)
+    except RecursionError:
+        raise UsageError(f"{path} is nested too deeply (more than {MAX_JSON_DEPTH} levels); check it is the right file") from None
     except json.JSONDecodeError as exc:
         raise UsageError(f"{path} is not valid JSON: {exc.msg} at line {exc.lineno} column {exc.colno}") from None
+    if _depth(data) > MAX_JSON_DEPTH:
+        raise UsageError(f"{path} is nested more than {MAX_JSON_DEPTH} levels deep; check it is the right file")
+    return data

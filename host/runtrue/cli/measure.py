@@ -31,7 +31,8 @@ import json
 import math
 from typing import Any
 
-from runtrue.cli import UsageError
+from runtrue import validation as v
+from runtrue.cli import UsageError, checked
 
 ALL_CHANNELS = -1  # --channels all: every channel the meter has
 CONVENTIONS = "amp: g, 1x peak; phase: lag in degrees after the reference mark (0-360); spread: standard deviation of the mean vector, g"
@@ -49,26 +50,34 @@ def _channels_mask(text: str) -> int:
     return mask
 
 
+def _rate(text: str) -> int:
+    return v.whole(text, "--rate", 500, 10_000)
+
+
 def register(subparsers: Any) -> None:
     p = subparsers.add_parser(
         "measure",
         help="measure the 1x vibration vector (amplitude, phase lag) of each pickup",
         description="Measure the 1x vibration of each pickup, vector-averaged over N revolutions. "
         "Amplitude in g 1x peak, phase as a lag in degrees after the reference mark. "
+        f"Limits: --revs 2-{v.MAX_REVS}, --timeout {v.MIN_TIMEOUT_S:g}-{v.MAX_TIMEOUT_S:g} s, --rate 500-10000 Hz, "
+        f"--seed 0-{v.MAX_SEED}; the whole measurement stops after 10 x --revs + 20 revolutions. "
         "CAUTION: rotating machinery can kill; keep clear of the plane of rotation.",
     )
     p.add_argument("--port", help="serial port of the meter (e.g. /dev/ttyACM0), or sim:NAME for the "
                    "simulator (`runtrue scenarios`); default: the first meter found")
-    p.add_argument("--revs", type=int, default=20, help="usable revolutions to average (default 20)")
+    p.add_argument("--revs", type=checked(v.revs), default=20,
+                   help=f"usable revolutions to average, 2-{v.MAX_REVS} (default 20)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
-    p.add_argument("--seed", type=int, default=None, help="simulator only: make the run repeatable")
-    p.add_argument("--rate", type=int, default=None, metavar="HZ", help="sample rate per channel, 500-10000 Hz")
+    p.add_argument("--seed", type=checked(v.seed), default=None,
+                   help=f"simulator only: make the run repeatable (0-{v.MAX_SEED})")
+    p.add_argument("--rate", type=checked(_rate), default=None, metavar="HZ", help="sample rate per channel, 500-10000 Hz")
     p.add_argument("--edge", choices=("rising", "falling"), default=None, help="active edge of the reference pulse")
     p.add_argument("--channels", type=_channels_mask, default=None, metavar="LIST",
                    help="channels to measure, e.g. 0 or 0,1 or all (default: as the meter is set)")
     p.add_argument("--spy", default=None, metavar="FILE", help="also write a hex dump of the link traffic to FILE")
-    p.add_argument("--timeout", type=float, default=5.0, metavar="S",
-                   help="longest wait for one revolution, seconds (default 5)")
+    p.add_argument("--timeout", type=checked(v.timeout_s), default=5.0, metavar="S",
+                   help=f"longest wait for one revolution, {v.MIN_TIMEOUT_S:g}-{v.MAX_TIMEOUT_S:g} s (default 5)")
 
 
 def _pick_port(port: str | None) -> str:
@@ -113,12 +122,12 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         flags_seen: set[str] = set()
         limit = 10 * args.revs + 20
         while len(usable) < args.revs:
+            seen_before = client.counts()
             rev = client.read_revolution(args.timeout)
             if rev is None:
+                cause = client.diagnose(seen_before, waited_s=args.timeout)
                 raise UsageError(
-                    f"no revolution from {port} within {args.timeout:g} s ({len(usable)} of {args.revs} so far): "
-                    "are the reference pulses missing? Check the machine is running and the reference "
-                    "sensor sees its mark once per revolution (its gap, its LED, --edge), or give a longer --timeout"
+                    f"no revolution from {port} within {args.timeout:g} s ({len(usable)} of {args.revs} so far): {cause}"
                 )
             seen += 1
             if counts(rev):
@@ -133,10 +142,15 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
                     "steady the speed, check the reference mark and the pickup's range, then measure again"
                 )
         client.stop()
-    except (MeterError, TransportLost) as exc:
+    except TransportLost as exc:
+        raise UsageError(f"{exc}, then measure again") from None
+    except MeterError as exc:
         raise UsageError(str(exc)) from None
     finally:
-        client.close()
+        try:
+            client.close()
+        except Exception:  # noqa: BLE001 - the port may already be gone; the message above says why
+            pass
     reading = vector_average(usable, info=client.info)
     out: dict[str, Any] = {
         "rpm": reading.speed_rpm,
@@ -201,12 +215,6 @@ def _table(result: dict[str, Any]) -> str:
 
 
 def run(args: Any) -> int:
-    if args.revs < 2:
-        raise UsageError(f"--revs {args.revs}: average at least 2 revolutions (20 or more is usual)")
-    if args.timeout <= 0:
-        raise UsageError("--timeout must be a positive number of seconds")
-    if args.rate is not None and not 500 <= args.rate <= 10_000:
-        raise UsageError(f"--rate {args.rate}: the meter samples at 500-10000 Hz per channel")
     port = _pick_port(args.port)
     result = _measure(args, port)
     if args.json:

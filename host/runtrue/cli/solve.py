@@ -27,8 +27,11 @@ import math
 import sys
 from typing import Any
 
+from runtrue import validation as v
 from runtrue.cli import UsageError
-from runtrue.cli.jsonio import load_json
+from runtrue.cli.jsonio import LIMITS_HELP, load_json
+
+MAX_WEIGHTS_PER_RUN = 16
 
 SAFETY = (
     "Rotating machinery can kill: stop and lock out the machine before fitting weights, secure "
@@ -51,10 +54,22 @@ def register(subparsers: Any) -> None:
         description="Read runs as JSON from FILE (or - for standard input) and print the "
         "corrections, influence coefficients, predicted readings and warnings as JSON. "
         + CONVENTIONS
-        + ".",
+        + ". "
+        + LIMITS_HELP
+        + f" At most {v.MAX_RUNS} runs, {v.MAX_PICKUPS} pickups, planes 1-{v.MAX_PLANES}, "
+        f"{MAX_WEIGHTS_PER_RUN} weights per run; weights {v.WEIGHT_MIN_G:g}-{v.WEIGHT_MAX_G:g} g at "
+        f"{v.RADIUS_MIN_MM:g}-{v.RADIUS_MAX_MM:g} mm; amplitudes up to {v.AMPLITUDE_MAX:g}; speed_rpm "
+        f"{v.SPEED_MIN_RPM:g}-{v.CALC_SPEED_MAX_RPM:g}. A correction more than "
+        f"{v.CORRECTION_MAX_TRIAL_RATIO:g} times its plane's trial weight is refused: the trial run "
+        "changed nothing measurable.",
     )
     p.add_argument("file", metavar="FILE", help="JSON file with the runs, or - for standard input")
 
+
+
+def _shown(value: Any) -> str:
+    text = json.dumps(value)
+    return text if len(text) <= 40 else text[:37] + "..."
 
 
 def _number(obj: dict, key: str, where: str, required: bool = True) -> float | None:
@@ -62,12 +77,23 @@ def _number(obj: dict, key: str, where: str, required: bool = True) -> float | N
         if required:
             raise UsageError(f"{where}: missing \"{key}\"")
         return None
-    v = obj[key]
-    if isinstance(v, bool) or not isinstance(v, (int, float)):
-        raise UsageError(f"{where}: \"{key}\" must be a number, got {json.dumps(v)}")
-    if not math.isfinite(float(v)):
+    value = obj[key]
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise UsageError(f"{where}: \"{key}\" must be a number, got {_shown(value)}")
+    try:
+        x = float(value)
+    except OverflowError:
+        raise UsageError(f"{where}: \"{key}\" is far too large; check the units") from None
+    if not math.isfinite(x):
         raise UsageError(f"{where}: \"{key}\" must be a finite number")
-    return float(v)
+    return x
+
+
+def _checked(check: Any, value: float, where: str, *args: Any) -> Any:
+    try:
+        return check(value, *args)
+    except v.ValidationError as exc:
+        raise UsageError(f"{where}: {exc}") from None
 
 
 def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
@@ -83,6 +109,8 @@ def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
         raise UsageError("\"runs\" must be a list of runs")
     if len(runs_in) < 2:
         raise UsageError(f"{len(runs_in)} run(s) given; need the reference run and at least one trial run per plane")
+    if len(runs_in) > v.MAX_RUNS:
+        raise UsageError(f"{len(runs_in)} runs given; at most {v.MAX_RUNS}")
     runs = []
     with_phase: set[bool] = set()
     for k, run in enumerate(runs_in, start=1):
@@ -94,14 +122,16 @@ def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
             raise UsageError(f"{where}: \"weights\" must be a list")
         if k == 1 and weights_in:
             raise UsageError("run 1 is the reference state and carries no weights relative to itself")
+        if len(weights_in) > MAX_WEIGHTS_PER_RUN:
+            raise UsageError(f"{where}: {len(weights_in)} weights; at most {MAX_WEIGHTS_PER_RUN} per run")
         weights = []
         for j, w in enumerate(weights_in, start=1):
             wh = f"{where}, weight {j}"
             if not isinstance(w, dict):
                 raise UsageError(f"{wh} must be an object with plane, mass, angle, radius")
             plane = w.get("plane")
-            if isinstance(plane, bool) or not isinstance(plane, int) or plane < 1:
-                raise UsageError(f"{wh}: \"plane\" must be a whole number from 1, got {json.dumps(plane)}")
+            if isinstance(plane, bool) or not isinstance(plane, int) or not 1 <= plane <= v.MAX_PLANES:
+                raise UsageError(f"{wh}: \"plane\" must be a whole number from 1 to {v.MAX_PLANES}, got {_shown(plane)}")
             mass = _number(w, "mass", wh)
             angle = _number(w, "angle", wh)
             radius_mm = _number(w, "radius", wh)
@@ -110,10 +140,15 @@ def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
                 raise UsageError(f"{wh}: \"mass\" must be above 0 g (put the direction in the angle), got {mass:g}")
             if radius_mm <= 0:
                 raise UsageError(f"{wh}: \"radius\" must be above 0 mm, got {radius_mm:g}")
+            _checked(v.weight_g, mass, wh, "\"mass\"")
+            _checked(v.radius_mm, radius_mm, wh, "\"radius\"")
+            _checked(v.angle_deg, angle, wh, "\"angle\"")
             weights.append(Weight(plane, mass, angle, radius_mm))
         readings_in = run.get("readings")
         if not isinstance(readings_in, list) or not readings_in:
             raise UsageError(f"{where}: \"readings\" must be a list with one reading per pickup")
+        if len(readings_in) > v.MAX_PICKUPS:
+            raise UsageError(f"{where}: {len(readings_in)} readings; at most {v.MAX_PICKUPS} pickups")
         readings: list[complex] = []
         spreads: list[float] = []
         for i, rd in enumerate(readings_in, start=1):
@@ -124,13 +159,17 @@ def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
             assert amp is not None
             if amp < 0:
                 raise UsageError(f"{wh}: \"amp\" must be >= 0 (put the direction in the phase), got {amp:g}")
+            _checked(v.amplitude, amp, wh, "\"amp\"")
             phase = _number(rd, "phase", wh, required=False)
+            if phase is not None:
+                phase = _checked(v.angle_deg, phase, wh, "\"phase\"")
             with_phase.add(phase is not None)
             readings.append(phasor(amp, phase) if phase is not None else complex(amp, 0.0))
             spread = _number(rd, "spread", wh, required=False)
             if spread is not None:
                 if spread < 0:
                     raise UsageError(f"{wh}: \"spread\" must be >= 0, got {spread:g}")
+                _checked(v.amplitude, spread, wh, "\"spread\"")
                 spreads.append(spread)
         if spreads and len(spreads) != len(readings):
             raise UsageError(f"{where}: give \"spread\" for every reading or for none")
@@ -145,15 +184,14 @@ def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
             raise UsageError("\"radius\" must be an object: plane number -> radius in mm, e.g. {\"1\": 120}")
         radius = {}
         for key in radius_in:
-            try:
-                plane = int(key)
-            except ValueError:
-                raise UsageError(f"\"radius\": key {json.dumps(key)} is not a plane number") from None
+            if not (isinstance(key, str) and key.strip().isdigit() and len(key.strip()) <= 2):
+                raise UsageError(f"\"radius\": key {_shown(key)} is not a plane number 1-{v.MAX_PLANES}")
+            plane = int(key)
             r = _number(radius_in, key, "\"radius\"")
             assert r is not None
-            if plane < 1 or r <= 0:
+            if not 1 <= plane <= v.MAX_PLANES or r <= 0:
                 raise UsageError(f"\"radius\": plane {key} needs a radius above 0 mm, got {r:g}")
-            radius[plane] = r
+            radius[plane] = _checked(v.radius_mm, r, "\"radius\"", f"plane {plane} radius")
     return runs, radius, with_phase == {False}
 
 
@@ -207,15 +245,30 @@ def solution_json(sol: Any) -> dict[str, Any]:
 
 
 def _speed(data: dict) -> float | None:
-    from runtrue.balancing import BalancingError, check_speed_rpm
-
     speed = _number(data, "speed_rpm", "input", required=False)
     if speed is None:
         return None
     try:
-        return check_speed_rpm(speed)
-    except BalancingError as exc:
+        return v.speed_rpm(speed, calc=True)
+    except v.ValidationError as exc:
         raise UsageError(f"\"speed_rpm\": {exc}") from None
+
+
+def check_plausible(sol: Any, runs: list) -> None:
+    """Refuse a correction that means nothing: beyond any balance weight, or far beyond the trial
+    weight of its plane (the trial run changed nothing measurable)."""
+    for w in sol.corrections:
+        if not (math.isfinite(w.mass_g) and math.isfinite(w.radius_mm)):
+            raise UsageError(f"plane {w.plane}: no finite correction; check that each trial run changed the readings")
+        trial_gmm = max((t.mass_g * t.radius_mm for run in runs[1:] for t in run.weights if t.plane == w.plane),
+                        default=0.0)
+        try:
+            v.check_correction_plausible(w.mass_g * w.radius_mm, trial_gmm, w.plane)
+        except v.ValidationError as exc:
+            raise UsageError(str(exc)) from None
+        if w.mass_g > v.WEIGHT_MAX_G:
+            raise UsageError(f"plane {w.plane}: the correction would be {w.mass_g:.3g} g, beyond any balance weight "
+                             f"({v.WEIGHT_MAX_G:g} g); check the readings' units and that the trial runs changed them")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -234,10 +287,13 @@ def run(args: argparse.Namespace) -> int:
             sol = solve(runs, radius)
     except BalancingError as exc:
         raise UsageError(str(exc)) from None
+    check_plausible(sol, runs)
     out = solution_json(sol)
     if speed is not None:
         for entry, w in zip(out["corrections"], sol.corrections):
-            entry["force_n"] = _r(centrifugal_force_n(w.mass_g, w.radius_mm, speed)) if w.mass_g > 0 else 0.0
+            # Below the lightest weight (round-off of a zero correction) there is nothing to hold.
+            entry["force_n"] = (_r(centrifugal_force_n(w.mass_g, w.radius_mm, speed))
+                                if w.mass_g >= v.WEIGHT_MIN_G else 0.0)
         out["safety"] = SAFETY
     json.dump(out, sys.stdout, indent=2)
     sys.stdout.write("\n")

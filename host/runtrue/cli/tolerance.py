@@ -16,7 +16,11 @@ import math
 import sys
 from typing import Any
 
+from runtrue import validation as v
 from runtrue.cli import UsageError
+
+GRADE_MIN_MM_S = 0.1  # below the finest grade ISO 21940-11 lists (G 0.4) with room to spare
+GRADE_MAX_MM_S = 4000.0  # the coarsest grade it lists (G 4000)
 
 
 def register(subparsers: Any) -> None:
@@ -25,7 +29,10 @@ def register(subparsers: Any) -> None:
         help="permissible residual unbalance for a balance quality grade (ISO 21940-11), as JSON",
         description="Permissible residual unbalance U_per = 9549 * G * m / n (g*mm) and specific "
         "unbalance e_per = U_per / m (um) for balance quality grade G (mm/s), rotor mass m (kg) "
-        "and maximum service speed n (rpm), allocated to one or two tolerance planes.",
+        "and maximum service speed n (rpm), allocated to one or two tolerance planes. "
+        f"Limits: grade {GRADE_MIN_MM_S:g}-{GRADE_MAX_MM_S:g} mm/s, mass {v.ROTOR_MASS_MIN_KG:g}-"
+        f"{v.ROTOR_MASS_MAX_KG:g} kg, speed {v.SPEED_MIN_RPM:g}-{v.CALC_SPEED_MAX_RPM:g} rpm, distances "
+        f"0-{v.RADIUS_MAX_MM:g} mm, journal load up to the rotor mass limit.",
     )
     p.add_argument("--grade", required=True, metavar="G", help="balance quality grade in mm/s: 6.3, G6.3 or 'G 6.3'")
     p.add_argument("--mass-kg", required=True, metavar="M", help="rotor mass in kg")
@@ -66,6 +73,20 @@ def run(args: argparse.Namespace) -> int:
     grade = _num(str(args.grade).strip().upper().removeprefix("G").strip(), "--grade")
     mass = _num(args.mass_kg, "--mass-kg")
     rpm = _num(args.rpm, "--rpm")
+    try:
+        v.in_range(grade, "--grade", GRADE_MIN_MM_S, GRADE_MAX_MM_S, "mm/s",
+                   "give an ISO 21940-11 balance quality grade such as 6.3 or G2.5")
+        v.rotor_mass_kg(mass, field="--mass-kg")
+        v.speed_rpm(rpm, calc=True)
+        if args.distances_mm is not None:
+            for text in args.distances_mm:
+                v.in_range(_num(text, "--distances-mm"), "--distances-mm", 0.0, v.RADIUS_MAX_MM, "mm",
+                           "give each plane's distance from the centre of mass in millimetres")
+        if args.journal_load_kg is not None:
+            v.in_range(_num(args.journal_load_kg, "--journal-load-kg"), "--journal-load-kg", v.ROTOR_MASS_MIN_KG,
+                       v.ROTOR_MASS_MAX_KG, "kg", "give the static load on one journal in kilograms")
+    except v.ValidationError as exc:
+        raise UsageError(str(exc)) from None
     if args.planes not in ("1", "2"):
         raise UsageError(f"--planes must be 1 or 2, got {args.planes!r}")
     planes = int(args.planes)

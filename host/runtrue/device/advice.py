@@ -31,3 +31,41 @@ def envelope_warning(speed_rpm: float, min_rpm: float, max_rpm: float) -> str | 
         return (f"the machine turns at {speed_rpm:,.0f} rpm, below the meter's {min_rpm:,.0f} rpm limit at "
                 "this sample rate: revolutions are longer than the meter holds; lower the sample rate (--rate)")
     return None
+#: The meter sends STATUS about once a second while streaming (PROTOCOL.md); a silence longer
+#: than this while streaming means the meter itself went quiet.
+STATUS_SILENCE_S = 2.5
+
+
+def link_diagnosis(*, bytes_in: int, frames_ok: int, framing_errors: int, crc_errors: int,
+                   version_errors: int, restarts: int, revolutions: int, streaming: bool,
+                   waited_s: float = 0.0) -> str:
+    """The likeliest cause of a silent or failing link, from what the host saw in the same time
+    window (counts since the wait began), in words for the user.  The order is the order of
+    evidence: a restart seen explains the silence after it; bytes that never form a frame point
+    at the wrong device or noise, not at missing reference pulses.  Common practice."""
+    if restarts:
+        return ("the meter restarted (a power dip, a loose USB cable or a firmware reset) and stopped "
+                "streaming; check the cable and the meter's supply, then measure again")
+    if version_errors and not frames_ok:
+        return ("the meter speaks another protocol version: install the firmware that matches this "
+                "runtrue with `runtrue device install`")
+    bad = framing_errors + crc_errors
+    if bad and frames_ok == 0:
+        return (f"bytes arrive but none forms a valid frame ({framing_errors} framing and {crc_errors} "
+                "checksum errors): this port may be another device, the board may run other firmware, "
+                "or the cable picks up electrical noise; check the port, try `runtrue device check`, and "
+                "route the USB cable away from motor and drive wiring")
+    if bad > frames_ok:
+        return (f"most frames arrive damaged ({bad} bad, {frames_ok} good): electrical noise on the USB "
+                "cable or a failing cable or hub; use a short shielded cable away from drive wiring")
+    if bytes_in == 0 and streaming and waited_s >= STATUS_SILENCE_S:
+        return ("nothing at all came from the meter, not even its once-a-second status: it stopped "
+                "streaming or hung; unplug and re-plug it")
+    if bytes_in == 0 and not streaming:
+        return ("nothing at all came back: this port is not a runtrue meter, or the runtrue firmware is not "
+                "running on it (`runtrue device check` tells which; `runtrue device install` puts it on)")
+    if streaming and revolutions == 0:
+        return ("the meter answers but sends no revolutions: are the reference pulses missing? Check the "
+                "machine is running and the reference sensor sees its mark once per revolution (its gap, "
+                "its LED, the edge setting)")
+    return "the meter answers, but not in time: try again, or unplug and re-plug the meter"

@@ -22,12 +22,15 @@ import time
 from typing import Any, Callable
 
 from runtrue.device import revfit
-from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning
+from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning, link_diagnosis
+from runtrue.device.sequence import DUPLICATE, RESTART, STALE, SequenceTracker
 from runtrue.readings.admit import counts, why_left_out
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import (
+    ACK,
+    INFO,
     CMD_IDENTIFY,
     CMD_SELFTEST,
     CMD_SET_CHANNELS,
@@ -62,11 +65,8 @@ POLL_S = 0.05
 REV_QUEUE_MAX = 100_000  # about 30 min at 3,600 rpm; the oldest go first beyond that
 
 
-def _no_answer_text(port: str) -> str:
-    return (
-        f"no answer from the meter on {port}: is the runtrue firmware installed? "
-        "try `runtrue device check`"
-    )
+def _no_answer_text(port: str, cause: str) -> str:
+    return f"no answer from the meter on {port}: {cause}"
 
 
 def _flagged_advice(port: str, n_flagged: int, n_good: int, n_wanted: int, flagged: dict[str, int]) -> str:
@@ -89,7 +89,9 @@ class MeterClient:
         self.info: DeviceInfo | None = None
         self.last_status: Status | None = None
         self.log: collections.deque[str] = collections.deque(maxlen=200)
-        self.message_errors = 0
+        self.message_errors = 0  # checked frames whose message could not be read or kept
+        self.sequence = SequenceTracker()  # duplicates, restarts and lost frames by sequence number
+        self.bytes_in = 0
         self.envelope_warning: str | None = None  # set while the latest revolution is outside the envelope
         self.reconnects = 0
         self.connected = True
@@ -113,7 +115,34 @@ class MeterClient:
     @property
     def lost_frames(self) -> int:
         """Device frames that never arrived (from sequence-number gaps)."""
-        return self.decoder.lost_frames
+        return self.sequence.lost_frames
+
+    @property
+    def duplicate_frames(self) -> int:
+        """Frames delivered twice (same sequence number as the last): dropped."""
+        return self.sequence.duplicates
+
+    @property
+    def meter_restarts(self) -> int:
+        """Times the meter was seen to start again (its sequence numbers began anew)."""
+        return self.sequence.restarts
+
+    def counts(self) -> dict[str, int]:
+        """A snapshot of the link counters, for :meth:`diagnose` after a wait."""
+        return self._counts()
+
+    def _counts(self) -> dict[str, int]:
+        d = self.decoder
+        return {"bytes_in": self.bytes_in, "frames_ok": d.frames_ok, "framing_errors": d.framing_errors,
+                "crc_errors": d.crc_errors, "version_errors": d.version_errors, "restarts": self.sequence.restarts}
+
+    def diagnose(self, since: dict[str, int] | None = None, revolutions: int = 0, waited_s: float = 0.0) -> str:
+        """The likeliest cause of a silence or failure, from the counts since ``since`` (a
+        snapshot of :meth:`_counts`; default: the whole session) over ``waited_s`` seconds."""
+        now = self._counts()
+        base = since or {k: 0 for k in now}
+        delta = {k: now[k] - base.get(k, 0) for k in now}
+        return link_diagnosis(revolutions=revolutions, streaming=self.streaming, waited_s=waited_s, **delta)
 
     @property
     def frame_errors(self) -> int:
@@ -153,22 +182,35 @@ class MeterClient:
         elif isinstance(message, Status):
             self.last_status = message
         elif isinstance(message, SelfTest):
+            raw = dict(message.raw)  # raises on a payload that is not an object: counted by feed()
+            self._selftest_parts[int(raw.get("part", 0) or 0)] = raw
             self._selftest = message
-            self._selftest_parts[int(message.raw.get("part", 0) or 0)] = dict(message.raw)
         elif isinstance(message, Text):
             self.log.append(message.text)
 
     def feed(self, data: bytes) -> None:
-        """Decode bytes from the transport and keep the messages they complete."""
+        """Decode bytes from the transport and keep the messages they complete.
+
+        Never raises on what the meter sends: a frame delivered twice or out of order is dropped
+        (``runtrue.device.sequence``); a message that cannot be read or kept, whatever the
+        exception, is counted in ``message_errors``, logged, and the next one is taken."""
+        self.bytes_in += len(data)
         for frame in self.decoder.feed(data):
+            verdict = self.sequence.verdict(frame.seq, answer=frame.type in (INFO, ACK), now_s=time.monotonic())
+            if verdict in (DUPLICATE, STALE):
+                continue
             self._frames_seen += 1
+            if verdict == RESTART:
+                self.log.append(f"the meter restarted (sequence number back to {frame.seq})")
             try:
                 message = parse_message(frame)
+                self._dispatch(message)
             except MessageError as exc:
                 self.message_errors += 1
                 self.log.append(f"bad message: {exc}")
-                continue
-            self._dispatch(message)
+            except Exception as exc:  # noqa: BLE001 - a payload the parser did not foresee: count it, go on
+                self.message_errors += 1
+                self.log.append(f"unreadable message of type {frame.type:#04x}: {type(exc).__name__}: {exc}"[:200])
 
     def _pump(self, timeout_s: float, deadline: float) -> None:
         """Read once (waiting up to ``timeout_s``); reconnect on loss while ``deadline`` allows."""
@@ -201,6 +243,7 @@ class MeterClient:
         self.connected = True
         self.decoder.discard_partial()
         self.decoder.reset_sequence()
+        self.sequence.reset()
         self._acks.clear()
         self._flush_next = True
         wanted = dict(self._wanted)
@@ -218,8 +261,7 @@ class MeterClient:
         remaining = max(0.0, deadline - time.monotonic())
         if not self.transport.reopen(remaining):
             raise TransportLost(
-                f"the meter on {self.port} is unplugged or not answering; plug it back in and "
-                "the session carries on (nothing recorded is lost)"
+                f"the meter on {self.port} is unplugged or not answering: check the USB cable and plug it back in"
             )
         self.reconnects += 1
         self._resync()
@@ -254,15 +296,17 @@ class MeterClient:
             self._reconnect(deadline)
             return self._command(cmd_type, payload, max(0.1, deadline - time.monotonic()))
         frames_before = self._frames_seen
+        counts_before = self._counts()
         if not self._wait(lambda: seq in self._acks, timeout):
             if self.decoder.version_errors and self.decoder.frames_ok == 0:
                 raise MeterError(f"the meter on {self.port} answers in another protocol version: "
                                  f"{self.decoder.last_error}")
+            cause = self.diagnose(counts_before, revolutions=1, waited_s=timeout)
             if self._frames_seen == frames_before and self.decoder.frames_ok == 0:
-                raise NoAnswer(_no_answer_text(self.port))
+                raise NoAnswer(_no_answer_text(self.port, cause))
             raise MeterError(
                 f"the meter on {self.port} did not acknowledge {name} within {timeout:g} s "
-                f"(frames lost so far: {self.lost_frames}); try again, or unplug and re-plug the meter"
+                f"(frames lost so far: {self.lost_frames}): {cause}"
             )
         ack = self._acks.pop(seq)
         if not ack.ok:
@@ -342,9 +386,11 @@ class MeterClient:
             return last
         checks: list[dict[str, Any]] = []
         for i in sorted(self._selftest_parts):
-            checks.extend(self._selftest_parts[i].get("checks", []))
+            part = self._selftest_parts[i].get("checks", [])
+            checks.extend(c for c in part if isinstance(c, dict)) if isinstance(part, list) else None
         result: dict[str, Any] = {"pass": bool(last.get("pass")), "checks": checks}
-        expected = int(last.get("parts") or len(self._selftest_parts))
+        parts = last.get("parts")
+        expected = parts if isinstance(parts, int) and 0 < parts < 1000 else len(self._selftest_parts)
         if len(self._selftest_parts) < expected:
             result["missing_parts"] = expected - len(self._selftest_parts)
         return result
@@ -385,12 +431,12 @@ class MeterClient:
         n_flagged = 0
         limit = max(FLAGGED_LIMIT, 4 * n)
         while len(out) < n:
+            counts_before = self._counts()
             rev = self.read_revolution(timeout_s)
             if rev is None:
                 raise NoRevolutions(
                     f"no revolution from the meter on {self.port} within {timeout_s:g} s "
-                    f"({len(out)} of {n} so far): is the machine running, and does the reference "
-                    "sensor see its mark once per revolution (check its LED, gap and the --edge setting)?"
+                    f"({len(out)} of {n} so far): {self.diagnose(counts_before, waited_s=timeout_s)}"
                 )
             if usable_only and not counts(rev):
                 n_flagged += 1

@@ -8,11 +8,20 @@ transaction).  A job's state is rebuilt from its runs and decisions (see
 
 Where the file lives: ``$RUNTRUE_DATA_DIR/runtrue.sqlite`` when that variable is set, else
 ``platformdirs.user_data_dir("runtrue")/runtrue.sqlite``.
+
+Defensive on both sides.  Every value is checked (``runtrue.validation``) before it is written,
+so nothing absurd is saved.  Every record is checked again when it is read: a row the code
+cannot use (damaged, written by hand, or by an older version with other limits) raises
+:class:`RecordError` ("unreadable record #N: reason") for that record only; lists show it as a
+row with ``problem`` set, and :meth:`JobStore.set_aside` closes such a job so it no longer
+waits to be resumed.  A file that is not a job database, or one from a newer runtrue, raises
+:class:`StoreError` when opened.
 """
 
 from __future__ import annotations
 
 import json
+import math
 import os
 import sqlite3
 import threading
@@ -21,6 +30,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable, Iterable, TypeVar
 
+from runtrue import validation
 from runtrue.jobs.model import RUN_KINDS, Machine, RunReading, RunRecord, StoredInfluence, Weight
 
 DB_FILENAME = "runtrue.sqlite"
@@ -68,6 +78,63 @@ CREATE INDEX IF NOT EXISTS jobs_by_machine ON jobs(machine_id, id);
 """
 
 JOB_STATUSES = ("open", "passed", "stopped")
+
+#: What reading a damaged or foreign record can raise.
+_LOAD_ERRORS = (KeyError, TypeError, ValueError, IndexError, AttributeError, OverflowError)
+
+
+class StoreError(Exception):
+    """The job database file cannot be used at all; the message says which file and what to do."""
+
+
+class RecordError(ValueError):
+    """One stored record the code cannot use.  ``table`` and ``row_id`` say which, ``reason`` why."""
+
+    def __init__(self, table: str, row_id: int, reason: str) -> None:
+        self.table = table
+        self.row_id = row_id
+        self.reason = reason
+        what = {"jobs": "job", "machines": "machine", "runs": "run", "events": "job decision"}.get(table, table)
+        super().__init__(f"unreadable record #{row_id} ({what}): {reason}")
+
+
+def _reason(exc: BaseException) -> str:
+    """A short reason for a record that failed to load."""
+    if isinstance(exc, KeyError):
+        return f"missing field {exc.args[0]!r}" if exc.args else "a field is missing"
+    if isinstance(exc, json.JSONDecodeError):
+        return "not valid JSON"
+    if isinstance(exc, (TypeError, AttributeError, IndexError)):
+        return "a field has the wrong type (written by another version?)"
+    text = " ".join(str(exc).split())
+    return text[:120] or type(exc).__name__
+
+
+def _json(text: Any, table: str, row_id: int) -> Any:
+    try:
+        return json.loads(text)
+    except (TypeError, ValueError) as exc:
+        raise RecordError(table, row_id, _reason(exc)) from None
+
+
+def _floats(value: Any) -> list[float]:
+    """A stored list of numbers, leaving out anything that is not a finite number."""
+    if not isinstance(value, list):
+        return []
+    out = []
+    for x in value:
+        if isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x):
+            out.append(float(x))
+    return out
+
+
+def _check_reading(reading: RunReading) -> None:
+    validation.in_range(reading.speed_rpm, "reading speed", validation.SPEED_MIN_RPM,
+                        validation.CALC_SPEED_MAX_RPM, "rpm", "take the reading again", field="speed")
+    if not 1 <= len(reading.channels) <= validation.MAX_PICKUPS:
+        raise validation.ValidationError(f"a reading has 1-{validation.MAX_PICKUPS} channels", "channels")
+    for i, ch in enumerate(reading.channels, start=1):
+        validation.amplitude(abs(ch.mean), f"pickup {i} amplitude")
 
 _F = TypeVar("_F", bound=Callable[..., Any])
 
@@ -135,6 +202,7 @@ class JobSummary:
     finished_at: str | None
     n_runs: int
     passed: bool | None
+    problem: str = ""  # set when the record cannot be used: "unreadable record #N (job): reason"
 
 
 @dataclass(frozen=True)
@@ -161,16 +229,38 @@ class JobStore:
 
     def __init__(self, path: str | os.PathLike[str] | None = None) -> None:
         self.path = Path(path) if path is not None else default_db_path()
-        if str(self.path) != ":memory:":
-            self.path.parent.mkdir(parents=True, exist_ok=True)
         self._lock = threading.RLock()
-        self._db = sqlite3.connect(str(self.path), isolation_level=None, timeout=10.0, check_same_thread=False)
-        self._db.row_factory = sqlite3.Row
-        self._db.execute("PRAGMA journal_mode=WAL")
-        self._db.execute("PRAGMA synchronous=FULL")
-        self._db.execute("PRAGMA foreign_keys=ON")
-        self._db.executescript(_SCHEMA)
-        self._db.execute(f"PRAGMA user_version={SCHEMA_VERSION}")
+        where = str(self.path)
+        try:
+            if where != ":memory:":
+                if self.path.is_dir():
+                    raise StoreError(f"{where} is a folder, not a job database; give the database file")
+                self.path.parent.mkdir(parents=True, exist_ok=True)
+            self._db = sqlite3.connect(where, isolation_level=None, timeout=10.0, check_same_thread=False)
+        except (OSError, sqlite3.Error) as exc:
+            raise StoreError(f"cannot open the job database {where}: {exc}; check the path and its permissions") from None
+        try:
+            self._db.row_factory = sqlite3.Row
+            version = int(self._db.execute("PRAGMA user_version").fetchone()[0])
+            if version > SCHEMA_VERSION:
+                raise StoreError(
+                    f"the job database {where} was written by a newer runtrue (format {version}, this one "
+                    f"reads {SCHEMA_VERSION}); update runtrue, or use another file"
+                )
+            self._db.execute("PRAGMA journal_mode=WAL")
+            self._db.execute("PRAGMA synchronous=FULL")
+            self._db.execute("PRAGMA foreign_keys=ON")
+            self._db.executescript(_SCHEMA)
+            self._db.execute(f"PRAGMA user_version={SCHEMA_VERSION}")
+        except sqlite3.Error as exc:
+            self._db.close()
+            raise StoreError(
+                f"{where} is not a runtrue job database ({exc}); give the right file, or move this one "
+                "away and runtrue starts a new one"
+            ) from None
+        except StoreError:
+            self._db.close()
+            raise
 
     # -- plumbing -------------------------------------------------------------------------------
     @_locked
@@ -203,6 +293,7 @@ class JobStore:
 
         Raises ValueError when another machine already has the name.
         """
+        validation.check_machine(machine)
         data = json.dumps(machine.to_dict())
         t = now_iso()
         try:
@@ -232,12 +323,30 @@ class JobStore:
             row = self._db.execute("SELECT id, data FROM machines WHERE id=?", (key,)).fetchone()
         else:
             row = self._db.execute("SELECT id, data FROM machines WHERE name=?", (key,)).fetchone()
-        return Machine.from_dict(json.loads(row["data"]), id=row["id"]) if row else None
+        return _load_machine(row["data"], row["id"], "machines", row["id"]) if row else None
 
     @_locked
     def list_machines(self) -> list[Machine]:
+        """The saved machines that can be used, by name (see :meth:`unreadable_machines`)."""
         rows = self._db.execute("SELECT id, data FROM machines ORDER BY name COLLATE NOCASE").fetchall()
-        return [Machine.from_dict(json.loads(r["data"]), id=r["id"]) for r in rows]
+        out = []
+        for r in rows:
+            try:
+                out.append(_load_machine(r["data"], r["id"], "machines", r["id"]))
+            except RecordError:
+                continue
+        return out
+
+    @_locked
+    def unreadable_machines(self) -> list[RecordError]:
+        """The saved machines that cannot be used, each with its reason."""
+        out = []
+        for r in self._db.execute("SELECT id, data FROM machines ORDER BY id").fetchall():
+            try:
+                _load_machine(r["data"], r["id"], "machines", r["id"])
+            except RecordError as exc:
+                out.append(exc)
+        return out
 
     @_locked
     def store_influence(self, machine_id: int, influence: StoredInfluence) -> None:
@@ -252,6 +361,7 @@ class JobStore:
     @_locked
     def new_job(self, machine: Machine, options: dict[str, Any] | None = None) -> int:
         """Start a job on a machine (saved or not); the machine is kept as it is now."""
+        validation.check_machine(machine)
         cur = self._write(
             "INSERT INTO jobs (machine_id, machine, options, status, started_at) VALUES (?, ?, ?, 'open', ?)",
             (machine.id, json.dumps(machine.to_dict()), json.dumps(options or {}), now_iso()),
@@ -260,18 +370,53 @@ class JobStore:
 
     @_locked
     def get_job(self, job_id: int) -> JobRecord | None:
+        """A job by number; None if there is none; :class:`RecordError` if it cannot be used."""
+        if not 1 <= job_id <= validation.MAX_JOB_ID:
+            return None
         row = self._db.execute("SELECT * FROM jobs WHERE id=?", (job_id,)).fetchone()
         if row is None:
             return None
+        options = _json(row["options"], "jobs", job_id)
+        result = _json(row["result"], "jobs", job_id) if row["result"] else None
+        if not isinstance(options, dict) or not (result is None or isinstance(result, dict)):
+            raise RecordError("jobs", job_id, "its options or result are not a JSON object")
+        if row["status"] not in JOB_STATUSES:
+            raise RecordError("jobs", job_id, f"unknown status {str(row['status'])[:20]!r}")
         return JobRecord(
             id=row["id"],
             machine_id=row["machine_id"],
-            machine=Machine.from_dict(json.loads(row["machine"]), id=row["machine_id"]),
-            options=json.loads(row["options"]),
+            machine=_load_machine(row["machine"], row["machine_id"], "jobs", job_id),
+            options=options,
             status=row["status"],
-            started_at=row["started_at"],
+            started_at=str(row["started_at"]),
             finished_at=row["finished_at"],
-            result=json.loads(row["result"]) if row["result"] else None,
+            result=result,
+        )
+
+    @_locked
+    def job_problem(self, job_id: int) -> str:
+        """Why a job cannot be resumed or shown ("unreadable record #N (...): reason"), or ""."""
+        try:
+            rec = self.get_job(job_id)
+            if rec is None:
+                return f"there is no job {job_id}"
+            self.runs(job_id)
+            self.events(job_id, rotor_mass_kg=rec.machine.rotor_mass_kg)
+        except RecordError as exc:
+            return str(exc)
+        return ""
+
+    @_locked
+    def set_aside(self, job_id: int, reason: str = "") -> None:
+        """Close an unfinished job that cannot be resumed (status "stopped", no result): it leaves
+        the resume list and its records stay in the file, untouched, for a report or a repair."""
+        self._write(
+            "UPDATE jobs SET status='stopped', finished_at=? WHERE id=? AND status='open'",
+            (now_iso(), job_id),
+        )
+        self._write(
+            "INSERT INTO events (job_id, kind, at, data) VALUES (?, 'set_aside', ?, ?)",
+            (job_id, now_iso(), json.dumps({"reason": reason[:500]})),
         )
 
     @_locked
@@ -310,25 +455,46 @@ class JobStore:
         sql += " ORDER BY j.id DESC"
         out = []
         for r in self._db.execute(sql, params).fetchall():
-            result = json.loads(r["result"]) if r["result"] else None
+            problem = ""
+            name = "?"
+            passed = None
+            try:
+                result = _json(r["result"], "jobs", r["id"]) if r["result"] else None
+                machine = _json(r["machine"], "jobs", r["id"])
+                if not isinstance(machine, dict) or not isinstance(machine.get("name"), str):
+                    raise RecordError("jobs", r["id"], "the machine it was started on has no name")
+                name = machine["name"]
+                passed = result.get("passed") if isinstance(result, dict) else None
+                passed = passed if isinstance(passed, bool) else None
+            except RecordError as exc:
+                problem = str(exc)
             out.append(
                 JobSummary(
                     id=r["id"],
                     machine_id=r["machine_id"],
-                    machine_name=json.loads(r["machine"])["name"],
-                    status=r["status"],
-                    started_at=r["started_at"],
+                    machine_name=name,
+                    status=str(r["status"]),
+                    started_at=str(r["started_at"]),
                     finished_at=r["finished_at"],
                     n_runs=r["n_runs"],
-                    passed=result.get("passed") if result else None,
+                    passed=passed,
+                    problem=problem,
                 )
             )
         return out
 
     @_locked
     def unfinished_jobs(self) -> list[JobSummary]:
-        """Jobs still open (interrupted or in progress), newest first: offer to resume them."""
-        return self.list_jobs(status="open")
+        """Jobs still open (interrupted or in progress), newest first: offer to resume them.
+        Each is checked through: one that cannot be resumed has ``problem`` set."""
+        out = []
+        for j in self.list_jobs(status="open"):
+            if not j.problem:
+                problem = self.job_problem(j.id)
+                if problem:
+                    j = JobSummary(**{**j.__dict__, "problem": problem})
+            out.append(j)
+        return out
 
     @_locked
     def machine_history(self, machine_id: int) -> list[JobSummary]:
@@ -345,17 +511,28 @@ class JobStore:
         ).fetchall()
         points = []
         for r in rows:
-            res = json.loads(r["result"])
+            try:
+                res = _json(r["result"], "jobs", r["id"])
+            except RecordError:
+                continue  # listed as unreadable by list_jobs; no point for the trend
+            if not isinstance(res, dict):
+                continue
+            residual = _floats(res.get("residual_unbalance_gmm"))
+            permissible = _floats(res.get("permissible_unbalance_gmm"))
+            if len(residual) != len(permissible) or any(p <= 0 for p in permissible):
+                residual, permissible = [], []  # a ratio of these would mean nothing
+            passed = res.get("passed")
+            speed = res.get("speed_rpm")
             points.append(
                 TrendPoint(
                     job_id=r["id"],
-                    date=r["started_at"],
-                    initial_amp_g=list(res.get("initial", [])),
-                    final_amp_g=list(res.get("final", [])),
-                    residual_unbalance_gmm=list(res.get("residual_unbalance_gmm", [])),
-                    permissible_unbalance_gmm=list(res.get("permissible_unbalance_gmm", [])),
-                    passed=res.get("passed"),
-                    speed_rpm=res.get("speed_rpm"),
+                    date=str(r["started_at"]),
+                    initial_amp_g=_floats(res.get("initial")),
+                    final_amp_g=_floats(res.get("final")),
+                    residual_unbalance_gmm=residual,
+                    permissible_unbalance_gmm=permissible,
+                    passed=passed if isinstance(passed, bool) else None,
+                    speed_rpm=float(speed) if isinstance(speed, (int, float)) and math.isfinite(speed) else None,
                 )
             )
         return points
@@ -375,6 +552,14 @@ class JobStore:
         if kind not in RUN_KINDS:
             raise ValueError(f"run kind must be one of {RUN_KINDS}, got {kind!r}")
         weights = tuple(weights)
+        _check_reading(reading)
+        for w in weights:
+            _check_run_weight(w)
+        validation.text(note, "note", validation.MAX_NOTE_CHARS)
+        n = self._db.execute("SELECT COUNT(*) FROM runs WHERE job_id=?", (job_id,)).fetchone()[0]
+        if n >= validation.MAX_RUNS:
+            raise validation.ValidationError(
+                f"a job holds at most {validation.MAX_RUNS} runs; stop this job and start a new one")
         taken_at = taken_at or now_iso()
         cur = self._db.cursor()
         cur.execute("BEGIN IMMEDIATE")
@@ -404,30 +589,87 @@ class JobStore:
     def runs(self, job_id: int) -> list[RunRecord]:
         """A job's runs in the order taken."""
         rows = self._db.execute("SELECT * FROM runs WHERE job_id=? ORDER BY seq", (job_id,)).fetchall()
-        return [
-            RunRecord(
-                job_id=r["job_id"],
-                seq=r["seq"],
-                kind=r["kind"],
-                taken_at=r["taken_at"],
-                reading=RunReading.from_dict(json.loads(r["reading"])),
-                weights=tuple(Weight.from_dict(w) for w in json.loads(r["weights"])),
-                note=r["note"],
-                id=r["id"],
-            )
-            for r in rows
-        ]
+        out = []
+        for r in rows:
+            try:
+                if r["kind"] not in RUN_KINDS:
+                    raise ValueError(f"unknown run kind {str(r['kind'])[:20]!r}")
+                reading = RunReading.from_dict(_json(r["reading"], "runs", r["id"]))
+                weights = tuple(Weight.from_dict(w) for w in _json(r["weights"], "runs", r["id"]))
+                _check_reading(reading)
+                for w in weights:
+                    _check_run_weight(w)
+            except RecordError:
+                raise
+            except _LOAD_ERRORS as exc:
+                raise RecordError("runs", r["id"], f"run {r['seq']} of job {job_id}: {_reason(exc)}") from None
+            out.append(RunRecord(job_id=r["job_id"], seq=r["seq"], kind=r["kind"], taken_at=str(r["taken_at"]),
+                                 reading=reading, weights=weights, note=str(r["note"]), id=r["id"]))
+        return out
 
     @_locked
     def add_event(self, job_id: int, kind: str, data: dict[str, Any] | None = None) -> int:
-        """Record a workflow decision (committed before returning)."""
+        """Record a workflow decision (committed before returning); a chosen weight is checked
+        against the limits first (``runtrue.validation``)."""
+        _check_event(kind, data or {}, self._rotor_mass_kg(job_id))
         cur = self._write(
             "INSERT INTO events (job_id, kind, at, data) VALUES (?, ?, ?, ?)",
             (job_id, kind, now_iso(), json.dumps(data or {})),
         )
         return int(cur.lastrowid or 0)
 
+    def _rotor_mass_kg(self, job_id: int) -> float | None:
+        row = self._db.execute("SELECT machine FROM jobs WHERE id=?", (job_id,)).fetchone()
+        try:
+            mass = json.loads(row["machine"])["rotor_mass_kg"] if row else None
+            return float(mass) if isinstance(mass, (int, float)) and math.isfinite(mass) and mass > 0 else None
+        except _LOAD_ERRORS:
+            return None
+
     @_locked
-    def events(self, job_id: int) -> list[Event]:
+    def events(self, job_id: int, *, rotor_mass_kg: float | None = None) -> list[Event]:
+        """A job's decisions in order; :class:`RecordError` for one that cannot be used."""
+        mass = rotor_mass_kg if rotor_mass_kg is not None else self._rotor_mass_kg(job_id)
         rows = self._db.execute("SELECT * FROM events WHERE job_id=? ORDER BY id", (job_id,)).fetchall()
-        return [Event(r["kind"], json.loads(r["data"]), r["at"], r["id"]) for r in rows]
+        out = []
+        for r in rows:
+            data = _json(r["data"], "events", r["id"])
+            try:
+                if not isinstance(data, dict):
+                    raise TypeError("not an object")
+                _check_event(str(r["kind"]), data, mass)
+            except _LOAD_ERRORS as exc:
+                raise RecordError("events", r["id"], f"{r['kind']} of job {job_id}: {_reason(exc)}") from None
+            out.append(Event(str(r["kind"]), data, str(r["at"]), r["id"]))
+        return out
+
+
+def _load_machine(text: Any, machine_id: int | None, table: str, row_id: int) -> Machine:
+    """A stored machine, checked against today's limits, or :class:`RecordError`."""
+    data = _json(text, table, row_id)
+    try:
+        if not isinstance(data, dict):
+            raise TypeError("not an object")
+        machine = Machine.from_dict(data, id=machine_id)
+        validation.check_machine(machine)
+    except _LOAD_ERRORS as exc:
+        raise RecordError(table, row_id, _reason(exc)) from None
+    return machine
+
+
+def _check_run_weight(w: Weight) -> None:
+    """A weight recorded with a run: as a balance weight, or 0 g (a weight taken off)."""
+    if w.mass_g == 0:
+        validation.whole(w.plane, "weight plane", 1, validation.MAX_PLANES)
+        return
+    validation.check_weight(w)
+
+
+def _check_event(kind: str, data: dict[str, Any], rotor_mass_kg: float | None) -> None:
+    """The values inside a recorded decision (a chosen trial weight) within the limits."""
+    if kind == "trial_set":
+        w = Weight(int(validation.whole(data["plane"], "trial plane", 1, validation.MAX_PLANES)),
+                   validation.number(data["mass_g"], "trial mass"),
+                   validation.number(data["angle_deg"], "trial angle"),
+                   validation.number(data["radius_mm"], "trial radius"))
+        validation.check_weight(w, rotor_mass_kg=rotor_mass_kg)

@@ -108,6 +108,51 @@ class RuntrueApp(App):
         self.trial_removed = True  # take each trial weight off before the next run
         self.amplitude_only = False  # no reference mark: the four-run method (machine screen, F7)
         self.units = METRIC  # display units, metric or imperial (machine screen, F8); jobs stay metric
+        self.failure: str = ""  # the one line shown after an unexpected error ended the application
+
+    # -- notifications ----------------------------------------------------------------------------
+    def notify(self, message: str, *, title: str = "", severity: Any = "information",
+               timeout: float | None = None, markup: bool = True) -> None:
+        """Every notification goes to the current step screen's notice line (under the title bar,
+        covering nothing) as one text; dialogs and help, which have no such line, keep Textual's
+        toast."""
+        super().notify(message, title=title, severity=severity, timeout=timeout, markup=markup)
+        show = getattr(self.screen, "show_notice", None) if self._screen_stack else None
+        if show is not None:
+            text = " ".join(str(message).split())
+            show(f"{title}: {text}" if title else text, str(severity), float(timeout or 6.0))
+
+    def clear_notifications(self) -> None:
+        super().clear_notifications()
+        show = getattr(self.screen, "show_notice", None) if self._screen_stack else None
+        if show is not None:
+            show("")
+
+    # -- an unexpected error ----------------------------------------------------------------------
+    def _handle_exception(self, error: Exception) -> None:
+        """A bug or an unforeseen state: no traceback on screen.  The traceback goes to the error
+        log in the data directory; the application closes with exit status 2 and one line saying
+        what happened, where the details are, and that the job is kept (every run and decision is
+        in the job database before the screen shows it, so the job resumes from the Machine
+        screen).  Textual stops the message loop that raised, so carrying on is not safe."""
+        from rich.text import Text
+        from textual.app import ScreenStackError
+
+        from runtrue.errorlog import log_exception, one_line
+
+        if isinstance(error, ScreenStackError) and (self._exit or self._closing or not self._screen_stack):
+            return  # a key still queued while the application closes: nothing went wrong
+        where = log_exception(error, "runtrue app")
+        self.failure = (
+            f"runtrue: unexpected error ({one_line(error, 100)}); the job is kept: start runtrue again "
+            f"and resume it on the Machine screen. Details in {where}"
+        )
+        self._return_code = 2
+        if self._exception is None:  # the test pilot raises it again at the end of a test
+            self._exception = error
+            self._exception_event.set()
+        self._exit_renderables.append(Text(self.failure))
+        self._close_messages_no_wait()
 
     # -- start and stop -------------------------------------------------------------------------
     def on_mount(self) -> None:

@@ -8,6 +8,10 @@ meter (or a non-realtime simulator) cannot flood the screen.
 
 A pulled cable (``TransportLost``) posts :class:`MeterLost` and the thread keeps trying to open
 the same port again every ``retry_s``; the job in the store is never touched by this module.
+
+The thread never dies silently: any other failure inside it (a message the client could not
+handle, a bug) is written to the error log (``runtrue.errorlog``), posted as :class:`MeterLost`
+with the reason, and the thread opens the port afresh, as after a pulled cable.
 """
 
 from __future__ import annotations
@@ -154,6 +158,22 @@ class MeterLink:
                 pass
 
     def _run(self) -> None:
+        try:
+            self._run_link()
+        except BaseException as exc:  # noqa: BLE001 - last resort: the screen must hear of it
+            self._emit(MeterLost(self.port, self._unexpected(exc)))
+            self.connected = False
+        finally:
+            self._close_client()
+
+    def _unexpected(self, exc: BaseException) -> str:
+        """Log an unexpected failure of the link thread; the reason to show, in one line."""
+        from runtrue.errorlog import log_exception, one_line
+
+        where = log_exception(exc, f"meter link {self.port}")
+        return f"the link failed unexpectedly ({one_line(exc, 80)}; details in {where})"
+
+    def _run_link(self) -> None:
         ever_connected = False
         while not self._stop.is_set():
             if self.client is None:
@@ -177,14 +197,19 @@ class MeterLink:
                 self._serve()
             except Exception as exc:  # noqa: BLE001
                 if not _is_link_failure(exc):
-                    raise
+                    # Not a pulled cable: log it, say so, and start the link afresh.
+                    self._emit(MeterLost(self.port, self._unexpected(exc)))
+                    ever_connected = True
+                    self._close_client()
+                    if self._stop.wait(self.retry_s):
+                        break
+                    continue
                 self._emit(MeterLost(self.port, str(exc) or "the meter stopped answering"))
                 if self._reopen_same():
                     continue
                 self._close_client()
                 if self._stop.wait(self.retry_s):
                     break
-        self._close_client()
 
     def _reopen_same(self) -> bool:
         """Wait for the same device to come back on its transport (USB serial number or path)."""
@@ -204,7 +229,8 @@ class MeterLink:
                 return True
             except Exception as exc:  # noqa: BLE001
                 if not _is_link_failure(exc):
-                    raise
+                    self._unexpected(exc)  # logged; opened afresh by the caller
+                    return False
         return False
 
     def _serve(self) -> None:

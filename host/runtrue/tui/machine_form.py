@@ -172,7 +172,7 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
         if strip is not None and base.strip is not None and strip.grams_per_mm == base.strip.grams_per_mm:
             strip = base.strip
     try:
-        return Machine(
+        machine = Machine(
             name=name,
             rotor_mass_kg=mass,
             speed_rpm=speed,
@@ -187,6 +187,14 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
         )
     except ValueError as exc:
         raise FormError("name", str(exc)) from None
+    from runtrue.validation import ValidationError, check_machine
+
+    try:
+        check_machine(machine)  # the shared limits (rotor mass, speed, radius, sizes)
+    except ValidationError as exc:
+        field = exc.field if exc.field in {key for key, _, _ in FIELDS} else "name"
+        raise FormError(field, str(exc)) from None
+    return machine
 
 
 def _positions_text(p: PlaneSpec) -> str:

@@ -32,6 +32,7 @@ class StepScreen(Screen):
 
     def compose(self) -> ComposeResult:
         yield Static(self._title_text(), id="titlebar", markup=False)
+        yield Static("", id="notice", markup=False)  # notifications: under the title bar, over nothing
         yield from self.compose_body()
         yield Footer()
 
@@ -60,6 +61,20 @@ class StepScreen(Screen):
 
     def on_resize(self) -> None:
         self.refresh_status()
+
+    def show_notice(self, text: str, severity: str = "information", timeout_s: float = 6.0) -> None:
+        """Show a notification in the line under the title bar (it pushes the body down rather
+        than covering it, so the text it reports on stays readable at 80x24); "" hides it."""
+        try:
+            notice = self.query_one("#notice", Static)
+        except NoMatches:
+            return
+        notice.update(text)
+        notice.set_classes(f"shown {severity}" if text else "")
+        old = getattr(self, "_notice_timer", None)
+        if old is not None:
+            old.stop()
+        self._notice_timer = self.set_timer(timeout_s, lambda: self.show_notice("")) if text else None
 
     def meter_event(self, message: object) -> None:
         """Called by the App after it has handled a meter message (override to react)."""

@@ -25,7 +25,7 @@ def history_lines(store: Any, machine: Any) -> list[str]:
     lines.append(f"{'job':>4} {'started':<17} {'status':<8} {'runs':>4}  1x ch1 before -> after, residual")
     for j in jobs:
         p = trend.get(j.id)
-        detail = ""
+        detail = j.problem  # "unreadable record #N (...): reason", or ""
         if p is not None and p.initial_amp_g and p.final_amp_g and p.final_amp_g[0] is not None:
             detail = f"{p.initial_amp_g[0]:.3g} -> {p.final_amp_g[0]:.3g} g"
             if p.residual_unbalance_gmm and p.permissible_unbalance_gmm:

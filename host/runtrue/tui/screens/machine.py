@@ -122,10 +122,18 @@ class MachineScreen(StepScreen):
             self._machines[f"m{m.id}"] = m
             mark = " *" if m.influence is not None else ""
             ol.add_option(Option(f"{m.name}{mark}"[:24], id=f"m{m.id}"))
+        self._unreadable: dict[str, str] = {}  # option id -> "unreadable record #N (...): reason"
+        for problem in store.unreadable_machines():
+            self._unreadable[f"u{problem.row_id}"] = str(problem)
+            ol.add_option(Option(f"! #{problem.row_id} unreadable"[:24], id=f"u{problem.row_id}"))
         unfinished = store.unfinished_jobs()
         if unfinished:
             ol.add_option(Option("-- resume a job --", disabled=True))
             for j in unfinished[:8]:
+                if j.problem:  # shown, never opened: Enter says why and offers to set it aside
+                    self._unreadable[f"x{j.id}"] = j.problem
+                    ol.add_option(Option(f"! job {j.id} unreadable"[:24], id=f"x{j.id}"))
+                    continue
                 rec = store.get_job(j.id)
                 four_run = rec is not None and bool(rec.options.get("amplitude_only"))
                 tag = " 4-run" if four_run else ""  # amplitude-only jobs say so
@@ -154,6 +162,22 @@ class MachineScreen(StepScreen):
             self.query_one("#f_name", Input).focus()
         elif oid.startswith("j"):
             self._resume(int(oid[1:]))
+        elif oid in getattr(self, "_unreadable", {}):
+            self._unreadable_selected(oid)
+
+    def _unreadable_selected(self, oid: str) -> None:
+        """A stored record the program cannot use: say why; a job chosen twice is set aside
+        (closed, its records left in the file untouched) so it no longer waits to be resumed."""
+        problem = self._unreadable[oid]
+        if oid.startswith("x") and getattr(self, "_set_aside_armed", "") == oid:
+            self.session.store.set_aside(int(oid[1:]), problem)
+            self._set_aside_armed = ""
+            self.notify(f"Job {oid[1:]} set aside; its records stay in the job database.", timeout=5)
+            self._fill_list()
+            return
+        more = " Enter again sets the job aside (its records stay in the file)." if oid.startswith("x") else ""
+        self._set_aside_armed = oid
+        self.query_one("#hint", Static).update(f"{problem}.{more}")
 
     def on_input_changed(self, event: Input.Changed) -> None:
         self._update_hint()
@@ -193,7 +217,11 @@ class MachineScreen(StepScreen):
         if self._editing_id is None:
             self.notify("Pick a saved machine first (list on the left).", severity="warning")
             return
-        machine = self.session.store.get_machine(self._editing_id)
+        try:
+            machine = self.session.store.get_machine(self._editing_id)
+        except ValueError as exc:  # a record the program cannot use
+            self.notify(str(exc), severity="error", timeout=8)
+            return
         if machine is None:
             return
         from runtrue.tui.screens.history import HistoryScreen, history_lines
@@ -243,12 +271,17 @@ class MachineScreen(StepScreen):
             self.query_one(f"#f_{exc.field}", Input).focus()
             return
         store = self.session.store
+        try:
+            saved = store.get_machine(machine.id if machine.id is not None else machine.name)
+        except ValueError as exc:  # a stored record of that name the program cannot use
+            self.notify(f"{exc}; give this machine another name.", title="Check the machine", severity="error",
+                        timeout=8)
+            self.query_one("#f_name", Input).focus()
+            return
         if machine.id is not None:  # a saved machine: it keeps its influence coefficients
-            saved = store.get_machine(machine.id)
             if saved is not None:
                 machine.influence = saved.influence
         else:
-            saved = store.get_machine(machine.name)
             if saved is not None:  # the same name is the same machine: update it, keep its coefficients
                 machine.id = saved.id
                 machine.influence = saved.influence
