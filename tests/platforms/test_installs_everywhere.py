@@ -81,5 +81,5 @@ def test_the_app_and_its_extras_resolve_for_every_platform_and_python(
     assert not unexpected, (f"these would build from source on the user's machine (no wheel): {sorted(unexpected)}; "
                             "pick a version with wheels, or add a marker, or list them in EXPECTED_SOURCE_BUILDS")
     for o in outcomes:
-        for name in APP:
+        for name in _names(o.target, {"app": groups["app"]}, o.python):
             assert name in o.resolved or name in o.from_source, f"{name} missing for {o.target.name} {o.python}"
