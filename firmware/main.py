@@ -8,17 +8,28 @@ inside binary frames):
     file then returns at once and leaves the REPL to mpremote or a terminal.
 """
 
-from runtrue_fw import board_rp2040
+import micropython
+
+try:
+    micropython.alloc_emergency_exception_buf(100)  # a traceback from the hard edge IRQ, if ever
+except AttributeError:  # a port without it
+    pass
+
+from runtrue_fw import buffers
+
+RING = buffers.meter_ring(3)  # first, while the heap is in one piece (firmware/README.md, Memory)
+
+from runtrue_fw import board_rp2040  # noqa: E402
 
 
 def main():
     if board_rp2040.safe_mode_requested():
         print("runtrue: SAFE_MODE jumper fitted; meter not started, staying at the REPL")
         return
+    board = board_rp2040.Board()
     from runtrue_fw.meter import Meter
 
-    board = board_rp2040.Board()
-    meter = Meter(board)
+    meter = Meter(board, ring=RING)
     board.run(meter)
     print("runtrue: meter stopped; MicroPython REPL")
 

@@ -4,4 +4,4 @@ Runs unchanged on the board (MicroPython, RP2040), under CPython (the simulator 
 and under the MicroPython WebAssembly build (the tests).  See firmware/README.md.
 """
 
-FW_VERSION = "0.1.0"
+FW_VERSION = "0.2.0"  # protocol version 2

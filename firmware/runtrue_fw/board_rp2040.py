@@ -25,17 +25,18 @@ checked against the register headers generated from it; section numbers from mem
   ``Pin.irq(hard=True)``, ``micropython.kbd_intr``, ``select.poll``.
 
 Timebase.  Sample frame n (one conversion of every enabled channel, ascending) holds channel c's
-conversion number ``n*n_ch + c``; conversion j is sampled at ``t_start + (j + 1) * P`` (assumed, see
-``_FIRST_SAMPLE_PERIODS``) where P
-is the conversion period in clk_adc cycles (so channel c lags channel 0 by c*P: ``info()`` says
-``round_robin`` and the Meter corrects that known delay; see hardware/FRONTEND.md).  An edge stamped at ``t_us`` is at
-frame position ``(t_us - t_start_us) * 48 / (P * n_ch) - 1/n_ch``, reported in 1/256 frame,
-modulo 2**30.  Error budget: the 1 us stamp (+-0.5 us), the time from the pin change to the
-stamp in the hard interrupt handler (a few microseconds, more when a USB interrupt is being
-served: unmeasured here, see the bring-up check), and the +-0.5 us of reading ``t_start``.
-At 3000 rpm 10 us of jitter is 0.18 degree of rotation for one revolution, and it averages down
-over revolutions; a constant latency is a constant time delay (a phase lag proportional to
-speed, like the filter's).
+conversion number ``n*n_ch + c``; conversion j is sampled at ``t_adc + (j + 1) * P`` (assumed, see
+``_FIRST_SAMPLE_PERIODS``) where P is the conversion period in clk_adc cycles (so channel c lags
+channel 0 by c*P: ``info()`` says ``round_robin`` and the host's fit corrects that known delay)
+and ``t_adc = t_read + START_READ_OFFSET_US`` (the start time is read about 14 us before the ADC
+really starts).  An edge stamped at ``t_us`` happened ``EDGE_LATENCY_US`` (19 us, the middle of
+the 17-21 us measured) earlier, at frame position
+``(t_us - EDGE_LATENCY_US - t_adc) * 48 / (P * n_ch) - 1/n_ch``, reported in 1/256 frame modulo
+2**30 and computed from an anchor moved at every pass by an exact division (no long ints, no
+drift).  Residual (firmware/README.md, timing): +-2 us of IRQ latency jitter around the constant,
++-0.5 us of stamp rounding, and the constants' own error on a given board.  Counters wrap below
+2**30 (small ints); register addresses, above 2**30, are computed once (arithmetic on them would
+allocate a long int in the loop).
 """
 
 import array
@@ -48,6 +49,11 @@ import micropython
 import rp2
 import uctypes
 from micropython import const
+
+try:
+    from runtrue_fw.kernels_viper import copy_wrapped
+except (SyntaxError, ImportError, AttributeError):  # tests under CPython (the rp2040 fake)
+    from runtrue_fw.kernels import copy_wrapped
 
 # ---- pins: hardware/pinmap.toml is the source of truth (tests/hardware/test_pinmap.py) ----
 PIN_ACCEL_CH0 = const(26)  # ADC0
@@ -98,10 +104,19 @@ _DMA_SIZE_WORD = const(2)
 _RING_BITS = const(14)  # DMA write ring of 2**14 bytes = 8192 samples (0.55 s at 3 x 5 kHz)
 _RING_SAMPLES = const(1 << (_RING_BITS - 1))
 _RING_GUARD = const(64)  # samples the DMA may be ahead of a count we just read
-_DMA_RELOAD_COUNT = const(0x40000000)  # transfers between reloads by the second channel
+_DMA_RELOAD_COUNT = const(0x20000000)  # transfers between reloads (below 2**30: counts stay small ints)
 _BLOCK_FRAMES = const(256)  # frames handed to the Meter per feed_samples call
 _EDGE_SLOTS = const(32)  # power of two
 _EDGE_MASK = const(_EDGE_SLOTS - 1)
+_EDGE_COUNTER_MASK = const(1023)  # head/tail counters wrap here (small ints for ever)
+_COUNTER_MASK = const(0x3FFFFFFF)  # dropped/lost counters wrap at 2**30 (PROTOCOL.md, STATUS)
+_FRAME_MASK = const(0x3FFFFF)  # the Meter's frame index modulo 2**22
+# Timing (measured on an emulated RP2040, MicroPython 1.28; firmware/README.md, timing):
+# a hard Pin IRQ stamps ticks_us() 17-21 us after the pin changed: the stamp is taken back by 19.
+EDGE_LATENCY_US = const(19)
+# the ticks_us() read before START_MANY comes about 14 us before the ADC really starts.
+START_READ_OFFSET_US = const(14)
+_PLACEHOLDER_CODE = const(2048)  # fed for frames the DMA overwrote (flagged DROPPED_SAMPLES)
 _CMD_BYTES_MAX = const(256)  # command bytes read per loop pass
 _POS_MOD = const(1 << 30)
 _LOAD_WINDOW_US = const(1_000_000)
@@ -110,6 +125,10 @@ _LOAD_WINDOW_US = const(1_000_000)
 # does not say).  Unverified on hardware; hardware/BRINGUP.md (timing check) measures it.
 _FIRST_SAMPLE_PERIODS = const(1)
 _CALIBRATION_FILE = "runtrue_calib.json"
+# The front end's H(s) = 1/(1 + a1 s + a2 s^2) from hardware/frontend.py's design values (INFO
+# "fe"; tests/hardware/test_frontend.py keeps them in step).
+FE_A1_S = 1.834e-4
+FE_A2_S2 = 1.504e-10
 
 # Nominal sensor: ratiometric, 0.1 x supply per g, zero at half supply (hardware/FRONTEND.md),
 # so counts per g = 4096 * 0.1 = 409.6 whatever the supply.  Replaced by runtrue_calib.json.
@@ -177,15 +196,19 @@ class Board:
         self._ring_addr = addr + 2 * skip
         self._ring = memoryview(raw)[skip : skip + _RING_SAMPLES]
         self._block = array.array("H", bytes(2 * _BLOCK_FRAMES * CHANNELS_MAX))
-        self._block_mv = memoryview(self._block)
+        self._pcopy = array.array("i", [0, 0, _RING_SAMPLES])
         self._reload_word = array.array("I", [_DMA_RELOAD_COUNT])
 
         self._dma = rp2.DMA()
         self._dma_reload = rp2.DMA()
         self._dma_regs = _DMA_BASE + _DMA_CH_STRIDE * self._dma.channel
+        # Register addresses are above 2**30, so not small ints: computed once here, because any
+        # arithmetic on them in the loop would allocate a long int.
+        self._count_addr = self._dma_regs + _DMA_CH_TRANS_COUNT
+        self._fcs_addr = _ADC_BASE + _ADC_FCS
 
         # Edge stamps: written by the hard IRQ handler, read by the loop.
-        self._edge_t = array.array("i", bytes(4 * _EDGE_SLOTS))
+        self._edge_t = array.array("i", [0] * _EDGE_SLOTS)
         self._edge_head = 0
         self._edge_tail = 0
         self._edge_lost = 0
@@ -193,6 +216,8 @@ class Board:
         self._falling = False
 
         self._cmd_buf = bytearray(_CMD_BYTES_MAX)
+        self._one = bytearray(1)
+        self._placeholder = array.array("H", [_PLACEHOLDER_CODE] * (_BLOCK_FRAMES * CHANNELS_MAX))
         self._poller = select.poll()
         self._poller.register(sys.stdin, select.POLLIN)
         self._out = sys.stdout.buffer
@@ -206,18 +231,26 @@ class Board:
         self.configure(0b001, 4000)
         self._running = False
         self._dropped = 0
-        self._produced = 0
-        self._consumed = 0
+        self._backlog = 0          # samples the DMA wrote that the loop has not fed yet
+        self._rpos = 0             # ring index of the next sample to feed (a frame boundary)
+        self._frames_fed = 0       # frames fed to the Meter since START, modulo 2**22
+        self._misaligned = False   # a conversion was lost (FIFO overflow): channels may be rotated
         self._last_count = 0
         self._t_start_us = 0
-        self._anchor_us = 0
-        self._anchor_elapsed_us = 0
+        self._anc_us = 0           # timebase anchor: a ticks_us instant ...
+        self._anc_q8 = 0           # ... its frame position in 1/256 frame ...
+        self._anc_rem = 0          # ... plus anc_rem / den of 1/256 frame (exact, no drift)
+        self._anc_wrapped = False
+        self._den = 1
+        self._kstep = 1
         self._load_permille = 0
 
     # ------------------------------------------------------------------ hw interface
-    def write(self, buf) -> int:
-        n = self._out.write(buf)
-        return len(buf) if n is None else n
+    def write(self, buf, n: int) -> int:
+        """The board contract's write(buf, n): send buf[:n] now (the Meter reuses buf).  The stream
+        method's length argument avoids slicing, so nothing is allocated."""
+        r = self._out.write(buf, n)
+        return n if r is None else r
 
     def configure(self, channel_mask: int, rate_hz: float) -> float:
         """Select channels (bits 0-2) and the per-channel rate; returns the actual rate in Hz."""
@@ -290,8 +323,10 @@ class Board:
             trigger=False,
         )
         dma.config(read=adc + _ADC_FIFO, write=self._ring_addr, count=_DMA_RELOAD_COUNT, ctrl=ctrl, trigger=True)
-        self._produced = 0
-        self._consumed = 0
+        self._backlog = 0
+        self._rpos = 0
+        self._frames_fed = 0
+        self._misaligned = False
         self._last_count = _DMA_RELOAD_COUNT
         self._edge_head = 0
         self._edge_tail = 0
@@ -307,8 +342,7 @@ class Board:
         mem[adc + _ADC_CS] = cs | _ADC_CS_START_MANY
         machine.enable_irq(state)
         self._t_start_us = t0
-        self._anchor_us = t0
-        self._anchor_elapsed_us = 0
+        self._set_anchor(t0)
         self._streaming = True
         self._led.value(1)
 
@@ -348,6 +382,7 @@ class Board:
             "zero_code": list(self._zero_code),
             "serial": serial,
             "round_robin": True,  # channel k of a frame is converted k conversion periods late
+            "fe": [FE_A1_S, FE_A2_S2],
         }
 
     def cpu_load_permille(self) -> int:
@@ -356,32 +391,41 @@ class Board:
     def dropped_samples(self) -> int:
         return self._dropped
 
+    def edges_lost(self) -> int:
+        """Edges the hard IRQ could not queue (32 waiting): reported in STATUS edges_lost."""
+        return self._edge_lost
+
     def enter_repl(self) -> None:
         """Leave the main loop at its next pass: acquisition stops and Ctrl-C works again."""
         self._running = False
 
     # ------------------------------------------------------------------ main loop
     def run(self, meter) -> None:
-        """Serve the Meter until it asks for the REPL (or Ctrl-C arrives while not streaming)."""
+        """Serve the Meter until it asks for the REPL (or Ctrl-C arrives while not streaming).
+
+        CPU load: the time the loop spends asleep (idle) against each one-second window, so the
+        work done in interrupts and in the Meter is counted as busy.  The loop allocates nothing
+        while no command arrives (ipoll, readinto a preallocated byte)."""
         ticks_us = self._ticks_us
         ticks_diff = self._ticks_diff
         self._running = True
         micropython.kbd_intr(-1)  # 0x03 is an ordinary byte inside binary frames
-        busy_us = 0
+        idle_us = 0
         window_start = ticks_us()
         try:
             while self._running:
-                t0 = ticks_us()
                 self.poll(meter)
                 meter.service()
                 t1 = ticks_us()
-                busy_us += ticks_diff(t1, t0)
-                span = ticks_diff(t1, window_start)
-                if span >= _LOAD_WINDOW_US:
-                    self._load_permille = min(1000, busy_us * 1000 // span)
-                    busy_us = 0
-                    window_start = t1
                 time.sleep_ms(1)
+                t2 = ticks_us()
+                idle_us += ticks_diff(t2, t1)
+                span = ticks_diff(t2, window_start)
+                if span >= _LOAD_WINDOW_US:
+                    busy = span - idle_us
+                    self._load_permille = (busy >> 4) * 1000 // (span >> 4) if busy > 0 else 0
+                    idle_us = 0
+                    window_start = t2
         finally:
             if self._streaming:
                 self.stop()
@@ -391,20 +435,23 @@ class Board:
         """One pass: host bytes, then edges, then whole sample frames, into the Meter."""
         n = 0
         buf = self._cmd_buf
-        while n < _CMD_BYTES_MAX and self._poller.poll(0):
-            b = sys.stdin.buffer.read(1)
-            if not b:
+        one = self._one
+        stdin = sys.stdin.buffer
+        while n < _CMD_BYTES_MAX:
+            ready = False
+            for _ in self._poller.ipoll(0):
+                ready = True
+            if not ready or not stdin.readinto(one):
                 break
-            buf[n] = b[0]
+            buf[n] = one[0]
             n += 1
         if n:
-            meter.feed_command_bytes(bytes(buf[:n]))
+            meter.feed_command_bytes(bytes(buf[:n]))  # a command: the reply allocates anyway
         if not self._streaming:
             return
-        now: int = self._ticks_us()  # type: ignore[assignment]  # stubs: _TicksUs
-        self._anchor_elapsed_us += self._ticks_diff(now, self._anchor_us)
-        self._anchor_us = now
         self._feed_edges(meter)
+        now: int = self._ticks_us()  # type: ignore[assignment]  # stubs: _TicksUs
+        self._advance_anchor(now)
         self._feed_frames(meter)
 
     # ------------------------------------------------------------------ internals
@@ -416,32 +463,88 @@ class Board:
     def _on_edge(self, _pin) -> None:
         # Hard IRQ: small-int arithmetic and array stores only (no allocation).
         i = self._edge_head
-        if i - self._edge_tail >= _EDGE_SLOTS:
-            self._edge_lost += 1
+        if ((i - self._edge_tail) & _EDGE_COUNTER_MASK) >= _EDGE_SLOTS:
+            self._edge_lost = (self._edge_lost + 1) & _COUNTER_MASK
             return
         self._edge_t[i & _EDGE_MASK] = self._ticks_us()  # type: ignore[call-overload]  # stubs: _TicksUs
-        self._edge_head = i + 1
+        self._edge_head = (i + 1) & _EDGE_COUNTER_MASK
+
+    # The timebase.  Frame position x (frames since START) of an instant t (us):
+    #   x = (t - t_adc) * 48 / (P * n_ch) - 1/n_ch,  t_adc = t0_read + START_READ_OFFSET_US,
+    # with P = period_q8 / 256 clk_adc cycles (the first conversion samples one period after
+    # START_MANY).  In 1/256 frame: q8 = cycles * 65536 / den, den = period_q8 * n_ch.  It is
+    # kept as an anchor (instant, q8, remainder) moved at every pass by an exact long division
+    # in small steps, so nothing becomes a long int and nothing drifts.
+    def _set_anchor(self, t0_read_us: int) -> None:
+        n = self._n_ch
+        den = self._period_q8 * n
+        self._den = den
+        k = 8
+        while k > 1 and (den << k) >= (1 << 30):
+            k -= 1
+        self._kstep = k
+        # -1/n_ch of a frame (_FIRST_SAMPLE_PERIODS = 1) = -256/n_ch q8
+        #   = -(a + 1) q8 + (n - b)/n q8 for 256 = a n + b, b > 0; (n - b)/n q8 = (n - b) P_q8 / den
+        a = 256 // n
+        b = 256 - a * n
+        if b:
+            self._anc_q8 = -(a + 1)
+            self._anc_rem = (n - b) * self._period_q8
+        else:
+            self._anc_q8 = -a
+            self._anc_rem = 0
+        self._anc_us = time.ticks_add(t0_read_us, START_READ_OFFSET_US)  # type: ignore[assignment,type-var]  # stubs: _Ticks
+        self._anc_wrapped = False
+
+    def _q8_since_anchor(self, dt_us: int) -> int:
+        """floor(q8) of the position dt_us after the anchor, relative to the anchor's q8; leaves
+        the remainder (in 1/den q8) in self._rem_out.  |dt_us| < 22 s."""
+        den = self._den
+        c = dt_us * 48
+        q = c // den
+        r = c - q * den
+        bits = 16
+        k = self._kstep
+        while bits > 0:
+            s = k if k < bits else bits
+            r <<= s
+            d = r // den
+            q = (q << s) + d
+            r -= d * den
+            bits -= s
+        r += self._anc_rem
+        if r >= den:
+            r -= den
+            q += 1
+        self._rem_out = r
+        return q
 
     def edge_position_q8(self, t_us: int) -> int:
-        """Sample-frame position of a microsecond stamp, in 1/256 frame since START (not wrapped).
+        """Frame position of an edge stamped at ``t_us`` (interrupt latency taken back), in 1/256
+        frame since START; negative before the first sample (before wrapping at 2**30)."""
+        dt = self._ticks_diff(t_us, self._anc_us) - EDGE_LATENCY_US
+        return self._anc_q8 + self._q8_since_anchor(dt)
 
-        frames = elapsed_us * 48 / (P * n_ch) - 1/n_ch, with P = period_q8/256 clk_adc cycles
-        (the first conversion completes one period after START_MANY; see the module docstring).
-        """
-        elapsed_us = self._anchor_elapsed_us + self._ticks_diff(t_us, self._anchor_us)
-        num = elapsed_us * (ADC_CLOCK_HZ // 1_000_000) * 65536 - 256 * _FIRST_SAMPLE_PERIODS * self._period_q8
-        return num // (self._period_q8 * self._n_ch)
+    def _advance_anchor(self, now_us: int) -> None:
+        q = self._q8_since_anchor(self._ticks_diff(now_us, self._anc_us))
+        pos = self._anc_q8 + q
+        if pos >= _POS_MOD:
+            pos -= _POS_MOD
+            self._anc_wrapped = True
+        self._anc_q8 = pos
+        self._anc_rem = self._rem_out
+        self._anc_us = now_us
 
     def _feed_edges(self, meter) -> None:
         while self._edge_tail != self._edge_head:
             t = self._edge_t[self._edge_tail & _EDGE_MASK]
-            self._edge_tail += 1
+            self._edge_tail = (self._edge_tail + 1) & _EDGE_COUNTER_MASK
             pos = self.edge_position_q8(t)
-            if pos >= 0:
-                meter.feed_edge(pos % _POS_MOD)
+            if pos >= 0 or self._anc_wrapped:
+                meter.feed_edge(pos & (_POS_MOD - 1))
 
     def _transfers_done(self) -> int:
-        count = self._mem[self._dma_regs + _DMA_CH_TRANS_COUNT] & 0xFFFFFFFF
+        count = self._mem[self._count_addr]  # < 2**29: a small int
         last = self._last_count
         self._last_count = count
         if count <= last:
@@ -449,35 +552,53 @@ class Board:
         return last + (_DMA_RELOAD_COUNT - count)  # the reload channel restarted the count
 
     def _feed_frames(self, meter) -> None:
-        self._produced += self._transfers_done()
         n_ch = self._n_ch
-        backlog = self._produced - self._consumed
-        if backlog > _RING_SAMPLES - _RING_GUARD:
-            # The loop fell behind and the DMA overwrote unread samples.  They are still fed (the
-            # timebase must keep counting) and reported, so the Meter flags the revolution.
-            self._dropped += backlog - (_RING_SAMPLES - _RING_GUARD)
-        frames = backlog // n_ch
-        ring = self._ring
-        block = self._block_mv
+        self._backlog += self._transfers_done()
+        cap = _RING_SAMPLES - _RING_GUARD
+        if self._backlog > cap:
+            # The loop fell behind and the DMA overwrote unread samples.  Skip them in whole
+            # frames (the ring is not a multiple of 3 samples, so reading on would rotate the
+            # channels), feed placeholders so the frame count stays the timebase, and tell the
+            # Meter exactly which frames they are: every revolution touching them is flagged.
+            skip = (self._backlog - cap + n_ch - 1) // n_ch
+            self._dropped = (self._dropped + skip * n_ch) & _COUNTER_MASK
+            self._backlog -= skip * n_ch
+            self._rpos = (self._rpos + skip * n_ch) % _RING_SAMPLES
+            first = self._frames_fed
+            left = skip
+            while left > 0:
+                take = left if left < _BLOCK_FRAMES else _BLOCK_FRAMES
+                meter.feed_samples(self._placeholder, take)
+                left -= take
+            self._frames_fed = (first + skip) & _FRAME_MASK
+            meter.mark_dropped(first, self._frames_fed)
+        frames = self._backlog // n_ch
+        pc = self._pcopy
         while frames > 0:
             take = frames if frames < _BLOCK_FRAMES else _BLOCK_FRAMES
             count = take * n_ch
-            a = self._consumed % _RING_SAMPLES
-            first = _RING_SAMPLES - a
-            if first >= count:
-                block[0:count] = ring[a : a + count]
-            else:
-                block[0:first] = ring[a:_RING_SAMPLES]
-                block[first:count] = ring[0 : count - first]
-            self._consumed += count
+            a = self._rpos
+            pc[0] = a
+            pc[1] = count
+            copy_wrapped(self._ring, self._block, pc)  # type: ignore[arg-type]  # viper ptr args
+            self._rpos = (a + count) % _RING_SAMPLES
+            self._backlog -= count
             frames -= take
+            first_frame = self._frames_fed
+            self._frames_fed = (first_frame + take) & _FRAME_MASK
             meter.feed_samples(self._block, take)
+            if self._misaligned:
+                meter.mark_dropped(first_frame, self._frames_fed)
         mem = self._mem
-        fcs = mem[_ADC_BASE + _ADC_FCS]
+        fcs = mem[self._fcs_addr]
         if fcs & _ADC_FCS_OVER:
-            # A conversion found the FIFO full: the DMA did not keep up and a sample was lost.
-            self._dropped += 1
-            mem[_ADC_BASE + _ADC_FCS] = fcs | _ADC_FCS_OVER
+            # A conversion found the FIFO full: the DMA did not keep up and one conversion was
+            # lost, so every later sample may belong to the next channel.  Not expected with the
+            # DMA at high priority; if it happens, every frame from here to the next START is
+            # marked dropped, so no revolution with rotated channels goes out unflagged.
+            self._dropped = (self._dropped + 1) & _COUNTER_MASK
+            self._misaligned = True
+            mem[self._fcs_addr] = fcs | _ADC_FCS_OVER
 
     def _drain_fifo(self) -> None:
         mem = self._mem

@@ -1,19 +1,23 @@
-"""Frame encoder and command-frame reader, runtrue meter protocol version 1 (firmware side).
+"""Frame encoder and command-frame reader, runtrue meter protocol version 2 (firmware side).
 
 Implements firmware/PROTOCOL.md:
 * COBS framing: S. Cheshire and M. Baker, "Consistent Overhead Byte Stuffing",
   IEEE/ACM Transactions on Networking 7(2), 1999.
 * CRC-32/ISO-HDLC (poly 0x04C11DB7 reflected, init and xorout 0xFFFFFFFF, check 0xCBF43926;
-  Greg Cook, "Catalogue of parametrised CRC algorithms"), computed by `binascii.crc32`, which
-  is zlib-compatible under both CPython and MicroPython.
+  Greg Cook, "Catalogue of parametrised CRC algorithms"), computed by the kernels
+  (`crc32_into`) in two 16-bit halves: `binascii.crc32` returns a long int on a 32-bit port.
 
-wire frame := COBS(header payload crc) 0x00; header := version:u8 type:u8 seq:u16le.
-The encoder writes into buffers allocated once; a returned memoryview is valid until the
-next `encode` call.
+wire frame := COBS(body) 0x00; body := header payload crc; header := version:u8 type:u8
+seq:u16le.  The writer packs payloads straight into its body buffer (`body`, payload at
+`PAYLOAD_AT`), checks and stuffs them into its wire buffer: encoding allocates nothing, and the
+board writes `wire[:n]` with `hw.write(wire, n)` (DEVELOPERS.md, the board contract).
 """
 
-import binascii
-import struct
+try:
+    from runtrue_fw.kernels_viper import cobs_encode_into, crc32_into
+except (SyntaxError, ImportError, AttributeError):   # CPython (or a shim), or a port without viper
+    from runtrue_fw.kernels import cobs_encode_into, crc32_into
+from runtrue_fw.kernels import make_crc_table
 
 try:
     from micropython import const
@@ -21,8 +25,9 @@ except ImportError:  # CPython
     def const(x):  # type: ignore[no-redef,misc]
         return x
 
-PROTO_VERSION = const(1)
+PROTO_VERSION = const(2)
 HEADER_LEN = const(4)
+PAYLOAD_AT = const(4)
 CRC_LEN = const(4)
 MAX_PAYLOAD = const(240)
 MAX_BODY = const(248)      # header + payload + crc
@@ -45,6 +50,7 @@ C_SET_EDGE = const(0x86)
 C_SELFTEST = const(0x87)
 C_STATUS = const(0x88)
 C_REPL = const(0x89)
+C_SET_LINE = const(0x8A)
 
 # ACK results
 ACK_OK = const(0)
@@ -64,47 +70,34 @@ F_NO_FIT = const(0x0040)
 F_CLIP_CH0 = const(0x0100)
 F_NOT_USABLE = const(0x005F)  # bits 0-4 and 6: keep out of any average
 
-REV_HEADER_FMT = "<IfHHBB"     # rev, period_us, n_samples, flags, n_ch, channel_mask (14 bytes)
-REV_CHANNEL_FMT = "<fffff"     # h1_re, h1_im, h2_re, h2_im, rms (20 bytes)
-STATUS_FMT = "<IHIIIIB"        # 23 bytes
+REV_HEADER_FMT = "<IIHHBBBB"   # rev, length_q8, n_samples, flags, n_ch, mask, first_off_q8, n_sums
+REV_HEADER_LEN = const(16)
+REV_CHANNEL_LEN = const(70)    # 14 sums x int40
+N_SUMS = const(14)
+STATUS_FMT = "<IHIIIIIB"       # 27 bytes
 ACK_FMT = "<HBB"
+
+_CRC_TABLE = make_crc_table()
 
 
 def crc32(data) -> int:
-    """CRC-32/ISO-HDLC of `data` (zlib.crc32 / binascii.crc32)."""
-    return binascii.crc32(data) & 0xFFFFFFFF
+    """CRC-32/ISO-HDLC of `data` (for tests and tools; allocates)."""
+    n = len(data)
+    buf = bytearray(n + 4)
+    buf[:n] = data
+    crc32_into(buf, n, _CRC_TABLE)  # type: ignore[arg-type]  # viper ptr args take buffers
+    return buf[n] | (buf[n + 1] << 8) | (buf[n + 2] << 16) | (buf[n + 3] << 24)
 
 
-def cobs_encode_into(src, n: int, dst) -> int:
-    """COBS-encode src[:n] into dst (no delimiter); returns the encoded length.
-
-    dst must hold n + n // 254 + 1 bytes.
-    """
-    code_pos = 0
-    out = 1
-    code = 1
-    i = 0
-    while i < n:
-        b = src[i]
-        if b == 0:
-            dst[code_pos] = code
-            code_pos = out
-            out += 1
-            code = 1
-        else:
-            dst[out] = b
-            out += 1
-            code += 1
-            if code == 0xFF:
-                dst[code_pos] = code
-                if i + 1 == n:      # a full block ends the data: no trailing 0x01 block
-                    return out
-                code_pos = out
-                out += 1
-                code = 1
-        i += 1
-    dst[code_pos] = code
-    return out
+def _crc_ok(body, n: int) -> bool:
+    """Does the CRC at body[n-4:n] match body[:n-4]?  Recomputes it in place (no allocation)."""
+    m = n - 4
+    b0 = body[m]
+    b1 = body[m + 1]
+    b2 = body[m + 2]
+    b3 = body[m + 3]
+    crc32_into(body, m, _CRC_TABLE)  # type: ignore[arg-type]
+    return body[m] == b0 and body[m + 1] == b1 and body[m + 2] == b2 and body[m + 3] == b3
 
 
 def cobs_decode_into(src, n: int, dst) -> int:
@@ -135,34 +128,43 @@ def cobs_decode_into(src, n: int, dst) -> int:
 
 
 class FrameWriter:
-    """Numbers and encodes outgoing frames into buffers allocated once."""
+    """Numbers and encodes outgoing frames in buffers allocated once."""
 
     def __init__(self) -> None:
         self.seq = 0
-        self._body = bytearray(MAX_BODY)
-        self._wire = bytearray(MAX_WIRE)
-        self._wire_mv = memoryview(self._wire)
-        self.payload = bytearray(MAX_PAYLOAD)   # scratch for payloads packed in place
+        self.body = bytearray(MAX_BODY)     # payloads are packed at body[PAYLOAD_AT:]
+        self.wire = bytearray(MAX_WIRE)
+        self._ctab = _CRC_TABLE
 
-    def encode(self, ftype: int, payload, n: int = -1) -> memoryview:
-        """Frame payload[:n] (all of it if n < 0) as `ftype` with the next seq number."""
-        if n < 0:
-            n = len(payload)
+    def finish(self, ftype: int, n: int) -> int:
+        """Frame the payload already in body[PAYLOAD_AT:PAYLOAD_AT + n] as `ftype` with the next
+        seq number; returns the wire length (delimiter included) of `wire`.  No allocation."""
         if n > MAX_PAYLOAD:
             raise ValueError("payload longer than 240 bytes")
-        body = self._body
+        body = self.body
         body[0] = PROTO_VERSION
         body[1] = ftype
         body[2] = self.seq & 0xFF
         body[3] = self.seq >> 8
-        body[HEADER_LEN:HEADER_LEN + n] = payload[:n] if n != len(payload) else payload
-        end = HEADER_LEN + n
-        struct.pack_into("<I", body, end, crc32(memoryview(body)[:end]))
-        end += CRC_LEN
-        m = cobs_encode_into(body, end, self._wire)
-        self._wire[m] = 0
+        end = crc32_into(body, HEADER_LEN + n, self._ctab)  # type: ignore[arg-type]
+        m = cobs_encode_into(body, end, self.wire)  # type: ignore[arg-type]
+        self.wire[m] = 0
         self.seq = (self.seq + 1) & 0xFFFF
-        return self._wire_mv[:m + 1]
+        return m + 1
+
+    def encode(self, ftype: int, payload, n: int = -1) -> int:
+        """Copy payload[:n] (all of it if n < 0) into the body and frame it; returns the wire
+        length.  For command replies (allocation-free only if `payload` is not sliced)."""
+        if n < 0:
+            n = len(payload)
+        if n > MAX_PAYLOAD:
+            raise ValueError("payload longer than 240 bytes")
+        body = self.body
+        i = 0
+        while i < n:
+            body[PAYLOAD_AT + i] = payload[i]
+            i += 1
+        return self.finish(ftype, n)
 
 
 class FrameReader:
@@ -183,7 +185,7 @@ class FrameReader:
         self._buf = bytearray(MAX_WIRE)
         self._n = 0
         self._overlong = False
-        self._body = bytearray(MAX_BODY)
+        self._body = bytearray(MAX_BODY + CRC_LEN)
         self.framing_errors = 0
 
     def feed(self, data, handler) -> None:
@@ -206,13 +208,12 @@ class FrameReader:
             if n == 0:
                 continue
             m = cobs_decode_into(self._buf, n, self._body)
-            if m < HEADER_LEN + CRC_LEN:
+            if m < HEADER_LEN + CRC_LEN or m > MAX_BODY:
                 self.framing_errors += 1
                 handler(self.BAD, 0, 0, b"")
                 continue
             body = self._body
-            crc = body[m - 4] | (body[m - 3] << 8) | (body[m - 2] << 16) | (body[m - 1] << 24)
-            if crc32(memoryview(body)[:m - 4]) != crc:
+            if not _crc_ok(body, m):
                 self.framing_errors += 1
                 handler(self.BAD, 0, 0, b"")
                 continue
@@ -238,7 +239,6 @@ def decode_frame(wire) -> tuple:
     if m < HEADER_LEN + CRC_LEN:
         raise ValueError("frame too short or malformed COBS")
     body = body[:m]
-    crc = struct.unpack("<I", body[m - 4:])[0]
-    if crc32(body[:m - 4]) != crc:
+    if not _crc_ok(body, m):
         raise ValueError("CRC mismatch")
     return (body[0], body[1], body[2] | (body[3] << 8), bytes(body[HEADER_LEN:m - 4]))

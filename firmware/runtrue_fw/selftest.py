@@ -7,7 +7,7 @@ dropped_samples (none during the test), cpu_load (below 90 %), chN_signal per en
 ADC end stop), reference (speed from the reference edges; informational, passes either way).
 """
 
-from array import array
+from runtrue_fw import kernels as _k
 
 
 def _check(name: str, ok: bool, value, unit: str, note: str = "") -> dict:
@@ -18,10 +18,17 @@ def _round(v: float, digits: int) -> float:
     return float("%.*g" % (digits, v))
 
 
+def _int40(buf, o: int) -> int:
+    hi = buf[o + 3] | (buf[o + 4] << 8)
+    if hi >= 32768:
+        hi -= 65536
+    return hi * 16777216 + (buf[o] | (buf[o + 1] << 8) | (buf[o + 2] << 16))
+
+
 def run_checks(*, ring, ring_frames: int, end_frame: int, frames: int, elapsed_ms: int,
                rate_hz: float, slots: list, full_code: int, counts_per_g: list,
-               zero_code: list, dropped: int, revs: int, ref_period_q8: int, cpu_permille: int,
-               ring_stats, fit_sums) -> dict:
+               offset: int, dropped: int, revs: int, ref_period_q8: int, cpu_permille: int,
+               rev_sums, table) -> dict:
     """Return {"pass": bool, "checks": [...]} (PROTOCOL.md, SELFTEST)."""
     checks = []
     measured = frames * 1000.0 / elapsed_ms if elapsed_ms > 0 else 0.0
@@ -37,21 +44,30 @@ def run_checks(*, ring, ring_frames: int, end_frame: int, frames: int, elapsed_m
                          "" if cpu_permille < 900 else "too busy: lower the rate"))
     n = frames if frames < ring_frames else ring_frames
     mask = ring_frames - 1
-    p = array("i", [0, (end_frame - n) & mask, n, mask, 0, 0, 0])
+    # the integer kernel over the last n frames of all channels (angle step 0: only Sy, Sy.y
+    # and the min/max codes are used); n <= 8192 keeps every sum within int40
+    p = _k.make_params()
+    p[_k.P_N] = n if n > 0 else 0
+    p[_k.P_NCH] = len(slots)
+    p[_k.P_START] = (end_frame - n) & mask
+    p[_k.P_MASK] = mask
+    p[_k.P_SLOT] = ring_frames
+    p[_k.P_OFFSET] = offset
+    out = bytearray(_k.CH_BYTES * len(slots))
+    if n > 1:
+        rev_sums(ring, table, p, out)
     for k in range(len(slots)):
         ch = slots[k]
         name = "ch%d_signal" % ch
         if n <= 1:
             checks.append(_check(name, False, 0.0, "g", "no samples"))
             continue
-        p[0] = k * ring_frames
-        ring_stats(ring, p)
-        lo = p[5]
-        hi = p[6]
-        dc = (p[4] + n // 2) // n
-        sums = fit_sums(ring, p, dc, 0.0, 0.0)
-        m = sums[0] / n
-        var = sums[5] / n - m * m
+        lo = p[_k.P_MIN + k]
+        hi = p[_k.P_MAX + k]
+        sy = _int40(out, _k.CH_BYTES * k)
+        syy = _int40(out, _k.CH_BYTES * k + _k.INT40_LEN * (_k.N_SUMS - 1))
+        m = sy / n
+        var = syy / n - m * m
         rms_g = (var if var > 0.0 else 0.0) ** 0.5 / counts_per_g[ch]
         if lo <= 0 or hi >= full_code:
             checks.append(_check(name, False, _round(rms_g, 4), "g", "clipped at an ADC end stop"))

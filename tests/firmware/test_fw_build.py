@@ -33,7 +33,7 @@ BOARD_OWNER_TODO = (re.compile(r"board_rp2040\.py:\d+: error: .*_Ticks(Us|Ms)"),
 
 def test_firmware_files_are_found() -> None:
     names = {p.name for p in FW_FILES}
-    assert {"meter.py", "frames.py", "edges.py", "phasor.py", "kernels.py", "kernels_viper.py"} <= names
+    assert {"meter.py", "frames.py", "edges.py", "basis.py", "envelope.py", "kernels.py", "kernels_viper.py"} <= names
 
 
 @pytest.mark.parametrize("path", FW_FILES, ids=lambda p: str(p.relative_to(FIRMWARE)))

@@ -17,6 +17,11 @@ def _cobs(data: bytes) -> bytes:
     return bytes(out[:n])
 
 
+def _enc(w: fr.FrameWriter, ftype: int, payload: bytes) -> bytes:
+    n = w.encode(ftype, payload)
+    return bytes(w.wire[:n])
+
+
 def _uncobs(data: bytes) -> bytes | None:
     out = bytearray(len(data))
     n = fr.cobs_decode_into(data, len(data), out)
@@ -58,19 +63,19 @@ def test_cobs_round_trip_and_no_zero_bytes(data: bytes) -> None:
 def test_every_frame_decodes_to_what_was_sent(payload: bytes, ftype: int, seq: int) -> None:
     w = fr.FrameWriter()
     w.seq = seq
-    wire = bytes(w.encode(ftype, payload))
+    wire = _enc(w, ftype, payload)
     assert wire[-1] == 0 and 0 not in wire[:-1]
     assert len(wire) <= fr.MAX_WIRE
-    assert fr.decode_frame(wire) == (1, ftype, seq, payload)
+    assert fr.decode_frame(wire) == (2, ftype, seq, payload)
     assert w.seq == (seq + 1) & 0xFFFF
 
 
 def test_longest_payload_gives_the_documented_longest_frame() -> None:
     w = fr.FrameWriter()
-    assert len(w.encode(fr.T_TEXT, b"\x41" * 240)) <= 251
-    assert len(w.encode(fr.T_TEXT, bytes(240))) <= 251
+    assert len(_enc(w, fr.T_TEXT, b"\x41" * 240)) <= 251
+    assert len(_enc(w, fr.T_TEXT, bytes(240))) <= 251
     try:
-        w.encode(fr.T_TEXT, b"x" * 241)
+        _enc(w, fr.T_TEXT, b"x" * 241)
     except ValueError as exc:
         assert "240" in str(exc)
     else:
@@ -80,7 +85,7 @@ def test_longest_payload_gives_the_documented_longest_frame() -> None:
 def test_seq_counts_up_and_wraps_at_65536() -> None:
     w = fr.FrameWriter()
     w.seq = 0xFFFE
-    seqs = [fr.decode_frame(bytes(w.encode(fr.T_TEXT, b"x")))[2] for _ in range(3)]
+    seqs = [fr.decode_frame(_enc(w, fr.T_TEXT, b"x"))[2] for _ in range(3)]
     assert seqs == [0xFFFE, 0xFFFF, 0]
 
 
@@ -92,8 +97,8 @@ def _collect(reader: fr.FrameReader, data: bytes) -> list:
 
 def test_reader_resynchronises_after_garbage_and_reports_bad_crc() -> None:
     w = fr.FrameWriter()
-    good = bytes(w.encode(fr.C_SET_RATE, struct.pack("<I", 4000)))
-    corrupt = bytearray(w.encode(fr.C_START, b""))
+    good = _enc(w, fr.C_SET_RATE, struct.pack("<I", 4000))
+    corrupt = bytearray(_enc(w, fr.C_START, b""))
     corrupt[2] ^= 0x10
     stream = b"\x13\x37garbage\x00" + bytes(corrupt) + b"\x00\x00" + good
     got = _collect(fr.FrameReader(), stream)
@@ -104,14 +109,14 @@ def test_reader_resynchronises_after_garbage_and_reports_bad_crc() -> None:
 def test_reader_drops_an_overlong_run_and_recovers() -> None:
     w = fr.FrameWriter()
     reader = fr.FrameReader()
-    got = _collect(reader, b"\x55" * 600 + b"\x00" + bytes(w.encode(fr.C_STOP, b"")))
+    got = _collect(reader, b"\x55" * 600 + b"\x00" + _enc(w, fr.C_STOP, b""))
     assert got == [(fr.FrameReader.BAD, 0, 0, b""), (fr.FrameReader.GOOD, fr.C_STOP, 0, b"")]
     assert reader.framing_errors == 1
 
 
 def test_reader_accepts_frames_split_at_every_byte() -> None:
     w = fr.FrameWriter()
-    wire = bytes(w.encode(fr.C_SET_CHANNELS, b"\x05")) + bytes(w.encode(fr.C_IDENTIFY, b""))
+    wire = _enc(w, fr.C_SET_CHANNELS, b"\x05") + _enc(w, fr.C_IDENTIFY, b"")
     reader = fr.FrameReader()
     got: list = []
     for b in wire:
@@ -120,7 +125,14 @@ def test_reader_accepts_frames_split_at_every_byte() -> None:
 
 
 def test_reader_reports_another_protocol_version() -> None:
-    body = bytes([2, fr.C_START, 7, 0])
+    body = bytes([1, fr.C_START, 7, 0])
     body += struct.pack("<I", zlib.crc32(body))
     enc = _cobs(body) + b"\x00"
-    assert _collect(fr.FrameReader(), enc) == [(fr.FrameReader.VERSION, fr.C_START, 7, b"\x02")]
+    assert _collect(fr.FrameReader(), enc) == [(fr.FrameReader.VERSION, fr.C_START, 7, b"\x01")]
+
+
+def test_writer_frames_a_payload_packed_in_place_without_copying() -> None:
+    w = fr.FrameWriter()
+    w.body[fr.PAYLOAD_AT:fr.PAYLOAD_AT + 3] = b"abc"
+    n = w.finish(fr.T_TEXT, 3)
+    assert fr.decode_frame(bytes(w.wire[:n])) == (2, fr.T_TEXT, 0, b"abc")

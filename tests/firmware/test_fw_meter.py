@@ -1,6 +1,7 @@
 """The Meter as the host sees it: commands, revolutions, flags, status, self-test, REPL.
 
-Drives the real firmware logic with a scripted board (tests/micropython/rtlib), under CPython.
+Drives the real firmware logic with a scripted board (tests/micropython/rtlib), under CPython,
+and finishes each REV's fit with the host's runtrue.device.revfit, as the device client does.
 Phase convention: PROTOCOL.md -- amp*cos(k*phi - lag) is reported as amp*e^{+j*lag}.
 """
 
@@ -13,13 +14,40 @@ import struct
 
 import pytest
 
-from rtlib.drive import Host, revs_of, scenario, stream  # type: ignore[import-not-found]
+from rtlib import drive  # type: ignore[import-not-found]
+from rtlib.drive import Host, stream  # type: ignore[import-not-found]
 from rtlib.fakeboard import FakeBoard, Shaft  # type: ignore[import-not-found]
+from runtrue.device import revfit
+from runtrue.protocol.messages import RevStats
 from runtrue_fw import frames as fr
-from runtrue_fw.meter import MAX_REV_SAMPLES, Meter
+from runtrue_fw.meter import MAX_REV_SAMPLES, MIN_REV_SAMPLES, Meter
 
 SPR = 97.3125                       # samples per revolution: not whole, exact in 1/256 sample
 RPM = 4000 * 60 / SPR               # 2466.24 rpm at 4 kHz
+
+
+def _fitted(raw: list[dict], m: Meter) -> list[dict]:
+    """The host's fit of the meter's REV sums (revfit), in the old per-channel dict form."""
+    settings = revfit.FitSettings(m.rate_hz, tuple(m._counts_per_g), m._adc_offset, m._line_inc, m._round_robin)
+    out = []
+    for r in raw:
+        st = RevStats(r["rev"], r["length_q8"], r["n_samples"], r["flags"], r["channel_mask"], r["first_off_q8"],
+                      tuple(tuple(c) for c in r["sums"]))
+        rev = revfit.revolution(st, settings)
+        out.append({"rev": rev.rev, "period_us": rev.period_us, "n_samples": rev.n_samples, "flags": r["flags"],
+                    "fit_flags": rev.flags, "channel_mask": rev.channel_mask,
+                    "channels": [{"h1": (h1.real, h1.imag), "h2": (h2.real, h2.imag), "rms": rms}
+                                 for h1, h2, rms in zip(rev.h1, rev.h2, rev.rms_g)]})
+    return out
+
+
+def revs_of(frames: list, m: Meter) -> list[dict]:
+    return _fitted(drive.revs_of(frames), m)
+
+
+def scenario(**kw) -> list[dict]:
+    raw, m = drive.scenario(with_meter=True, **kw)
+    return _fitted(raw, m)
 
 
 def _phasor(amp: float, lag_deg: float) -> complex:
@@ -46,9 +74,9 @@ def _acks(frames: list) -> list[tuple[int, int, int, str]]:
 
 # ---- measurement --------------------------------------------------------------------------
 
-def test_revolutions_carry_the_true_1x_and_2x_with_a_16_bit_adc() -> None:
+def test_revolutions_carry_the_true_1x_and_2x_at_high_gain() -> None:
     chans = [(0.5, 30.0, 0.1, 200.0, 0.2), (0.25, 300.0, 0.05, 10.0, -0.1), (1.0, 181.0, 0.0, 0.0, 0.0)]
-    revs = scenario(rpm=RPM, channels=chans, adc_bits=16, counts_per_g=20000.0, n_frames=1200)
+    revs = scenario(rpm=RPM, channels=chans, counts_per_g=1500.0, n_frames=1200)
     assert len(revs) == 12
     # FIRST, then "speed not yet confirmed" (edges.py: two agreeing turns lock), then clean
     assert [r["flags"] for r in revs[:2]] == [fr.F_FIRST, fr.F_SPEED_JUMP]
@@ -58,8 +86,9 @@ def test_revolutions_carry_the_true_1x_and_2x_with_a_16_bit_adc() -> None:
         assert r["period_us"] == pytest.approx(SPR / 4000 * 1e6, rel=1e-7)
         assert r["n_samples"] in (97, 98)
         for ch, (a1, l1, a2, l2, _dc) in zip(r["channels"], chans):
-            assert complex(*ch["h1"]) == pytest.approx(_phasor(a1, l1), abs=3e-5)
-            assert complex(*ch["h2"]) == pytest.approx(_phasor(a2, l2), abs=3e-5)
+            # 12-bit codes at 1,500 counts/g: rounding leaves ~3e-5 g rms on each phasor
+            assert complex(*ch["h1"]) == pytest.approx(_phasor(a1, l1), abs=2e-4)
+            assert complex(*ch["h2"]) == pytest.approx(_phasor(a2, l2), abs=2e-4)
             # RMS over one revolution's samples: not a whole number of samples, so within ~1/n
             assert ch["rms"] == pytest.approx(math.sqrt((a1 ** 2 + a2 ** 2) / 2), rel=0.01)
 
@@ -74,24 +103,24 @@ def test_12_bit_quantisation_leaves_only_small_errors() -> None:
 
 def test_round_robin_conversion_delay_is_corrected_per_channel() -> None:
     chans = [(1.0, 90.0, 0.0, 0.0, 0.0)] * 3
-    revs = scenario(rpm=RPM, channels=chans, adc_bits=16, counts_per_g=20000.0,
+    revs = scenario(rpm=RPM, channels=chans, counts_per_g=1500.0,
                     round_robin=True, n_frames=600)
     for r in revs:
         for ch in r["channels"]:
-            assert complex(*ch["h1"]) == pytest.approx(1j, abs=3e-5)
+            assert complex(*ch["h1"]) == pytest.approx(1j, abs=2e-4)
 
 
 def test_uncorrected_round_robin_would_shift_the_last_channel_by_its_conversion_delay() -> None:
     # the board samples round robin but (wrongly) does not say so: channel 2 lags 2/3 sample
-    hw = FakeBoard(channels_max=3, adc_bits=16, counts_per_g=[20000.0] * 3, zero_code=[32768.0] * 3)
+    hw = FakeBoard(channels_max=3, counts_per_g=[1500.0] * 3)
     m = Meter(hw)
     host = Host(m, hw)
     host.command(fr.C_START)
     sh = Shaft(4000, RPM, [(1.0, 90.0, 0.0, 0.0, 0.0)] * 3, t0_samples=0.375, round_robin=True)
     stream(m, hw, sh, 600)
-    r = revs_of(host.frames())[3]
+    r = revs_of(host.frames(), m)[3]
     lag2 = math.degrees(cmath.phase(complex(*r["channels"][2]["h1"])))
-    assert lag2 == pytest.approx(90.0 - 360.0 * (2 / 3) / SPR, abs=0.01)
+    assert lag2 == pytest.approx(90.0 - 360.0 * (2 / 3) / SPR, abs=0.02)
 
 
 def test_edges_fed_before_or_after_their_samples_give_the_same_revolutions() -> None:
@@ -100,7 +129,7 @@ def test_edges_fed_before_or_after_their_samples_give_the_same_revolutions() -> 
         m, hw, host = _started()
         sh = Shaft(4000, RPM, [(0.5, 30.0, 0.1, 200.0, 0.2)] * 3, t0_samples=0.375)
         stream(m, hw, sh, 1000, edges_late=late)
-        out.append(revs_of(host.frames()))
+        out.append(revs_of(host.frames(), m))
     assert out[0] == out[1] and len(out[0]) == 9
 
 
@@ -117,7 +146,7 @@ def test_dropped_samples_flag_only_the_revolution_they_fell_in() -> None:
     m, hw, host = _started()
     sh = Shaft(4000, RPM, [(0.5, 30.0, 0.0, 0.0, 0.0)] * 3, t0_samples=0.375)
     stream(m, hw, sh, 1000, block=16, drop_at=500)
-    revs = revs_of(host.frames())
+    revs = revs_of(host.frames(), m)
     hit = [r["rev"] for r in revs if r["flags"] & fr.F_DROPPED_SAMPLES]
     # frames 496..511 hold the drop; revolution 5 spans samples 487-584
     assert hit == [5]
@@ -130,7 +159,7 @@ def test_extra_and_missing_pulses_are_flagged_and_the_rest_stay_clean() -> None:
     edges.insert(4, edges[3] + 40 * 256)      # a second mark 40 samples after edge 3
     del edges[10]                              # a missed pulse
     stream(m, hw, sh, 2000, edges=edges)
-    revs = revs_of(host.frames())
+    revs = revs_of(host.frames(), m)
     flags = [r["flags"] for r in revs]
     assert flags[3] == fr.F_EXTRA_PULSE
     assert flags[8] == fr.F_MISSING_PULSE and revs[8]["n_samples"] in (194, 195)
@@ -150,9 +179,18 @@ def test_revolution_longer_than_the_buffer_is_reported_without_phasors() -> None
         assert all(c["h1"] == (0.0, 0.0) for c in r["channels"])
 
 
-def test_revolution_with_fewer_than_8_samples_is_reported_without_phasors() -> None:
-    revs = scenario(rate_hz=500, rpm=5000, n_frames=300)
+def test_revolution_with_fewer_than_the_minimum_samples_is_reported_without_sums() -> None:
+    revs = scenario(rate_hz=500, rpm=500 * 60 / (MIN_REV_SAMPLES - 1.5), n_frames=300)
     assert revs and all(r["flags"] & fr.F_NO_FIT for r in revs)
+    assert all(r["n_samples"] < MIN_REV_SAMPLES for r in revs)
+
+
+def test_shortest_revolution_is_summed_and_fitted() -> None:
+    revs = scenario(rpm=4000 * 60 / (MIN_REV_SAMPLES + 0.5), n_frames=600)
+    clean = [r for r in revs if r["flags"] == 0]
+    assert len(clean) > 20
+    for r in clean:
+        assert complex(*r["channels"][0]["h1"]) == pytest.approx(_phasor(0.5, 30.0), abs=5e-3)
 
 
 def test_slowest_supported_revolution_is_still_fitted() -> None:
@@ -172,12 +210,18 @@ def test_identify_answers_info_then_ack() -> None:
     host = Host(m, hw)
     seq = host.command(fr.C_IDENTIFY)
     frames = host.frames()
-    assert [t for t, _, _ in frames] == [fr.T_INFO, fr.T_ACK]
-    info = json.loads(frames[0][2])
-    assert info["proto"] == 1 and info["board"] == "fake" and info["channels_max"] == 2
+    assert [t for t, _, _ in frames] == [fr.T_INFO, fr.T_INFO, fr.T_ACK]
+    parts = [json.loads(p) for t, _, p in frames if t == fr.T_INFO]
+    assert [(p["part"], p["parts"]) for p in parts] == [(0, 2), (1, 2)]
+    assert all(len(p) <= fr.MAX_PAYLOAD for t, _, p in frames)
+    info = {**parts[0], **parts[1]}
+    assert info["proto"] == 2 and info["board"] == "fake" and info["channels_max"] == 2
     assert info["channel_mask"] == 0b11 and info["rate_hz"] == 4000.0
     assert info["edge"] == "rising" and info["streaming"] is False
     assert info["counts_per_g"] == [400.0, 400.0] and info["zero_code"] == [2048.0, 2048.0]
+    assert info["basis"] == "q14c1024h4l2" and info["adc_offset"] == 2048 and info["line_hz"] == 50
+    assert info["line_inc"] == round(50 / 4000 * 2**30) and info["fe"] == [1.834e-4, 1.504e-10]
+    assert info["max_rpm"] == 10000 and info["min_rpm"] == 60
     assert _acks(frames) == [(seq, fr.C_IDENTIFY, fr.ACK_OK, "")]
 
 
@@ -198,7 +242,8 @@ def test_settings_are_checked_and_confirmed_with_info() -> None:
                        (fr.C_SET_CHANNELS, 1), (fr.C_SET_CHANNELS, 0), (fr.C_SET_EDGE, 1),
                        (fr.C_SET_EDGE, 0)]
     assert "20000" in _acks(frames)[0][3] and "500-10000" in _acks(frames)[0][3]
-    last_info = json.loads([p for t, _, p in frames if t == fr.T_INFO][-1])
+    infos = [json.loads(p) for t, _, p in frames if t == fr.T_INFO]
+    last_info = {**infos[-2], **infos[-1]}
     assert last_info["rate_hz"] == 2500.0 and last_info["channel_mask"] == 5
     assert last_info["edge"] == "falling"
     assert (hw.mask, hw.rate_hz, hw.falling) == (5, 2500.0, True)
@@ -219,11 +264,11 @@ def test_stop_ends_the_stream_and_start_restarts_the_count() -> None:
     stream(m, hw, sh, 500)
     frames = host.frames()
     # five turns completed, but each is held a quarter turn for late glitches: STOP drops the last
-    assert frames[-1][0] == fr.T_ACK and len(revs_of(frames)) == 4
+    assert frames[-1][0] == fr.T_ACK and len(drive.revs_of(frames)) == 4
     assert hw.stopped == 1
     host.command(fr.C_START)
     stream(m, hw, Shaft(4000, RPM, [(0.5, 30.0, 0.0, 0.0, 0.0)] * 3, t0_samples=0.375), 300)
-    revs = revs_of(host.frames())
+    revs = revs_of(host.frames(), m)
     assert revs[0]["rev"] == 0 and revs[0]["flags"] == fr.F_FIRST
 
 
@@ -234,8 +279,9 @@ def test_status_comes_about_once_a_second_while_streaming() -> None:
     stream(m, hw, sh, 4000 * 3 + 640, block=64, ms_per_block=16)     # 3.16 s of samples
     status = [struct.unpack(fr.STATUS_FMT, p) for t, _, p in host.frames() if t == fr.T_STATUS]
     assert len(status) == 3
-    uptime, cpu, dropped, rejected, revs_sent, overflows, streaming = status[-1]
+    uptime, cpu, dropped, rejected, lost, revs_sent, overflows, streaming = status[-1]
     assert cpu == 123 and dropped == 0 and rejected == 0 and streaming == 1 and overflows == 0
+    assert lost == 0
     assert uptime == 3024 and [s[0] for s in status] == [1008, 2016, 3024]
     assert 118 <= revs_sent <= 125          # 3.0 s at 41.1 rev/s
 
@@ -258,7 +304,7 @@ def test_unknown_command_bad_payload_and_corrupt_frames_are_answered() -> None:
     host = Host(m, hw)
     host.command(0x9A)
     host.command(fr.C_START, b"\x01")
-    bad = bytearray(host.writer.encode(fr.C_STOP, b""))
+    bad = bytearray(host.wire(fr.C_STOP, b""))
     bad[3] ^= 0x40
     m.feed_command_bytes(bytes(bad))
     acks = _acks(host.frames())
@@ -299,7 +345,7 @@ def test_selftest_reports_every_check_after_about_a_second_then_acks() -> None:
     assert checks["reference"]["value"] == pytest.approx(1500, rel=1e-3)
     assert checks["ch0_signal"]["value"] == pytest.approx(math.sqrt(0.13), rel=0.02)
     assert hw.started == 1 and hw.stopped == 1          # sampled only for the test
-    assert not revs_of(frames)                           # and streamed nothing
+    assert not drive.revs_of(frames)                           # and streamed nothing
 
 
 def test_selftest_fails_a_flat_channel_and_says_why() -> None:
@@ -331,3 +377,68 @@ def test_any_command_bytes_are_answered_and_never_crash_the_meter(items) -> None
     acks = _acks(host.frames())         # every frame the meter wrote decodes (CRC, COBS)
     assert acks[-1][:3] == (seq, fr.C_STATUS, fr.ACK_OK)
     assert all(a[2] in (0, 1, 2, 3, 4) for a in acks)
+
+
+def test_set_line_chooses_the_line_tone_and_is_busy_while_streaming() -> None:
+    hw = FakeBoard()
+    m = Meter(hw)
+    host = Host(m, hw)
+    host.command(fr.C_SET_LINE, b"\x3c")
+    host.command(fr.C_SET_LINE, b"\x37")
+    host.command(fr.C_SET_LINE, b"")
+    frames = host.frames()
+    assert [(a[1], a[2]) for a in _acks(frames)] == [(fr.C_SET_LINE, 0), (fr.C_SET_LINE, 1), (fr.C_SET_LINE, 1)]
+    infos = [json.loads(p) for t, _, p in frames if t == fr.T_INFO]
+    info = {**infos[0], **infos[1]}
+    assert info["line_hz"] == 60 and info["line_inc"] == round(60 / 4000 * 2**30)
+    host.command(fr.C_SET_LINE, b"\x00")
+    merged: dict = {}
+    for t, _, p in host.frames():
+        if t == fr.T_INFO:
+            merged.update(json.loads(p))
+    assert merged["line_hz"] == 0 and merged["line_inc"] == 0
+    host.command(fr.C_START)
+    host.command(fr.C_SET_LINE, b"\x32")
+    assert _acks(host.frames())[-1][2] == fr.ACK_BUSY
+
+
+def test_counters_wrap_below_2_30_and_stay_small_ints() -> None:
+    m, hw, host = _started()
+    m._rev_index = (1 << 30) - 1
+    m._revs_sent = (1 << 30) - 1
+    sh = Shaft(4000, RPM, [(0.5, 30.0, 0.0, 0.0, 0.0)] * 3, t0_samples=0.375)
+    stream(m, hw, sh, 1000)
+    revs = drive.revs_of(host.frames())
+    assert [r["rev"] for r in revs[:3]] == [(1 << 30) - 1, 0, 1]     # wraps at 2**30 (PROTOCOL.md)
+    assert all(v < 1 << 30 for v in m.status_fields())
+    assert m.status_fields()[5] == len(revs) - 1                  # revs_sent wrapped too
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.integers(1, 3), st.integers(0, 2900), st.integers(1, 900), st.sampled_from([20.3, 97.3125, 333.7]))
+def test_an_overrun_of_any_length_and_position_flags_every_revolution_it_touches(nch, drop_first, drop_len, spr) -> None:
+    hw = FakeBoard(channels_max=nch)
+    m = Meter(hw)
+    host = Host(m, hw)
+    host.command(fr.C_START)
+    host.frames()
+    sh = Shaft(4000, 4000 * 60 / spr, [(0.5, 30.0, 0.0, 0.0, 0.0)] * nch, t0_samples=0.375)
+    n = 3000
+    edges = sh.edges_q8(n)
+    k = 0
+    for f in range(0, n, 50):
+        while k < len(edges) and edges[k] < (f + 50) * 256:
+            m.feed_edge(edges[k])
+            k += 1
+        m.feed_samples(sh.block(f, 50, hw.counts_per_g, hw.zero_code), 50)
+        lo, hi = max(drop_first, f), min(drop_first + drop_len, f + 50)
+        if lo < hi:
+            m.mark_dropped(lo, hi)
+        m.service()
+    m.service()
+    revs = drive.revs_of(host.frames())
+    assert revs
+    for r in revs:
+        e0, e1 = edges[r["rev"]] / 256, edges[r["rev"] + 1] / 256
+        touched = e0 < drop_first + drop_len and e1 > drop_first
+        assert bool(r["flags"] & fr.F_DROPPED_SAMPLES) == touched, (r["rev"], r["flags"])

@@ -35,18 +35,20 @@ def test_vectors_document_their_schema_and_cover_the_edge_cases() -> None:
 def test_each_vector_decodes_to_its_fields() -> None:
     for v in _doc()["vectors"]:
         version, ftype, seq, payload = fr.decode_frame(bytes.fromhex(v["wire"]))
-        assert (version, ftype, seq, payload.hex()) == (1, v["type"], v["seq"], v["payload"])
+        assert (version, ftype, seq, payload.hex()) == (2, v["type"], v["seq"], v["payload"])
         f = v["fields"]
         if ftype == fr.T_REV:
             head = struct.unpack_from(fr.REV_HEADER_FMT, payload)
-            assert head == (f["rev"], f["period_us"], f["n_samples"], f["flags"], f["n_ch"],
-                            f["channel_mask"])
-            assert len(payload) == 14 + 20 * f["n_ch"]
-            for k, ch in enumerate(f["channels"]):
-                got = struct.unpack_from(fr.REV_CHANNEL_FMT, payload, 14 + 20 * k)
-                assert got == (ch["h1_re"], ch["h1_im"], ch["h2_re"], ch["h2_im"], ch["rms"])
+            assert head == (f["rev"], f["length_q8"], f["n_samples"], f["flags"], f["n_ch"],
+                            f["channel_mask"], f["first_off_q8"], f["n_sums"])
+            assert len(payload) == 16 + 70 * f["n_ch"]
+            for k, sums in enumerate(f["sums"]):
+                for j, want in enumerate(sums):
+                    o = 16 + 70 * k + 5 * j
+                    got = int.from_bytes(payload[o:o + 3], "little") + (int.from_bytes(payload[o + 3:o + 5], "little", signed=True) << 24)
+                    assert got == want
         elif ftype == fr.T_STATUS:
-            assert len(payload) == 23
+            assert len(payload) == 27
             assert struct.unpack(fr.STATUS_FMT, payload) == tuple(f.values())
         elif ftype == fr.T_ACK:
             assert struct.unpack_from(fr.ACK_FMT, payload) == (f["cmd_seq"], f["cmd_type"], f["result"])

@@ -61,7 +61,7 @@ def rig(monkeypatch: pytest.MonkeyPatch) -> Iterator[Rig]:
     for name, mod in (("machine", machine), ("rp2", rp2), ("micropython", micropython), ("uctypes", uctypes),
                       ("select", host.poll_module())):
         monkeypatch.setitem(sys.modules, name, mod)
-    for name in ("ticks_us", "ticks_ms", "ticks_diff", "sleep_ms"):
+    for name in ("ticks_us", "ticks_ms", "ticks_diff", "ticks_add", "sleep_ms"):
         monkeypatch.setattr(time, name, getattr(clock, name), raising=False)
     monkeypatch.delitem(sys.modules, "runtrue_fw.board_rp2040", raising=False)
     FakePin.instances = {}

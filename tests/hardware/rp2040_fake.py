@@ -127,6 +127,10 @@ class FakeClock:
         d = (a - b) % TICKS_PERIOD
         return d - TICKS_PERIOD if d >= TICKS_PERIOD // 2 else d
 
+    @staticmethod
+    def ticks_add(a: int, b: int) -> int:
+        return (a + b) % TICKS_PERIOD
+
     def sleep_ms(self, ms: int) -> None:
         self.now_us += 1000 * ms
 
@@ -145,10 +149,18 @@ class FakeHost:
                 del host.to_board[:n]
                 return out
 
+            def readinto(self, buf: bytearray) -> int:
+                n = min(len(buf), len(host.to_board))
+                buf[:n] = host.to_board[:n]
+                del host.to_board[:n]
+                return n
+
         class _Out:
-            def write(self, data: bytes) -> int:
-                host.from_board += data
-                return len(data)
+            def write(self, data: bytes, max_len: int | None = None) -> int:
+                # MicroPython's stream write(buf, max_len) sends at most max_len bytes of buf
+                n = len(data) if max_len is None else min(max_len, len(data))
+                host.from_board += bytes(data[:n])
+                return n
 
         self.stdin = types.SimpleNamespace(buffer=_In())
         self.stdout = types.SimpleNamespace(buffer=_Out())
@@ -165,6 +177,9 @@ class FakeHost:
             def poll(self, timeout: int = -1) -> list[tuple[Any, int]]:
                 return [(host.stdin, 1)] if host.to_board else []
 
+            def ipoll(self, timeout: int = -1) -> Any:
+                return iter(self.poll(timeout))
+
         mod.poll = _Poll  # type: ignore[attr-defined]
         return mod
 
@@ -178,6 +193,7 @@ class RecordingMeter:
         self.frames = 0
         self.edges: list[int] = []
         self.commands = bytearray()
+        self.dropped_frames: list[tuple[int, int]] = []
 
     def feed_samples(self, block: Any, n_frames: int) -> None:
         self.frames += n_frames
@@ -188,6 +204,9 @@ class RecordingMeter:
 
     def feed_command_bytes(self, data: bytes) -> None:
         self.commands += data
+
+    def mark_dropped(self, first_frame: int, end_frame: int) -> None:
+        self.dropped_frames.append((first_frame, end_frame))
 
     def service(self) -> None:
         pass

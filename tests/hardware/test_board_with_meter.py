@@ -14,6 +14,7 @@ import math
 import pytest
 
 from rp2040_fake import Rig
+from runtrue.device import revfit
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import (
     CMD_IDENTIFY,
@@ -22,7 +23,9 @@ from runtrue.protocol.messages import (
     CMD_START,
     CommandEncoder,
     DeviceInfo,
-    Revolution,
+    InfoAssembler,
+    InfoPart,
+    RevStats,
     parse_message,
     set_channels_payload,
     set_rate_payload,
@@ -48,7 +51,11 @@ def test_meter_on_the_board_reports_the_true_1x_lag_of_every_channel(rig: Rig) -
     assert board._streaming, "START reached the board"
 
     # The chip: conversion j of the round robin is sampled at t_start + (j + 1) * P.
-    t_start_us = rig.clock.now_us  # the fake clock has not moved since START
+    # The chip as measured: the ADC starts START_READ_OFFSET_US after the board read its start time,
+    # and the hard IRQ stamps an edge EDGE_LATENCY_US after the mark passed; the board takes both
+    # back, so the residual is the stamp's whole-microsecond rounding (firmware/README.md, timing).
+    t_start_us = rig.clock.now_us + rig.module.START_READ_OFFSET_US  # the ADC's real start
+    latency_us = rig.module.EDGE_LATENCY_US
     period_cycles = board._period_q8 / 256.0
     conv_us = period_cycles / 48.0
     count_addr = 0x50000000 + 0x40 * rig.dmas[0].channel + 0x08
@@ -62,8 +69,8 @@ def test_meter_on_the_board_reports_the_true_1x_lag_of_every_channel(rig: Rig) -
     while now < end_us:
         now += 2_000.0  # the main loop runs every ~2 ms
         # edges that happened up to now, stamped by the hard IRQ
-        while t_start_us + edge_offset_us + next_edge * rev_us <= now:
-            rig.clock.now_us = round(t_start_us + edge_offset_us + next_edge * rev_us)
+        while t_start_us + edge_offset_us + next_edge * rev_us + latency_us <= now:
+            rig.clock.now_us = round(t_start_us + edge_offset_us + next_edge * rev_us + latency_us)
             board._on_edge(None)
             next_edge += 1
         # conversions completed up to now, written by the DMA
@@ -80,9 +87,12 @@ def test_meter_on_the_board_reports_the_true_1x_lag_of_every_channel(rig: Rig) -
 
     decoder = FrameDecoder()
     messages = [parse_message(f) for f in decoder.feed(bytes(rig.host.from_board))]
-    info = [m for m in messages if isinstance(m, DeviceInfo)]
-    assert info and info[0].board == "rp2040" and info[0].channels_max == 3
-    revs = [m for m in messages if isinstance(m, Revolution) and m.usable]
+    joiner = InfoAssembler()
+    info = [joiner.feed(m) for m in messages if isinstance(m, InfoPart)] + [m for m in messages if isinstance(m, DeviceInfo)]
+    info = [i for i in info if i is not None]
+    assert info and info[-1].board == "rp2040" and info[-1].channels_max == 3 and info[-1].round_robin
+    revs = [revfit.revolution_from_info(m, info[-1]) for m in messages if isinstance(m, RevStats)]
+    revs = [r for r in revs if r.usable]
     assert len(revs) >= 8
     for rev in revs:
         assert rev.speed_rpm == pytest.approx(SPEED_HZ * 60, rel=1e-4)

@@ -101,13 +101,23 @@ def test_frontend_document_carries_the_current_figures() -> None:
     assert block == fe.render(), "FRONTEND.md is stale: run `python hardware/frontend.py --write`"
 
 
-def test_figures_quoted_above_the_specified_speed_match_the_filter() -> None:
-    # FRONTEND.md quotes the front end's cost above 15,000 rpm: 24,000 rpm about 0.91 and 25°
-    # (±5°), 30,000 rpm about 0.87 and 30°.  Second-order RC ladder, Horowitz & Hill, The Art of
-    # Electronics, 3rd ed., section 1.7 (single section; the ladder is its two-stage form).
-    rows = {r.speed_rpm: r for r in fe.speed_rows(speeds_rpm=(24000, 30000))}
-    assert round(rows[24000].amp_ratio, 2) == 0.91 and round(rows[24000].lag_deg) == 25
-    assert round(rows[24000].lag_spread_deg) == 5
-    assert round(rows[30000].amp_ratio, 2) == 0.87 and round(rows[30000].lag_deg) == 30
+def test_figures_quoted_at_the_top_of_the_envelope_match_the_filter() -> None:
+    # FRONTEND.md quotes the front end at the envelope's top speed (10,000 rpm): amplitude within
+    # 2 % and lag under 11°.  Second-order RC ladder, Horowitz & Hill, The Art of Electronics,
+    # 3rd ed., section 1.7 (single section; the ladder is its two-stage form).
+    from runtrue_fw import envelope
+
+    assert fe.DESIGN.speed_max_rpm == envelope.MAX_RPM and fe.DESIGN.speed_min_rpm == envelope.MIN_RPM
+    (row,) = fe.speed_rows(speeds_rpm=(envelope.MAX_RPM,))
+    assert row.amp_ratio > 0.98 and row.lag_deg < 11
     text = (ROOT / "hardware" / "FRONTEND.md").read_text(encoding="utf-8")
-    assert "at 24,000 rpm about 0.91" in text and "25° of lag (±5°" in text and "about 0.87 and\n  30°" in text
+    assert "10,000 rpm (167 Hz at 1x" in text and "within 2 %" in text and "under 11°" in text
+
+
+def test_the_meter_reports_the_design_filter_in_info() -> None:
+    import re
+
+    src = (ROOT / "firmware" / "runtrue_fw" / "board_rp2040.py").read_text()
+    got = {k: float(v) for k, v in re.findall(r"^(FE_A[12]_S2?) = ([0-9.e+-]+)", src, re.M)}
+    a1, a2 = fe.denominator_coeffs()
+    assert got["FE_A1_S"] == pytest.approx(a1, rel=1e-3) and got["FE_A2_S2"] == pytest.approx(a2, rel=1e-3)

@@ -4,7 +4,6 @@ the same revolutions, frames and vectors as under CPython."""
 from __future__ import annotations
 
 import json
-import struct
 
 import pytest
 
@@ -56,6 +55,8 @@ def feed_locked():
     try:
         b = 0
         while b < NB:
+            if b >= 6:
+                m.service()           # whole revolutions: edges, sums, REV frames written
             k = firsts[b]
             while k < firsts[b + 1]:
                 m.feed_edge(edges[k])
@@ -69,6 +70,8 @@ def feed_locked():
                     j += 1
             m.feed_samples(blocks[b], 64)
             b += 1
+        m.service()
+        m.service()                   # an idle pass
         r = 1
     except MemoryError:
         r = 0
@@ -80,27 +83,27 @@ c = control()
 locked = feed_locked()
 m.service()
 revs = revs_of(host.frames())
-print(c, locked, KERNELS, len(revs), m.status_fields()[3])
+print(c, locked, KERNELS, len(revs), m.status_fields()[3], m.status_fields()[4])
 """
 
 
 def test_sampling_path_allocates_nothing_under_heap_lock(micropython) -> None:
     res = micropython(HEAP_LOCK_SCRIPT)
     assert res.returncode == 0, res.stderr
-    control, locked, kernels, n_revs, rejected = res.text.split()
+    control, locked, kernels, n_revs, rejected, lost = res.text.split()
     assert control == "caught"
     assert locked == "no-allocation"
     assert kernels == "portable"            # the WebAssembly port rejects viper (toolchain.md)
-    # the four edges queued before the glitch burst made three revolutions from the samples fed
-    # under the lock; the burst overflowed the 64-edge queue (service() never ran while locked),
-    # and every edge that did not fit is counted as rejected: 4 + 80 - 64 = 20 plus the later
-    # real edges (16), plus the glitches the edge logic rejected from the queue (60)
-    assert int(n_revs) == 3
-    assert int(rejected) == (4 + 80 - 64) + 16 + 60
+    # the burst of 80 glitches came before service() ran: the 64-edge queue took the first 64 of
+    # the 4 real edges and the burst, the other 20 are counted as lost (not rejected); the edge
+    # logic then rejected the 60 queued glitches; the later real edges went through service()
+    assert int(lost) == 4 + 80 - 64
+    assert int(rejected) == 60
+    assert int(n_revs) >= 18
 
 
 CASES = [
-    dict(rpm=2466.2388, adc_bits=16, counts_per_g=20000.0),
+    dict(rpm=2466.2388, counts_per_g=1500.0),
     dict(rpm=1234.5, noise_codes=2.0),
     dict(rpm=3600.0, round_robin=True, block=50),
     dict(rate_hz=10000, rpm=29999.0, n_frames=800),
@@ -120,14 +123,7 @@ def test_same_revolutions_under_micropython_as_under_cpython(micropython) -> Non
         py_revs = scenario(**case)
         assert len(mp_revs) == len(py_revs) > 0
         for a, b in zip(mp_revs, py_revs):
-            assert (a["rev"], a["n_samples"], a["flags"], a["channel_mask"]) == \
-                   (b["rev"], b["n_samples"], b["flags"], b["channel_mask"])
-            assert a["period_us"] == pytest.approx(b["period_us"], rel=1e-6)
-            for ca, cb in zip(a["channels"], b["channels"]):
-                # f32 on the wire; the board computes in f32 too, so compare loosely
-                assert ca["h1"] == pytest.approx(cb["h1"], abs=1e-6)
-                assert ca["h2"] == pytest.approx(cb["h2"], abs=1e-6)
-                assert ca["rms"] == pytest.approx(cb["rms"], rel=1e-6)
+            assert a == b             # integer sums: identical, bit for bit
 
 
 def test_firmware_encoder_under_micropython_reproduces_the_shared_vectors(micropython) -> None:
@@ -182,12 +178,7 @@ def test_a_whole_session_gives_the_same_frames_as_under_cpython(micropython) -> 
         pa, pb = bytes.fromhex(a), bytes.fromhex(b)
         if t in (1, 5):                      # JSON: key order differs between interpreters
             assert json.loads(pa) == json.loads(pb)
-        elif t == 2:
-            assert len(pa) == len(pb) and pa[:4] == pb[:4] and pa[8:14] == pb[8:14]
-            fa = struct.unpack_from("<5f", pa, 14)
-            fb = struct.unpack_from("<5f", pb, 14)
-            assert fa == pytest.approx(fb, abs=1e-6)
-        else:
+        else:                                # REV carries integers now: byte for byte
             assert pa == pb
 
 

@@ -148,6 +148,7 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         "revs": reading.n_revs,
         "rejected": seen - reading.n_revs,
         "lost_frames": client.lost_frames,
+        "envelope_warning": client.envelope_warning,
         "port": port,
         "conventions": CONVENTIONS,
     }
@@ -176,6 +177,8 @@ def _table(result: dict[str, Any]) -> str:
         if expected:
             line += f"   simulator truth {expected[i]['amp']:.4f} g at {expected[i]['phase']:.1f}"
         lines.append(line)
+    if result.get("envelope_warning"):
+        lines.append(f"WARNING: {result['envelope_warning']}")
     return "\n".join(lines)
 
 

@@ -22,6 +22,9 @@ SELFTEST_TIMEOUT_S = 10.0
 # Noise per sample expected from the sensor class and filter in hardware/FRONTEND.md (~12 mg rms);
 # a stopped machine reading far above this has a noisy supply or pick-up (common practice).
 NOISY_FLOOR_G = 0.05
+#: `runtrue device check` fails a meter busier than this while streaming (per mille; our choice: margin
+#: for the USB writes and bursts of edges, firmware/README.md, CPU budget).
+CPU_LIMIT_PERMILLE = 600
 NOMINAL_COUNTS_PER_G = 409.6
 
 
@@ -194,10 +197,17 @@ def check(port: str, *, open_client: OpenClient | None = None, out: Out = print,
                 client.stop()
                 ok, text = describe_revolutions(revs)
                 report.add("reference pulses", ok, text)
+                if client.envelope_warning:
+                    report.add("speed", False, client.envelope_warning)
             except (MeterError, TransportLost) as exc:
                 report.add("reference pulses", False, f"streaming failed: {exc}")
         try:
             st = client.status()
+            cpu_pct = st.cpu_load_permille / 10.0
+            report.add("cpu", st.cpu_load_permille <= CPU_LIMIT_PERMILLE,
+                       f"the meter's processor is {cpu_pct:.0f} % busy "
+                       + ("(limit 60 %)" if st.cpu_load_permille <= CPU_LIMIT_PERMILLE else
+                          "(over the 60 % limit: it may fall behind; use fewer channels or a lower --rate)"))
             report.add("link", st.dropped_samples == 0 and client.lost_frames == 0,
                        f"{st.dropped_samples} samples dropped on the board, {client.lost_frames} frames lost "
                        f"on the USB link, {st.edges_rejected} reference edges rejected as glitches")

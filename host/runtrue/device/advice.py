@@ -16,3 +16,16 @@ FLAG_ADVICE = {
     "dropped samples": "the meter is losing samples: close other programs on the link, or lower the sample rate",
     "no fit": "the revolutions are too long or too short for the sample rate: check the speed and --rate",
 }
+
+
+def envelope_warning(speed_rpm: float, min_rpm: float, max_rpm: float) -> str | None:
+    """A warning when the machine turns outside the meter's envelope (INFO ``min_rpm``/``max_rpm``,
+    firmware/runtrue_fw/envelope.py), or None inside it (or when the meter does not say)."""
+    if max_rpm > 0 and speed_rpm > max_rpm * 1.02:
+        return (f"the machine turns at {speed_rpm:,.0f} rpm, above the meter's {max_rpm:,.0f} rpm limit at "
+                "this sample rate: revolutions are too short to fit or too many for the meter to keep up; "
+                "readings are not trustworthy (firmware/README.md, envelope)")
+    if min_rpm > 0 and 0 < speed_rpm < min_rpm * 0.98:
+        return (f"the machine turns at {speed_rpm:,.0f} rpm, below the meter's {min_rpm:,.0f} rpm limit at "
+                "this sample rate: revolutions are longer than the meter holds; lower the sample rate (--rate)")
+    return None

@@ -21,7 +21,8 @@ import collections
 import time
 from typing import Any, Callable
 
-from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT
+from runtrue.device import revfit
+from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import FrameDecoder
@@ -30,6 +31,7 @@ from runtrue.protocol.messages import (
     CMD_SELFTEST,
     CMD_SET_CHANNELS,
     CMD_SET_EDGE,
+    CMD_SET_LINE,
     CMD_SET_RATE,
     CMD_START,
     CMD_STATUS,
@@ -38,7 +40,10 @@ from runtrue.protocol.messages import (
     Ack,
     CommandEncoder,
     DeviceInfo,
+    InfoAssembler,
+    InfoPart,
     Message,
+    RevStats,
     Revolution,
     SelfTest,
     Status,
@@ -46,6 +51,7 @@ from runtrue.protocol.messages import (
     parse_message,
     set_channels_payload,
     set_edge_payload,
+    set_line_payload,
     set_rate_payload,
 )
 from runtrue.transport.base import Transport, TransportLost
@@ -83,6 +89,7 @@ class MeterClient:
         self.last_status: Status | None = None
         self.log: collections.deque[str] = collections.deque(maxlen=200)
         self.message_errors = 0
+        self.envelope_warning: str | None = None  # set while the latest revolution is outside the envelope
         self.reconnects = 0
         self.connected = True
         self.streaming = False
@@ -90,6 +97,7 @@ class MeterClient:
         self._acks: dict[int, Ack] = {}
         self._selftest: SelfTest | None = None
         self._selftest_parts: dict[int, dict[str, Any]] = {}
+        self._info_parts = InfoAssembler()
         self._frames_seen = 0
         self._flush_next = True  # start with a lone 0x00: the meter drops any half-received frame
         self._resync_pending = False
@@ -112,12 +120,30 @@ class MeterClient:
     # ---- the pump ---------------------------------------------------------------------------
 
     def _dispatch(self, message: Message) -> None:
-        if isinstance(message, Revolution):
-            self._revs.append(message)
+        if isinstance(message, RevStats):
+            if self.info is None:  # the fit needs the meter's settings (start() asks for them)
+                self.message_errors += 1
+                self.log.append(f"revolution {message.rev} before the meter's INFO: left out")
+                return
+            rev = revfit.revolution_from_info(message, self.info)
+            warning = envelope_warning(rev.speed_rpm, self.info.min_rpm, self.info.max_rpm)
+            if warning and warning != self.envelope_warning:
+                self.log.append(warning)
+            self.envelope_warning = warning
+            self._revs.append(rev)
         elif isinstance(message, Ack):
             self._acks[message.cmd_seq] = message
         elif isinstance(message, DeviceInfo):
             self.info = message
+        elif isinstance(message, InfoPart):
+            try:
+                info = self._info_parts.feed(message)
+            except MessageError as exc:
+                self.message_errors += 1
+                self.log.append(f"bad message: {exc}")
+                return
+            if info is not None:
+                self.info = info
         elif isinstance(message, Status):
             self.last_status = message
         elif isinstance(message, SelfTest):
@@ -178,6 +204,8 @@ class MeterClient:
             self._command(CMD_SET_CHANNELS, set_channels_payload(wanted["channel_mask"]))
         if "edge" in wanted:
             self._command(CMD_SET_EDGE, set_edge_payload(wanted["edge"]))
+        if "line_hz" in wanted:
+            self._command(CMD_SET_LINE, set_line_payload(wanted["line_hz"]))
 
     def _reconnect(self, deadline: float) -> None:
         """Wait for the device until ``deadline``; when back, resynchronise and resume streaming."""
@@ -221,6 +249,9 @@ class MeterClient:
             return self._command(cmd_type, payload, max(0.1, deadline - time.monotonic()))
         frames_before = self._frames_seen
         if not self._wait(lambda: seq in self._acks, timeout):
+            if self.decoder.version_errors and self.decoder.frames_ok == 0:
+                raise MeterError(f"the meter on {self.port} answers in another protocol version: "
+                                 f"{self.decoder.last_error}")
             if self._frames_seen == frames_before and self.decoder.frames_ok == 0:
                 raise NoAnswer(_no_answer_text(self.port))
             raise MeterError(
@@ -242,10 +273,17 @@ class MeterClient:
         if self.info is None and not self._wait(lambda: self.info is not None, self.command_timeout_s):
             raise MeterError(f"the meter on {self.port} acknowledged IDENTIFY but sent no INFO")
         assert self.info is not None
+        if self.info.basis != revfit.basis.BASIS_ID:
+            raise MeterError(
+                f"the meter on {self.port} sums on basis {self.info.basis or 'unknown'!r}, this runtrue "
+                f"fits {revfit.basis.BASIS_ID!r}: update the firmware: runtrue device install")
         return self.info
 
     def start(self) -> None:
-        """Start streaming revolutions (the queue is emptied first: old revolutions are stale)."""
+        """Start streaming revolutions (the queue is emptied first: old revolutions are stale).
+        Asks for INFO first if it is not known: the host's fit needs the meter's settings."""
+        if self.info is None:
+            self.identify()
         self._revs.clear()
         self._command(CMD_START)
         self.streaming = True
@@ -276,6 +314,11 @@ class MeterClient:
         """Which edge of the reference pulse marks the revolution: "rising" or "falling"."""
         self._set_and_wait_info(CMD_SET_EDGE, set_edge_payload(edge))
         self._wanted["edge"] = edge
+
+    def set_line(self, line_hz: int) -> None:
+        """The line frequency the meter fits as a tone (50 or 60 Hz; 0 = none)."""
+        self._set_and_wait_info(CMD_SET_LINE, set_line_payload(line_hz))
+        self._wanted["line_hz"] = line_hz
 
     def self_test(self, timeout_s: float = 10.0) -> dict[str, Any]:
         """Run the meter's self-test (about a second of measurement); returns its JSON object,

@@ -1,4 +1,4 @@
-"""The wire protocol, version 1 (firmware/PROTOCOL.md): frames and messages.
+"""The wire protocol, version 2 (firmware/PROTOCOL.md): frames and messages.
 
 Frames are COBS-encoded (S. Cheshire and M. Baker, "Consistent Overhead Byte Stuffing",
 IEEE/ACM Transactions on Networking 7(2), 1999) and checked with CRC-32/ISO-HDLC (Greg Cook,
@@ -31,7 +31,10 @@ from runtrue.protocol.messages import (
     Ack,
     CommandEncoder,
     DeviceInfo,
+    InfoAssembler,
+    InfoPart,
     Message,
+    RevStats,
     Revolution,
     SelfTest,
     Status,
@@ -42,8 +45,8 @@ from runtrue.protocol.messages import (
 
 __all__ = [
     "CRC32_CHECK", "MAX_PAYLOAD", "MAX_WIRE_FRAME", "PROTOCOL_VERSION",
-    "Ack", "CobsError", "CommandEncoder", "CrcError", "DeviceInfo", "Frame", "FrameDecoder",
-    "FrameLengthError", "FramingError", "Message", "MessageError", "ProtocolError", "Revolution",
+    "Ack", "CobsError", "CommandEncoder", "CrcError", "DeviceInfo", "Frame", "InfoAssembler", "InfoPart", "FrameDecoder",
+    "FrameLengthError", "FramingError", "Message", "MessageError", "ProtocolError", "RevStats", "Revolution",
     "SelfTest", "Status", "Text", "Unknown", "VersionError", "cobs_decode", "cobs_encode", "crc32",
     "decode_frame", "encode_frame", "parse_message",
 ]

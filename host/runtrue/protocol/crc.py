@@ -1,4 +1,4 @@
-"""CRC-32/ISO-HDLC, the frame check of protocol version 1.
+"""CRC-32/ISO-HDLC, the frame check of protocol version 2.
 
 Source: Greg Cook, *Catalogue of parametrised CRC algorithms* ("reveng" catalogue), entry
 CRC-32/ISO-HDLC: width 32, poly 0x04C11DB7, init 0xFFFFFFFF, refin true, refout true,

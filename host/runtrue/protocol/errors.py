@@ -4,7 +4,7 @@ from __future__ import annotations
 
 
 class ProtocolError(Exception):
-    """A frame or message that does not follow protocol version 1."""
+    """A frame or message that does not follow protocol version 2."""
 
 
 class FramingError(ProtocolError):
@@ -27,10 +27,11 @@ class VersionError(ProtocolError):
     """A well-formed frame of another protocol version: reported, never decoded."""
 
     def __init__(self, version: int) -> None:
-        super().__init__(
-            f"frame of protocol version {version}; this runtrue speaks version 1 "
-            "(update the firmware or runtrue so they match)"
-        )
+        if version < 2:
+            advice = "update the firmware: runtrue device install"
+        else:
+            advice = "this meter's firmware is newer than this runtrue: update runtrue"
+        super().__init__(f"frame of protocol version {version}; this runtrue speaks version 2 ({advice})")
         self.version = version
 
 

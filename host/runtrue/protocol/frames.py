@@ -1,4 +1,4 @@
-"""Frames of protocol version 1: COBS(header + payload + CRC-32) followed by 0x00.
+"""Frames of protocol version 2: COBS(header + payload + CRC-32) followed by 0x00.
 
 Implements firmware/PROTOCOL.md ("Framing").  Sources: COBS after S. Cheshire and M. Baker,
 "Consistent Overhead Byte Stuffing", IEEE/ACM Transactions on Networking 7(2), 1999; the check
@@ -33,7 +33,7 @@ from runtrue.protocol.errors import (
     VersionError,
 )
 
-PROTOCOL_VERSION = 1
+PROTOCOL_VERSION = 2
 HEADER_LEN = 4
 CRC_LEN = 4
 MAX_PAYLOAD = 240

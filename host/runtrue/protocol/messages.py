@@ -1,10 +1,13 @@
-"""Messages of protocol version 1: device -> host payloads parsed into dataclasses, and the
+"""Messages of protocol version 2: device -> host payloads parsed into dataclasses, and the
 host -> device command frames.  Implements the tables of firmware/PROTOCOL.md
-("Device -> host", "Host -> device commands"); all numbers little-endian, ``f32`` IEEE-754
-single precision.
+("Device -> host", "Host -> device commands"); all numbers little-endian.
 
+A REV frame carries the meter's exact integer sums of one revolution (:class:`RevStats`); the
+host finishes the least-squares fit (:mod:`runtrue.device.revfit`) into a :class:`Revolution`.
 Phasors follow the project convention: ``re + j*im = amp * e^{+j*lag}``, amplitude in g
 peak, lag in degrees of rotation after the reference mark.
+
+Whatever the payload, the parsers raise only :class:`MessageError`.
 """
 
 from __future__ import annotations
@@ -35,6 +38,7 @@ CMD_SET_EDGE = 0x86
 CMD_SELFTEST = 0x87
 CMD_STATUS = 0x88
 CMD_REPL = 0x89
+CMD_SET_LINE = 0x8A
 
 COMMAND_NAMES = {
     CMD_IDENTIFY: "IDENTIFY",
@@ -46,6 +50,7 @@ COMMAND_NAMES = {
     CMD_SELFTEST: "SELFTEST",
     CMD_STATUS: "STATUS",
     CMD_REPL: "REPL",
+    CMD_SET_LINE: "SET_LINE",
 }
 
 # ACK results.
@@ -91,10 +96,13 @@ FLAG_NAMES = {
     FLAG_CLIP_CH2: "clip ch2",
 }
 
-_REV_HEAD = struct.Struct("<IfHHBB")  # 14 bytes
-_REV_CHANNEL = struct.Struct("<5f")  # 20 bytes
-_STATUS = struct.Struct("<IHIIIIB")  # 23 bytes
+_REV_HEAD = struct.Struct("<IIHHBBBB")  # 16 bytes
+N_SUMS = 14  # sums per channel, in the order of firmware/runtrue_fw/basis.py
+INT40_LEN = 5  # lo:u24 then hi:i16, little-endian
+REV_CHANNEL_LEN = N_SUMS * INT40_LEN  # 70 bytes
+_STATUS = struct.Struct("<IHIIIIIB")  # 27 bytes
 _ACK = struct.Struct("<HBB")
+LINE_HZ_CHOICES = (0, 50, 60)
 
 
 def channels_of_mask(mask: int) -> list[int]:
@@ -118,7 +126,75 @@ class DeviceInfo:
     edge: str = "rising"
     streaming: bool = False
     serial: str = ""
+    basis: str = ""  # names the meter's integer basis (basis.BASIS_ID); the host fit needs its own
+    line_hz: int = 0  # line frequency fitted as a tone (0 = off)
+    line_inc: int = 0  # line-tone angle step per sample, 2**-30 turn (0 = no line tones)
+    round_robin: bool = False  # channel of rank r converted r/n_ch of a sample after the first
+    adc_offset: int = 2048  # code subtracted before the sums (1 << (adc_bits - 1))
+    fe: list[float] = field(default_factory=list)  # front end H(s) = 1/(1 + a1 s + a2 s^2): [a1_s, a2_s2]
+    max_rpm: float = 0.0  # the envelope at the current channels and rate (0 = not said)
+    min_rpm: float = 0.0
     raw: dict[str, Any] = field(default_factory=dict, compare=False, repr=False)
+
+
+@dataclass(frozen=True)
+class InfoPart:
+    """One frame of an INFO sent in several parts (``part`` of ``parts``); join them with
+    :class:`InfoAssembler`."""
+
+    part: int
+    parts: int
+    fields: dict[str, Any]
+
+
+class InfoAssembler:
+    """Joins INFO parts (firmware/PROTOCOL.md: the meter splits INFO into frames of at most
+    240 bytes): ``feed(part)`` returns the :class:`DeviceInfo` once every part has come."""
+
+    def __init__(self) -> None:
+        self._parts: dict[int, dict[str, Any]] = {}
+        self._expected = 0
+
+    def feed(self, msg: InfoPart) -> DeviceInfo | None:
+        if msg.part == 0 or msg.parts != self._expected:
+            self._parts = {}
+            self._expected = msg.parts
+        self._parts[msg.part] = msg.fields
+        if len(self._parts) < self._expected:
+            return None
+        merged: dict[str, Any] = {}
+        for i in sorted(self._parts):
+            merged.update(self._parts[i])
+        self._parts = {}
+        return info_from_dict(merged)
+
+
+@dataclass(frozen=True)
+class RevStats:
+    """REV: the meter's exact integer sums of one completed revolution.
+
+    ``length_q8`` is the revolution between its reference edges in 1/256 sample,
+    ``first_off_q8`` the offset from the first edge to the first whole sample (1/256 sample),
+    ``sums`` one tuple of 14 integers per enabled channel (ascending), in the order of
+    ``basis.py``: Sy, Sy.cos(k.phi), Sy.sin(k.phi) for k = 1..4, the two line tones' cos/sin,
+    Sy.y; y is the ADC code minus ``DeviceInfo.adc_offset``, basis values in Q14.
+    """
+
+    rev: int
+    length_q8: int
+    n_samples: int
+    flags: int
+    channel_mask: int
+    first_off_q8: int
+    sums: tuple[tuple[int, ...], ...]
+
+    @property
+    def channels(self) -> list[int]:
+        return channels_of_mask(self.channel_mask)
+
+    @property
+    def flag_names(self) -> list[str]:
+        return [name for bit, name in FLAG_NAMES.items() if self.flags & bit]
 
 
 @dataclass(frozen=True)
@@ -137,6 +213,7 @@ class Revolution:
     h1: list[complex]
     h2: list[complex]
     rms_g: list[float]
+    h3: list[complex] = field(default_factory=list)  # 3x phasors (empty where not fitted)
 
     @property
     def speed_rpm(self) -> float:
@@ -168,6 +245,7 @@ class Status:
     revs_sent: int
     tx_overflows: int
     streaming: bool
+    edges_lost: int = 0  # lost before the edge logic saw them (board queue and meter queue overflows)
 
 
 @dataclass(frozen=True)
@@ -212,22 +290,46 @@ class Unknown:
     payload: bytes
 
 
-Message = Union[DeviceInfo, Revolution, Status, Ack, SelfTest, Text, Unknown]
+Message = Union[DeviceInfo, InfoPart, RevStats, Status, Ack, SelfTest, Text, Unknown]
 
 
 def _json_object(payload: bytes, what: str) -> dict[str, Any]:
     try:
         obj = json.loads(payload.decode("utf-8"))
-    except (UnicodeDecodeError, ValueError) as exc:
+    except (UnicodeDecodeError, ValueError, RecursionError) as exc:
         raise MessageError(f"{what} payload is not UTF-8 JSON: {exc}") from None
     if not isinstance(obj, dict):
         raise MessageError(f"{what} payload is not a JSON object")
     return obj
 
 
-def parse_info(payload: bytes) -> DeviceInfo:
+def _int_list(v: Any) -> list[float]:
+    if not isinstance(v, list):
+        raise TypeError("not a list")
+    return [float(x) for x in v]
+
+
+def parse_info(payload: bytes) -> DeviceInfo | InfoPart:
+    """INFO, or one part of it (a meter sends INFO in parts when it does not fit one frame)."""
     obj = _json_object(payload, "INFO")
+    if "parts" in obj:
+        try:
+            part, parts = int(obj.pop("part")), int(obj.pop("parts"))
+        except (KeyError, TypeError, ValueError, OverflowError) as exc:
+            raise MessageError(f"INFO part garbles 'part'/'parts': {exc}") from None
+        if not 0 <= part < parts <= 16:
+            raise MessageError(f"INFO part {part} of {parts}")
+        if parts > 1:
+            return InfoPart(part, parts, obj)
+    return info_from_dict(obj)
+
+
+def info_from_dict(obj: dict[str, Any]) -> DeviceInfo:
+    """The :class:`DeviceInfo` of a (joined) INFO object; raises :class:`MessageError`."""
     try:
+        adc_bits = int(obj.get("adc_bits", 12))
+        if not 1 <= adc_bits <= 16:
+            raise ValueError(f"adc_bits {adc_bits}")
         return DeviceInfo(
             fw=str(obj["fw"]),
             board=str(obj["board"]),
@@ -235,43 +337,73 @@ def parse_info(payload: bytes) -> DeviceInfo:
             channels_max=int(obj.get("channels_max", 3)),
             channel_mask=int(obj.get("channel_mask", 1)),
             rate_hz=float(obj.get("rate_hz", 0.0)),
-            adc_bits=int(obj.get("adc_bits", 12)),
-            counts_per_g=[float(x) for x in obj.get("counts_per_g", [])],
-            zero_code=[float(x) for x in obj.get("zero_code", [])],
+            adc_bits=adc_bits,
+            counts_per_g=_int_list(obj.get("counts_per_g", [])),
+            zero_code=_int_list(obj.get("zero_code", [])),
             edge=str(obj.get("edge", "rising")),
             streaming=bool(obj.get("streaming", False)),
             serial=str(obj.get("serial", "")),
+            basis=str(obj.get("basis", "")),
+            line_hz=int(obj.get("line_hz", 0)),
+            line_inc=int(obj.get("line_inc", 0)) & 0x3FFFFFFF,
+            round_robin=bool(obj.get("round_robin", False)),
+            adc_offset=int(obj.get("adc_offset", 1 << (adc_bits - 1))),
+            fe=_int_list(obj.get("fe", [])),
+            max_rpm=float(obj.get("max_rpm", 0.0)),
+            min_rpm=float(obj.get("min_rpm", 0.0)),
             raw=obj,
         )
-    except (KeyError, TypeError, ValueError) as exc:
+    except (KeyError, TypeError, ValueError, OverflowError, AttributeError) as exc:
         raise MessageError(f"INFO lacks or garbles a key: {exc}") from None
 
 
-def parse_rev(payload: bytes) -> Revolution:
+def _int40(payload: bytes, off: int) -> int:
+    lo = payload[off] | payload[off + 1] << 8 | payload[off + 2] << 16
+    hi = payload[off + 3] | payload[off + 4] << 8
+    if hi >= 0x8000:
+        hi -= 0x10000
+    return (hi << 24) + lo
+
+
+def parse_rev(payload: bytes) -> RevStats:
     if len(payload) < _REV_HEAD.size:
         raise MessageError(f"REV payload of {len(payload)} bytes; the header alone is {_REV_HEAD.size}")
-    rev, period_us, n_samples, flags, n_ch, mask = _REV_HEAD.unpack_from(payload)
-    expected = _REV_HEAD.size + _REV_CHANNEL.size * n_ch
+    rev, length_q8, n_samples, flags, n_ch, mask, first_off_q8, n_sums = _REV_HEAD.unpack_from(payload)
+    if n_sums != N_SUMS:
+        raise MessageError(f"REV carries {n_sums} sums per channel; this runtrue knows the basis of {N_SUMS}")
+    expected = _REV_HEAD.size + REV_CHANNEL_LEN * n_ch
     if len(payload) != expected:
         raise MessageError(f"REV with {n_ch} channel(s) should be {expected} bytes, got {len(payload)}")
     if bin(mask).count("1") != n_ch:
         raise MessageError(f"REV channel mask {mask:#04x} does not match its {n_ch} channel block(s)")
-    h1: list[complex] = []
-    h2: list[complex] = []
-    rms: list[float] = []
-    for i in range(n_ch):
-        h1_re, h1_im, h2_re, h2_im, rms_g = _REV_CHANNEL.unpack_from(payload, _REV_HEAD.size + i * _REV_CHANNEL.size)
-        h1.append(complex(h1_re, h1_im))
-        h2.append(complex(h2_re, h2_im))
-        rms.append(rms_g)
-    return Revolution(rev, period_us, n_samples, flags, mask, h1, h2, rms)
+    sums = tuple(
+        tuple(_int40(payload, _REV_HEAD.size + c * REV_CHANNEL_LEN + j * INT40_LEN) for j in range(N_SUMS))
+        for c in range(n_ch)
+    )
+    return RevStats(rev, length_q8, n_samples, flags, mask, first_off_q8, sums)
+
+
+def encode_int40(v: int) -> bytes:
+    """The wire form of one sum (for tests and the simulator's tools): lo:u24 hi:i16."""
+    if not -(1 << 39) <= v < 1 << 39:
+        raise ValueError(f"sum {v} does not fit 40 bits")
+    lo = v & 0xFFFFFF
+    hi = (v >> 24) & 0xFFFF
+    return bytes((lo & 255, lo >> 8 & 255, lo >> 16, hi & 255, hi >> 8))
+
+
+def rev_payload(stats: RevStats) -> bytes:
+    """Encode a :class:`RevStats` as a REV payload (the meter's layout; for tests and tools)."""
+    head = _REV_HEAD.pack(stats.rev, stats.length_q8, stats.n_samples, stats.flags, len(stats.sums),
+                          stats.channel_mask, stats.first_off_q8, N_SUMS)
+    return head + b"".join(encode_int40(v) for ch in stats.sums for v in ch)
 
 
 def parse_status(payload: bytes) -> Status:
     if len(payload) != _STATUS.size:
         raise MessageError(f"STATUS payload of {len(payload)} bytes; it should be {_STATUS.size}")
-    up, cpu, dropped, rejected, sent, overflows, streaming = _STATUS.unpack(payload)
-    return Status(up, cpu, dropped, rejected, sent, overflows, bool(streaming))
+    up, cpu, dropped, rejected, lost, sent, overflows, streaming = _STATUS.unpack(payload)
+    return Status(up, cpu, dropped, rejected, sent, overflows, bool(streaming), edges_lost=lost)
 
 
 def parse_ack(payload: bytes) -> Ack:
@@ -285,8 +417,8 @@ def parse_ack(payload: bytes) -> Ack:
 def parse_selftest(payload: bytes) -> SelfTest:
     obj = _json_object(payload, "SELFTEST")
     checks = obj.get("checks", [])
-    if "pass" not in obj or not isinstance(checks, list):
-        raise MessageError("SELFTEST needs 'pass' and a list 'checks'")
+    if "pass" not in obj or not isinstance(checks, list) or not all(isinstance(c, dict) for c in checks):
+        raise MessageError("SELFTEST needs 'pass' and a list 'checks' of objects")
     return SelfTest(bool(obj["pass"]), checks, obj)
 
 
@@ -318,6 +450,12 @@ def set_channels_payload(mask: int) -> bytes:
     if not 1 <= mask <= 0b111:
         raise ValueError(f"channel mask {mask:#x}: use bits 0-2, at least one channel")
     return struct.pack("<B", mask)
+
+
+def set_line_payload(line_hz: int) -> bytes:
+    if line_hz not in LINE_HZ_CHOICES:
+        raise ValueError(f"line frequency {line_hz!r} Hz: use 50, 60 or 0 (off)")
+    return struct.pack("<B", line_hz)
 
 
 def set_edge_payload(edge: str) -> bytes:

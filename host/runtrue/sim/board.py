@@ -16,7 +16,11 @@ REAL firmware ``runtrue_fw.meter.Meter``:
 * blocks of up to 256 frames, interleaved, enabled channels ascending, as ``array('H')``;
 * 12-bit codes from :func:`runtrue.sim.frontend.quantise` (rounding, clipping at the end stops).
 
-``cpu_load_permille()`` reports 0: the simulator does not model the RP2040's CPU time.
+``cpu_load_permille()`` reports a MODELLED load of the RP2040 running this traffic: a cost per
+frame (``CPU_US_PER_FRAME_BASE`` + ``CPU_US_PER_FRAME_CHANNEL`` per channel) and per revolution
+(``CPU_US_PER_REV``), over one-second windows of simulated time.  The constants are the chip
+estimates of tests/bench/bench_meter_unix.py (unix-port times x the RP2040/unix factor of 45-94
+measured from the old float path, an ESTIMATE; firmware/README.md, CPU budget), rounded up.
 ``dropped_samples()`` counts samples "lost" only when a test injects a loss with
 :meth:`SimBoard.inject_dropped_samples` (the real board counts DMA overruns).
 """
@@ -39,6 +43,10 @@ CHANNELS_MAX = 3
 BLOCK_FRAMES = 256
 POS_MOD = 1 << 30
 IDLE_STEP_S = 0.01
+CPU_US_PER_FRAME_BASE = 4.0  # deinterleave and the loop, per frame (chip estimate)
+CPU_US_PER_FRAME_CHANNEL = 9.0  # the revolution kernel's share, per frame and channel (chip estimate)
+CPU_US_PER_REV = 1500.0  # edge logic, kernel set-up/fold/output, header, CRC, COBS, write (chip estimate)
+CPU_IDLE_PERMILLE = 20  # the main loop's own passes (estimate)
 
 
 class MeterLike(Protocol):
@@ -78,6 +86,9 @@ class SimBoard:
         self._drop_pending = 0
         self.repl_requested = False
         self.edges_fed = 0
+        self._cpu_busy_us = 0.0
+        self._cpu_window_s = 0.0
+        self._cpu_permille = CPU_IDLE_PERMILLE
 
     # ---- wiring -------------------------------------------------------------------------------
     def attach(self, meter: MeterLike) -> None:
@@ -95,8 +106,13 @@ class SimBoard:
         return len(self._out)
 
     # ---- hw interface (DEVELOPERS.md, "Firmware: Meter and board") -------------------------------
-    def write(self, buf: bytes | bytearray | memoryview) -> None:
-        self._out += bytes(buf)
+    def write(self, buf: bytes | bytearray | memoryview, n: int | None = None) -> int:
+        """hw.write(buf, n): the first ``n`` bytes of ``buf`` (all if n is None); the Meter reuses
+        ``buf``, so they are copied at once.  Returns the bytes taken."""
+        if n is None:
+            n = len(buf)
+        self._out += memoryview(buf)[:n]
+        return n
 
     def configure(self, channel_mask: int, rate_hz: float) -> float:
         mask = int(channel_mask) & 0b111
@@ -143,11 +159,27 @@ class SimBoard:
             "counts_per_g": [fe.counts_per_g] * n,
             "zero_code": [float(fe.zero_code)] * n,
             "serial": f"{self.serial}-{self.machine.scenario.name}",
-            "round_robin": True,  # channel k of a frame converted k/n_ch sample later; the Meter corrects
+            "round_robin": True,  # channel k of a frame converted k/n_ch sample later; the host corrects
+            "fe": [fe.lowpass_a1_s, fe.lowpass_a2_s2],  # H(s) = 1/(1 + a1 s + a2 s^2) of this front end
         }
 
+    def edges_lost(self) -> int:
+        """Edges lost before the Meter saw them (the simulated board loses none)."""
+        return 0
+
     def cpu_load_permille(self) -> int:
-        return 0  # not modelled (see module docstring)
+        """The modelled CPU load of the last full second of streaming (module docstring)."""
+        return self._cpu_permille
+
+    def _account_cpu(self, n_frames: int, n_edges: int, dt_s: float) -> None:
+        self._cpu_busy_us += n_frames * (CPU_US_PER_FRAME_BASE + CPU_US_PER_FRAME_CHANNEL * len(self._channels))
+        self._cpu_busy_us += n_edges * CPU_US_PER_REV
+        self._cpu_window_s += dt_s
+        if self._cpu_window_s >= 1.0:
+            load = self._cpu_busy_us / (self._cpu_window_s * 1e6)
+            self._cpu_permille = min(1000, CPU_IDLE_PERMILLE + round(1000 * load))
+            self._cpu_busy_us = 0.0
+            self._cpu_window_s = 0.0
 
     def dropped_samples(self) -> int:
         return self._dropped
@@ -191,9 +223,11 @@ class SimBoard:
         accel_g, edges = self.machine.generate(n, rate, self._channels)
         fe = self.machine.scenario.front_end
         codes = quantise(accel_g, fe.counts_per_g, fe.zero_code, fe.adc_bits)
+        n_edges = 0
         for edge in edges:
             if edge.rising == self._falling:
                 continue
+            n_edges += 1
             # time.ticks_us(): whole microseconds; then to 1/256 frame on the sample timebase.
             t_us = math.floor(edge.t_s * 1e6)
             pos = math.floor((t_us * 1e-6 - self._t0_s) * rate * 256.0)
@@ -207,6 +241,7 @@ class SimBoard:
         block.frombytes(np.ascontiguousarray(codes, dtype="<u2").tobytes())
         meter.feed_samples(block, n)
         self._frames += n
+        self._account_cpu(n, n_edges, n / rate)
         meter.service()
         return n / rate
 

@@ -8,7 +8,8 @@ like one in the field:
 * ``fan``      an extraction-fan impeller overhung on its motor: one plane, 8 bolt holes;
 * ``sander``   a belt-sander drive drum: one plane, continuous groove, noisy, 60 Hz mains;
 * ``roller``   a drive roll between two pillow blocks: two planes (end discs), two pickups;
-* ``spindle``  a small high-speed spindle at 24,000 rpm: one plane, 12 tapped holes.
+* ``spindle``  a small machine spindle at 9,000 rpm (inside the meter's envelope,
+  firmware/runtrue_fw/envelope.py): one plane, 12 tapped holes.
 
 Conventions (see :mod:`runtrue.sim.rotor`): axial positions in mm along the shaft; lab angles of
 pickups and of the reference sensor in degrees counter-clockwise, looking at the rotor from the
@@ -204,8 +205,8 @@ def _spindle() -> Scenario:
     )
     return Scenario(
         name="spindle",
-        description="small high-speed spindle, one plane at the nose ring, 12 tapped holes, 24000 rpm",
-        rotor=rotor, speed_rpm=24000.0, rotation="cw", viewed_from="tool end",
+        description="small machine spindle, one plane at the nose ring, 12 tapped holes, 9000 rpm",
+        rotor=rotor, speed_rpm=9000.0, rotation="cw", viewed_from="tool end",
         planes=(Plane("nose ring", -40.0, 22.0, 12, "12 tapped holes M3 for set screws", _gmm(2.5, 200.0)),),
         pickups=(Pickup("front housing, radial", 0.0, 45.0, noise_g=0.05, line_g=0.02,
                         harmonics_g=((2, _gmm(0.05, 10.0)),)),),

@@ -18,6 +18,7 @@ from __future__ import annotations
 import time
 
 from runtrue.sim.board import SimBoard
+from runtrue.sim.fastsums import rev_sums as fast_rev_sums
 from runtrue.sim.machine import VirtualMachine
 from runtrue.sim.scenarios import Scenario, get_scenario
 from runtrue.transport.base import Transport, TransportLost
@@ -36,7 +37,7 @@ class SimTransport(Transport):
         self.realtime = bool(realtime)
         self.machine = VirtualMachine(sc, seed=seed)
         self.board = SimBoard(self.machine)
-        self.meter = Meter(self.board)
+        self.meter = Meter(self.board, rev_sums_kernel=fast_rev_sums)
         self.board.attach(self.meter)
         self._closed = False
         self._unplugged = False
@@ -87,7 +88,7 @@ class SimTransport(Transport):
 
             self._unplugged = False
             self.board = SimBoard(self.machine, serial=self.board.serial)
-            self.meter = Meter(self.board)
+            self.meter = Meter(self.board, rev_sums_kernel=fast_rev_sums)
             self.board.attach(self.meter)
             self._banner_sent = False
         return True

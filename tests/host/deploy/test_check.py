@@ -183,3 +183,22 @@ def test_cli_without_a_port_and_no_board_plugged_in(monkeypatch: pytest.MonkeyPa
 def test_cli_device_without_an_action_shows_help(capsys: pytest.CaptureFixture[str]) -> None:
     assert main(["device"]) == 0
     assert "install" in capsys.readouterr().out
+
+
+class BusyMeterClient(SplitSelfTestClient):
+    """A meter whose processor is 72 % busy while streaming (its STATUS says so)."""
+
+    def self_test(self, timeout_s: float = 10.0) -> dict[str, Any]:
+        return {"pass": True, "checks": []}
+
+    def status(self) -> Status:
+        return Status(uptime_ms=1, cpu_load_permille=720, dropped_samples=0, edges_rejected=0, revs_sent=0,
+                      tx_overflows=0, streaming=False)
+
+
+def test_check_shows_the_meters_cpu_load_and_fails_above_60_percent() -> None:
+    rc, text = run_check("/dev/ttyACM0", open_client=BusyMeterClient, stream_revs=0)
+    assert rc == 1
+    assert "FAIL  cpu: the meter's processor is 72 % busy (over the 60 % limit" in text
+    rc, text = run_check("/dev/ttyACM0", open_client=SplitSelfTestClient, stream_revs=0)
+    assert "PASS  cpu: the meter's processor is 12 % busy (limit 60 %)" in text

@@ -1,7 +1,9 @@
-"""A fake meter speaking protocol version 1, for the device and transport tests.
+"""A fake meter speaking protocol version 2, for the device and transport tests.
 
 ``FakeMeter`` answers commands exactly as firmware/PROTOCOL.md says and, while streaming, makes
-one REV frame per :meth:`tick` with a fixed 1x vector plus a little deterministic scatter.
+one REV frame per :meth:`tick`: the integer sums (basis of runtrue_fw.basis) of a revolution
+with a fixed 1x vector plus a little deterministic scatter, taken without quantisation so the
+host's fit gives that vector back to ~1e-7 g.
 ``FakeMeterTransport`` puts it behind the Transport contract in memory; ``PtyMeter`` serves it
 on a pseudo-terminal from a thread, behind a fixed symlink (like /dev/serial/by-id), and can
 be "unplugged" and "plugged back in".
@@ -18,6 +20,9 @@ import threading
 import time
 from pathlib import Path
 
+import numpy as np
+
+from runtrue.device.revfit import basis_q14
 from runtrue.protocol.frames import FrameDecoder, encode_frame
 from runtrue.protocol.messages import (
     CMD_IDENTIFY,
@@ -28,11 +33,15 @@ from runtrue.protocol.messages import (
     CMD_START,
     CMD_STATUS,
     CMD_STOP,
+    RevStats,
+    rev_payload,
 )
+from runtrue_fw import basis
 from runtrue.transport.base import Transport, TransportLost
 
 TRUE_1X = [complex(0.12, -0.05), complex(-0.02, 0.07), complex(0.0, 0.01)]  # g, per channel
 PERIOD_US = 20_000.0  # 3,000 rpm
+COUNTS_PER_G = 400.0
 
 
 class FakeMeter:
@@ -54,10 +63,10 @@ class FakeMeter:
         self.seq = (self.seq + 1) & 0xFFFF
 
     def _info(self) -> None:
-        info = {"fw": "fake-1", "board": "fake", "proto": 1, "channels_max": 3, "channel_mask": self.mask,
-                "rate_hz": float(self.rate_hz), "adc_bits": 12, "counts_per_g": [400] * 3,
-                "zero_code": [2048] * 3, "edge": self.edge, "streaming": self.streaming,
-                "serial": self.serial}
+        info = {"fw": "fake-1", "board": "fake", "proto": 2, "channel_mask": self.mask,
+                "rate_hz": float(self.rate_hz), "counts_per_g": [COUNTS_PER_G] * 3,
+                "edge": self.edge, "serial": self.serial,
+                "basis": basis.BASIS_ID, "line_inc": 0, "adc_offset": 2048}
         self._send(0x01, json.dumps(info, separators=(",", ":")).encode())  # INFO must fit in 240 bytes
 
     def _ack(self, seq: int, cmd: int, result: int = 0, message: str = "") -> None:
@@ -99,7 +108,7 @@ class FakeMeter:
                 self._send(0x05, json.dumps({"pass": True, "checks": [{"name": "adc", "pass": True, "value": 2048, "unit": "counts", "note": ""}]}).encode())
                 self._ack(seq, cmd)
             elif cmd == CMD_STATUS:
-                self._send(0x03, struct.pack("<IHIIIIB", 1234, 250, 0, 0, self.rev, 0, int(self.streaming)))
+                self._send(0x03, struct.pack("<IHIIIIIB", 1234, 250, 0, 0, 0, self.rev, 0, int(self.streaming)))
                 self._ack(seq, cmd)
             else:
                 self._ack(seq, cmd, 2)
@@ -110,12 +119,17 @@ class FakeMeter:
             return
         chans = [ch for ch in range(3) if self.mask >> ch & 1]
         flags = 0x20 if self.rev == 0 else 0
-        payload = struct.pack("<IfHHBB", self.rev, PERIOD_US, 80, flags, len(chans), self.mask)
+        length_q8 = round(PERIOD_US * 1e-6 * self.rate_hz * 256)
+        n = (length_q8 - 1) // 256 + 1
+        b = basis_q14(n, 0, length_q8, 0).astype(float)
+        sums = []
         for ch in chans:
             wobble = 0.002 * complex(math.cos(self.rev * 2.1 + ch), math.sin(self.rev * 1.3 + ch))
-            h1 = TRUE_1X[ch] + wobble
-            payload += struct.pack("<5f", h1.real, h1.imag, 0.0, 0.0, abs(h1) / math.sqrt(2))
-        self._send(0x02, payload)
+            h1 = (TRUE_1X[ch] + wobble) * COUNTS_PER_G
+            y = (h1.real * b[:, 1] + h1.imag * b[:, 2]) / 16384.0  # |h1| cos(phi - lag), in counts
+            s = [round(float(y.sum()))] + [round(float(v)) for v in y @ b[:, 1:]] + [round(float(y @ y))]
+            sums.append(tuple(s))
+        self._send(0x02, rev_payload(RevStats(self.rev, length_q8, n, flags, self.mask, 0, tuple(sums))))
         self.rev += 1
 
     def take_output(self) -> bytes:

@@ -18,7 +18,7 @@ def client_for(meter: FakeMeter | None = None, **kw: float) -> tuple[MeterClient
 def test_identify_start_read_stop() -> None:
     client, transport = client_for()
     info = client.identify()
-    assert (info.board, info.proto, info.serial) == ("fake", 1, "FAKE0001")
+    assert (info.board, info.proto, info.serial) == ("fake", 2, "FAKE0001")
     client.start()
     revs = client.revolutions(20)
     client.stop()

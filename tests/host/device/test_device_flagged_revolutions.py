@@ -13,9 +13,9 @@ def test_clipping_trial_weight_stops_with_advice_instead_of_waiting_for_ever() -
     try:
         client.identify()
         client.start()
-        # A weight far too heavy for a small 24,000 rpm spindle drives the pickup past the ADC's
+        # A weight far too heavy for a small 9,000 rpm spindle drives the pickup past the ADC's
         # end stops on every revolution.
-        client.transport.machine.add_weight(0, 20.0, 0.0, 30.0)  # type: ignore[attr-defined]
+        client.transport.machine.add_weight(0, 100.0, 0.0, 30.0)  # type: ignore[attr-defined]
         client.discard_revolutions()
         with pytest.raises(AllRevolutionsFlagged) as caught:
             client.revolutions(10, usable_only=True)

@@ -12,7 +12,7 @@ from runtrue.protocol.frames import MAX_PAYLOAD, Frame, FrameDecoder, encode_fra
 FUZZ = settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 
 frames_st = st.builds(
-    lambda t, s, p: Frame(1, t, s, p),
+    lambda t, s, p: Frame(2, t, s, p),
     st.integers(0, 255),
     st.integers(0, 0xFFFF),
     st.binary(max_size=MAX_PAYLOAD),

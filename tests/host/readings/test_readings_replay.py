@@ -12,7 +12,8 @@ import pytest
 
 from runtrue.device import MeterClient
 from runtrue.protocol.frames import FrameDecoder
-from runtrue.protocol.messages import DeviceInfo, Revolution, parse_message
+from runtrue.device import revfit
+from runtrue.protocol.messages import DeviceInfo, InfoAssembler, InfoPart, RevStats, parse_message
 from runtrue.readings import vector_average
 from runtrue.transport.base import Transport
 
@@ -63,9 +64,11 @@ def test_capture_decodes_cleanly_and_averages_to_the_truth(capture: Path) -> Non
     decoder = FrameDecoder()
     messages = [parse_message(f) for f in decoder.feed(capture.read_bytes())]
     assert decoder.errors == 0 and decoder.lost_frames == 0
-    info = next(m for m in messages if isinstance(m, DeviceInfo))
-    assert info.proto == 1 and info.board == meta["board"]
-    revs = [m for m in messages if isinstance(m, Revolution)]
+    joiner = InfoAssembler()
+    joined = [joiner.feed(m) for m in messages if isinstance(m, InfoPart)]
+    info = next(i for i in joined + [m for m in messages if isinstance(m, DeviceInfo)] if i is not None)
+    assert info.proto == 2 and info.board == meta["board"]
+    revs = [revfit.revolution_from_info(m, info) for m in messages if isinstance(m, RevStats)]
     assert sum(r.usable for r in revs) >= meta["usable_revs"]
     reading = vector_average(revs)
     assert len(reading.channels) == len(meta["expected"])

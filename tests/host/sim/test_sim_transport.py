@@ -40,16 +40,16 @@ def test_unknown_scenario_is_refused_with_the_known_names():
         SimTransport("mixer")
 
 
-def test_identify_answers_info_then_ack_in_protocol_v1():
+def test_identify_answers_info_then_ack_in_protocol_v2():
     t = SimTransport("roller", seed=1)
     t.write(encode_frame(IDENTIFY, 7))
     frames = _frames(t, 0.05)
-    assert [f.type for f in frames] == [T_INFO, T_ACK]
-    info = json.loads(frames[0].payload)
-    assert info["board"] == "sim" and info["proto"] == 1
+    assert [f.type for f in frames] == [T_INFO, T_INFO, T_ACK]
+    info = {**json.loads(frames[0].payload), **json.loads(frames[1].payload)}
+    assert info["board"] == "sim" and info["proto"] == 2 and info["round_robin"] is True
     assert info["channels_max"] == 2 and info["adc_bits"] == 12
     assert info["counts_per_g"] == [pytest.approx(409.6)] * 2
-    cmd_seq, cmd_type, result = struct.unpack_from("<HBB", frames[1].payload)
+    cmd_seq, cmd_type, result = struct.unpack_from("<HBB", frames[2].payload)
     assert (cmd_seq, cmd_type, result) == (7, IDENTIFY, 0)
 
 
@@ -62,9 +62,10 @@ def test_streaming_sends_a_revolution_per_turn_and_status_about_once_a_second():
     turns = 3.0 * 1470.0 / 60.0
     assert len(revs) == pytest.approx(turns, abs=3)
     assert len(status) in (2, 3)
-    rev, period_us, n_samples, flags, n_ch, mask = struct.unpack_from("<IfHHBB", revs[5].payload)
+    rev, length_q8, n_samples, flags, n_ch, mask, first_off_q8, n_sums = struct.unpack_from("<IIHHBBBB", revs[5].payload)
+    period_us = length_q8 / 256 / t.board.rate_hz * 1e6
     assert period_us == pytest.approx(60e6 / 1470.0, rel=0.02)
-    assert (n_ch, mask) == (1, 1)
+    assert (n_ch, mask, n_sums) == (1, 1, 14)
 
 
 def test_read_times_out_with_nothing_when_the_meter_is_quiet():

@@ -21,8 +21,14 @@ class Host:
 
     def command(self, ctype, payload=b""):
         seq = self.writer.seq
-        self.meter.feed_command_bytes(bytes(self.writer.encode(ctype, payload)))
+        n = self.writer.encode(ctype, payload)
+        self.meter.feed_command_bytes(bytes(self.writer.wire[:n]))
         return seq
+
+    def wire(self, ctype, payload=b""):
+        """The wire bytes of a command frame (numbered like `command`), not sent."""
+        n = self.writer.encode(ctype, payload)
+        return bytes(self.writer.wire[:n])
 
     def frames(self):
         """Decoded (type, seq, payload) of everything the meter wrote since the last call."""
@@ -33,14 +39,21 @@ class Host:
         return out
 
 
+def int40(p, o):
+    hi = p[o + 3] | (p[o + 4] << 8)
+    if hi >= 32768:
+        hi -= 65536
+    return hi * 16777216 + (p[o] | (p[o + 1] << 8) | (p[o + 2] << 16))
+
+
 def parse_rev(p):
-    rev, period_us, n, flags, nch, mask = struct.unpack_from(fr.REV_HEADER_FMT, p)
-    chans = []
+    rev, length_q8, n, flags, nch, mask, first_off_q8, n_sums = struct.unpack_from(
+        fr.REV_HEADER_FMT, p)
+    sums = []
     for k in range(nch):
-        h1r, h1i, h2r, h2i, rms = struct.unpack_from(fr.REV_CHANNEL_FMT, p, 14 + 20 * k)
-        chans.append({"h1": (h1r, h1i), "h2": (h2r, h2i), "rms": rms})
-    return {"rev": rev, "period_us": period_us, "n_samples": n, "flags": flags,
-            "channel_mask": mask, "channels": chans}
+        sums.append([int40(p, 16 + 70 * k + 5 * j) for j in range(n_sums)])
+    return {"rev": rev, "length_q8": length_q8, "n_samples": n, "flags": flags,
+            "channel_mask": mask, "first_off_q8": first_off_q8, "sums": sums}
 
 
 def revs_of(frames):
@@ -79,8 +92,9 @@ def stream(meter, hw, shaft, n_frames, block=64, slots=None, edges=None, edges_l
 
 
 def scenario(rate_hz=4000, rpm=2466.42, channels=None, n_frames=1200, round_robin=False,
-             noise_codes=0.0, block=64, adc_bits=12, counts_per_g=400.0):
-    """A started meter fed with a shaft; returns the revolutions it reported."""
+             noise_codes=0.0, block=64, adc_bits=12, counts_per_g=400.0, with_meter=False):
+    """A started meter fed with a shaft; returns the revolutions it reported (and the meter
+    with `with_meter`)."""
     if channels is None:
         channels = [(0.5, 30.0, 0.1, 200.0, 0.2), (0.25, 300.0, 0.05, 10.0, -0.1),
                     (1.0, 181.0, 0.0, 0.0, 0.0)]
@@ -96,4 +110,5 @@ def scenario(rate_hz=4000, rpm=2466.42, channels=None, n_frames=1200, round_robi
     sh = Shaft(rate_hz, rpm, channels, t0_samples=0.375, round_robin=round_robin,
                noise_codes=noise_codes)
     stream(m, hw, sh, n_frames, block=block)
-    return revs_of(host.frames())
+    revs = revs_of(host.frames())
+    return (revs, m) if with_meter else revs

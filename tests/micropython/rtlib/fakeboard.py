@@ -12,13 +12,14 @@ from math import cos, pi, floor
 
 class FakeBoard:
     def __init__(self, channels_max=3, adc_bits=12, counts_per_g=None, zero_code=None,
-                 round_robin=False):
+                 round_robin=False, out_capacity=1 << 18):
         self.channels_max = channels_max
         self.adc_bits = adc_bits
         self.counts_per_g = counts_per_g or [400.0] * channels_max
         self.zero_code = zero_code or [2048.0] * channels_max
         self.round_robin = round_robin
-        self.out = bytearray()
+        self.out = bytearray(out_capacity)   # preallocated: write() allocates nothing
+        self.n_out = 0
         self.mask = (1 << channels_max) - 1
         self.rate_hz = 0.0
         self.falling = False
@@ -26,13 +27,24 @@ class FakeBoard:
         self.stopped = 0
         self.ms = 1000
         self.dropped = 0
+        self.lost_edges = 0
         self.cpu = 123
         self.repl = 0
 
     # board contract
-    def write(self, buf):
-        self.out.extend(buf)
-        return len(buf)
+    def write(self, buf, n=None):
+        """The board contract's write(buf, n): copies buf[:n] at once (the Meter reuses buf)."""
+        if n is None:
+            n = len(buf)
+        o = self.n_out
+        if o + n > len(self.out):
+            return 0                      # full: the Meter counts a tx overflow
+        i = 0
+        while i < n:
+            self.out[o + i] = buf[i]
+            i += 1
+        self.n_out = o + n
+        return n
 
     def configure(self, channel_mask, rate_hz):
         self.mask = channel_mask
@@ -54,7 +66,8 @@ class FakeBoard:
     def info(self):
         return {"board": "fake", "adc_bits": self.adc_bits, "channels_max": self.channels_max,
                 "counts_per_g": self.counts_per_g, "zero_code": self.zero_code,
-                "serial": "e66038b713526d2a", "round_robin": self.round_robin}
+                "serial": "e66038b713526d2a", "round_robin": self.round_robin,
+                "fe": [1.834e-4, 1.504e-10]}
 
     def cpu_load_permille(self):
         return self.cpu
@@ -62,12 +75,15 @@ class FakeBoard:
     def dropped_samples(self):
         return self.dropped
 
+    def edges_lost(self):
+        return self.lost_edges
+
     def enter_repl(self):
         self.repl += 1
 
     def take_output(self):
-        data = bytes(self.out)
-        self.out = bytearray()
+        data = bytes(self.out[:self.n_out])
+        self.n_out = 0
         return data
 
 
