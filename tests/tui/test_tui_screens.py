@@ -406,3 +406,25 @@ async def test_larger_terminal_uses_the_room() -> None:
         assert dial.size.width > 40 and dial.size.height > 25
         text = screen_text(app)
         assert "MARK" in text and "secure for" in text and "Quit" in text.splitlines()[-1]
+
+
+async def test_live_screen_says_when_line_hum_sits_on_an_order() -> None:
+    meters: list[Any] = []
+
+    def opener(port: str, seed: int | None = None, realtime: bool = False) -> Any:
+        m = fake_opener()(port, seed, realtime)
+        m.line_collisions = ((100.0, 4, 2.0),)
+        meters.append(m)
+        return m
+
+    app = make_app("sim:fake", opener=opener, realtime=False, revs_per_reading=12, post_interval_s=0.05)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected")
+        from runtrue.tui.screens.live import LiveScreen
+
+        app.push_screen(LiveScreen("test"), lambda _r: None)
+        await wait_until(pilot, lambda: app.session.live.total_revs > 20, what="revolutions")
+        await pilot.pause(0.3)
+        text = screen_text(app)
+        assert "Hum: line hum at 100 Hz is within 2.0 % of 4x:" in text  # wrapped on the 80x24 screen
+        assert "average longer or change speed." in text

@@ -79,6 +79,7 @@ class FakeMeter:
         self.streaming = False
         self.lost_frames = 0
         self.fail_after: int | None = None  # raise TransportLost after this many revolutions
+        self.line_collisions: tuple[tuple[float, int, float], ...] = ()  # what the host fit could not separate
 
     def identify(self) -> dict:
         n = len(self.transport.machine.influence)
@@ -107,6 +108,7 @@ class FakeMeter:
         return Revolution(
             rev=self.rev, period_us=60e6 / rotor.speed_rpm, n_samples=160, flags=0,
             channel_mask=(1 << len(h1)) - 1, h1=h1, h2=[0.01 + 0j] * len(h1), rms_g=[abs(v) * 0.8 + 0.02 for v in h1],
+            line_collisions=self.line_collisions,
         )
 
     def close(self) -> None:

@@ -28,7 +28,8 @@ def register(subparsers: Any) -> None:
         "simulator; with --auto a whole job (reference, trial, correction, trims) runs headless.",
     )
     p.add_argument("--scenario", default=DEFAULT_SCENARIO, metavar="NAME",
-                   help=f"simulator scenario (default {DEFAULT_SCENARIO}; `runtrue scenarios` lists them)")
+                   help=f"simulator scenario (default {DEFAULT_SCENARIO}; `runtrue scenarios` lists them), or a "
+                   "scenario file PATH.toml / PATH.json")
     p.add_argument("--seed", type=int, default=None, metavar="N", help="random seed: the same seed gives the same job")
     p.add_argument("--auto", action="store_true", help="run a whole job with no interaction")
     p.add_argument("--json", action="store_true", help="with --auto: print one JSON object")
@@ -50,13 +51,21 @@ def _check_args(args: argparse.Namespace) -> None:
 
     names = scenario_names()
     if args.scenario not in names:
-        raise UsageError(f"unknown scenario {args.scenario!r}; choose one of: {', '.join(names) or 'none installed'}")
+        from runtrue.sim.scenario_file import ScenarioFileError, load_scenario_file, looks_like_file
+
+        if not looks_like_file(args.scenario):
+            raise UsageError(f"unknown scenario {args.scenario!r}; choose one of: {', '.join(names) or 'none installed'}, "
+                             "or give a scenario file (PATH.toml or PATH.json)")
+        try:
+            load_scenario_file(args.scenario)
+        except ScenarioFileError as exc:
+            raise UsageError(str(exc)) from None
     if not args.auto and (args.json or args.revs or args.max_runs or args.db or args.resume or args.no_phase):
         raise UsageError("--json, --revs, --max-runs, --no-phase, --db and --resume go with --auto")
     if args.no_phase:
-        from runtrue.sim.scenarios import SCENARIOS
+        from runtrue.sim.scenarios import SCENARIOS, get_scenario
 
-        n_planes = len(SCENARIOS[args.scenario].planes)
+        n_planes = len(get_scenario(args.scenario).planes)
         if n_planes != 1:
             one = ", ".join(n for n, sc in sorted(SCENARIOS.items()) if len(sc.planes) == 1)
             raise UsageError(

@@ -11,7 +11,13 @@ keys)::
 * ``amp``: g, 1x peak; ``phase``: lag in degrees after the reference mark, 0-360;
   ``spread``: the standard deviation of the mean vector, g (see runtrue.readings.average).
 * Added keys: ``rpm_sd``, ``revs``, ``rejected``, ``lost_frames``, ``port``, ``conventions``;
-  per channel ``channel`` (physical number), ``confidence`` (95 % radius, g), ``velocity_mm_s_rms``.
+  per channel ``channel`` (physical number), ``confidence`` (95 % radius, g), ``velocity_mm_s_rms``;
+  ``warnings`` (list of texts: what the fit could not separate, e.g. line hum near an order);
+  ``front_end`` ({``lag_deg``, ``lag_tol_deg``, ``gain``, ``gain_tol``}: the anti-alias filter's
+  lag taken out of the 1x phase and gain divided out of its amplitude, with their spread over
+  the parts' tolerances; null when the meter did not give its front end); ``fit``: ``"joint"``
+  when the 1x is the joint fit of all the revolutions' sums (line hum fitted across them,
+  runtrue.readings.joint), ``"vector average"`` otherwise.
 * ``expected`` (simulator only): each channel's noise-free 1x vector from the virtual machine
   (``transport.machine.expected_1x()``), sampled as each averaged revolution arrived and
   averaged like the measurement, so it is the truth for the same revolutions even while the
@@ -82,6 +88,7 @@ def _pick_port(port: str | None) -> str:
 def _measure(args: Any, port: str) -> dict[str, Any]:
     from runtrue.device import MeterError, Revolution, open_meter
     from runtrue.readings import amp_phase, vector_average
+    from runtrue.readings.admit import counts, why_left_out
     from runtrue.readings.units import convert_1x
     from runtrue.transport import PortError, TransportLost
 
@@ -114,12 +121,12 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
                     "sensor sees its mark once per revolution (its gap, its LED, --edge), or give a longer --timeout"
                 )
             seen += 1
-            if rev.usable:
+            if counts(rev):
                 usable.append(rev)
                 if machine is not None:
                     truth.append(list(machine.expected_1x()))
             else:
-                flags_seen.update(rev.flag_names)
+                flags_seen.update(why_left_out(rev))
             if seen >= limit:
                 raise UsageError(
                     f"only {len(usable)} of {seen} revolutions were usable ({', '.join(sorted(flags_seen))}): "
@@ -130,7 +137,7 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         raise UsageError(str(exc)) from None
     finally:
         client.close()
-    reading = vector_average(usable)
+    reading = vector_average(usable, info=client.info)
     out: dict[str, Any] = {
         "rpm": reading.speed_rpm,
         "channels": [
@@ -151,6 +158,11 @@ def _measure(args: Any, port: str) -> dict[str, Any]:
         "envelope_warning": client.envelope_warning,
         "port": port,
         "conventions": CONVENTIONS,
+        "warnings": list(reading.warnings),
+        "fit": reading.fit,
+        "front_end": ({"lag_deg": reading.fe_lag_deg, "lag_tol_deg": reading.fe_lag_tol_deg,
+                       "gain": reading.fe_gain, "gain_tol": reading.fe_gain_tol}
+                      if reading.frontend_text else None),
     }
     if machine is not None and truth:
         expected = []
@@ -177,6 +189,12 @@ def _table(result: dict[str, Any]) -> str:
         if expected:
             line += f"   simulator truth {expected[i]['amp']:.4f} g at {expected[i]['phase']:.1f}"
         lines.append(line)
+    fe = result.get("front_end")
+    if fe:
+        lines.append(f"front end corrected: lag {fe['lag_deg']:.2f} +-{fe['lag_tol_deg']:.2f} deg, "
+                     f"gain {fe['gain']:.3f} +-{100 * fe['gain_tol']:.1f} %")
+    for w in result.get("warnings", []):
+        lines.append(f"WARNING: {w}")
     if result.get("envelope_warning"):
         lines.append(f"WARNING: {result['envelope_warning']}")
     return "\n".join(lines)

@@ -14,6 +14,8 @@ FLAG_ADVICE = {
     "extra pulse": "something else reflects (bolt heads, shiny paint): mask it or narrow the mark",
     "speed jump": "the speed is not steady: let the machine settle, check belts and the drive",
     "dropped samples": "the meter is losing samples: close other programs on the link, or lower the sample rate",
+    "first": "the first revolution after starting, or after the reference stopped, is never averaged "
+    "(its period cannot be checked); nothing to do unless it keeps happening: then check the reference sensor",
     "no fit": "the revolutions are too long or too short for the sample rate: check the speed and --rate",
 }
 

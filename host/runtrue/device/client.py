@@ -23,6 +23,7 @@ from typing import Any, Callable
 
 from runtrue.device import revfit
 from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning
+from runtrue.readings.admit import counts, why_left_out
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import FrameDecoder
@@ -94,6 +95,8 @@ class MeterClient:
         self.connected = True
         self.streaming = False
         self._revs: collections.deque[Revolution] = collections.deque(maxlen=REV_QUEUE_MAX)
+        self._last_stats: RevStats | None = None  # for the speed change within the next revolution
+        self._clock = revfit.SampleClock()  # where each revolution's samples lie, for the line tone
         self._acks: dict[int, Ack] = {}
         self._selftest: SelfTest | None = None
         self._selftest_parts: dict[int, dict[str, Any]] = {}
@@ -125,7 +128,10 @@ class MeterClient:
                 self.message_errors += 1
                 self.log.append(f"revolution {message.rev} before the meter's INFO: left out")
                 return
-            rev = revfit.revolution_from_info(message, self.info)
+            prev = revfit.previous_length(self._last_stats, message)
+            self._last_stats = message
+            first, run = self._clock.place(message)
+            rev = revfit.revolution_from_info(message, self.info, prev, first, run)
             warning = envelope_warning(rev.speed_rpm, self.info.min_rpm, self.info.max_rpm)
             if warning and warning != self.envelope_warning:
                 self.log.append(warning)
@@ -386,9 +392,9 @@ class MeterClient:
                     f"({len(out)} of {n} so far): is the machine running, and does the reference "
                     "sensor see its mark once per revolution (check its LED, gap and the --edge setting)?"
                 )
-            if usable_only and not rev.usable:
+            if usable_only and not counts(rev):
                 n_flagged += 1
-                for name in rev.flag_names:
+                for name in why_left_out(rev):
                     flagged[name] = flagged.get(name, 0) + 1
                 if n_flagged >= limit:
                     raise AllRevolutionsFlagged(_flagged_advice(self.port, n_flagged, len(out), n, flagged), flagged)

@@ -111,14 +111,14 @@ def take_reading(client: Any, revs: int, settle_revs: int = SETTLE_REVS) -> Any:
         if detector.add(client.revolutions(1)[0]).steady:
             break
     taken = client.revolutions(revs, usable_only=True)
-    reading = vector_average(taken)
+    reading = vector_average(taken, info=client.info)
     # A noisy machine: keep averaging until each 1x vector is known to within REL_CONFIDENCE
     # of its size (95 % radius), or MORE_REVS_FACTOR times the revolutions asked for.
     while len(taken) < MORE_REVS_FACTOR * revs and any(
         ch.confidence_g > REL_CONFIDENCE * ch.amp_g for ch in reading.channels
     ):
         taken += client.revolutions(revs, usable_only=True)
-        reading = vector_average(taken)
+        reading = vector_average(taken, info=client.info)
     return reading
 
 

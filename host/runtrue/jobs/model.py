@@ -407,6 +407,8 @@ class RunReading:
     speed_sd_rpm: float = 0.0
     n_revs: int = 0
     source: str = "meter"
+    frontend_note: str = ""  # the front-end correction made to the phase and amplitude ("" none)
+    warnings: tuple[str, ...] = ()  # what the fit could not separate (e.g. line hum near an order)
 
     @classmethod
     def from_reading(cls, reading: Any) -> RunReading:
@@ -432,6 +434,8 @@ class RunReading:
             speed_sd_rpm=float(getattr(reading, "speed_sd_rpm", 0.0) or 0.0),
             n_revs=int(getattr(reading, "n_revs", 0) or 0),
             source="meter",
+            frontend_note=str(getattr(reading, "frontend_text", "") or ""),
+            warnings=tuple(str(w) for w in getattr(reading, "warnings", ()) or ()),
         )
 
     @classmethod
@@ -474,7 +478,8 @@ class RunReading:
             ChannelValue(mean=complex(c.amp_g, 0.0), spread_g=c.spread_g, confidence_g=c.confidence_g, rms_g=c.rms_g)
             for c in self.channels
         )
-        return RunReading(self.speed_rpm, chans, self.speed_sd_rpm, self.n_revs, source)
+        return RunReading(self.speed_rpm, chans, self.speed_sd_rpm, self.n_revs, source, self.frontend_note,
+                          self.warnings)
 
     def vector(self) -> list[complex]:
         return [c.mean for c in self.channels]
@@ -486,6 +491,8 @@ class RunReading:
             "n_revs": self.n_revs,
             "source": self.source,
             "channels": [c.to_dict() for c in self.channels],
+            **({"frontend_note": self.frontend_note} if self.frontend_note else {}),
+            **({"warnings": list(self.warnings)} if self.warnings else {}),
         }
 
     @classmethod
@@ -496,6 +503,8 @@ class RunReading:
             speed_sd_rpm=float(d.get("speed_sd_rpm", 0.0)),
             n_revs=int(d.get("n_revs", 0)),
             source=str(d.get("source", "meter")),
+            frontend_note=str(d.get("frontend_note", "")),
+            warnings=tuple(str(w) for w in d.get("warnings", ())),
         )
 
 

@@ -300,6 +300,14 @@ def render_html(store: JobStore, job_id: int) -> str:
         )
     out.append("</table>")
     out.append('<p class="note">± is the 95 % confidence radius of each reading.</p>')
+    notes = sorted({r.reading.frontend_note for r in runs if r.reading.frontend_note and not no_phase})
+    if notes:  # one line when every run was corrected alike (same speed)
+        runs_of = {n: [r.seq for r in runs if r.reading.frontend_note == n] for n in notes}
+        text = "; ".join(n if len(notes) == 1 else f"run {', '.join(map(str, runs_of[n]))}: {n}" for n in notes)
+        out.append(f'<p class="note" id="frontend">Phases and amplitudes are the vibration itself: {_e(text)}.</p>')
+    hums = sorted({w for r in runs for w in r.reading.warnings})
+    if hums:
+        out.append('<p class="note" id="reading-warnings">' + "<br>".join(_e(w) for w in hums) + "</p>")
     # Warnings
     if res.warnings:
         out.append('<h2 id="warnings">Warnings</h2><ul>')

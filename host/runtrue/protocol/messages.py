@@ -214,6 +214,17 @@ class Revolution:
     h2: list[complex]
     rms_g: list[float]
     h3: list[complex] = field(default_factory=list)  # 3x phasors (empty where not fitted)
+    # What the host's fit modelled (runtrue.readings.revmodel); defaults: nothing modelled.
+    line_collisions: tuple[tuple[float, int, float], ...] = ()  # (line tone Hz, order k, gap %) not separable
+    fe_lag_deg: float = 0.0  # front-end lag taken out of the 1x (already corrected in h1)
+    fe_lag_tol_deg: float = 0.0  # its spread over the parts' tolerances
+    fe_gain: float = 1.0  # front-end gain divided out of the 1x
+    fe_gain_tol: float = 0.0
+    accel: float = 0.0  # modelled angular acceleration, turns per sample squared
+    stats: RevStats | None = field(default=None, compare=False, repr=False)  # the sums it came from
+    first_sample: int = -1  # index of its first sample in an unbroken run of samples (-1: unknown)
+    run_id: int = 0  # which unbroken run of samples (a new one after START or lost samples)
+    h1_per_code: tuple[complex, ...] = ()  # per channel: h1 = (1x in codes, cos + j sin) * this
 
     @property
     def speed_rpm(self) -> float:
@@ -232,6 +243,17 @@ class Revolution:
     @property
     def flag_names(self) -> list[str]:
         return [name for bit, name in FLAG_NAMES.items() if self.flags & bit]
+
+    @property
+    def warnings(self) -> list[str]:
+        """What the fit could not separate in this revolution, in words."""
+        return [line_hum_warning(hz, k, gap) for hz, k, gap in self.line_collisions]
+
+
+def line_hum_warning(line_hz: float, order: int, gap_pct: float) -> str:
+    """The user's words for a line tone too close to a running-speed order."""
+    return (f"line hum at {line_hz:.0f} Hz is within {max(gap_pct, 0.1):.1f} % of {order}x: "
+            "average longer or change speed")
 
 
 @dataclass(frozen=True)

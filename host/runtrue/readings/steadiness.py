@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from runtrue.protocol.messages import Revolution
+from runtrue.readings.admit import counts
 from runtrue.readings.average import spread_of_mean
 
 
@@ -47,7 +48,7 @@ def steadiness(
     """Judge the last ``window`` usable revolutions of ``revs`` (see the module doc)."""
     if window < 4:
         raise ValueError("the window needs at least 4 revolutions (two halves of two)")
-    usable = [r for r in revs if r.usable]
+    usable = [r for r in revs if counts(r)]
     if usable:
         usable = [r for r in usable if r.channel_mask == usable[-1].channel_mask]
     recent = usable[-window:]
@@ -90,7 +91,7 @@ class SteadinessDetector:
         self._revs: collections.deque[Revolution] = collections.deque(maxlen=window)
 
     def add(self, rev: Revolution) -> Steadiness:
-        if rev.usable:
+        if counts(rev):
             self._revs.append(rev)
         return self.state()
 

@@ -20,8 +20,9 @@ Use::
     m.set_speed_rpm(1200.0, ramp_rpm_per_s=200.0); m.coast_down()
     t.unplug(); t.reopen(1.0)                   # pull and re-plug the simulated cable
 
-``expected_1x`` is what the meter reports without noise: lag after the active reference edge,
-including the anti-alias filter's lag and the reference conditioning delay, with the ADC's
+``expected_1x`` is what the host reports without noise: lag after the active reference edge,
+the anti-alias filter taken out (the host corrects it from INFO's ``fe``), including the
+reference conditioning delay, with the ADC's
 round-robin skew removed (the firmware corrects it).  Lag grows with speed through the filter
 and the support dynamics, so compare at the speed measured.
 """

@@ -18,8 +18,9 @@ its values at the block's start and end speeds (quasi-steady response: transient
 dynamics during fast speed changes are not modelled).
 
 Convention of :meth:`VirtualMachine.expected_1x`: the meter's (PROTOCOL.md): ``amp e^{+j lag}``
-with ``lag`` the phase lag after the ACTIVE reference edge as the meter detects it, including the
-anti-alias filter and the reference conditioning delay; the sampling offset of a channel within
+with ``lag`` the phase lag after the ACTIVE reference edge as the host reports it: the vibration
+itself (the host divides the anti-alias filter's response out, from the meter's INFO ``fe``),
+including the reference conditioning delay; the sampling offset of a channel within
 the ADC's round-robin is included only if the meter does not correct it (it does when the
 board's ``info()`` says ``round_robin``, as SimBoard's does).
 """
@@ -77,9 +78,12 @@ class VirtualMachine:
         self._next_id = 1
         self.t_s = 0.0
         self._theta = float(self._rng.uniform(0.0, TWO_PI))  # rotor angle since a mark passage
-        self._nominal_rpm = sc.speed_rpm
-        self._target_rpm = sc.speed_rpm
+        self._nominal_rpm = sc.speed_rpm if sc.start_rpm is None else sc.start_rpm
+        self._target_rpm = self._nominal_rpm
         self._ramp_rpm_per_s = 0.0
+        self._profile = sc.speed_profile  # followed until set_speed_rpm takes over
+        self._profile_i = 0
+        self._hold_left_s = 0.0
         self._drift = 0.0  # relative speed wander (OU state)
         self._omega = self._omega_now()
         self._omega_dot = 0.0
@@ -88,6 +92,7 @@ class VirtualMachine:
         self._skew_corrected = True
         self._line_phase = self._rng.uniform(0.0, TWO_PI, size=len(sc.pickups))
         self._missed_next = False
+        self._passages = 0  # mark passages so far (for the scenario's missed_marks)
 
     # ---- weights and unbalance -----------------------------------------------------------
     def add_weight(self, plane: int, mass_g: float, angle_deg: float, radius_mm: float) -> int:
@@ -146,6 +151,7 @@ class VirtualMachine:
         if not (math.isfinite(speed_rpm) and speed_rpm >= 0.0):
             raise ValueError(f"speed must be 0 rpm or more, not {speed_rpm!r}")
         with self._lock:
+            self._profile = ()
             self._target_rpm = float(speed_rpm)
             if ramp_rpm_per_s is None:
                 self._nominal_rpm = float(speed_rpm)
@@ -173,9 +179,31 @@ class VirtualMachine:
     def _omega_now(self) -> float:
         return TWO_PI / 60.0 * self._nominal_rpm * (1.0 + self._drift)
 
+    def _profile_tick(self, dt_s: float) -> None:
+        """Follow the scenario's speed profile: next step once the ramp is done and the hold over."""
+        if not self._profile or self._ramp_rpm_per_s > 0.0:
+            return
+        if self._hold_left_s > 0.0:
+            self._hold_left_s -= dt_s
+            return
+        if self._profile_i >= len(self._profile):
+            if not self.scenario.profile_repeat:
+                self._profile = ()
+                return
+            self._profile_i = 0
+        step = self._profile[self._profile_i]
+        self._profile_i += 1
+        self._target_rpm = float(step.to_rpm)
+        self._hold_left_s = float(step.hold_s)
+        if step.rpm_per_s > 0.0:
+            self._ramp_rpm_per_s = float(step.rpm_per_s)
+        else:
+            self._nominal_rpm = float(step.to_rpm)
+
     def _step_speed(self, dt_s: float) -> float:
         """Advance nominal speed and wander by dt; return the new angular speed (rad/s)."""
         sc = self.scenario
+        self._profile_tick(dt_s)
         if self._ramp_rpm_per_s > 0.0:
             step = self._ramp_rpm_per_s * dt_s
             if abs(self._target_rpm - self._nominal_rpm) <= step:
@@ -191,8 +219,10 @@ class VirtualMachine:
         return self._omega_now()
 
     # ---- responses ----------------------------------------------------------------------------
-    def _pickup_phasors_g(self, omega: float, omega_dot: float, unbalance: list[complex]) -> np.ndarray:
-        """P_i (g): pickup i's 1x is Re(P_i e^{j Theta}), after the anti-alias filter."""
+    def _pickup_phasors_g(self, omega: float, omega_dot: float, unbalance: list[complex],
+                          with_filter: bool = True) -> np.ndarray:
+        """P_i (g): pickup i's 1x is Re(P_i e^{j Theta}), after the anti-alias filter (unless not
+        ``with_filter``: the vibration itself)."""
         sc = self.scenario
         if omega <= 0.0:
             return np.zeros(len(sc.pickups), dtype=complex)
@@ -202,6 +232,8 @@ class VirtualMachine:
             [pk.axial_mm for pk in sc.pickups], [pk.angle_deg for pk in sc.pickups],
         )
         fe = sc.front_end
+        if not with_filter:
+            return p / G0_M_PER_S2
         return p / G0_M_PER_S2 * lowpass_response(omega / TWO_PI, fe.lowpass_a1_s, fe.lowpass_a2_s2)
 
     def expected_1x(self) -> list[complex]:
@@ -217,7 +249,8 @@ class VirtualMachine:
             return self._expected_at(TWO_PI * speed_rpm / 60.0, TWO_PI * speed_change_rpm_per_s / 60.0)
 
     def _expected_at(self, omega: float, omega_dot: float = 0.0) -> list[complex]:
-        p = self._pickup_phasors_g(omega, omega_dot, self.unbalance_gmm())
+        # the host divides the front end's response out (INFO's fe, runtrue.device.revfit)
+        p = self._pickup_phasors_g(omega, omega_dot, self.unbalance_gmm(), with_filter=False)
         shift = omega * self.scenario.front_end.ref_delay_us * 1e-6
         if self._falling:
             shift += math.radians(self.scenario.mark_width_deg)
@@ -296,6 +329,12 @@ class VirtualMachine:
                 sig += pk.line_g * abs(h_line) * np.cos(
                     TWO_PI * f_line * t_abs + self._line_phase[ch] + cmath.phase(h_line)
                 )
+            if pk.line_hum_g and self._target_rpm > 0.0:  # mains hum at multiples of the line frequency
+                t_abs = self.t_s + tau
+                for mult, amp in pk.line_hum_g:
+                    h = complex(lowpass_response(mult * sc.line_hz, fe.lowpass_a1_s, fe.lowpass_a2_s2))
+                    sig += amp * abs(h) * np.cos(TWO_PI * mult * sc.line_hz * t_abs
+                                                 + 0.5 * mult * self._line_phase[ch] + cmath.phase(h))
             if pk.noise_g:
                 sig += self._rng.normal(0.0, pk.noise_g, n_frames)
             out[:, col] = sig + pk.dc_offset_g
@@ -324,6 +363,9 @@ class VirtualMachine:
                 break
             if base > theta0:  # a new passage of the mark: maybe missed as a whole
                 self._missed_next = bool(self._rng.random() < sc.missed_per_rev)
+                if self._passages in sc.missed_marks:
+                    self._missed_next = True
+                self._passages += 1
             if not self._missed_next:
                 if theta0 < base <= theta_end:
                     targets.append((base, True))

@@ -11,6 +11,9 @@ like one in the field:
 * ``spindle``  a small machine spindle at 9,000 rpm (inside the meter's envelope,
   firmware/runtrue_fw/envelope.py): one plane, 12 tapped holes.
 
+More machines can be described in files (:mod:`runtrue.sim.scenario_file`); ``get_scenario``
+takes a built-in name or such a file's path.
+
 Conventions (see :mod:`runtrue.sim.rotor`): axial positions in mm along the shaft; lab angles of
 pickups and of the reference sensor in degrees counter-clockwise, looking at the rotor from the
 end named in ``viewed_from``; ``rotation`` is ``"ccw"`` or ``"cw"`` seen from that same end.
@@ -52,6 +55,16 @@ class Pickup:
     line_g: float  # electrical vibration at twice line frequency, g peak
     harmonics_g: tuple[tuple[int, complex], ...] = ()  # (order k, amp e^{+j lag_k}) g, per k-th cycle
     dc_offset_g: float = 0.0  # accelerometer zero-g offset (removed by the meter)
+    line_hum_g: tuple[tuple[int, float], ...] = ()  # (multiple m of the line frequency, g peak), besides line_g
+
+
+@dataclass(frozen=True)
+class SpeedStep:
+    """One step of a speed profile: ramp to ``to_rpm`` at ``rpm_per_s`` (0: at once), then hold."""
+
+    to_rpm: float
+    rpm_per_s: float = 0.0
+    hold_s: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -87,10 +100,15 @@ class Scenario:
     coast_down_rpm_per_s: float = 100.0  # deceleration when switched off
     glitch_per_rev: float = 0.0  # expected spurious reference pulses per revolution
     missed_per_rev: float = 0.0  # probability that the mark is not seen on a revolution
+    missed_marks: tuple[int, ...] = ()  # mark passages (0 = the first after the machine starts) never seen
     glitch_width_us: float = 30.0
     edge_jitter_us: float = 0.5  # RMS timing jitter of the reference edges
     front_end: FrontEnd = field(default_factory=FrontEnd)
     tolerance_note: str = ""
+    start_rpm: float | None = None  # speed when the machine starts (None: at speed_rpm); the profile runs it up
+    speed_profile: tuple[SpeedStep, ...] = ()  # steps followed from the start, in order
+    profile_repeat: bool = False  # start the profile again after its last step
+    source: str = ""  # the file a scenario was read from ("" for the built-ins)
 
     @property
     def rotor_mass_kg(self) -> float:
@@ -221,9 +239,15 @@ SCENARIOS: dict[str, Scenario] = {s.name: s for s in (_fan(), _sander(), _roller
 
 
 def get_scenario(name: str) -> Scenario:
-    """The scenario called ``name``; ValueError listing the known names otherwise."""
-    try:
+    """The built-in scenario called ``name``, or the scenario file ``name`` (a path ending in
+    .toml or .json, :mod:`runtrue.sim.scenario_file`); ValueError saying what to do otherwise
+    (``ScenarioFileError``, a ValueError, for a bad file)."""
+    if name in SCENARIOS:
         return SCENARIOS[name]
-    except KeyError:
-        known = ", ".join(sorted(SCENARIOS))
-        raise ValueError(f"unknown simulator scenario {name!r}; choose one of: {known}") from None
+    from runtrue.sim.scenario_file import load_scenario_file, looks_like_file
+
+    if looks_like_file(name):
+        return load_scenario_file(name)
+    known = ", ".join(sorted(SCENARIOS))
+    raise ValueError(f"unknown simulator scenario {name!r}; choose one of: {known}, or give a scenario "
+                     "file (NAME.toml or NAME.json, see DEVELOPERS.md)")

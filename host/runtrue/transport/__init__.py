@@ -1,7 +1,7 @@
 """Byte pipes to the meter: a serial port, the simulator, or a spy around either.
 
 ``open_transport(port)`` picks one from the port name (DEVELOPERS.md, "Host transport"):
-``sim:NAME`` is the simulator running scenario NAME (imported only when asked for, so the
+``sim:NAME`` is the simulator running scenario NAME (a built-in, or a scenario file's path) (imported only when asked for, so the
 serial path never loads numpy-heavy simulator code); anything else is a serial port or a
 pyserial URL.
 """
@@ -52,8 +52,16 @@ def _open(port: str, *, seed: int | None, realtime: bool) -> Transport:
         except ModuleNotFoundError as exc:
             raise PortError(f"the simulator is not available in this installation ({exc})") from None
         if name not in SCENARIOS:
-            choices = ", ".join(sorted(SCENARIOS)) or "none"
-            raise PortError(f"unknown scenario {name!r}: choose one of {choices} (`runtrue scenarios` lists them)")
+            from runtrue.sim.scenario_file import ScenarioFileError, load_scenario_file, looks_like_file
+
+            if not looks_like_file(name):
+                choices = ", ".join(sorted(SCENARIOS)) or "none"
+                raise PortError(f"unknown scenario {name!r}: choose one of {choices} (`runtrue scenarios` lists "
+                                "them), or give a scenario file: sim:PATH.toml or sim:PATH.json")
+            try:
+                return SimTransport(load_scenario_file(name), seed=seed, realtime=realtime)
+            except ScenarioFileError as exc:
+                raise PortError(str(exc)) from None
         return SimTransport(name, seed=seed, realtime=realtime)
     from runtrue.transport.serial import SerialTransport
 

@@ -183,6 +183,7 @@ class RuntrueApp(App):
         was_lost = "LOST" in self.session.meter_state
         self._failed_ports.discard(message.port)
         self.session.device_info = message.info
+        self.session.live.info = message.info  # taken readings: the joint fit (runtrue.readings.joint)
         self.session.meter_state = "connected"
         if was_lost:
             self.notify("Meter is back. The job was kept; carry on.", title="Reconnected")

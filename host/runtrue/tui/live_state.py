@@ -13,6 +13,7 @@ import time
 from collections import deque
 from typing import Any, Callable
 
+from runtrue.readings.admit import counts, why_left_out
 from runtrue.tui.steady import Steadiness, judge_steadiness
 
 
@@ -37,6 +38,7 @@ class LiveState:
         self.last_flags: list[str] = []  # why the last revolution was left out ("missing pulse", ...)
         self.last_rev_at = -1.0  # clock time of the last revolution (any), -1 before the first
         self.refused_while_taking = 0  # flagged revolutions since the reading was asked for
+        self.info: Any = None  # the meter's INFO: a taken reading is then the joint fit of its revolutions
 
     # -- feeding ----------------------------------------------------------------------------------
     def reset(self, min_epoch: int | None = None) -> None:
@@ -59,11 +61,11 @@ class LiveState:
             self.total_revs += 1
             self.seen.append(rev)
             self._rate_window.append(now)
-            if not getattr(rev, "usable", True):
+            if not counts(rev):
                 self.unusable_revs += 1
                 if self.busy:
                     self.refused_while_taking += 1
-                self.last_flags = list(getattr(rev, "flag_names", []))
+                self.last_flags = why_left_out(rev)
                 continue
             self.recent.append(rev)
             if self.waiting_for_steady and self.steadiness().steady:
@@ -94,7 +96,7 @@ class LiveState:
         from runtrue.readings import vector_average
 
         self.collecting = False
-        self.done = vector_average(self.collected[: self.target_revs])
+        self.done = vector_average(self.collected[: self.target_revs], info=self.info)
 
     # -- showing ----------------------------------------------------------------------------------
     @property

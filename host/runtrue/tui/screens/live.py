@@ -151,6 +151,10 @@ class LiveScreen(StepScreen):
             notes.append(PHASE_NOTE + "; amplitudes are peak; overall = RMS x 1.414.")
         if not st.steady:
             notes.append(f"Not steady yet: {st.reason}.")
+        hum = getattr(reading, "warnings", ()) if reading is not None else ()
+        if hum:  # the first one, without the revolution count; the others are alike
+            first = hum[0].split(" (")[0]
+            notes.append(f"Hum: {first}" + (f" (+{len(hum) - 1} more)." if len(hum) > 1 else "."))
         quiet_since = max(live.last_rev_at, self._shown_at)
         if s.link is not None and s.link.connected and live.clock() - quiet_since > NO_REVS_S:
             notes.append(
