@@ -60,32 +60,34 @@ _SEND_EDGES = const(2)
 _SEND_SAMPLES = const(3)
 _SEND_END = const(4)
 
+def copy_frames_portable(ring, body, p):
+    """p = [n, n_ch, first ring position, slot size, body offset]: n frames of the ring's
+    per-channel slots into body as interleaved u16 little-endian.  Allocates nothing."""
+    n = p[0]
+    nch = p[1]
+    w = p[2]
+    size = p[3]
+    o = p[4]
+    mask = size - 1
+    i = 0
+    while i < n:
+        pos = (w + i) & mask
+        c = 0
+        while c < nch:
+            v = ring[c * size + pos]
+            body[o] = v & 255
+            body[o + 1] = v >> 8
+            o += 2
+            c += 1
+        i += 1
+
+
 try:
     from runtrue_fw.capture_viper import copy_frames
     COPY = "viper"
 except (SyntaxError, ImportError, AttributeError):   # CPython, or a port without viper
+    copy_frames = copy_frames_portable
     COPY = "portable"
-
-    def copy_frames(ring, body, p):  # type: ignore[no-redef]
-        """p = [n, n_ch, first ring position, slot size, body offset]: n frames of the ring's
-        per-channel slots into body as interleaved u16 little-endian.  Allocates nothing."""
-        n = p[0]
-        nch = p[1]
-        w = p[2]
-        size = p[3]
-        o = p[4]
-        mask = size - 1
-        i = 0
-        while i < n:
-            pos = (w + i) & mask
-            c = 0
-            while c < nch:
-                v = ring[c * size + pos]
-                body[o] = v & 255
-                body[o + 1] = v >> 8
-                o += 2
-                c += 1
-            i += 1
 
 
 def _wrap_frames(d: int) -> int:
