@@ -27,6 +27,7 @@ ONE_X_SHARE_MIN = 0.80        # 1x mean square over the overall mean square
 TWO_X_RATIO_MAX = 0.50        # |2x| / |1x| above this: check alignment
 HIGHER_RATIO_MAX = 0.30       # |3x| or |4x| / |1x| above this: check looseness
 NON_SYNC_SHARE_MAX = 0.30     # non-synchronous mean square over overall
+SUB_SYNC_SHARE_MAX = 0.10     # below-1x mean square over overall (from a raw capture)
 PHASE_SD_MAX_DEG = 15.0       # circular standard deviation of the per-revolution 1x phase
 PICKUP_RATIO_MAX = 4.0        # ratio of the 1x at two radial pickups on one bearing
 LINEARITY_ERROR_MAX = 0.25    # |measured - predicted| / |change predicted|
@@ -76,7 +77,8 @@ def circular_sd_deg(vectors: Sequence[complex]) -> float:
 
 def judge(*, one_x_g: complex, orders_g: Sequence[complex] = (), overall_rms_g: float | None = None,
           per_rev_one_x_g: Sequence[complex] = (), other_pickup_one_x_g: complex | None = None,
-          linearity: tuple[complex, complex, complex] | None = None) -> Verdict:
+          linearity: tuple[complex, complex, complex] | None = None,
+          shares: dict[str, float] | None = None) -> Verdict:
     """The verdict from one pickup's reading.
 
     ``one_x_g``: the averaged 1x (g peak); ``orders_g``: 2x, 3x, 4x (g peak) where known;
@@ -84,11 +86,30 @@ def judge(*, one_x_g: complex, orders_g: Sequence[complex] = (), overall_rms_g: 
     ``per_rev_one_x_g``: the single revolutions' 1x, for the phase steadiness;
     ``other_pickup_one_x_g``: the 1x at a second radial pickup on the same bearing;
     ``linearity``: (reference, expected, measured) 1x after a known weight was added: expected is
-    the reference plus the effect the coefficients predict.
+    the reference plus the effect the coefficients predict;
+    ``shares``: from a raw capture's spectrum (:func:`runtrue.diagnosis.spectral.order_content`),
+    ``one_x``, ``non_sync`` and ``sub_sync`` shares of the overall mean square: they replace the
+    estimate from ``overall_rms_g`` (which cannot tell below-1x content from the rest).
     """
     findings: list[Finding] = []
     a1 = abs(complex(one_x_g))
-    if overall_rms_g is not None and overall_rms_g > 0.0:
+    if shares is not None:
+        share = float(shares["one_x"])
+        findings.append(Finding(
+            "1x share", share >= ONE_X_SHARE_MIN, share, ONE_X_SHARE_MIN,
+            f"1x is only {share:.0%} of the overall level: other faults are present "
+            "(bearings, looseness, misalignment, electrical); find them first"))
+        non_sync = float(shares["non_sync"])
+        findings.append(Finding(
+            "non-synchronous", non_sync <= NON_SYNC_SHARE_MAX, non_sync, NON_SYNC_SHARE_MAX,
+            f"{non_sync:.0%} of the level is not at running-speed orders: check bearings, "
+            "rubs, belts, electrical (line-frequency) vibration and neighbouring machines"))
+        sub = float(shares["sub_sync"])
+        findings.append(Finding(
+            "sub-synchronous", sub <= SUB_SYNC_SHARE_MAX, sub, SUB_SYNC_SHARE_MAX,
+            f"{sub:.0%} of the level is below running speed: check for a rub, looseness, "
+            "a worn belt, or oil whirl in sleeve bearings"))
+    elif overall_rms_g is not None and overall_rms_g > 0.0:
         one_x_ms = a1 * a1 / 2.0
         orders_ms = sum(abs(complex(z)) ** 2 / 2.0 for z in orders_g)
         overall_ms = float(overall_rms_g) ** 2
