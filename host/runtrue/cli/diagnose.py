@@ -96,15 +96,8 @@ def run(args: Any) -> int:
     finally:
         client.close()
     if args.json:
-        out = d.to_dict()
+        out = d.to_dict(spectrum=args.spectrum)
         out["port"] = port
-        if args.spectrum:
-            for c, cd in zip(out["channels"], d.channels):
-                if cd.spectrum is not None:
-                    keep = cd.spectrum.freq_hz <= 1000.0
-                    c["spectrum"] = {"freq_hz": [round(float(f), 3) for f in cd.spectrum.freq_hz[keep]],
-                                     "velocity_mm_s_pk": [round(float(v), 4) for v in cd.spectrum.velocity_mm_s_pk[keep]],
-                                     "window": cd.spectrum.window}
         print(json.dumps(out))
     else:
         print(f"{port}:")

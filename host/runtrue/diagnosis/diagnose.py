@@ -54,7 +54,7 @@ class ChannelDiagnosis:
     spectrum: Spectrum | None = None
     waveform_g: np.ndarray | None = None
 
-    def to_dict(self) -> dict[str, Any]:
+    def to_dict(self, spectrum: bool = False) -> dict[str, Any]:
         d: dict[str, Any] = {
             "channel": self.channel, "name": self.name, "revs": self.n_revs,
             "one_x": _amp_phase(self.one_x_g),
@@ -75,6 +75,11 @@ class ChannelDiagnosis:
                             "sub_sync_mm_s_rms": round(c.sub_sync_mm_s_rms, 3),
                             "non_sync_mm_s_rms": round(c.non_sync_mm_s_rms, 3),
                             "shares": {k: round(v, 4) for k, v in c.shares().items()}}
+        if spectrum and self.spectrum is not None:
+            keep = self.spectrum.freq_hz <= 1000.0
+            d["spectrum"] = {"freq_hz": [round(float(f), 3) for f in self.spectrum.freq_hz[keep]],
+                             "velocity_mm_s_pk": [round(float(v), 4) for v in self.spectrum.velocity_mm_s_pk[keep]],
+                             "window": self.spectrum.window}
         return d
 
 
@@ -104,7 +109,9 @@ class Diagnosis:
     def worst_severity(self) -> Severity:
         return max((c.severity for c in self.channels), key=lambda s: s.velocity_rms_mm_s)
 
-    def to_dict(self) -> dict[str, Any]:
+    def to_dict(self, spectrum: bool = False) -> dict[str, Any]:
+        """JSON-ready; ``spectrum``: each pickup's velocity spectrum up to 1000 Hz too (for a
+        report kept with the job)."""
         return {
             "rpm": round(self.speed_rpm, 2), "machine_class": self.machine_class,
             "capture": {"frames": self.capture_frames, "rate_hz": self.rate_hz, "window": "Hann"}
@@ -115,7 +122,7 @@ class Diagnosis:
             "severity": {"zone": self.worst_severity.zone,
                          "velocity_rms_mm_s": round(self.worst_severity.velocity_rms_mm_s, 3),
                          "meaning": self.worst_severity.meaning},
-            "channels": [c.to_dict() for c in self.channels],
+            "channels": [c.to_dict(spectrum) for c in self.channels],
             "notes": list(self.notes),
             "conventions": "amp_g: g peak; phase_deg: lag after the reference mark (2x: of the 2x cycle); "
                            "velocity: mm/s r.m.s. over the band of ISO 20816-3",
