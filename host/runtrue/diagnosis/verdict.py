@@ -160,3 +160,15 @@ def judge(*, one_x_g: complex, orders_g: Sequence[complex] = (), overall_rms_g: 
 
 def phase_of(z: complex) -> float:
     return math.degrees(cmath.phase(z)) % 360.0
+
+
+def predicted_after_weight(reference_g: complex, trial_g: complex, trial_gmm: complex,
+                           new_gmm: complex) -> complex:
+    """The 1x a linear machine gives with ``new_gmm`` fitted instead of ``trial_gmm`` (both the
+    complex unbalance ``mass_g * radius_mm * e^{j angle}`` of the weight, DEVELOPERS.md
+    "Conventions"): the influence coefficient (trial - reference) / trial_gmm, times new_gmm,
+    added to the reference.  For ``judge(linearity=(reference, predicted, measured))`` once a
+    second weight (another trial, or the correction) is on."""
+    if trial_gmm == 0:
+        raise ValueError("the trial weight must not be zero")
+    return complex(reference_g) + (complex(trial_g) - complex(reference_g)) / complex(trial_gmm) * complex(new_gmm)

@@ -114,3 +114,29 @@ def test_raw_capture_in_g_matches_the_meters_1x_and_its_edges_give_the_speed() -
         one_rev = abs(np.mean([r.h1[row] for r in revs]))
         # the meter's 1x has the front end's gain divided out; the capture does not (< 1 % at 16 Hz)
         assert one_cap == pytest.approx(one_rev, rel=0.03)
+
+
+def test_a_linear_machine_passes_the_linearity_check_with_a_second_weight() -> None:
+    import cmath
+
+    from runtrue.diagnosis.verdict import predicted_after_weight
+
+    def one_x(c) -> complex:
+        c.discard_revolutions()
+        return complex(np.mean([r.h1[0] for r in c.revolutions(40, usable_only=True)]))
+
+    with _client("sim:fan", seed=3) as c:
+        c.start()
+        m = c.transport.machine
+        r = m.scenario.planes[0].radius_mm
+        ref = one_x(c)
+        w1 = m.add_weight(0, 20.0, 90.0, r)
+        t1 = one_x(c)
+        m.remove_weight(w1)
+        m.add_weight(0, 35.0, 200.0, r)
+        measured = one_x(c)
+        expected = predicted_after_weight(ref, t1, 20.0 * r * cmath.exp(1j * math.radians(90.0)),
+                                          35.0 * r * cmath.exp(1j * math.radians(200.0)))
+        d = take_diagnosis(c, revs=20, capture_frames=None, linearity=(ref, expected, measured))
+    lin = next(f for f in d.verdict.findings if f.name == "linear response")
+    assert lin.ok and lin.value < 0.1
