@@ -1,5 +1,10 @@
 """A reading's 1x from all its revolutions' sums at once (:func:`runtrue.readings.revmodel.fit_joint`).
 
+Source: linear least squares / instrumental variables over the stacked revolutions, solved by
+block elimination (G. H. Golub and C. F. Van Loan, *Matrix Computations*, 4th ed. 2013, section
+3.2 -- from memory; T. Söderström and P. Stoica, *System Identification*, 1989, chapter 8 --
+from memory); the model and the rest of its sources are in :mod:`runtrue.readings.revmodel`.
+
 Why: a line tone near a running-speed order (100 Hz and 4x at 1470 rpm) cannot be told apart
 within one revolution, and even far from any order the line terms cost one revolution's fit so
 much precision that the host leaves them out (``runtrue.device.revfit``), so hum leaks into

@@ -126,7 +126,10 @@ def _read_text(path: Path) -> dict[str, Any]:
         if suffix == ".json":
             data = json.loads(raw.decode("utf-8"))
         elif suffix == ".toml":
-            import tomllib
+            try:
+                import tomllib
+            except ModuleNotFoundError:  # Python 3.10: the same parser from PyPI (pyproject.toml)
+                import tomli as tomllib  # type: ignore[no-redef]
 
             data = tomllib.loads(raw.decode("utf-8"))
         else:

@@ -192,3 +192,20 @@ def test_json_export_round_trips_and_states_conventions(finished_job: tuple[JobS
     assert Machine.from_dict(d["machine"]).name == job.machine.name
     last = d["runs"][-1]
     assert [w["mass_g"] for w in last["weights"]] == [w.mass_g for w in job.runs[-1].weights]
+
+
+def test_report_states_the_front_end_correction_and_line_hum_of_simulated_readings(tmp_path) -> None:
+    """A job on the simulated fan: the meter gives its front end, the host takes its lag out, and
+    the report says so once under the run log (every run at the same speed)."""
+    from runtrue.jobs.headless import run_demo
+
+    store = JobStore(str(tmp_path / "jobs.sqlite"))
+    outcome = run_demo("fan", 3, store=store, revs=20)
+    html = render_html(store, outcome.job.job_id)
+    page = Page()
+    page.feed(html)
+    assert "frontend" in page.ids
+    assert re.search(r"front end corrected: lag 1\.\d\d \+-0\.\d\d deg, gain 1\.000", html)
+    runs = store.runs(outcome.job.job_id)
+    assert all(r.reading.frontend_note.startswith("front end corrected") for r in runs)
+    store.close()

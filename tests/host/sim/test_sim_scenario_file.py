@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import json
 import math
-import tomllib
 from pathlib import Path
 
 import numpy as np
@@ -15,6 +14,11 @@ from runtrue.cli import main
 from runtrue.sim.machine import VirtualMachine
 from runtrue.sim.scenario_file import ScenarioFileError, load_scenario_file, scenario_from_dict
 from runtrue.sim.scenarios import get_scenario
+
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10
+    import tomli as tomllib  # type: ignore[no-redef]
 
 EXAMPLE = Path(__file__).resolve().parents[3] / "examples" / "scenarios" / "blower.toml"
 
