@@ -73,3 +73,21 @@ def test_bad_input_gets_one_clear_line(capsys: pytest.CaptureFixture[str], argv:
     code, out, err = run_cli(capsys, *argv)
     assert code == 2
     assert words in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
+
+
+def test_diagnose_before_and_after_gives_both_zones(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    before = tmp_path / "before.json"
+    code, out, err = run_cli(capsys, "diagnose", "--port", "sim:roller", "--json", "--seed", "5")
+    assert code == 0, err
+    before.write_text(out)
+    code, out, err = run_cli(capsys, "diagnose", "--port", "sim:roller", "--json", "--seed", "6",
+                             "--before", str(before))
+    assert code == 0, err
+    pairs = json.loads(out)["before_after"]
+    assert [p["channel"] for p in pairs] == [c["channel"] for c in json.loads(before.read_text())["channels"]]
+    for p in pairs:
+        assert p["before"]["zone"] in "ABCD" and p["after"]["zone"] in "ABCD"
+    bad = tmp_path / "bad.json"
+    bad.write_text('{"rpm": 1}')
+    code, out, err = run_cli(capsys, "diagnose", "--port", "sim:roller", "--before", str(bad))
+    assert code == 2 and "not the output of" in err

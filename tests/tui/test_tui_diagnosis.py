@@ -33,3 +33,19 @@ async def test_diagnosis_screen_shows_verdict_zone_spectrum_and_the_coast_down_w
         assert "polar" in text
         await key(pilot, "escape")
         assert type(app.screen).__name__ != "DiagnosisScreen"
+
+
+async def test_the_one_line_binding_reaches_the_screen_and_keeps_before_and_after() -> None:
+    """The hook the live screen gets: Binding("x", "app.push_screen('diagnosis')", ...), with the
+    screen installed under that name once (App.SCREENS or install_screen)."""
+    from runtrue.tui.screens.diagnosis import DiagnosisScreen
+
+    app = make_app("sim:fan", seed=2, realtime=False, max_revs_per_s=300, post_interval_s=0.05)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
+        app.install_screen(DiagnosisScreen, "diagnosis")
+        await app.run_action("app.push_screen('diagnosis')")
+        await wait_until(pilot, lambda: len(getattr(app.session, "diagnoses", [])) == 1, what="diagnosis")
+        await key(pilot, "d")
+        await wait_until(pilot, lambda: len(app.session.diagnoses) == 2, what="second diagnosis")
+        assert "zone" in screen_text(app)

@@ -12,7 +12,9 @@ two_x, three_x {amp_g, phase_deg}, overall_rms_g, phase_sd_deg, severity {veloci
 zone, meaning, class, table, source, from}, verdict, content {band_hz, total_mm_s_rms,
 orders_mm_s_rms, sub_sync_mm_s_rms, non_sync_mm_s_rms, shares}), ``notes``, ``conventions``,
 ``port``; with ``--spectrum`` also per channel ``spectrum`` ({freq_hz, velocity_mm_s_pk} up to
-1000 Hz).  Exit status 0 whatever the verdict.
+1000 Hz); with ``--before FILE`` (an earlier ``diagnose --json``, e.g. before balancing) also
+``before_after`` [{channel, before: {velocity_rms_mm_s, zone}, after: {...}}].  Exit status 0
+whatever the verdict.
 """
 
 from __future__ import annotations
@@ -54,6 +56,8 @@ def register(subparsers: Any) -> None:
     p.add_argument("--pair", type=_pair, default=None, metavar="A,B",
                    help="two channels on one bearing, 90 deg apart (the simulator finds them itself)")
     p.add_argument("--spectrum", action="store_true", help="with --json: include each spectrum")
+    p.add_argument("--before", default=None, metavar="FILE",
+                   help="an earlier `diagnose --json` output (before balancing): print the zones before and after")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.add_argument("--seed", type=int, default=None, help="simulator only: make the run repeatable")
     p.add_argument("--timeout", type=float, default=5.0, metavar="S", help="longest wait for a revolution")
@@ -77,6 +81,7 @@ def run(args: Any) -> int:
             mask = _channels_mask(args.channels)
         except argparse.ArgumentTypeError as exc:
             raise UsageError(f"--channels {exc}") from None
+    before = _load_before(args.before) if args.before else None
     port = _pick_port(args.port)
     try:
         client = open_meter(port, seed=args.seed)
@@ -95,12 +100,50 @@ def run(args: Any) -> int:
         raise UsageError(str(exc)) from None
     finally:
         client.close()
+    pairs = _before_after(before, d) if before is not None else None
     if args.json:
         out = d.to_dict(spectrum=args.spectrum)
         out["port"] = port
+        if pairs is not None:
+            out["before_after"] = pairs
         print(json.dumps(out))
     else:
         print(f"{port}:")
         print("\n".join(d.lines()))
         print(f"severity zones: {d.worst_severity.table.title}, {d.worst_severity.table.source}")
+        for p_ in pairs or []:
+            b, a = p_["before"], p_["after"]
+            print(f"ch{p_['channel']}: before {b['velocity_rms_mm_s']:.2f} mm/s zone {b['zone']}, "
+                  f"now {a['velocity_rms_mm_s']:.2f} mm/s zone {a['zone']}")
     return 0
+
+
+def _load_before(path: str) -> dict[str, Any]:
+    from runtrue.cli.jsonio import load_json
+
+    data = load_json(path)
+    ok = isinstance(data, dict) and isinstance(data.get("channels"), list) and all(
+        isinstance(c, dict) and isinstance(c.get("severity"), dict) and "channel" in c
+        and isinstance(c["severity"].get("velocity_rms_mm_s"), (int, float)) for c in data["channels"])
+    if not ok:
+        raise UsageError(f"--before {path}: not the output of `runtrue diagnose --json`; give that file")
+    return data
+
+
+def _before_after(before: dict[str, Any], d: Any) -> list[dict[str, Any]]:
+    """Per channel measured both times: velocity and zone before, and now (zones of today's class)."""
+    from runtrue.diagnosis.severity import assess
+
+    now = {c.channel: c for c in d.channels}
+    out = []
+    for c in before["channels"]:
+        ch = int(c["channel"])
+        if ch not in now:
+            continue
+        v = float(c["severity"]["velocity_rms_mm_s"])
+        out.append({"channel": ch,
+                    "before": {"velocity_rms_mm_s": round(v, 3), "zone": assess(v, d.machine_class).zone},
+                    "after": {"velocity_rms_mm_s": round(now[ch].severity.velocity_rms_mm_s, 3),
+                              "zone": now[ch].severity.zone}})
+    return out
+

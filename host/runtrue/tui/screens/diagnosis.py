@@ -7,7 +7,9 @@ marked) of a raw capture, the severity zone per pickup, the verdict with what to
 the near-resonance warning.  The verdict is advice: Esc goes back to balancing whatever it says.
 
 The meter work runs in the link's worker thread (``MeterLink.call``); results come back with
-``App.call_from_thread``.
+``App.call_from_thread``.  Each diagnosis is appended to ``session.diagnoses`` (the first is the
+"before" of the report's diagnosis section, the last the "after") and a speed run is kept in
+``session.speed_analysis``: ``runtrue.jobs.diagnosis_section.diagnosis_section_html`` takes them.
 """
 
 from __future__ import annotations
@@ -147,8 +149,12 @@ class DiagnosisScreen(StepScreen):
         self.busy = ""
         if isinstance(result, SpeedAnalysis):
             self.speed, self.view = result, "speed"
+            self.session.speed_analysis = result      # type: ignore[attr-defined]
         else:
             self.diagnosis, self.view = result, "spectrum"
+            if not hasattr(self.session, "diagnoses"):
+                self.session.diagnoses = []           # type: ignore[attr-defined]
+            self.session.diagnoses.append(result)     # type: ignore[attr-defined]
         self._redraw()
 
     def action_diagnose(self) -> None:
@@ -160,7 +166,8 @@ class DiagnosisScreen(StepScreen):
     def action_speed_run(self) -> None:
         from runtrue.diagnosis.acquire import analyse_speed_run, record_speed_change
 
-        wanted = self.balancing_rpm
+        machine_record = getattr(self.session, "machine", None)
+        wanted = self.balancing_rpm or getattr(machine_record, "speed_rpm", None)
 
         def work(client: Any) -> Any:
             machine = getattr(client.transport, "machine", None)
