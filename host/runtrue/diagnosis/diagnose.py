@@ -100,6 +100,7 @@ class Diagnosis:
     capture_frames: int = 0
     pair: tuple[int, int] | None = None
     notes: list[str] = field(default_factory=list)
+    edges_samples: np.ndarray | None = None     # the capture's reference edges (samples from its start)
 
     @property
     def loudest(self) -> ChannelDiagnosis:
@@ -208,4 +209,5 @@ def diagnose(revs: Sequence[Any], capture: Any = None, machine_class: str = "cla
     if capture is None:
         notes.append("no raw capture: severity from the 1x-3x orders only, no sub-/non-synchronous check")
     return Diagnosis(speed, machine_class, out, overall, capture.rate_hz if capture is not None else 0.0,
-                     capture.n_frames if capture is not None else 0, pair, notes)
+                     capture.n_frames if capture is not None else 0, pair, notes,
+                     capture.edges_samples if capture is not None else None)

@@ -98,8 +98,9 @@ class DiagnosisScreen(StepScreen):
             lines.append(f"{mark}ch{cd.channel} {cd.name[:28]}: {s.velocity_rms_mm_s:.2f} mm/s rms, zone {s.zone}"
                          f" ({s.meaning.split(':')[0]})")
         if c.waveform_g is not None and c.spectrum is not None:
-            lines += waveform_text(c.waveform_g, d.rate_hz, [], width=78, rows=3, speed_rpm=d.speed_rpm)
-            lines += spectrum_text(c.spectrum, d.speed_rpm, width=78, rows=5)
+            lines += waveform_text(c.waveform_g, d.rate_hz, d.edges_samples if d.edges_samples is not None else [],
+                                   width=78, rows=3, speed_rpm=d.speed_rpm)
+            lines += spectrum_text(c.spectrum, d.speed_rpm, width=78, rows=7)
         if not d.verdict.unbalance:
             lines.append("Esc: go on balancing anyway (the verdict is advice).")
         lines += d.notes

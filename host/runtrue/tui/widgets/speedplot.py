@@ -115,7 +115,7 @@ def speed_plot_text(curve: Any, resonances: Sequence[Any] = (), balancing_rpm: f
         prev = (x, y)
     if prev is not None:
         _point(pc, prev[0], prev[1], "bold yellow", "o")
-    right = ["polar, 0 up, lag cw"] + pc.lines() + [f"o = {x0:.0f} rpm end" if s[-1] <= s[0] else "o = last"]
+    right = ["polar, 0 up, lag cw"] + pc.lines() + [f"o = {s[-1]:.0f} rpm"]
     out = []
     for i in range(max(len(left), len(right))):
         l_ = left[i] if i < len(left) else ""
