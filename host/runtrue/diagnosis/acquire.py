@@ -56,7 +56,9 @@ def take_diagnosis(client: Any, *, revs: int = 30, capture_frames: int | None = 
     chans = list(got[0].channels)
     if pair is None:
         pair = same_bearing_pairs(machine, chans)
-    return diagnose(got, cap, machine_class, pair=pair, names=pickup_names(machine), linearity=linearity)
+    line_hz = float(getattr(client.info, "line_hz", 0) or 0) if client.info is not None else 0.0
+    return diagnose(got, cap, machine_class, pair=pair, names=pickup_names(machine), linearity=linearity,
+                    line_hz=line_hz)
 
 
 @dataclass

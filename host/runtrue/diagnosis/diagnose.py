@@ -74,6 +74,7 @@ class ChannelDiagnosis:
                             "orders_mm_s_rms": [[k, round(v, 3)] for k, v in c.orders_mm_s_rms],
                             "sub_sync_mm_s_rms": round(c.sub_sync_mm_s_rms, 3),
                             "non_sync_mm_s_rms": round(c.non_sync_mm_s_rms, 3),
+                            "electrical_mm_s_rms": round(c.electrical_mm_s_rms, 3), "line_hz": c.line_hz,
                             "shares": {k: round(v, 4) for k, v in c.shares().items()}}
         if spectrum and self.spectrum is not None:
             keep = self.spectrum.freq_hz <= 1000.0
@@ -148,11 +149,12 @@ class Diagnosis:
 
 def diagnose(revs: Sequence[Any], capture: Any = None, machine_class: str = "class-I", *,
              pair: tuple[int, int] | None = None, names: dict[int, str] | None = None,
-             linearity: tuple[complex, complex, complex] | None = None) -> Diagnosis:
+             linearity: tuple[complex, complex, complex] | None = None, line_hz: float = 0.0) -> Diagnosis:
     """The diagnosis of ``revs`` (:class:`runtrue.protocol.messages.Revolution`; flagged ones are
     left out) and, if given, a :class:`runtrue.device.capture.RawCapture` of the same running.
     ``pair``: two physical channels on one bearing, 90 deg apart; ``linearity``: (reference,
-    expected, measured) 1x of the loudest pickup after a known weight (see ``verdict.judge``)."""
+    expected, measured) 1x of the loudest pickup after a known weight (see ``verdict.judge``);
+    ``line_hz``: the mains frequency (INFO's), so that hum is counted as electrical."""
     from runtrue.readings.admit import counts
 
     good = [r for r in revs if counts(r)]
@@ -180,7 +182,7 @@ def diagnose(revs: Sequence[Any], capture: Any = None, machine_class: str = "cla
             vel = broadband_velocity_rms_mm_s(x, capture.rate_hz, band_hz(cs))
             sev, sev_from = assess(vel, machine_class), "capture"
             try:
-                content = order_content(x, capture.rate_hz, cs)
+                content = order_content(x, capture.rate_hz, cs, line_hz=line_hz)
             except ValueError as exc:
                 notes.append(str(exc))
             spec = spectrum(x, capture.rate_hz)

@@ -7,6 +7,10 @@ use of windows for harmonic analysis with the discrete Fourier transform", Proc.
 1978, table 1), the bins below the 1x lobe (sub-synchronous) and the rest (non-synchronous).
 Velocity, because severity is judged in velocity over the same band (ISO 20816-1:2016, 5.2): a
 share here is a share of what the severity value is made of.
+
+With the mains frequency given, the lobes of its first four multiples that are not on an order
+are counted apart as electrical (a motor's magnetic pull vibrates at twice the line frequency:
+common practice), so that hum is neither taken for a bearing nor for a rub.
 """
 
 from __future__ import annotations
@@ -31,6 +35,8 @@ class OrderContent:
     orders_mm_s_rms: list[tuple[int, float]]     # (k, velocity rms of order k) inside the band
     sub_sync_mm_s_rms: float
     non_sync_mm_s_rms: float
+    electrical_mm_s_rms: float = 0.0
+    line_hz: float = 0.0
 
     def _share(self, v: float) -> float:
         return (v * v) / (self.total_mm_s_rms ** 2) if self.total_mm_s_rms > 0 else 0.0
@@ -52,15 +58,20 @@ class OrderContent:
     def non_sync_share(self) -> float:
         return self._share(self.non_sync_mm_s_rms)
 
+    @property
+    def electrical_share(self) -> float:
+        return self._share(self.electrical_mm_s_rms)
+
     def shares(self) -> dict[str, float]:
         """The shares :func:`runtrue.diagnosis.verdict.judge` takes."""
         return {"one_x": self.one_x_share, "non_sync": self.non_sync_share, "sub_sync": self.sub_sync_share,
-                "sync": self.sync_share}
+                "sync": self.sync_share, "electrical": self.electrical_share}
 
 
 def order_content(samples_g: Sequence[float] | np.ndarray, rate_hz: float, speed_rpm: float,
-                  band: tuple[float, float] | None = None) -> OrderContent:
-    """Split the band's velocity mean square into orders, sub-synchronous and non-synchronous."""
+                  band: tuple[float, float] | None = None, line_hz: float = 0.0) -> OrderContent:
+    """Split the band's velocity mean square into orders, electrical (``line_hz`` > 0: its
+    multiples 1-4), sub-synchronous and non-synchronous."""
     x = np.asarray(samples_g, dtype=float)
     n = len(x)
     if n < 64:
@@ -92,7 +103,13 @@ def order_content(samples_g: Sequence[float] | np.ndarray, rate_hz: float, speed
         if k * f1 >= lo - LOBE_BINS * df:
             orders.append((k, math.sqrt(float(ms[sel].sum()))))
         k += 1
-    sub = inside & ~used & (freq < f1)
-    non = inside & ~used & (freq > f1)
+    elec = np.zeros(len(freq), dtype=bool)
+    if line_hz and line_hz > 0:
+        for mult in range(1, 5):
+            elec |= np.abs(freq - mult * line_hz) <= LOBE_BINS * df + 1e-9
+        elec &= inside & ~used
+    sub = inside & ~used & ~elec & (freq < f1)
+    non = inside & ~used & ~elec & (freq > f1)
     return OrderContent(float(speed_rpm), (float(lo), float(hi)), math.sqrt(float(ms[inside].sum())), orders,
-                        math.sqrt(float(ms[sub].sum())), math.sqrt(float(ms[non].sum())))
+                        math.sqrt(float(ms[sub].sum())), math.sqrt(float(ms[non].sum())),
+                        math.sqrt(float(ms[elec].sum())), float(line_hz or 0.0))

@@ -28,6 +28,7 @@ TWO_X_RATIO_MAX = 0.50        # |2x| / |1x| above this: check alignment
 HIGHER_RATIO_MAX = 0.30       # |3x| or |4x| / |1x| above this: check looseness
 NON_SYNC_SHARE_MAX = 0.30     # non-synchronous mean square over overall
 SUB_SYNC_SHARE_MAX = 0.10     # below-1x mean square over overall (from a raw capture)
+ELECTRICAL_SHARE_MAX = 0.20   # line-frequency multiples' mean square over overall (from a raw capture)
 PHASE_SD_MAX_DEG = 15.0       # circular standard deviation of the per-revolution 1x phase
 PICKUP_RATIO_MAX = 4.0        # ratio of the 1x at two radial pickups on one bearing
 LINEARITY_ERROR_MAX = 0.25    # |measured - predicted| / |change predicted|
@@ -109,6 +110,12 @@ def judge(*, one_x_g: complex, orders_g: Sequence[complex] = (), overall_rms_g: 
             "sub-synchronous", sub <= SUB_SYNC_SHARE_MAX, sub, SUB_SYNC_SHARE_MAX,
             f"{sub:.0%} of the level is below running speed: check for a rub, looseness, "
             "a worn belt, or oil whirl in sleeve bearings"))
+        if "electrical" in shares:
+            el = float(shares["electrical"])
+            findings.append(Finding(
+                "electrical", el <= ELECTRICAL_SHARE_MAX, el, ELECTRICAL_SHARE_MAX,
+                f"{el:.0%} of the level is at multiples of the line frequency: an electrical cause "
+                "(motor air gap, supply, magnetic pull) that weights cannot fix; have the motor checked"))
     elif overall_rms_g is not None and overall_rms_g > 0.0:
         one_x_ms = a1 * a1 / 2.0
         orders_ms = sum(abs(complex(z)) ** 2 / 2.0 for z in orders_g)
