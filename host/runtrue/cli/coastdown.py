@@ -7,6 +7,7 @@ the simulator the machine is brought to ``--from-rpm`` and coasts down by itself
 ``--to-rpm`` if that is higher).
 
 ``--json`` prints ONE JSON object (add keys only): ``kind`` ("coast-down"/"run-up"), ``revs``,
+``interrupted`` (Ctrl-C ended the recording; what was recorded is analysed),
 ``left_out``, ``rpm_range``, ``balancing_rpm``, ``warnings`` (texts), ``channels`` (per channel:
 ``curve`` [{rpm, amp_g, phase_deg, revs}], ``resonances`` [{speed_rpm, one_x_g, phase_swing_deg,
 q, damping_ratio}]), ``conventions``, ``port``.  Without ``--json``: the plots (amplitude and

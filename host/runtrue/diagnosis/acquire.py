@@ -70,6 +70,7 @@ class SpeedRun:
     one_x_g: list[list[complex]] = field(default_factory=list)    # per revolution, per channel
     kind: str = "coast-down"
     left_out: int = 0
+    interrupted: bool = False       # ended by the user (Ctrl-C): what was recorded is kept
 
     def curve(self, row: int) -> SpeedCurve:
         return speed_curve(self.speed_rpm, [z[row] for z in self.one_x_g])
@@ -111,20 +112,23 @@ def record_speed_change(client: Any, *, from_rpm: float | None = None, to_rpm: f
             machine.coast_down()
     run = SpeedRun(list(start.channels), kind="run-up" if up else "coast-down")
     t0 = time.monotonic()
-    while time.monotonic() - t0 < max_s:
-        rev = client.read_revolution(timeout_s)
-        if rev is None:
-            break                                   # stopped turning (or the mark is lost)
-        if not counts(rev):
-            run.left_out += 1
-            continue
-        s = rev.speed_rpm
-        run.speed_rpm.append(s)
-        run.one_x_g.append(list(rev.h1))
-        if on_rev is not None:
-            on_rev(s)
-        if (up and s >= float(to_rpm)) or (not up and s <= floor):
-            break
+    try:
+        while time.monotonic() - t0 < max_s:
+            rev = client.read_revolution(timeout_s)
+            if rev is None:
+                break                                   # stopped turning (or the mark is lost)
+            if not counts(rev):
+                run.left_out += 1
+                continue
+            s = rev.speed_rpm
+            run.speed_rpm.append(s)
+            run.one_x_g.append(list(rev.h1))
+            if on_rev is not None:
+                on_rev(s)
+            if (up and s >= float(to_rpm)) or (not up and s <= floor):
+                break
+    except KeyboardInterrupt:
+        run.interrupted = True          # the user ended the recording: keep what is recorded
     if machine is not None:
         machine.set_speed_rpm(machine.scenario.speed_rpm)   # back to running speed for what follows
     return run
@@ -151,6 +155,7 @@ class SpeedAnalysis:
                                 "damping_ratio": round(r.damping_ratio, 4)} for r in self.resonances[ch]],
             })
         return {"kind": self.run.kind, "revs": len(self.run.speed_rpm), "left_out": self.run.left_out,
+                "interrupted": self.run.interrupted,
                 "rpm_range": [round(min(self.run.speed_rpm), 1), round(max(self.run.speed_rpm), 1)]
                 if self.run.speed_rpm else None,
                 "balancing_rpm": round(self.balancing_rpm, 1), "warnings": self.warnings, "channels": chans,

@@ -140,3 +140,17 @@ def test_a_linear_machine_passes_the_linearity_check_with_a_second_weight() -> N
         d = take_diagnosis(c, revs=20, capture_frames=None, linearity=(ref, expected, measured))
     lin = next(f for f in d.verdict.findings if f.name == "linear response")
     assert lin.ok and lin.value < 0.1
+
+
+def test_ctrl_c_ends_a_recording_and_keeps_what_was_recorded() -> None:
+    with _client("sim:fan") as c:
+        seen: list[float] = []
+
+        def progress(speed_rpm: float) -> None:
+            seen.append(speed_rpm)
+            if len(seen) == 40:
+                raise KeyboardInterrupt
+
+        run = record_speed_change(c, to_rpm=300, rate_rpm_per_s=200, on_rev=progress)
+    assert run.interrupted and len(run.speed_rpm) == 40
+    assert analyse_speed_run(run, 1470).to_dict()["interrupted"] is True
