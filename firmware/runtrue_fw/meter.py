@@ -26,6 +26,7 @@ from array import array
 
 from runtrue_fw import FW_VERSION, basis, envelope
 from runtrue_fw.buffers import RING_FRAMES, zeros as _zeros
+from runtrue_fw.capture import C_RAW, Capture
 from runtrue_fw import frames as fr
 from runtrue_fw import kernels as _k
 from runtrue_fw.edges import DEBOUNCE_Q8, EdgeTracker, Q8_MASK, wrap_diff_q8
@@ -148,6 +149,7 @@ class Meter:
         self._st_revs0 = 0
         self._st_own_sampling = False
         self.repl_requested = False
+        self._cap = Capture(self._ring, self._writer, self._write)   # raw capture (RAW 0x8B)
 
         self._channel_mask = (1 << self._channels_max) - 1
         self._falling = False
@@ -232,6 +234,8 @@ class Meter:
             self._send_status()
         if self._st_active and ((now - self._st_t0_ms) & _MS_MASK) >= SELFTEST_MS:
             self._finish_selftest(now)
+        if self._cap.state:
+            self._cap.service(self._frames, self._running)
 
     # ----------------------------------------------------------------- state
     @property
@@ -266,6 +270,7 @@ class Meter:
         self._rev_index = 0
         self._drop_seen = self._hw.dropped_samples() & COUNTER_MASK
         self._drop_n = 0
+        self._cap.restart()
         self._running = True
         self._hw.start()
 
@@ -282,7 +287,10 @@ class Meter:
             h = self._eq_head
             pos = self._eq[h & _EQ_MASK]
             self._eq_head = (h + 1) & _EQ_COUNTER_MASK
-            if tr.edge(pos):
+            done = tr.edge(pos)
+            if tr.last_q8 == pos:
+                self._cap.note_edge(pos)        # accepted: the raw capture's edge history
+            if done:
                 j = (self._p_head + self._p_count) % _PENDING_MAX
                 self._pe0[j] = tr.rev_start_q8
                 self._pe1[j] = tr.rev_end_q8
@@ -530,6 +538,10 @@ class Meter:
             self._st_active = False
             self.repl_requested = True
             self._hw.enter_repl()
+        elif ctype == C_RAW:
+            result, msg = self._cap.request(payload, self._frames, self._streaming,
+                                            len(self._slots), self._channel_mask)
+            self._ack(seq, ctype, result, msg)
         else:
             self._ack(seq, ctype, fr.ACK_UNKNOWN_COMMAND, "unknown command 0x%02x" % ctype)
 

@@ -32,6 +32,8 @@ COMMANDS: dict[str, str] = {
     "allocate": "runtrue.cli.allocate",
     "device": "runtrue.cli.device",
     "jobs": "runtrue.cli.jobs",
+    "diagnose": "runtrue.cli.diagnose",
+    "coastdown": "runtrue.cli.coastdown",
 }
 
 

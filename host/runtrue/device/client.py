@@ -32,6 +32,7 @@ from runtrue.protocol.messages import (
     ACK,
     INFO,
     CMD_IDENTIFY,
+    CMD_RAW,
     CMD_SELFTEST,
     CMD_SET_CHANNELS,
     CMD_SET_EDGE,
@@ -47,17 +48,20 @@ from runtrue.protocol.messages import (
     InfoAssembler,
     InfoPart,
     Message,
+    RawPart,
     RevStats,
     Revolution,
     SelfTest,
     Status,
     Text,
     parse_message,
+    raw_payload,
     set_channels_payload,
     set_edge_payload,
     set_line_payload,
     set_rate_payload,
 )
+from runtrue.device.capture import CaptureError, RawAssembler, RawCapture
 from runtrue.transport.base import Transport, TransportLost
 
 READ_CHUNK = 4096
@@ -103,6 +107,8 @@ class MeterClient:
         self._selftest: SelfTest | None = None
         self._selftest_parts: dict[int, dict[str, Any]] = {}
         self._info_parts = InfoAssembler()
+        self._raw = RawAssembler()
+        self._raw_done: RawPart | None = None
         self._frames_seen = 0
         self._flush_next = True  # start with a lone 0x00: the meter drops any half-received frame
         self._resync_pending = False
@@ -187,6 +193,10 @@ class MeterClient:
             self._selftest = message
         elif isinstance(message, Text):
             self.log.append(message.text)
+        elif isinstance(message, RawPart):
+            done = self._raw.feed(message)
+            if done is not None:
+                self._raw_done = done
 
     def feed(self, data: bytes) -> None:
         """Decode bytes from the transport and keep the messages they complete.
@@ -403,6 +413,23 @@ class MeterClient:
             raise MeterError(f"the meter on {self.port} acknowledged STATUS but sent no report")
         assert self.last_status is not None
         return self.last_status
+
+    def capture(self, n_frames: int, timeout_s: float | None = None) -> RawCapture:
+        """A raw capture of the next ``n_frames`` sample frames (16-4096) of the enabled channels,
+        with the reference edges on the same timebase (streaming must be on; revolutions keep
+        arriving meanwhile).  Raises :class:`CaptureError` with what to do when it fails."""
+        if self.info is None:
+            self.identify()
+        assert self.info is not None
+        self._raw_done = None
+        self._raw = RawAssembler()
+        self._command(CMD_RAW, raw_payload(n_frames))
+        rate = self.info.rate_hz or 1000.0
+        wait = timeout_s if timeout_s is not None else 3.0 + 2.0 * n_frames / rate
+        if not self._wait(lambda: self._raw_done is not None, wait):
+            raise CaptureError(f"the meter on {self.port} accepted the capture but did not finish sending it "
+                               f"within {wait:.0f} s: try again")
+        return self._raw.result(self.info)
 
     # ---- revolutions ------------------------------------------------------------------------
 

@@ -27,6 +27,7 @@ STATUS = 0x03
 ACK = 0x04
 SELFTEST = 0x05
 TEXT = 0x06
+RAW = 0x07  # raw capture parts (firmware/PROTOCOL.md, "Raw capture")
 
 # Host -> device command types.
 CMD_IDENTIFY = 0x81
@@ -39,6 +40,7 @@ CMD_SELFTEST = 0x87
 CMD_STATUS = 0x88
 CMD_REPL = 0x89
 CMD_SET_LINE = 0x8A
+CMD_RAW = 0x8B
 
 COMMAND_NAMES = {
     CMD_IDENTIFY: "IDENTIFY",
@@ -51,6 +53,7 @@ COMMAND_NAMES = {
     CMD_STATUS: "STATUS",
     CMD_REPL: "REPL",
     CMD_SET_LINE: "SET_LINE",
+    CMD_RAW: "RAW",
 }
 
 # ACK results.
@@ -305,6 +308,69 @@ class Text:
 
 
 @dataclass(frozen=True)
+class RawPart:
+    """RAW: one part of a raw capture (``kind`` 0 BEGIN, 1 SAMPLES, 2 EDGES, 3 END).
+
+    BEGIN: ``start_frame``, ``n_frames``, ``n_ch``, ``channel_mask``, ``n_edges``;
+    SAMPLES: ``index`` (first frame of the block) and ``codes`` (count x n_ch ADC codes, interleaved);
+    EDGES: ``index`` (first edge) and ``edges_q8`` (1/256 sample from the block's first frame);
+    END: ``status`` (0 complete, 1 samples overwritten before sent, 2 streaming stopped).
+    """
+
+    cap_id: int
+    kind: int
+    index: int = 0
+    count: int = 0
+    start_frame: int = 0
+    n_frames: int = 0
+    n_ch: int = 0
+    channel_mask: int = 0
+    n_edges: int = 0
+    codes: tuple[int, ...] = ()
+    edges_q8: tuple[int, ...] = ()
+    status: int = 0
+
+
+RAW_BEGIN, RAW_SAMPLES, RAW_EDGES, RAW_END = 0, 1, 2, 3
+_RAW_HEAD = struct.Struct("<BBHB")
+_RAW_BEGIN = struct.Struct("<IHBBH")
+
+
+def parse_raw(payload: bytes) -> RawPart:
+    if len(payload) < _RAW_HEAD.size:
+        raise MessageError(f"RAW payload of {len(payload)} bytes; the header alone is {_RAW_HEAD.size}")
+    cap_id, kind, index, count = _RAW_HEAD.unpack_from(payload)
+    data = payload[_RAW_HEAD.size :]
+    if kind == RAW_BEGIN:
+        if len(data) != _RAW_BEGIN.size:
+            raise MessageError(f"RAW BEGIN of {len(payload)} bytes; it should be {_RAW_HEAD.size + _RAW_BEGIN.size}")
+        start, n, n_ch, mask, n_edges = _RAW_BEGIN.unpack(data)
+        if not 1 <= n_ch <= 3 or bin(mask).count("1") != n_ch:
+            raise MessageError(f"RAW BEGIN channel mask {mask:#04x} does not match {n_ch} channel(s)")
+        return RawPart(cap_id, kind, start_frame=start, n_frames=n, n_ch=n_ch, channel_mask=mask, n_edges=n_edges)
+    if kind == RAW_SAMPLES:
+        if len(data) % 2 or len(data) == 0:
+            raise MessageError(f"RAW SAMPLES with {len(data)} data bytes (u16 codes expected)")
+        return RawPart(cap_id, kind, index, count, codes=struct.unpack(f"<{len(data) // 2}H", data))
+    if kind == RAW_EDGES:
+        if len(data) != 4 * count:
+            raise MessageError(f"RAW EDGES of {count} edge(s) should carry {4 * count} bytes, got {len(data)}")
+        return RawPart(cap_id, kind, index, count, edges_q8=struct.unpack(f"<{count}i", data))
+    if kind == RAW_END:
+        if len(data) != 1:
+            raise MessageError(f"RAW END should carry one status byte, got {len(data)}")
+        return RawPart(cap_id, kind, status=data[0])
+    raise MessageError(f"RAW part of unknown kind {kind}")
+
+
+def raw_payload(n_frames: int) -> bytes:
+    """The RAW command's payload: the number of sample frames to capture (16-4096)."""
+    if not 16 <= int(n_frames) <= 4096:
+        raise ValueError(f"capture of {n_frames!r} frames: use 16 to 4096")
+    return struct.pack("<H", int(n_frames))
+
+
+@dataclass(frozen=True)
 class Unknown:
     """A good frame of a type this runtrue does not know (newer firmware)."""
 
@@ -312,7 +378,7 @@ class Unknown:
     payload: bytes
 
 
-Message = Union[DeviceInfo, InfoPart, RevStats, Status, Ack, SelfTest, Text, Unknown]
+Message = Union[DeviceInfo, InfoPart, RevStats, Status, Ack, SelfTest, Text, RawPart, Unknown]
 
 
 def _json_object(payload: bytes, what: str) -> dict[str, Any]:
@@ -456,6 +522,8 @@ def parse_message(frame: Frame) -> Message:
         return parse_ack(frame.payload)
     if frame.type == SELFTEST:
         return parse_selftest(frame.payload)
+    if frame.type == RAW:
+        return parse_raw(frame.payload)
     if frame.type == TEXT:
         return Text(frame.payload.decode("utf-8", errors="replace"))
     return Unknown(frame.type, frame.payload)

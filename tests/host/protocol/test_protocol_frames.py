@@ -18,6 +18,7 @@ from runtrue.protocol.messages import (
     DeviceInfo,
     InfoAssembler,
     InfoPart,
+    RawPart,
     RevStats,
     SelfTest,
     Status,
@@ -137,8 +138,8 @@ SHARED = _vectors()
 def test_shared_vectors_cover_both_directions_and_every_message() -> None:
     device_types = {v["type"] for v in SHARED if v["direction"] == "device"}
     host_types = {v["type"] for v in SHARED if v["direction"] == "host"}
-    assert device_types == {0x01, 0x02, 0x03, 0x04, 0x05, 0x06}
-    assert host_types == set(range(0x81, 0x8B))
+    assert device_types == {0x01, 0x02, 0x03, 0x04, 0x05, 0x06, 0x07}
+    assert host_types == set(range(0x81, 0x8C))
 
 
 @pytest.mark.parametrize("vector", SHARED, ids=_ids(SHARED))
@@ -180,6 +181,17 @@ def test_device_messages_parse_to_the_shared_fields(vector: dict) -> None:
         assert message.passed == fields["pass"] and message.checks == fields["checks"]
     elif isinstance(message, Text):
         assert message.text == fields["text"]
+    elif isinstance(message, RawPart):
+        assert (message.cap_id, message.kind) == (fields["cap_id"], fields["kind"])
+        if message.kind == 0:
+            assert (message.start_frame, message.n_frames, message.n_ch, message.channel_mask, message.n_edges) == (
+                fields["start_frame"], fields["n_frames"], fields["n_ch"], fields["channel_mask"], fields["n_edges"])
+        elif message.kind == 1:
+            assert (message.index, message.count, list(message.codes)) == (fields["index"], fields["count"], fields["codes"])
+        elif message.kind == 2:
+            assert (message.index, list(message.edges_q8)) == (fields["index"], fields["edges_q8"])
+        else:
+            assert message.status == fields["status"]
     else:
         pytest.fail(f"unexpected message {message!r}")
 

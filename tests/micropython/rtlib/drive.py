@@ -112,3 +112,73 @@ def scenario(rate_hz=4000, rpm=2466.42, channels=None, n_frames=1200, round_robi
     stream(m, hw, sh, n_frames, block=block)
     revs = revs_of(host.frames())
     return (revs, m) if with_meter else revs
+
+
+def raw_of(frames):
+    """The RAW parts in `frames` put together: {"begin": {...}, "codes": [..interleaved..],
+    "edges_q8": [...], "status": int or None, "per_pass": []} (CPython and MicroPython)."""
+    from runtrue_fw import capture as cap
+    out = {"begin": None, "codes": [], "edges_q8": [], "status": None, "indices": []}
+    for t, _, p in frames:
+        if t != cap.T_RAW:
+            continue
+        cap_id, kind, index, count = struct.unpack_from(cap.RAW_HEAD_FMT, p)
+        data = p[cap.RAW_HEAD_LEN:]
+        if kind == cap.K_BEGIN:
+            s, n, nch, mask, ne = struct.unpack(cap.BEGIN_FMT, data)
+            out["begin"] = {"cap_id": cap_id, "start_frame": s, "n_frames": n, "n_ch": nch,
+                            "channel_mask": mask, "n_edges": ne}
+        elif kind == cap.K_SAMPLES:
+            out["indices"].append(index)
+            out["codes"].extend(struct.unpack("<%dH" % (len(data) // 2), data))
+        elif kind == cap.K_EDGES:
+            out["edges_q8"].extend(struct.unpack("<%di" % count, data))
+        else:
+            out["status"] = data[0]
+    return out
+
+
+def capture_scenario(channels=None, rate_hz=4000, rpm=2466.24, n_capture=1000, request_at=640,
+                     n_frames=4000, block=64, stop_at=None):
+    """A started meter fed with a shaft, asked for a raw capture of `n_capture` frames when
+    `request_at` frames have been fed (and STOP at `stop_at`).  Returns (raw_of(frames), revs,
+    the RAW frames written by each service pass, the ACK of RAW, the shaft's codes and edges)."""
+    from runtrue_fw import capture as cap
+    if channels is None:
+        channels = [(0.5, 30.0, 0.1, 200.0, 0.2)]
+    nch = len(channels)
+    hw = FakeBoard(channels_max=nch)
+    m = Meter(hw)
+    host = Host(m, hw)
+    host.command(fr.C_SET_RATE, struct.pack("<I", rate_hz))
+    host.command(fr.C_START)
+    host.frames()
+    sh = Shaft(rate_hz, rpm, channels, t0_samples=0.375)
+    edges = sh.edges_q8(n_frames)
+    frames = []
+    per_pass = []
+    ack = None
+    ei = 0
+    f = 0
+    while f < n_frames:
+        if f == request_at:
+            host.command(cap.C_RAW, struct.pack("<H", n_capture))
+            got = host.frames()
+            for t, s, p in got:
+                if t == fr.T_ACK:
+                    ack = (p[3], p[4:].decode())
+            frames.extend(got)
+        if stop_at is not None and f == stop_at:
+            host.command(fr.C_STOP)
+        n = block
+        while ei < len(edges) and edges[ei] < (f + n) * 256:
+            m.feed_edge(edges[ei])
+            ei += 1
+        m.feed_samples(sh.block(f, n, hw.counts_per_g, hw.zero_code), n)
+        hw.ms += 16
+        m.service()
+        got = host.frames()
+        per_pass.append(len([1 for t, _, _ in got if t == cap.T_RAW]))
+        frames.extend(got)
+        f += n
+    return raw_of(frames), revs_of(frames), per_pass, ack, sh, edges

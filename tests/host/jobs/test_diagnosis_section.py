@@ -1,0 +1,74 @@
+"""The report's diagnosis section: verdict, zones before and after balancing, the spectrum and
+the speed plot, from a simulated fan and the resonant fan's coast-down."""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+
+from runtrue.device import open_meter
+from runtrue.diagnosis.acquire import analyse_speed_run, record_speed_change, take_diagnosis
+from runtrue.jobs.diagnosis_section import diagnosis_section_html
+
+ROOT = Path(__file__).resolve().parents[3]
+
+
+class _Check(HTMLParser):
+    def __init__(self) -> None:
+        super().__init__()
+        self.stack: list[str] = []
+        self.ids: set[str] = set()
+
+    def handle_starttag(self, tag: str, attrs: list) -> None:
+        if tag not in ("line", "rect", "path", "circle", "br"):
+            self.stack.append(tag)
+        self.ids.update(v for k, v in attrs if k == "id")
+
+    def handle_endtag(self, tag: str) -> None:
+        if tag in ("line", "rect", "path", "circle"):
+            return
+        assert self.stack and self.stack[-1] == tag, (tag, self.stack[-3:])
+        self.stack.pop()
+
+
+def test_section_shows_spectrum_zone_before_and_after_and_the_speed_plot() -> None:
+    with open_meter("sim:fan", seed=5) as c:
+        c.identify()
+        before = take_diagnosis(c, revs=20)
+        m = c.transport.machine
+        u = m.unbalance_gmm()[0]
+        r = m.scenario.planes[0].radius_mm
+        m.add_weight(0, 0.95 * abs(u) / r, math.degrees(np.angle(-u)), r)
+        c.discard_revolutions()
+        after = take_diagnosis(c, revs=20)
+    with open_meter(f"sim:{ROOT / 'examples' / 'scenarios' / 'resonant_fan.toml'}", seed=5) as c:
+        c.identify()
+        c.set_channels(1)
+        run = record_speed_change(c, from_rpm=1900, to_rpm=1000, rate_rpm_per_s=200)
+    speed = analyse_speed_run(run, 1480)
+    # stored as JSON with the job and rendered again: the same section
+    html_obj = diagnosis_section_html(before, after, speed)
+    html_json = diagnosis_section_html(json.loads(json.dumps(before.to_dict(spectrum=True))),
+                                       json.loads(json.dumps(after.to_dict(spectrum=True))),
+                                       json.loads(json.dumps(speed.to_dict())))
+    assert html_obj == html_json
+    p = _Check()
+    p.feed(html_obj)
+    assert p.stack == []
+    assert {"diagnosis", "diagnosis-verdict", "severity-table", "spectrum", "speed-plot"} <= p.ids
+    zb, za = before.channels[0].severity.zone, after.channels[0].severity.zone
+    row = re.search(r'id="severity-table">.*?</table>', html_obj, re.S).group(0)
+    assert f"zone {zb}" in row and f"zone {za}" in row and zb != za
+    assert "Hann window" in html_obj and ">1x<" in html_obj and ">2x<" in html_obj
+    assert html_obj.count("<svg") == 2
+    assert "resonance 16" in html_obj and "10 % above the balancing speed" in html_obj
+
+
+def test_section_without_a_diagnosis_says_so() -> None:
+    html = diagnosis_section_html(None)
+    assert "No diagnosis was taken" in html and html.startswith('<section id="diagnosis">')

@@ -1,0 +1,51 @@
+"""The diagnosis screen at 80x24, driven with Textual's pilot on the simulator."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from tui_helpers import key, screen_text, wait_until
+
+from runtrue.tui import make_app
+
+SIZE = (80, 24)
+RESONANT = f"sim:{Path(__file__).resolve().parents[2] / 'examples' / 'scenarios' / 'resonant_fan.toml'}"
+
+
+async def test_diagnosis_screen_shows_verdict_zone_spectrum_and_the_coast_down_warning() -> None:
+    from runtrue.tui.screens.diagnosis import DiagnosisScreen
+
+    app = make_app(RESONANT, seed=1, realtime=False, max_revs_per_s=300, post_interval_s=0.05)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
+        screen = DiagnosisScreen()
+        app.push_screen(screen)
+        await wait_until(pilot, lambda: screen.diagnosis is not None, what="diagnosis")
+        text = screen_text(app)
+        assert "Hann window" in text and "zone" in text and "mm/s rms" in text
+        assert screen.diagnosis.channels[0].severity.zone in "ABCD"
+        await key(pilot, "k")
+        assert screen.machine_class == "class-II" and "class II" in screen_text(app)
+        await key(pilot, "c")
+        await wait_until(pilot, lambda: screen.speed is not None, timeout_s=60, what="coast-down")
+        text = screen_text(app)
+        assert "WARNING" in text and "above the balancing speed" in text
+        assert "polar" in text
+        await key(pilot, "escape")
+        assert type(app.screen).__name__ != "DiagnosisScreen"
+
+
+async def test_the_one_line_binding_reaches_the_screen_and_keeps_before_and_after() -> None:
+    """The hook the live screen gets: Binding("x", "app.push_screen('diagnosis')", ...), with the
+    screen installed under that name once (App.SCREENS or install_screen)."""
+    from runtrue.tui.screens.diagnosis import DiagnosisScreen
+
+    app = make_app("sim:fan", seed=2, realtime=False, max_revs_per_s=300, post_interval_s=0.05)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
+        app.install_screen(DiagnosisScreen, "diagnosis")
+        await app.run_action("app.push_screen('diagnosis')")
+        await wait_until(pilot, lambda: len(getattr(app.session, "diagnoses", [])) == 1, what="diagnosis")
+        await key(pilot, "d")
+        await wait_until(pilot, lambda: len(app.session.diagnoses) == 2, what="second diagnosis")
+        assert "zone" in screen_text(app)
