@@ -157,6 +157,9 @@ async def test_manual_job_reference_trial_correction_result(tmp_path: Path) -> N
         assert abs(expected - actual) < 0.02 * abs(influence * u0)
         # correction run: the allocated weights (trial removed)
         await pilot.press("r")
+        if job.weights_over_limit():  # a correction pulling over the force limit is confirmed first
+            assert screen_name(app) == "ConfirmDialog" and "x the limit" in screen_text(app)
+            await pilot.press("y")
         fill(app.screen, _typed(app, *reading_for([fitted])), prefix="#")
         await pilot.press("enter")
         await pilot.pause()
@@ -326,6 +329,8 @@ async def test_choose_the_trial_weight_then_stop_the_job() -> None:
         await pilot.press("enter", "w")
         fill(app.screen, {"mass": "12", "angle": "45"}, prefix="#")
         await pilot.press("enter")
+        assert screen_name(app) == "ConfirmDialog"  # 12 g pulls 45 N, over the fan's 41 N force limit
+        await pilot.press("y")
         trial = app.session.job.suggested_trial()
         assert (trial.mass_g, trial.angle_deg) == (12, 45)
         todo = str(app.screen.query_one("#todo").render())
@@ -406,3 +411,36 @@ async def test_larger_terminal_uses_the_room() -> None:
         assert dial.size.width > 40 and dial.size.height > 25
         text = screen_text(app)
         assert "MARK" in text and "secure for" in text and "Quit" in text.splitlines()[-1]
+
+
+async def test_a_typed_trial_above_the_force_limit_asks_before_it_is_used(tmp_path: Any) -> None:
+    from tui_helpers import FAN_FIELDS, fill
+
+    from runtrue.tui import make_app
+    from runtrue.tui.screens.dialogs import ConfirmDialog
+
+    app = make_app("manual", store_path=str(tmp_path / "db.sqlite"))
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.412", "phase0": "208"}, prefix="#")
+        await pilot.press("enter")
+        await pilot.pause()
+        job = app.session.job
+        assert job.step == "trial"
+        await pilot.press("w")
+        fill(app.screen, {"mass": "30", "angle": "0"}, prefix="#")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, ConfirmDialog)
+        text = "\n".join(app.screen.lines)
+        assert "x the limit" in text and "N at 1470 rpm" in text
+        await pilot.press("n")
+        await pilot.pause()
+        assert job.suggested_trial().mass_g != 30.0
+        await pilot.press("w")
+        fill(app.screen, {"mass": "30", "angle": "0"}, prefix="#")
+        await pilot.press("enter", "y")
+        await pilot.pause()
+        assert job.suggested_trial().mass_g == 30.0

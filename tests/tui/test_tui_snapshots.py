@@ -92,6 +92,8 @@ def test_result_screen(snap_compare: Any) -> None:
         job = app.session.job
         # the correction run: what the fitted weights leave (typed as read off an instrument)
         await pilot.press("r")
+        if job.weights_over_limit():  # confirm a correction over the force limit
+            await pilot.press("y")
         fill(app.screen, {"speed": "1470", "amp0": "0.0061", "phase0": "331"}, prefix="#")
         await pilot.press("enter")
         assert job.state.step == "done"

@@ -229,12 +229,14 @@ class AmplitudeOnlyJob(BalanceJob):
             )
         return out + base
 
-    def set_trial(self, mass_g: float, angle_deg: float, radius_mm: float | None = None) -> Weight:
+    def set_trial(
+        self, mass_g: float, angle_deg: float, radius_mm: float | None = None, *, confirm_over_limit: bool = False
+    ) -> Weight:
         """Use this trial weight (mass, first angle from the chalk mark, radius) for the cycle;
         only before its first trial run (the three angles follow from the first)."""
         if self.state.step == "trial" and self.state.trial_number != 1:
             raise ValueError("the trial weight can be changed only before the first trial run of a cycle")
-        return super().set_trial(mass_g, angle_deg, radius_mm)
+        return super().set_trial(mass_g, angle_deg, radius_mm, confirm_over_limit=confirm_over_limit)
 
     # -- results ---------------------------------------------------------------------------------
     def result(self) -> JobResult:
@@ -361,11 +363,20 @@ class AmplitudeOnlyJob(BalanceJob):
         spec = m.planes[0]
         ref = self.runs[base]
         message = ""
+        capped_note = ""
         user = self._user_trial[1] if self._user_trial and self._user_trial[0] == cycle and previous is None else None
         if user is not None:
             mass, angle = user.mass_g, user.angle_deg
         elif previous is not None:
             mass, angle = previous.mass_g * scale, previous.angle_deg
+            limit_mass = self._limit_mass_g(spec.radius_mm)
+            if mass > limit_mass:
+                capped_note = (
+                    f"A trial of {mass:.3g} g would be needed, but that pulls {mass / limit_mass:.1f} times the "
+                    f"{self.force_limit_n:.3g} N force limit: the suggestion stays at {max(limit_mass, previous.mass_g):.3g} g. "
+                    "Average longer, or choose a larger trial with w and confirm its force."
+                )
+                mass = max(limit_mass, previous.mass_g)
         elif cycle > 1 and self._checks:
             pick, h_mag = self._checks[ref.seq] if ref.seq in self._checks else next(reversed(self._checks.values()))
             first = next((w for r in self.runs for w in r.weights if self._is_trial(w)), None)
@@ -388,8 +399,10 @@ class AmplitudeOnlyJob(BalanceJob):
         if user is not None:
             trial = Weight(1, user.mass_g, user.angle_deg, user.radius_mm, "trial weight, plane 1")
         else:
-            trial = fitting.trial_weight(
-                m, 1, mass, angle, [p for w in staying for p in w.pieces], at_least=previous is not None
+            in_use = [p for w in staying for p in w.pieces]
+            trial = self._within_force_limit(
+                lambda mass_g, at_least: fitting.trial_weight(m, 1, mass_g, angle, in_use, at_least=at_least),
+                mass, at_least=previous is not None and not capped_note,
             )
         angles = three_trial_angles_deg(m, 1, trial.angle_deg)
         s = self.state
@@ -403,6 +416,7 @@ class AmplitudeOnlyJob(BalanceJob):
         s.trial = trial
         if message:
             s.message = message
+        self._capped_note = capped_note
 
     def _set_trial_number(self, k: int) -> None:
         s = self.state
@@ -450,6 +464,8 @@ class AmplitudeOnlyJob(BalanceJob):
             f"The trial weight was too small to trust: {msg}. Take the three trial runs again with this larger "
             "trial weight (the runs already taken are kept in the solution), or accept the weak trial."
         )
+        if self._capped_note:
+            s.message += " " + self._capped_note
 
     def _after_trial_accepted(self, plane: int) -> None:
         self._enter_correction("correction" if self.state.cycle <= 1 else "trim")

@@ -53,6 +53,65 @@ CAUTIONS: tuple[str, ...] = (
 )
 
 
+def force_limit_n(machine: Machine) -> float:
+    """The largest centrifugal force a weight may pull with before the user must confirm it:
+    ``TRIAL_FORCE_CAP_FRACTION`` (30 %) of the rotor's weight share per plane, in newtons."""
+    from runtrue.balancing.trial import STANDARD_GRAVITY_M_S2, TRIAL_FORCE_CAP_FRACTION
+
+    return TRIAL_FORCE_CAP_FRACTION * machine.rotor_mass_kg * STANDARD_GRAVITY_M_S2 / machine.n_planes
+
+
+def force_limit_basis(machine: Machine) -> str:
+    """The limit and where it comes from, in one sentence (said once where it matters)."""
+    from runtrue.balancing.trial import TRIAL_FORCE_CAP_FRACTION
+
+    per_plane = " per plane" if machine.n_planes > 1 else ""
+    return (
+        f"Force limit {force_limit_n(machine):.3g} N: {TRIAL_FORCE_CAP_FRACTION * 100:.0f} % of the rotor's weight{per_plane}. "
+        "This is runtrue's own figure, not from a standard (common practice sizes a trial weight near 10 %); "
+        "a weight above it needs your confirmation."
+    )
+
+
+class ForceLimitExceeded(ValueError):
+    """A weight would pull with more than the force limit; the user must confirm it first."""
+
+    def __init__(self, weight: Weight, force_n: float, limit_n: float) -> None:
+        self.weight = weight
+        self.force_n = force_n
+        self.limit_n = limit_n
+        self.multiple = force_n / limit_n if limit_n > 0 else math.inf
+        super().__init__(
+            f"{weight.mass_g:.3g} g at radius {weight.radius_mm:g} mm pulls with {force_n:.0f} N at speed, "
+            f"{self.multiple:.1f} times the {limit_n:.3g} N force limit: confirm it to go on"
+        )
+
+
+class OverSpeed(ValueError):
+    """A run's measured speed is above the machine's rated speed; the user must confirm it."""
+
+    def __init__(self, speed_rpm: float, rated_rpm: float) -> None:
+        self.speed_rpm = speed_rpm
+        self.rated_rpm = rated_rpm
+        super().__init__(
+            f"the run was at {speed_rpm:.0f} rpm, above the rated {rated_rpm:g} rpm of the machine: "
+            "stop it now; record the run only if the maker allows this speed"
+        )
+
+
+@dataclass(frozen=True)
+class ForceCheck:
+    """A weight to fit for the next run, its force at running speed and the multiple of the limit."""
+
+    weight: Weight
+    force_n: float
+    limit_n: float
+
+    @property
+    def multiple(self) -> float:
+        return self.force_n / self.limit_n if self.limit_n > 0 else math.inf
+
+
 def parse_grade(grade: str | float) -> float:
     """``"G6.3"`` / ``"6.3"`` / ``6.3`` -> 6.3 (mm/s); ValueError with advice otherwise."""
     if isinstance(grade, (int, float)):
@@ -237,6 +296,9 @@ class BalanceJob:
         self._tolerance = self._make_tolerance()
         self._replaying = False  # True while resume() rebuilds the state: nothing is written then
         self._plan_pending: str | None = None
+        self._capped_note = ""  # set when a larger trial is held back by the force limit
+        self._confirmed_forces: dict[int, set[tuple[int, float, float, float]]] = {}  # n_runs -> weights
+        self._weights_at_start: list[Weight] = [Weight.from_dict(d) for d in options.get("weights_at_start", [])]
         self._enter_reference()
 
     # -- creating and resuming --------------------------------------------------------------------
@@ -414,7 +476,10 @@ class BalanceJob:
         return out
 
     # -- recording -------------------------------------------------------------------------------
-    def record_run(self, reading: Any, weights_present: Sequence[Weight] | None = None, note: str = "") -> RunRecord:
+    def record_run(
+        self, reading: Any, weights_present: Sequence[Weight] | None = None, note: str = "",
+        *, over_speed_confirmed: bool = False,
+    ) -> RunRecord:
         """Record a taken reading for the current step (written to the store first), then advance.
 
         ``reading``: a ``runtrue.readings.Reading`` or a :class:`RunReading`; its channels must
@@ -433,6 +498,11 @@ class BalanceJob:
                 raise ValueError(f"pickup {i}: the reading is not a number; take the reading again")
         if not (rr.speed_rpm > 0 and math.isfinite(rr.speed_rpm)):
             raise ValueError("the reading has no valid speed; check the reference sensor and take it again")
+        rated = self.machine.rated_speed_rpm
+        if rated is not None and rr.speed_rpm > rated and not over_speed_confirmed:
+            raise OverSpeed(rr.speed_rpm, rated)
+        if rated is not None and rr.speed_rpm > rated:
+            note = (note + " " if note else "") + f"recorded above the rated speed ({rr.speed_rpm:.0f} > {rated:g} rpm), confirmed by the user"
         for w in weights_present or ():
             if not 1 <= w.plane <= self.machine.n_planes:
                 raise ValueError(f"weight in plane {w.plane}, but the machine has {self.machine.n_planes} plane(s)")
@@ -444,19 +514,63 @@ class BalanceJob:
         self._apply_run(run)
         return run
 
-    def set_trial(self, mass_g: float, angle_deg: float, radius_mm: float | None = None) -> Weight:
-        """Use this trial weight instead of the suggestion (recorded)."""
+    def set_trial(
+        self, mass_g: float, angle_deg: float, radius_mm: float | None = None, *, confirm_over_limit: bool = False
+    ) -> Weight:
+        """Use this trial weight instead of the suggestion (recorded).  A weight pulling with more
+        than the force limit raises :class:`ForceLimitExceeded` unless ``confirm_over_limit``."""
         s = self.state
         if s.step != "trial" or s.plane is None:
             raise ValueError("a trial weight can be chosen only at a trial step")
         if not (mass_g > 0 and math.isfinite(mass_g)):
             raise ValueError("the trial mass must be a positive number of grams")
         radius = radius_mm if radius_mm is not None else self.machine.planes[s.plane - 1].radius_mm
+        candidate = Weight(s.plane, mass_g, angle_deg % 360.0, radius, f"trial weight, plane {s.plane}")
+        force, limit = self._force_n(candidate), self.force_limit_n
+        if force > limit and not confirm_over_limit:
+            raise ForceLimitExceeded(candidate, force, limit)
         data = {"plane": s.plane, "mass_g": mass_g, "angle_deg": angle_deg % 360.0, "radius_mm": radius}
         self.store.add_event(self.job_id, "trial_set", {**data, "n_runs": len(self.runs)})
         self._apply_event("trial_set", data)
+        if force > limit:
+            self.confirm_forces()
         assert self.state.trial is not None
         return self.state.trial
+
+    # -- the force limit ----------------------------------------------------------------------------
+    @property
+    def force_limit_n(self) -> float:
+        return force_limit_n(self.machine)
+
+    def weights_over_limit(self) -> list[ForceCheck]:
+        """Weights to fit for the next run whose force at running speed exceeds the force limit."""
+        on = list(self.runs[-1].weights) if self.runs else list(self._weights_at_start)
+        rest = list(on)
+        add = []
+        for w in self.planned_weights():
+            if w in rest:
+                rest.remove(w)
+            else:
+                add.append(w)
+        limit = self.force_limit_n
+        return [ForceCheck(w, self._force_n(w), limit) for w in add if self._force_n(w) > limit]
+
+    @property
+    def forces_confirmed(self) -> bool:
+        """True when no weight for the next run is over the limit, or the user confirmed them."""
+        over = self.weights_over_limit()
+        if not over:
+            return True
+        keys = self._confirmed_forces.get(len(self.runs), set())
+        return all(_weight_key(c.weight) in keys for c in over)
+
+    def confirm_forces(self) -> None:
+        """Record that the user saw and confirmed the forces of the weights over the limit."""
+        over = self.weights_over_limit()
+        data = {"weights": [c.weight.to_dict() for c in over], "forces_n": [c.force_n for c in over],
+                "limit_n": self.force_limit_n}
+        self.store.add_event(self.job_id, "forces_confirmed", {**data, "n_runs": len(self.runs)})
+        self._apply_event("forces_confirmed", {**data, "n_runs": len(self.runs)})
 
     def accept_trial_anyway(self) -> None:
         """Go on with a trial whose effect looked too small (recorded; the warning stays)."""
@@ -527,6 +641,11 @@ class BalanceJob:
 
         return float(centrifugal_force_n(w.mass_g, w.radius_mm, self.machine.speed_rpm))
 
+    def _limit_mass_g(self, radius_mm: float) -> float:
+        """The mass at ``radius_mm`` that pulls exactly the force limit at running speed."""
+        omega = 2 * math.pi * self.machine.speed_rpm / 60.0
+        return self.force_limit_n / ((radius_mm / 1000.0) * omega * omega) * 1000.0
+
     @staticmethod
     def _is_trial(w: Weight) -> bool:
         return w.label.startswith("trial")
@@ -570,13 +689,42 @@ class BalanceJob:
         else:
             mass = previous.mass_g * scale
             angle = previous.angle_deg
+            self._capped_note = ""
+            limit_mass = self._limit_mass_g(spec.radius_mm)
+            if mass > limit_mass:
+                needed = mass
+                mass = max(limit_mass, previous.mass_g)
+                self._capped_note = (
+                    f"A trial of {needed:.3g} g would be needed, but that pulls "
+                    f"{needed / limit_mass:.1f} times the {self.force_limit_n:.3g} N force limit: "
+                    f"the suggestion stays at {mass:.3g} g. Average longer (more revolutions), or choose a "
+                    "larger trial with w and confirm its force."
+                )
         on = list(self.runs[-1].weights) if self.runs else []
         staying = [w for w in on if not self._is_trial(w)] if self.options["trial_removed"] else [
             w for w in on if not (self._is_trial(w) and w.plane == plane)
         ]
-        return fitting.trial_weight(
-            m, plane, mass, angle, [p for w in staying for p in w.pieces], at_least=previous is not None
+        capped = previous is not None and bool(self._capped_note)
+        in_use = [p for w in staying for p in w.pieces]
+        return self._within_force_limit(
+            lambda mass_g, at_least: fitting.trial_weight(m, plane, mass_g, angle, in_use, at_least=at_least),
+            mass, at_least=previous is not None and not capped,
         )
+
+    def _within_force_limit(self, make: Any, mass_g: float, at_least: bool) -> Weight:
+        """``make(mass_g, at_least)`` rounds a trial to what the stock can make; when that rounding
+        lands above the force limit (and the wish was not), ask for a little less, a few times."""
+        w = make(mass_g, at_least)
+        limit = self.force_limit_n
+        if self._force_n(Weight(w.plane, mass_g, 0.0, w.radius_mm)) > limit:
+            return w  # asked for more than the limit on purpose: the user confirms it
+        for _ in range(4):
+            force = self._force_n(w)
+            if force <= limit:
+                break
+            mass_g *= 0.97 * limit / force
+            w = make(mass_g, False)
+        return w
 
     def _apply_event(self, kind: str, data: dict[str, Any]) -> None:
         s = self.state
@@ -598,6 +746,9 @@ class BalanceJob:
             self._guarded(lambda: self._after_trial_accepted(plane), "The trial run cannot be used")
         elif kind == "stopped":
             self._finish("stopped", str(data.get("reason", "")))
+        elif kind == "forces_confirmed":
+            keys = self._confirmed_forces.setdefault(int(data.get("n_runs", len(self.runs))), set())
+            keys.update(_weight_key(Weight.from_dict(d)) for d in data.get("weights", []))
 
     def _apply_run(self, run: RunRecord) -> None:
         """Advance on a recorded run.  If the maths refuses (a ``ValueError`` such as
@@ -695,6 +846,8 @@ class BalanceJob:
             # 20 % margin over the bare minimum: the next reading's scatter is random too.
             self._enter_trial(plane, max(scale * 1.2, 1.5), prev)
             s.message = f"The trial weight in plane {plane} did not change the reading enough to trust: {chk.message}"
+            if self._capped_note:
+                s.message += " " + self._capped_note
 
     def _baseline_for(self, run: RunRecord, trial_ws: list[Weight]) -> RunRecord:
         """The latest earlier run with the same weights as ``run`` less its trial in this plane."""
@@ -849,6 +1002,10 @@ def _position_number(machine: Machine, plane: int, angle_deg: float) -> int | No
         if abs((a - angle_deg + 180.0) % 360.0 - 180.0) < 1e-6:
             return n
     return None
+
+
+def _weight_key(w: Weight) -> tuple[int, float, float, float]:
+    return (w.plane, round(w.mass_g, 4), round(w.angle_deg % 360.0, 3), round(w.radius_mm, 3))
 
 
 def _plane_sums(weights: Any) -> dict[int, complex]:

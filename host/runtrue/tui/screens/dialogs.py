@@ -147,3 +147,45 @@ class TrialWeightForm(_Form):
         if mass <= 0:
             raise ValueError("trial mass must be more than 0 g")
         return mass, parse_float(self.value("angle"), "angle", minimum=None) % 360.0
+
+
+class ConfirmDialog(ModalScreen[bool]):
+    """A yes/no question that matters for safety: the facts, then y to go on or n/Esc to go back."""
+
+    BINDINGS = [
+        Binding("y", "answer(True)", "Yes, go on"),
+        Binding("n", "answer(False)", "No"),
+        Binding("escape", "answer(False)", "No"),
+    ]
+
+    def __init__(self, title: str, lines: list[str], yes: str = "y: yes, go on", no: str = "n / Esc: no, go back") -> None:
+        super().__init__()
+        self.title_text = title
+        self.lines = lines
+        self.yes = yes
+        self.no = no
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="form-box confirm-box"):
+            yield Static(self.title_text, classes="pane-title caution", markup=False)
+            yield Static("\n".join(self.lines), classes="confirm-text", markup=False)
+            yield Static(f"{self.yes}    {self.no}", classes="note", markup=False)
+
+    def action_answer(self, yes: bool) -> None:
+        self.dismiss(yes)
+
+
+def force_confirm_lines(checks: list[Any], limit_text: str, speed_rpm: float) -> list[str]:
+    """One line per weight over the force limit (force and multiple of the limit), then the basis."""
+    from runtrue.jobs.numbers import force_text, mass_text
+
+    out = []
+    for c in checks:
+        w = c.weight
+        out.append(
+            f"{mass_text(w.mass_g)} at r {w.radius_mm:g} mm pulls {force_text(c.force_n)} at {speed_rpm:g} rpm: "
+            f"{c.multiple:.2f} x the limit."
+        )
+    out.append(limit_text)
+    out.append("Go on only if the weight and its fixing are rated for this force.")
+    return out

@@ -142,6 +142,10 @@ class LiveScreen(StepScreen):
         )
         self.query_one("#live-table", Static).update("\n".join(channel_rows(reading, self.amplitude_only)))
         notes = [f"ch {i + 1}: {label}" for i, label in enumerate(self._labels())]
+        m = s.machine
+        rated = getattr(m, "rated_speed_rpm", None) if m is not None else None
+        if rated is not None and math.isfinite(speed) and speed > rated:
+            notes.insert(0, f"ABOVE THE RATED SPEED ({speed:.0f} > {rated:g} rpm): stop the machine now.")
         if reading is not None:
             conf = "  ".join(f"ch{i + 1} {amp_text(ch.confidence_g)}" for i, ch in enumerate(reading.channels))
             notes.append(f"95 % radius ({reading.n_revs} revs): {conf}")

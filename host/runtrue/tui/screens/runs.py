@@ -211,6 +211,9 @@ class RunsScreen(StepScreen):
         job = s.job
         if job is None or job.state.step == "done":
             return
+        if not job.forces_confirmed:
+            self._confirm_forces(then=self.action_reading)
+            return
         if s.manual:
             from runtrue.tui.screens.dialogs import ManualReadingForm
 
@@ -251,7 +254,23 @@ class RunsScreen(StepScreen):
             )
         return epoch
 
-    def _record(self, reading: Any) -> None:
+    def _confirm_forces(self, then: Any) -> None:
+        """Ask before a run whose weights pull harder than the force limit; ``then`` on yes."""
+        from runtrue.jobs.workflow import force_limit_basis
+        from runtrue.tui.screens.dialogs import ConfirmDialog, force_confirm_lines
+
+        job = self.session.job
+        lines = force_confirm_lines(job.weights_over_limit(), force_limit_basis(job.machine), job.machine.speed_rpm)
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                job.confirm_forces()
+                then()
+
+        self.app.push_screen(ConfirmDialog("Weight above the force limit", lines, yes="y: fitted and secured for it"),
+                             answered)
+
+    def _record(self, reading: Any, over_speed_confirmed: bool = False) -> None:
         if reading is None:
             return
         job = self.session.job
@@ -261,8 +280,22 @@ class RunsScreen(StepScreen):
             rr = RunReading.from_reading(reading)
             if rr.has_phase:  # the meter's phase is not part of this method: keep the amplitudes only
                 reading = rr.amplitudes_only()
+        from runtrue.jobs.workflow import OverSpeed
+
         try:
-            run = job.record_run(reading)
+            run = job.record_run(reading, over_speed_confirmed=over_speed_confirmed)
+        except OverSpeed as exc:
+            from runtrue.tui.screens.dialogs import ConfirmDialog
+
+            lines = [f"Measured {exc.speed_rpm:.0f} rpm; the machine's rated speed is {exc.rated_rpm:g} rpm.",
+                     "STOP the machine. Record this run only if the maker allows this speed."]
+
+            def answered(yes: bool | None) -> None:
+                if yes:
+                    self._record(reading, over_speed_confirmed=True)
+
+            self.app.push_screen(ConfirmDialog("Above the rated speed", lines, yes="y: record it anyway"), answered)
+            return
         except Exception as exc:  # noqa: BLE001 - shown to the user, nothing recorded is lost
             self.notify(f"Reading not recorded: {exc}", severity="error", title="Not recorded", timeout=8)
             return
@@ -292,8 +325,24 @@ class RunsScreen(StepScreen):
         def chosen(value: tuple[float, float] | None) -> None:
             if value is None:
                 return
+            from runtrue.jobs.workflow import ForceCheck, ForceLimitExceeded, force_limit_basis
+
             try:
                 job.set_trial(value[0], value[1])
+            except ForceLimitExceeded as exc:
+                from runtrue.tui.screens.dialogs import ConfirmDialog, force_confirm_lines
+
+                check = ForceCheck(exc.weight, exc.force_n, exc.limit_n)
+                lines = force_confirm_lines([check], force_limit_basis(job.machine), job.machine.speed_rpm)
+
+                def answered(yes: bool | None) -> None:
+                    if yes:
+                        job.set_trial(value[0], value[1], confirm_over_limit=True)
+                        self.redraw()
+
+                self.app.push_screen(ConfirmDialog("Trial weight above the force limit", lines,
+                                                   yes="y: use it, I will secure it"), answered)
+                return
             except ValueError as exc:
                 self.notify(str(exc), severity="error")
             self.redraw()
