@@ -92,7 +92,7 @@ async def test_live_screen_shows_readings_and_takes_one(tmp_path: Path) -> None:
         await wait_until(pilot, lambda: app.session.live.total_revs > 20, what="revolutions")
         await pilot.pause(0.3)
         text = screen_text(app)
-        assert "rpm" in text and "1x amp" in text and "phase" in text
+        assert "rpm" in text and "mm/s rms" in text and "phase" in text
         assert "0\N{DEGREE SIGN} up, lag cw" in text
         await key(pilot, "space")
         await wait_until(pilot, lambda: bool(taken), what="reading taken")
@@ -251,7 +251,7 @@ async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_cor
         assert "Stored influence coefficients" in screen_text(app), screen_text(app)
         await pilot.press("f6")  # the machine's history: the job just done, and its coefficients
         text = screen_text(app)
-        assert "passed" in text and "Influence coefficients kept from job 1" in text
+        assert "passed" in text and "Kept from job 1" in text
         await pilot.press("escape")
         await pilot.press("f2")
         job2 = app.session.job
@@ -303,7 +303,9 @@ async def test_an_interrupted_job_resumes_with_its_runs(tmp_path: Path) -> None:
         job = app.session.job
         assert job.job_id == job_id and [r.kind for r in job.runs] == ["reference"]
         assert job.state.step == "trial"
-        assert "0.480 g" in screen_text(app)
+        from runtrue.jobs.numbers import vib_number
+
+        assert vib_number(0.48, job.runs[0].reading.speed_rpm) in screen_text(app)  # 1x in mm/s rms
 
 
 async def test_live_view_from_connect_only_looks() -> None:
@@ -444,3 +446,43 @@ async def test_a_typed_trial_above_the_force_limit_asks_before_it_is_used(tmp_pa
         await pilot.press("enter", "y")
         await pilot.pause()
         assert job.suggested_trial().mass_g == 30.0
+
+
+async def test_the_result_screen_and_the_report_print_the_same_digits(tmp_path: Any) -> None:
+    """Before/after vibration, residual, permissible and ratio: the same text on the screen and
+    in the HTML report (both format through runtrue.jobs.numbers)."""
+    import html as htmlmod
+    import re
+
+    from runtrue.jobs.numbers import grade_row, vib_number
+
+    app = make_app("manual", report_dir=str(tmp_path))
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1466", "amp0": "0.412", "phase0": "208"}, prefix="#")
+        await pilot.press("enter", "r")
+        job = app.session.job
+        if screen_name(app) == "ConfirmDialog":
+            await pilot.press("y")
+        fill(app.screen, {"speed": "1472", "amp0": "0.371", "phase0": "238"}, prefix="#")
+        await pilot.press("enter", "r")
+        if screen_name(app) == "ConfirmDialog":
+            await pilot.press("y")
+        fill(app.screen, {"speed": "1475", "amp0": "0.0061", "phase0": "331"}, prefix="#")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert screen_name(app) == "ResultScreen"
+        screen = str(app.screen.query_one("#result-text").render())
+        await pilot.press("h")
+        report = htmlmod.unescape(next(tmp_path.glob("*.html")).read_text())
+        res = job.result()
+        for ch in res.channels:
+            before = vib_number(abs(ch.before), 1466.0)
+            after = vib_number(abs(ch.after), 1475.0)
+            assert before in screen and after in screen
+            assert re.search(rf"<td>{re.escape(before)}</td>", report) and re.search(rf"<td>{re.escape(after)}</td>", report)
+        row = grade_row(res.residual_unbalance_gmm[0], res.residual_uncertainty_gmm[0], res.permissible_unbalance_gmm[0])
+        for key in ("residual", "permissible", "ratio"):
+            assert row[key] in screen and f"<td>{row[key]}</td>" in report, key

@@ -150,3 +150,17 @@ def local_time_text(iso_utc: str | None) -> str:
         return iso_utc
     local = t.astimezone()
     return local.strftime("%Y-%m-%d %H:%M ") + (local.tzname() or "")
+
+
+def grade_row(residual_gmm: float, uncertainty_gmm: float, permissible_gmm: float) -> dict[str, str]:
+    """One plane of the grade check as the screen and the report print it.  ``ratio`` is
+    (residual + its 95 % uncertainty) / permissible, the figure the pass is judged on."""
+    u = uncertainty_gmm if math.isfinite(uncertainty_gmm) else 0.0
+    ratio = (residual_gmm + u) / permissible_gmm if permissible_gmm > 0 else math.inf
+    return {
+        "residual": unbalance_text(residual_gmm),
+        "uncertainty": unbalance_text(u),
+        "permissible": unbalance_text(permissible_gmm),
+        "ratio": ratio_text(ratio),
+        "verdict": "pass" if ratio <= 1.0 else "fail",
+    }

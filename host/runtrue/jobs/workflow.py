@@ -219,11 +219,19 @@ class JobResult:
     residual_uncertainty_gmm: list[float] | None = None
     method: str = "influence-coefficient"
     influence_magnitude: float | None = None
+    before_speed_rpm: float | None = None  # measured speed of the reference run
+    after_speed_rpm: float | None = None  # measured speed of the last correction or trim run
+    influence_source: str = ""  # where the coefficients came from, in words
+    weights_at_start: list[Weight] = field(default_factory=list)  # left on by an earlier job
 
     def to_dict(self) -> dict[str, Any]:
         extra: dict[str, Any] = {"method": self.method}
         if self.influence_magnitude is not None:
             extra["influence_magnitude_g_per_gmm"] = self.influence_magnitude
+        extra["influence_source"] = self.influence_source
+        extra["before_speed_rpm"] = self.before_speed_rpm
+        extra["after_speed_rpm"] = self.after_speed_rpm
+        extra["weights_at_start"] = [w.to_dict() for w in self.weights_at_start]
         return {
             "job_id": self.job_id,
             "machine": self.machine_name,
@@ -627,7 +635,26 @@ class BalanceJob:
             warnings=list(self.state.warnings),
             tolerance_rule=str(getattr(tol, "rule", "")),
             residual_uncertainty_gmm=uncertainty,
+            before_speed_rpm=ref.reading.speed_rpm if ref else None,
+            after_speed_rpm=after_run.reading.speed_rpm if after_run else None,
+            influence_source=self.influence_source(),
+            weights_at_start=list(self._weights_at_start),
         )
+
+    def influence_source(self) -> str:
+        """Where the influence coefficients in use came from, in words for the report."""
+        if self._influence is None:
+            return "not known yet (no trial run)"
+        inf = self.machine.influence
+        if self.options.get("use_stored_influence") and inf is not None:
+            trial_runs = [r.seq for r in self.runs if r.kind in ("correction", "trim")]
+            when = inf.measured_at[:10] if inf.measured_at else "an earlier date"
+            head = f"stored from job {inf.job_id} on {when}" if inf.job_id is not None else f"stored on {when}"
+            if len(trial_runs) > 1:
+                return head + ", refitted with the runs of this job"
+            return head
+        seqs = [r.seq for r in self.runs]
+        return f"measured in this job (runs {seqs[0]}-{seqs[-1]})" if len(seqs) > 1 else "measured in this job"
 
     # -- internals: transitions -------------------------------------------------------------------
     def _make_tolerance(self) -> Any:

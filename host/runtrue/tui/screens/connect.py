@@ -129,8 +129,8 @@ def signal_check_text(revs: list[Any]) -> str:
             h1 = sum(abs(r.h1[i]) ** 2 for r in usable) / len(usable) / 2
             h2 = sum(abs(r.h2[i]) ** 2 for r in usable) / len(usable) / 2
             rest = max(0.0, ms - h1 - h2) ** 0.5
-            lines.append(f"ch{i + 1}: 1x {amp_text(sum(abs(r.h1[i]) for r in usable) / len(usable))} pk, "
-                         f"rest {amp_text(rest)} rms")
+            lines.append(f"ch{i + 1}: 1x {amp_text(sum(abs(r.h1[i]) for r in usable) / len(usable))}, "
+                         f"rest {amp_text(rest, 'g rms')}")
     return "\n".join(lines)
 
 

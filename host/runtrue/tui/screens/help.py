@@ -31,8 +31,8 @@ def help_text() -> str:
              "- Rotation (cw/ccw) is as seen from the drive end; the fitting dial is drawn from there.",
              "- Amplitudes are 1x peak in g (standard gravity); velocity is the 1x in mm/s.",
              "- Polar plots: 0 deg at the top, lag increasing clockwise.",
-             "- Masses, radii and unbalance show in g, mm, g.mm, or with F8 on the machine screen in "
-             "oz, in, oz.in (display only: the machine form, the job and the report stay metric). "
+             "- Masses, radii and unbalance show in g, mm, g·mm, or with F8 on the machine screen in "
+             "oz, in, oz·in (display only: the machine form, the job and the report stay metric). "
              "Forces are in N (with lbf in imperial).",
              "", "STEPS"]
     lines += [f"- {s}" for s in STEPS]

@@ -6,6 +6,7 @@ correction.  The grade table (F3) lists typical balance quality grades by rotor 
 
 from __future__ import annotations
 
+import math
 from typing import Any, Iterable
 
 from textual.binding import Binding
@@ -14,6 +15,7 @@ from textual.widget import Widget
 from textual.widgets import Footer, Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
+from runtrue.jobs.numbers import local_time_text, vib_number, vib_text
 from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields
 from runtrue.tui.method import TWO_PLANES_REFUSED, is_four_run, method_hint
 from runtrue.tui.screens.base import StepScreen
@@ -41,10 +43,10 @@ def tolerance_text(values: dict[str, str], units: str = METRIC) -> str:
             f"Permissible residual unbalance (ISO 21940-11): {unbalance_text(tol.permissible_unbalance_gmm, units)} "
             f"(per plane {per}), {tol.permissible_eccentricity_um:.2f} um."
         )
-    per = " + ".join(f"{u:.0f}" for u in tol.per_plane_gmm)
+    per = " + ".join(unbalance_text(u) for u in tol.per_plane_gmm)
     return (
-        f"Permissible residual unbalance (ISO 21940-11): {tol.permissible_unbalance_gmm:.0f} g.mm "
-        f"(per plane {per}), {tol.permissible_eccentricity_um:.2f} um."
+        f"Permissible residual unbalance (ISO 21940-11): {unbalance_text(tol.permissible_unbalance_gmm)} "
+        f"(per plane {per}), {tol.permissible_eccentricity_um:.2f} \N{MICRO SIGN}m."
     )
 
 
@@ -59,7 +61,10 @@ def history_text(store: Any, machine_id: int) -> str:
         last = trend[-1]
         verdict = "passed" if last.passed else "not passed"
         if last.initial_amp_g and last.final_amp_g and last.final_amp_g[0] is not None:
-            text += f" Last ({last.date[:10]}): {last.initial_amp_g[0]:.3g} -> {last.final_amp_g[0]:.3g} g, {verdict}."
+            m = store.get_machine(machine_id)
+            speed = m.speed_rpm if m is not None else math.nan
+            text += (f" Last ({local_time_text(last.date)[:10]}): {vib_number(last.initial_amp_g[0], speed)} -> "
+                     f"{vib_text(last.final_amp_g[0], speed)}, {verdict}.")
         else:
             text += f" Last ({last.date[:10]}): {verdict}."
     return text

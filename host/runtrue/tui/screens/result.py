@@ -15,7 +15,7 @@ from textual.containers import VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
-from runtrue.tui.format import ANGLE_NOTE, PHASE_NOTE
+from runtrue.tui.format import ANGLE_NOTE, PHASE_NOTE, vib_unit_of
 from runtrue.tui.method import CHALK_ANGLE_NOTE, PHASE_NOT_USED_NOTE
 from runtrue.tui.result_text import channel_lines, is_four_run_result, method_lines, plane_lines, verdict, weights_lines
 from runtrue.tui.screens.base import StepScreen
@@ -63,16 +63,18 @@ class ResultScreen(StepScreen):
         v.set_classes(cls)
         lines = [f"{res.machine_name}, job {res.job_id}: {res.runs} run(s), {res.speed_rpm:g} rpm, status {res.status}"]
         units = self.rt_app.units
+        m = job.machine
+        names = [m.plane_name(p) for p in range(1, m.n_planes + 1)]
         lines += method_lines(res, units)
-        lines += [""] + channel_lines(res)
-        lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res, units)
+        lines += [""] + channel_lines(res, vib_unit_of(self.app))
+        lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res, units, names)
         lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res, units)
         if res.warnings:
             lines += ["", "Notes:"] + [f"- {w}" for w in res.warnings]
         if is_four_run_result(res):
-            lines += ["", f"{PHASE_NOT_USED_NOTE}; {CHALK_ANGLE_NOTE}. Amplitudes 1x peak."]
+            lines += ["", f"{PHASE_NOT_USED_NOTE}; {CHALK_ANGLE_NOTE}."]
         else:
-            lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}. Amplitudes 1x peak."]
+            lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}."]
         self.query_one("#result-text", Static).update("\n".join(lines))
         self.query_one("#hint", Static).update("h: write the HTML report   e: CSV + JSON export of the runs")
 
@@ -90,7 +92,7 @@ class ResultScreen(StepScreen):
             return
         try:
             path = self._out_path(".html")
-            path.write_text(render_html(self.session.store, job.job_id), encoding="utf-8")
+            path.write_text(render_html(self.session.store, job.job_id, vib_unit_of(self.app)), encoding="utf-8")
         except (OSError, ValueError) as exc:
             self.notify(f"Report not written: {exc}", severity="error", timeout=8)
             return

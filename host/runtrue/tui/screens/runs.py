@@ -17,7 +17,8 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
-from runtrue.tui.format import DEG, SAFETY_FIT, SAFETY_START, amp_text
+from runtrue.jobs.numbers import DEG, phase_text, vib_number, vib_text
+from runtrue.tui.format import SAFETY_FIT, SAFETY_START, vib_unit_of
 from runtrue.tui.fitting_list import imperial_lines
 from runtrue.tui.method import is_four_run
 from runtrue.tui.screens.base import StepScreen
@@ -68,21 +69,23 @@ def _trial_angle(run: Any) -> float | None:
     return next((w.angle_deg for w in run.weights if w.label.startswith("trial")), None)
 
 
-def runs_lines(job: Any) -> list[str]:
-    """The runs so far: number, kind, and each pickup's 1x as amp and phase; for the four-run
-    method the amplitude only, and for a trial run the trial weight's angle from the chalk mark."""
+def runs_lines(job: Any, unit: str = "mm/s rms") -> list[str]:
+    """The runs so far: number, kind, and each pickup's 1x in the display unit (named in the pane
+    title) and phase; for the four-run method the amplitude only, and for a trial run the trial
+    weight's angle from the chalk mark."""
     four_run = is_four_run(job)
     lines = []
     for r in job.runs:
         head = f"{r.seq:>2} {r.kind[:5]:<5}"
+        speed = r.reading.speed_rpm
         for i, ch in enumerate(r.reading.channels):
             prefix = head if i == 0 else " " * len(head)
             if not four_run:
-                lines.append(f"{prefix} {amp_text(ch.amp_g)} {ch.phase_deg:3.0f}{DEG}")
+                lines.append(f"{prefix} {vib_number(ch.amp_g, speed, unit):>6} {phase_text(ch.phase_deg):>4}")
                 continue
             angle = _trial_angle(r) if r.kind == "trial" and i == 0 else None
             at = f" T@{angle:.0f}{DEG}" if angle is not None else ""
-            lines.append(f"{prefix} {amp_text(ch.amp_g)}{at}")
+            lines.append(f"{prefix} {vib_number(ch.amp_g, speed, unit):>6}{at}")
     return lines or ["(no runs yet)"]
 
 
@@ -184,19 +187,21 @@ class RunsScreen(StepScreen):
         self.refresh_status()
         step = job.state.step
         self.query_one("#stepbar", Static).update(step_bar(job))
+        unit = vib_unit_of(self.app)
         lines = [f"- {line}" for line in job.instructions()]
         lines += [f"- {line}" for line in imperial_lines(job, self.rt_app.units)]
         plan = job.state.plan
         if plan is not None and plan.predicted:
             expected = expected_after_fitting(job)
-            text = ", ".join(f"ch{i + 1} {amp_text(abs(v))}" for i, v in enumerate(expected))
+            speed = job.runs[-1].reading.speed_rpm if job.runs else job.machine.speed_rpm
+            text = ", ".join(f"{job.machine.pickup_name(i)} {vib_text(abs(v), speed, unit)}" for i, v in enumerate(expected))
             lines.append(f"- Expected 1x after fitting these pieces: {text}.")
         if job.state.warnings:
             lines += ["", "Warnings:"] + [f"! {w}" for w in job.state.warnings]
         self.query_one("#todo", Static).update("\n".join(lines))
         self.todo_text = "\n".join(lines)
-        self.query_one("#runs-title", Static).update("Runs (1x amplitude)" if is_four_run(job) else "Runs (1x)")
-        self.query_one("#runs-list", Static).update("\n".join(runs_lines(job)))
+        self.query_one("#runs-title", Static).update(f"Runs, 1x {unit}")
+        self.query_one("#runs-list", Static).update("\n".join(runs_lines(job, unit)))
         split = static_couple_lines(plan, self.rt_app.units) if step in ("correction", "trim") else []
         split_w = self.query_one("#split", Static)
         split_w.update("\n".join(split))
