@@ -120,6 +120,7 @@ class AmplitudeOnlyJob(BalanceJob):
         self._cycle_base = 0  # index in self.runs of the current cycle's reference run
         self._checks: dict[int, tuple[int, float]] = {}  # check run seq -> (pickup index, |H|)
         self._user_trial: tuple[int, Weight] | None = None  # (cycle, trial chosen by the user)
+        self._early_larger: Weight | None = None  # suggested after a weak-looking trial run 1
         super().__init__(store, job_id, machine, options)
         self.state.method = METHOD
 
@@ -183,7 +184,7 @@ class AmplitudeOnlyJob(BalanceJob):
             t = s.trial
             assert t is not None and s.trial_number is not None
             if s.message:
-                out.append(s.message)
+                out.insert(0, s.message)  # the verdict on the last run comes first
             k = s.trial_number
             out.append(f"Four-run cycle {s.cycle}, trial run {k} of 3: stop the machine and lock it out.")
             if s.cycle > 1 and k == 1:
@@ -234,7 +235,7 @@ class AmplitudeOnlyJob(BalanceJob):
     ) -> Weight:
         """Use this trial weight (mass, first angle from the chalk mark, radius) for the cycle;
         only before its first trial run (the three angles follow from the first)."""
-        if self.state.step == "trial" and self.state.trial_number != 1:
+        if self.state.step == "trial" and self.state.trial_number != 1 and self.early_larger_trial is None:
             raise ValueError("the trial weight can be changed only before the first trial run of a cycle")
         return super().set_trial(mass_g, angle_deg, radius_mm, confirm_over_limit=confirm_over_limit)
 
@@ -321,7 +322,10 @@ class AmplitudeOnlyJob(BalanceJob):
             k = s.trial_number or 1
             if k < 3:
                 self._set_trial_number(k + 1)
+                if k == 1:
+                    self._judge_first_trial(run)
             else:
+                self._early_larger = None
                 self._check_cycle()
             return
         # The check run after a correction.
@@ -418,6 +422,49 @@ class AmplitudeOnlyJob(BalanceJob):
             s.message = message
         self._capped_note = capped_note
 
+    def _judge_first_trial(self, run: RunRecord) -> None:
+        """After trial run 1, the trade's early look: the amplitude change is a lower bound on the
+        trial's effect (|A1 - A0| <= |H T|), so a change of MIN_TRIAL_EFFECT_FRACTION or more
+        proves the trial large enough; a smaller change may be a small trial or one placed near
+        90 degrees from the heavy spot - the user may fit a larger one now instead of two more runs."""
+        from runtrue.balancing.four_run import MIN_TRIAL_EFFECT_FRACTION
+
+        from runtrue.jobs.workflow import trial_change_words
+
+        s = self.state
+        ref = self.runs[self._cycle_base]
+        pick = max(range(self.machine.n_pickups), key=lambda i: ref.reading.channels[i].amp_g)
+        a0, a1 = ref.reading.channels[pick].amp_g, run.reading.channels[pick].amp_g
+        if a0 <= 0:
+            return
+        frac = abs(a1 - a0) / a0
+        pct = (a1 / a0 - 1.0) * 100.0
+        words = f"{self.machine.pickup_name(pick)}: {trial_change_words(pct, 0.0, with_phase=False)}"
+        self._early_larger = None
+        if frac >= MIN_TRIAL_EFFECT_FRACTION:
+            s.message = f"Trial run 1 GOOD - {words}: the trial is large enough; go on with trial run 2."
+            return
+        t = s.trial
+        assert t is not None
+        scale = min(4.0, 1.2 * MIN_TRIAL_EFFECT_FRACTION / max(frac, 0.05))
+        mass = t.mass_g * scale
+        limit_mass = self._limit_mass_g(t.radius_mm)
+        held = ""
+        if mass > limit_mass:
+            mass = max(limit_mass, t.mass_g)
+            held = f" (held at the {self.force_limit_n:.3g} N force limit)"
+        self._early_larger = Weight(1, round(mass, 1), t.angle_deg, t.radius_mm, "trial weight, plane 1")
+        s.message = (
+            f"Trial run 1 SMALL SO FAR - {words}. The trial may be too small, or sit near 90° from the heavy "
+            f"spot. Fit {mass:.3g} g instead{held} now (w; the run taken is kept), or go on with trial run 2."
+        )
+
+    @property
+    def early_larger_trial(self) -> Weight | None:
+        """After a weak-looking trial run 1: the larger trial to fit instead (None otherwise)."""
+        s = self.state
+        return self._early_larger if s.step == "trial" and s.trial_number == 2 else None
+
     def _set_trial_number(self, k: int) -> None:
         s = self.state
         assert s.trial is not None
@@ -478,6 +525,7 @@ class AmplitudeOnlyJob(BalanceJob):
                 return
             angles = three_trial_angles_deg(self.machine, 1, w.angle_deg)
             self._user_trial = (s.cycle, w)
+            self._early_larger = None
             s.trial_number = 1
             s.trial_angles_deg = angles
             s.trial = w

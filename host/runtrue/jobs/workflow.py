@@ -112,6 +112,30 @@ class ForceCheck:
         return self.force_n / self.limit_n if self.limit_n > 0 else math.inf
 
 
+#: The trade's rule for a trial run worth using (common practice, no standard): the trial moves
+#: the 1x amplitude by at least 30 % or its phase by at least 30 degrees.
+TRIAL_GOOD_CHANGE_PCT = 30.0
+TRIAL_GOOD_CHANGE_DEG = 30.0
+
+
+def trial_change(before: complex, after: complex) -> tuple[float, float]:
+    """(amplitude change in percent, phase change in degrees, -180..180) from one run to the next."""
+    pct = (abs(after) / abs(before) - 1.0) * 100.0 if abs(before) > 0 else math.inf
+    if abs(before) == 0 or abs(after) == 0:
+        return pct, 0.0
+    deg = (math.degrees(math.atan2(after.imag, after.real) - math.atan2(before.imag, before.real)) + 180.0) % 360.0 - 180.0
+    return pct, deg
+
+
+def trial_change_words(pct: float, deg: float, with_phase: bool = True) -> str:
+    """``amplitude +35 %, phase +42°`` and whether that meets the common-practice rule."""
+    big = abs(pct) >= TRIAL_GOOD_CHANGE_PCT or (with_phase and abs(deg) >= TRIAL_GOOD_CHANGE_DEG)
+    text = f"amplitude {pct:+.0f} %" + (f", phase {deg:+.0f}°" if with_phase else "")
+    rule = (f"at least {TRIAL_GOOD_CHANGE_PCT:.0f} % or {TRIAL_GOOD_CHANGE_DEG:.0f}° (common practice)" if with_phase
+            else f"at least {TRIAL_GOOD_CHANGE_PCT:.0f} % (common practice)")
+    return f"{text}; {'meets' if big else 'under'} the usual {rule}"
+
+
 def parse_grade(grade: str | float) -> float:
     """``"G6.3"`` / ``"6.3"`` / ``6.3`` -> 6.3 (mm/s); ValueError with advice otherwise."""
     if isinstance(grade, (int, float)):
@@ -450,6 +474,9 @@ class BalanceJob:
             out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
         elif s.step in ("correction", "trim"):
             plan = s.plan
+            poor = self.poor_prediction()
+            if poor:
+                out.insert(0, poor)
             what = "Correction" if s.step == "correction" else f"Trim run {s.trims_done + 1}"
             if plan is None:
                 out.append(f"{what}: no correction could be worked out (see above). Take another run or stop the job.")
@@ -544,6 +571,23 @@ class BalanceJob:
             self.confirm_forces()
         assert self.state.trial is not None
         return self.state.trial
+
+    def poor_prediction(self) -> str:
+        """When the pieces to fit cannot bring a plane within its permissible unbalance: what
+        they leave and what to do; empty when the plan is predicted to pass."""
+        plan = self.state.plan
+        if plan is None or self.state.step not in ("correction", "trim"):
+            return ""
+        short = [(pc, self._plane_permissible(pc.plane)) for pc in plan.planes]
+        short = [(pc, perm) for pc, perm in short if pc.residual_gmm > perm]
+        if not short:
+            return ""
+        from runtrue.jobs.numbers import unbalance_text
+
+        parts = "; ".join(f"{self.machine.plane_name(pc.plane)} {unbalance_text(pc.residual_gmm)} "
+                          f"(allowed {unbalance_text(perm)})" for pc, perm in short)
+        return (f"PREDICTED NOT TO PASS: the pieces available leave {parts}. Add weights of other sizes to the "
+                "stock (machine screen), allow more pieces per position, or fit these and trim afterwards.")
 
     # -- the force limit ----------------------------------------------------------------------------
     @property
@@ -863,16 +907,25 @@ class BalanceJob:
         assert best is not None
         chk = TrialCheck(plane, bool(best.ok), float(best.ratio), str(best.message), float(best.suggested_scale))
         s.last_trial_check = chk
+        # the pickup the trial moved most, in the trade's terms: percent and degrees
+        moved = max(range(self.machine.n_pickups),
+                    key=lambda i: abs(run.reading.channels[i].mean - base.reading.channels[i].mean))
+        pct, deg = trial_change(base.reading.channels[moved].mean, run.reading.channels[moved].mean)
+        change = f"{self.machine.pickup_name(moved)}: {trial_change_words(pct, deg)}"
         if chk.ok:
             self._accepted[plane] = run
             self._after_trial_accepted(plane)
+            verdict = f"Trial in {self.machine.plane_name(plane)} GOOD - {change}."
+            s.message = verdict + (" " + s.message if s.message else "")
         else:
             prev = trial_ws[0] if trial_ws else s.trial
             self._trial_override.pop(plane, None)
             scale = chk.suggested_scale if math.isfinite(chk.suggested_scale) else 4.0
             # 20 % margin over the bare minimum: the next reading's scatter is random too.
             self._enter_trial(plane, max(scale * 1.2, 1.5), prev)
-            s.message = f"The trial weight in plane {plane} did not change the reading enough to trust: {chk.message}"
+            bigger = f"fit {s.trial.mass_g:.3g} g instead" if s.trial is not None else "fit a larger trial"
+            s.message = (f"Trial in {self.machine.plane_name(plane)} TOO SMALL - {change}; {bigger} and run again. "
+                         f"{chk.message}")
             if self._capped_note:
                 s.message += " " + self._capped_note
 

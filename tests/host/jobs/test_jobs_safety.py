@@ -95,3 +95,19 @@ def test_a_machine_cannot_be_described_running_above_its_rated_speed() -> None:
     m = fan(rated_speed_rpm=1500.0)
     assert Machine.from_dict(m.to_dict()).rated_speed_rpm == 1500.0
     assert Machine.from_dict({k: v for k, v in m.to_dict().items() if k != "rated_speed_rpm"}).rated_speed_rpm is None
+
+
+def test_a_correction_the_stock_cannot_make_is_predicted_not_to_pass_at_the_top(store: JobStore) -> None:
+    from runtrue.jobs import StockPiece
+
+    # only 20 g pieces for a fan whose correction is a few grams: the pieces cannot reach the grade
+    m = fan(stock=[StockPiece(20.0, 2)], grade="G1")
+    rotor = LinearRotor(FAN_H, [polar(700.0, 117.0)], 1470.0)
+    job = BalanceJob.start(store, m)
+    job.record_run(rotor.reading([]))
+    job.set_trial(4.0, 0.0)
+    job.record_run(rotor.reading(job.planned_weights()))
+    assert job.step == "correction"
+    poor = job.poor_prediction()
+    assert poor.startswith("PREDICTED NOT TO PASS") and "stock" in poor
+    assert job.instructions()[0] == poor

@@ -96,7 +96,7 @@ def test_too_small_trial_is_flagged_and_a_larger_one_suggested(store: JobStore) 
     assert job.step == "trial" and chk is not None and not chk.ok
     bigger = job.suggested_trial()
     assert bigger is not None and bigger.mass_g >= 0.05 * chk.suggested_scale * 0.99
-    assert "did not change the reading enough" in " ".join(job.instructions())
+    assert "TOO SMALL" in " ".join(job.instructions()) and "g instead" in " ".join(job.instructions())
     drive(job, rotor)
     assert job.result().passed is True
     assert [r.kind for r in job.runs][:3] == ["reference", "trial", "trial"]

@@ -168,7 +168,7 @@ class RunsScreen(StepScreen):
             return None
         step = job.state.step
         if action == "trial":
-            if is_four_run(job) and job.state.trial_number not in (None, 1):
+            if is_four_run(job) and job.state.trial_number not in (None, 1) and job.early_larger_trial is None:
                 return False  # the three angles follow from the first: change it before trial run 1
             return True if step == "trial" else False
         if action == "accept":
@@ -325,6 +325,7 @@ class RunsScreen(StepScreen):
         t = job.suggested_trial() if job is not None else None
         if t is None:
             return
+        t = getattr(job, "early_larger_trial", None) or t  # four-run: the larger trial after a weak run 1
         from runtrue.tui.screens.dialogs import TrialWeightForm
 
         def chosen(value: tuple[float, float] | None) -> None:
