@@ -236,6 +236,8 @@ async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_cor
                 break
             total = u0 + sum(w.unbalance_gmm for w in job.planned_weights())
             await pilot.press("r")
+            if screen_name(app) == "ConfirmDialog":  # a correction over the force limit
+                await pilot.press("y")
             fill(app.screen, typed(total), prefix="#")
             await pilot.press("enter")
         assert job.result().passed
@@ -254,8 +256,14 @@ async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_cor
         assert "passed" in text and "Kept from job 1" in text
         await pilot.press("escape")
         await pilot.press("f2")
+        # the weights the first job left are offered: still on, combine, or taken off
+        assert screen_name(app) == "WeightsLeftDialog"
+        text = screen_text(app)
+        assert "Job 1" in text and "left these on the rotor" in text and "position" in text
+        await pilot.press("k")
         job2 = app.session.job
-        assert job2 is not job
+        assert job2 is not job and job2.planned_weights() == list(job.runs[-1].weights)
+        assert "left by the last job still on" in app.screen.todo_text
         await pilot.press("r")
         fill(app.screen, typed(u0 + 1500), prefix="#")  # the machine has changed since
         await pilot.press("enter")

@@ -51,6 +51,7 @@ from runtrue.jobs.workflow import (
     JobResult,
     TrialCheck,
     _plane_sums,
+    _start_weights_options,
     parse_grade,
 )
 
@@ -133,6 +134,7 @@ class AmplitudeOnlyJob(BalanceJob):
         trial_removed: bool = True,
         use_stored_influence: bool | None = None,
         max_trim_runs: int = DEFAULT_MAX_TRIM_RUNS,
+        weights_at_start: Any = (),
     ) -> AmplitudeOnlyJob:
         if machine.n_planes != 1:
             raise ValueError(
@@ -153,6 +155,7 @@ class AmplitudeOnlyJob(BalanceJob):
             "max_trim_runs": int(max_trim_runs),
             "amplitude_only": True,
             "method": METHOD,
+            **_start_weights_options(machine, list(weights_at_start), False),
         }
         job_id = store.new_job(machine, options)
         return cls(store, job_id, machine, options)
@@ -174,7 +177,9 @@ class AmplitudeOnlyJob(BalanceJob):
                 "Chalk or paint a mark on the rotor and call it 0°: any point will do"
                 + self._holes_words()
                 + ". Every angle in this job is measured from that mark, against the direction of rotation.",
-                f"Reference run: run {m.name} at its working speed ({speed}) as found, with no weights added.",
+                f"Reference run: run {m.name} at its working speed ({speed}), "
+                + (f"with the {len(self._weights_at_start)} weight(s) left by the last job still on and nothing added."
+                   if self._weights_at_start else "as found, with no weights added."),
                 "Stand clear of the plane of rotation when starting up; never exceed the rated speed.",
                 "Take the reading (amplitude) when it has settled.",
                 ANGLE_CONVENTION,

@@ -209,8 +209,11 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
     if no_phase:
         method = ("Method: amplitude-only balancing (four-run method: a reference run and one trial weight "
                   "at three angles per cycle); no reference mark, phase not used.")
-    else:
+    elif any(r.kind == "trial" for r in runs):
         method = ("Method: influence-coefficient balancing with trial weights (least squares over every run), "
+                  "1x amplitude and phase from a reference mark.")
+    else:
+        method = (f"Method: influence-coefficient balancing without trial runs; coefficients {res.influence_source}; "
                   "1x amplitude and phase from a reference mark.")
     out: list[str] = [
         "<!DOCTYPE html>",

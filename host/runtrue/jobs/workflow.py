@@ -73,6 +73,34 @@ def force_limit_basis(machine: Machine) -> str:
     )
 
 
+def _start_weights_options(machine: Machine, weights: Sequence[Weight], combine: bool) -> dict[str, Any]:
+    """Job options for weights already on the rotor when the job starts (left by an earlier job)."""
+    out: dict[str, Any] = {}
+    for w in weights:
+        if not 1 <= w.plane <= machine.n_planes:
+            raise ValueError(f"a weight left on is in plane {w.plane}, but {machine.name!r} has {machine.n_planes} plane(s)")
+    if weights:
+        out["weights_at_start"] = [w.to_dict() for w in weights]
+        out["combine_at_start"] = bool(combine)
+    return out
+
+
+def weights_left_on(store: JobStore, machine: Machine) -> tuple[int, str, list[Weight]] | None:
+    """What the latest earlier job on ``machine`` left on the rotor: (job id, when it ended, the
+    weights, relative to the rotor as found before any job), or None (no earlier job with weights)."""
+    if machine.id is None:
+        return None
+    jobs = [j for j in store.machine_history(machine.id) if j.n_runs > 0]
+    if not jobs:
+        return None
+    last = max(jobs, key=lambda j: j.id)
+    runs = store.runs(last.id)
+    weights = list(runs[-1].weights) if runs else []
+    if not weights:
+        return None
+    return last.id, last.finished_at or runs[-1].taken_at, weights
+
+
 class ForceLimitExceeded(ValueError):
     """A weight would pull with more than the force limit; the user must confirm it first."""
 
@@ -344,6 +372,8 @@ class BalanceJob:
         use_stored_influence: bool | None = None,
         max_trim_runs: int = DEFAULT_MAX_TRIM_RUNS,
         amplitude_only: bool = False,
+        weights_at_start: Sequence[Weight] = (),
+        combine_at_start: bool = False,
     ) -> BalanceJob:
         """Start and record a new job on ``machine`` (saved or not).
 
@@ -356,7 +386,7 @@ class BalanceJob:
 
             return AmplitudeOnlyJob.start_new(
                 store, machine, trial_removed=trial_removed, use_stored_influence=use_stored_influence,
-                max_trim_runs=max_trim_runs,
+                max_trim_runs=max_trim_runs, weights_at_start=weights_at_start,
             )
         if use_stored_influence is None:
             use_stored_influence = machine.influence is not None
@@ -374,6 +404,7 @@ class BalanceJob:
             "trial_removed": bool(trial_removed),
             "use_stored_influence": bool(use_stored_influence),
             "max_trim_runs": int(max_trim_runs),
+            **_start_weights_options(machine, weights_at_start, combine_at_start),
         }
         job_id = store.new_job(machine, options)
         return cls(store, job_id, machine, options)
@@ -422,7 +453,7 @@ class BalanceJob:
     def planned_weights(self) -> list[Weight]:
         """Every weight that should be on the rotor (relative to the reference state) for the next run."""
         s = self.state
-        on = list(self.runs[-1].weights) if self.runs else []
+        on = list(self.runs[-1].weights) if self.runs else list(self._weights_at_start)
         if s.step == "reference" or s.step == "done":
             return on
         if s.step == "trial":
@@ -447,8 +478,11 @@ class BalanceJob:
         if s.message:
             out.append(s.message)
         if s.step == "reference":
+            left = self._weights_at_start
+            as_found = (f"with the {len(left)} weight(s) left by the last job still on and nothing added" if left
+                        else "as found, with no weights added")
             out += [
-                f"Reference run: run {m.name} at its working speed ({speed}) as found, with no weights added.",
+                f"Reference run: run {m.name} at its working speed ({speed}), {as_found}.",
                 "Stand clear of the plane of rotation when starting up; never exceed the rated speed.",
                 "Take the reading when it has settled.",
             ]
@@ -950,7 +984,8 @@ class BalanceJob:
 
         runs = [_engine_run(r) for r in self.runs]
         radii = {i + 1: p.radius_mm for i, p in enumerate(self.machine.planes)}
-        seen = {w.plane for r in self.runs for w in r.weights}
+        first = _plane_sums(self.runs[0].weights)  # weights on in every run (left on) separate nothing
+        seen = {p for r in self.runs for p, u in _plane_sums(r.weights).items() if abs(u - first.get(p, 0j)) > 1e-9}
         missing = [p for p in range(1, self.machine.n_planes + 1) if p not in seen]
         if missing:
             if self._influence is not None:
@@ -999,10 +1034,19 @@ class BalanceJob:
         spreads = [c.spread_g for c in base.reading.channels]
         sol = correction_from_influence(self._influence, base.reading.vector(), radii, spreads=spreads if any(spreads) else None)
         planes = []
+        # Combine: the weights left on by the last job come off, and the correction takes their place.
+        old = [w for w in now if w in self._weights_at_start] if self.options.get("combine_at_start") else []
+        if old and kind == "correction":
+            remove = remove + old
+            now = [w for w in now if w not in old]
+        else:
+            old = []
+        old_sums = _plane_sums(old)
         in_use = [m for w in now for m in w.pieces]
         for w in sol.corrections:
             pc = fitting.plan_plane(
-                self.machine, w.plane, w.unbalance_gmm, kind, s.trims_done + 1, self._plane_permissible(w.plane), in_use
+                self.machine, w.plane, w.unbalance_gmm + old_sums.get(w.plane, 0j), kind, s.trims_done + 1,
+                self._plane_permissible(w.plane), in_use
             )
             in_use += [m for f in pc.fit for m in f.pieces]
             planes.append(pc)

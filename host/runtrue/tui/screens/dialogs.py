@@ -189,3 +189,52 @@ def force_confirm_lines(checks: list[Any], limit_text: str, speed_rpm: float) ->
     out.append(limit_text)
     out.append("Go on only if the weight and its fixing are rated for this force.")
     return out
+
+
+def weights_left_lines(machine: Any, job_id: int, when: str, weights: list[Any]) -> list[str]:
+    """What the last job left on the rotor, one weight a line, with plane name and position."""
+    from runtrue.jobs.numbers import angle_text, local_time_text, mass_text
+    from runtrue.jobs.report import position_number
+
+    out = [f"Job {job_id} ({local_time_text(when)[:16]}) left these on the rotor:"]
+    for w in weights:
+        pos = position_number(machine, w.plane, w.angle_deg) if 1 <= w.plane <= machine.n_planes else None
+        where = f"position {pos} ({angle_text(w.angle_deg)})" if pos is not None else angle_text(w.angle_deg)
+        name = machine.plane_name(w.plane) if 1 <= w.plane <= machine.n_planes else f"plane {w.plane}"
+        out.append(f"  {name}: {mass_text(w.mass_g)} at {where}")
+    out.append("Look at the rotor: are they still there?")
+    return out
+
+
+class WeightsLeftDialog(ModalScreen[str | None]):
+    """At the start of a job: the weights the last job left on; still on, combine, or taken off."""
+
+    BINDINGS = [
+        Binding("k", "answer('keep')", "Still on"),
+        Binding("c", "answer('combine')", "Still on, combine"),
+        Binding("t", "answer('off')", "Taken off"),
+        Binding("escape", "answer(None)", "Back"),
+    ]
+
+    def __init__(self, lines: list[str], can_combine: bool = True) -> None:
+        super().__init__()
+        self.lines = lines
+        self.can_combine = can_combine
+
+    def compose(self) -> ComposeResult:
+        keys = "k: still on, leave them    "
+        if self.can_combine:
+            keys += "c: still on, replace them with the correction\n"
+        keys += "t: taken off (nothing on now)    Esc: back"
+        with Vertical(classes="form-box confirm-box"):
+            yield Static("Weights already on the rotor?", classes="pane-title", markup=False)
+            yield Static("\n".join(self.lines), classes="confirm-text", markup=False)
+            yield Static(keys, classes="note", markup=False)
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if action == "answer" and parameters and parameters[0] == "combine" and not self.can_combine:
+            return False
+        return True
+
+    def action_answer(self, choice: str | None) -> None:
+        self.dismiss(choice)

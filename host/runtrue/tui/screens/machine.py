@@ -272,14 +272,35 @@ class MachineScreen(StepScreen):
         if not self.rt_app.use_channels(machine.n_pickups):
             self.query_one("#f_pickups", Input).focus()
             return
+        from runtrue.jobs.workflow import weights_left_on
+
+        left = weights_left_on(store, machine)
+        if left is None:
+            self._start(machine, [], False)
+            return
+        from runtrue.tui.screens.dialogs import WeightsLeftDialog, weights_left_lines
+
+        job_id, when, weights = left
+
+        def answered(choice: str | None) -> None:
+            if choice is None:
+                return
+            self._start(machine, weights if choice in ("keep", "combine") else [], choice == "combine")
+
+        self.app.push_screen(WeightsLeftDialog(weights_left_lines(machine, job_id, when, weights),
+                                               can_combine=not amplitude_only), answered)
+
+    def _start(self, machine: Any, weights_at_start: list[Any], combine: bool) -> None:
         from runtrue.jobs import BalanceJob
 
+        store = self.session.store
         self.session.machine = machine
         try:
-            if amplitude_only:
-                job = BalanceJob.start(store, machine, amplitude_only=True)
+            if self.rt_app.amplitude_only:
+                job = BalanceJob.start(store, machine, amplitude_only=True, weights_at_start=weights_at_start)
             else:
-                job = BalanceJob.start(store, machine, trial_removed=self.rt_app.trial_removed)
+                job = BalanceJob.start(store, machine, trial_removed=self.rt_app.trial_removed,
+                                       weights_at_start=weights_at_start, combine_at_start=combine)
         except ValueError as exc:
             self.notify(str(exc), title="Job not started", severity="error", timeout=8)
             return
