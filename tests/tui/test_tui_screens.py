@@ -344,7 +344,7 @@ async def test_choose_the_trial_weight_then_stop_the_job() -> None:
         trial = app.session.job.suggested_trial()
         assert (trial.mass_g, trial.angle_deg) == (12, 45)
         todo = str(app.screen.query_one("#todo").render())
-        assert "trial weight of 12 g" in todo and "45.0\N{DEGREE SIGN}" in todo
+        assert "Fit 12.0 g at position 2 (45.0\N{DEGREE SIGN})" in todo
         await pilot.press("x")
         assert screen_name(app) == "RunsScreen"  # asks once more before stopping
         await pilot.press("x")

@@ -41,6 +41,7 @@ import math
 from typing import Any
 
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunRecord, Weight
+from runtrue.jobs.numbers import force_text, mass_text
 from runtrue.jobs.store import JobStore
 from runtrue.jobs.workflow import (
     DEFAULT_MAX_TRIM_RUNS,
@@ -191,6 +192,13 @@ class AmplitudeOnlyJob(BalanceJob):
             if s.message:
                 out.insert(0, s.message)  # the verdict on the last run comes first
             k = s.trial_number
+            head_at = 1 if s.message and ("SMALL" in s.message or "GOOD" in s.message) else 0
+            force = force_text(self._force_n(t))
+            if k == 1:
+                out.insert(head_at, f"Fit {mass_text(t.mass_g)} at {self._where(t)} from the chalk mark - secure it "
+                                    f"for {force} - then r.")
+            else:
+                out.insert(head_at, f"Move the trial weight to {self._where(t)} - secure it for {force} - then r.")
             out.append(f"Four-run cycle {s.cycle}, trial run {k} of 3: stop the machine and lock it out.")
             if s.cycle > 1 and k == 1:
                 out.append(
@@ -213,8 +221,7 @@ class AmplitudeOnlyJob(BalanceJob):
                 "The three trial angles of this cycle: " + ", ".join(f"{a:.1f}°" for a in s.trial_angles_deg)
                 + " (the positions closest to 0°, 120° and 240° from the first one)."
             )
-            out.append(m.angle_direction_words())
-            out.append(f"Secure it for {self._force_n(t):.0f} N at {speed}.")
+            out.append(m.angle_direction_words(1))
             out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
             out.append(ANGLE_CONVENTION)
             return out

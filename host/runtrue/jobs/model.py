@@ -311,13 +311,17 @@ class Machine:
             return self.rotation
         return "ccw" if self.rotation == "cw" else "cw"
 
-    def angle_direction_words(self) -> str:
-        """How to count weight angles on this machine, in words a fitter can follow."""
-        way = "counter-clockwise" if self.rotation == "cw" else "clockwise"
-        turn = "clockwise" if self.rotation == "cw" else "counter-clockwise"
+    def angle_direction_words(self, plane: int | None = None) -> str:
+        """How to count weight angles on this machine, in words a fitter can follow; for
+        ``plane``, as seen from the end the fitter stands at for it."""
+        rotation = self.turns_seen_from(plane) if plane is not None else self.rotation
+        side = VIEW_SIDE_WORDS[self.planes[plane - 1].view_side] if plane is not None and 1 <= plane <= self.n_planes \
+            else VIEW_SIDE_WORDS["drive"]
+        way = "counter-clockwise" if rotation == "cw" else "clockwise"
+        turn = "clockwise" if rotation == "cw" else "counter-clockwise"
         return (
-            f"The rotor turns {turn} seen from the drive end; count weight angles {way} "
-            "(against rotation) from the reference mark, seen from the drive end."
+            f"Seen {side}, the rotor turns {turn}: count weight angles {way} "
+            "(against the direction of rotation) from the reference mark."
         )
 
     def to_dict(self) -> dict[str, Any]:

@@ -37,6 +37,7 @@ from dataclasses import dataclass, field, replace
 from typing import Any, Sequence
 
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunReading, RunRecord, StoredInfluence, Weight
+from runtrue.jobs.numbers import force_text, mass_text
 from runtrue.jobs.store import JobStore, now_iso
 
 STANDARD = "ISO 21940-11"
@@ -491,49 +492,58 @@ class BalanceJob:
         elif s.step == "trial":
             t = s.trial
             assert t is not None and s.plane is not None
-            out.append(f"Trial run for plane {s.plane}: stop the machine and lock it out.")
+            pos = _position_number(m, s.plane, t.angle_deg)
+            where = f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
+            verdict_first = 1 if s.message and "TOO SMALL" in s.message else 0
+            out.insert(verdict_first, f"Fit {mass_text(t.mass_g)} at {where} in {m.plane_name(s.plane)}, radius "
+                                      f"{t.radius_mm:g} mm - secure it for {force_text(self._force_n(t))} - then r.")
+            out.append("Stop the machine and lock it out first.")
             removing = self._to_remove_before_trial()
             for w in removing:
-                out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+                out.append(f"Take off the {w.label or 'weight'}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}° "
+                           f"in {m.plane_name(w.plane)}.")
             staying = [w for w in (self.runs[-1].weights if self.runs else ()) if w not in removing]
             if staying:
                 out.append(f"Leave the {len(staying)} weight(s) already fitted where they are.")
-            pos = _position_number(m, s.plane, t.angle_deg)
-            where = f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
-            out.append(
-                f"Fit a trial weight of {t.mass_g:.3g} g in plane {s.plane} at {where}, radius {t.radius_mm:g} mm."
-            )
-            out.append(m.angle_direction_words())
-            out.append(f"Secure it for {self._force_n(t):.0f} N at {speed}.")
+            out.append(m.angle_direction_words(s.plane))
             out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
         elif s.step in ("correction", "trim"):
             plan = s.plan
-            poor = self.poor_prediction()
-            if poor:
-                out.insert(0, poor)
             what = "Correction" if s.step == "correction" else f"Trim run {s.trims_done + 1}"
             if plan is None:
                 out.append(f"{what}: no correction could be worked out (see above). Take another run or stop the job.")
                 out.append(ANGLE_CONVENTION)
                 return out
-            out.append(f"{what}: stop the machine and lock it out.")
+            rows = [(pc, row) for pc in plan.planes for row in pc.sheet if getattr(row, "action", "fit") == "fit"]
+            if len(rows) == 1:
+                pc, row = rows[0]
+                at = f"position {row.number} ({row.angle_deg:.1f}°)" if row.number is not None else f"{row.angle_deg:.1f}°"
+                head = (f"Fit {row.what} ({mass_text(row.mass_g)}) at {at} in {m.plane_name(pc.plane)} - "
+                        f"secure for {force_text(row.force_n)} - then r.")
+            else:
+                head = f"{what}: fit the {len(rows)} pieces below (f: the list to tick off), then r."
+            poor = self.poor_prediction()
+            out[0:0] = [poor, head] if poor else [head]
+            out.append(f"{what}: stop the machine and lock it out first.")
             for w in plan.remove:
-                out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+                out.append(f"Take off the {w.label or 'weight'}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}° "
+                           f"in {m.plane_name(w.plane)}.")
             staying = [w for w in (self.runs[-1].weights if self.runs else ()) if w not in plan.remove]
             if staying:
                 out.append(f"Leave the {len(staying)} weight(s) already fitted where they are; add:")
             for pc in plan.planes:
                 c = pc.correction
                 out.append(
-                    f"Plane {pc.plane}: the correction is {c.mass_g:.3g} g at {c.angle_deg:.1f}°, radius {c.radius_mm:g} mm."
+                    f"{m.plane_name(pc.plane)}: the correction is {mass_text(c.mass_g)} at {c.angle_deg:.1f}°, "
+                    f"radius {c.radius_mm:g} mm."
                 )
                 for row in pc.sheet:
                     at = f"position {row.number} " if row.number is not None else ""
                     out.append(
                         f"  Fit {row.what} at {at}{row.angle_deg:.1f}°, radius {row.radius_mm:g} mm "
-                        f"({row.mass_g:.3g} g, secure for {row.force_n:.0f} N)."
+                        f"({mass_text(row.mass_g)}, secure for {force_text(row.force_n)})."
                     )
-            out.append(m.angle_direction_words())
+                out.append(m.angle_direction_words(pc.plane))
             out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
         else:
             r = self.result()
@@ -541,7 +551,8 @@ class BalanceJob:
                 out.append(f"Done: residual unbalance within {r.grade} ({STANDARD}). Remove the meter and tape; refit the guards.")
             else:
                 out.append("Stopped before the grade was met. The runs so far are kept with the job.")
-        out.append(ANGLE_CONVENTION)
+        if s.step not in ("trial", "correction", "trim"):  # those say how to count angles for their plane
+            out.append(ANGLE_CONVENTION)
         return out
 
     # -- recording -------------------------------------------------------------------------------
@@ -789,7 +800,10 @@ class BalanceJob:
             sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=m.n_planes,
                                        grade=parse_grade(m.grade))
             mass = float(sug.mass_g)
-            self.state.message = str(getattr(sug, "rule", ""))
+            self.state.message = (
+                f"Trial weight sized to move the reading clearly (common practice) and kept under the "
+                f"{force_text(self.force_limit_n)} force limit."
+            )
             angle = None
         else:
             mass = previous.mass_g * scale

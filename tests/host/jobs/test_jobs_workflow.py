@@ -164,7 +164,7 @@ def test_every_step_states_the_convention_and_the_cautions(store: JobStore) -> N
         assert "against the direction of rotation" in text
         if job.step != "reference":
             assert "lock it out" in text and "never above the rated speed" in text
-            assert "counter-clockwise (against rotation)" in text
+            assert "counter-clockwise (against the direction of rotation)" in text
             assert re.search(r"secure (it )?for \d+ N", text, re.IGNORECASE)
         job.record_run(rotor.reading(job.planned_weights()))
     assert seen == ["reference", "trial", "correction"]

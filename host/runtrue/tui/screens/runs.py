@@ -75,11 +75,15 @@ def runs_lines(job: Any, unit: str = "mm/s rms") -> list[str]:
     weight's angle from the chalk mark."""
     four_run = is_four_run(job)
     lines = []
+    m = job.machine
+    several = m.n_pickups > 1
     for r in job.runs:
         head = f"{r.seq:>2} {r.kind[:5]:<5}"
         speed = r.reading.speed_rpm
+        if several:  # a line per run, then each pickup by name
+            lines.append(head)
         for i, ch in enumerate(r.reading.channels):
-            prefix = head if i == 0 else " " * len(head)
+            prefix = f"  {m.pickup_name(i)[:6]:<6}" if several else head
             if not four_run:
                 lines.append(f"{prefix} {vib_number(ch.amp_g, speed, unit):>6} {phase_text(ch.phase_deg):>4}")
                 continue
