@@ -201,7 +201,8 @@ async def test_pulled_cable_shows_a_message_keeps_the_job_and_reconnects() -> No
         opened.append(m)
         return m
 
-    app = make_app("sim:fake", opener=opener, realtime=False, revs_per_reading=8, post_interval_s=0.05)
+    # a reading longer than the cable lasts: it is still being taken when the cable is pulled
+    app = make_app("sim:fake", opener=opener, realtime=False, revs_per_reading=48, post_interval_s=0.05)
     async with app.run_test(size=SIZE) as pilot:
         await wait_until(pilot, lambda: app.session.meter_state == "connected")
         await pilot.press("n")

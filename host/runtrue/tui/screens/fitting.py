@@ -23,9 +23,10 @@ from runtrue.tui.widgets.dial import DialData, FittingDial
 
 
 class FittingScreen(StepScreen):
-    STEP = "5 Fitting"
+    STEP = "4 Fitting"
     BINDINGS = [
-        Binding("space", "tick", "Tick off / untick"),
+        Binding("space", "tick", "Tick off"),
+        Binding("r", "run", "Reading"),
         Binding("p", "plane", "Next plane"),
         Binding("escape", "back", "Back to runs"),
         Binding("f1", "app.help", "Help"),
@@ -114,7 +115,7 @@ class FittingScreen(StepScreen):
                 self.plane = nxt.plane
         self._draw_dial()
         if self.items and len(self.ticked & {i.key for i in self.items}) == len(self.items):
-            self.notify("All done. Tools and loose parts off the rotor, guards on, stand clear, then take the reading.",
+            self.notify("All done. Tools and loose parts off the rotor, guards on, stand clear, then r.",
                         title="Ready to run", timeout=5)
 
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
@@ -132,3 +133,22 @@ class FittingScreen(StepScreen):
 
     def action_back(self) -> None:
         self.dismiss(None)
+
+    def action_run(self) -> None:
+        """Start the run: at once when every item is ticked off, else after a confirmation."""
+        left = [i for i in self.items if i.key not in self.ticked]
+        if not left:
+            self.dismiss("run")
+            return
+        from runtrue.tui.screens.dialogs import ConfirmDialog
+
+        lines = [f"{len(left)} of {len(self.items)} item(s) not ticked off:"]
+        lines += ["  " + i.text.splitlines()[0].strip() for i in left[:6]]
+        lines.append("Run only if they are done: a weight left loose or missing changes the answer, "
+                     "and a loose one is a projectile.")
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                self.dismiss("run")
+
+        self.app.push_screen(ConfirmDialog("Not everything is ticked off", lines, yes="y: all done, run"), answered)

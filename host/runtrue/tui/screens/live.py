@@ -75,10 +75,10 @@ def amplitude_lines(earlier: list[tuple[str, list[float]]], now: float | None, c
 class LiveScreen(StepScreen):
     """Shows the meter live; dismisses with the taken ``Reading`` (or None when backed out)."""
 
-    STEP = "3 Live readings"
+    STEP = "5 Reading"
     BINDINGS = [
-        Binding("space", "take", "Take reading"),
-        Binding("a", "auto", "When steady"),
+        Binding("r", "auto", "Reading when steady"),
+        Binding("space", "take", "Take now"),
         Binding("c", "channel", "Pickup"),
         Binding("u", "vib_unit", "Unit"),
         Binding("escape", "back", "Back"),
@@ -232,7 +232,7 @@ class LiveScreen(StepScreen):
         if live.collecting:
             n, target, left = live.progress()
             return f"Taking reading {bar(n / target, 20)} {n}/{target} revs  time left {time_left_text(left)}"
-        return f"Space: take a reading of {self.session.revs_per_reading} revolutions now; a: when steady."
+        return f"r: take a reading of {self.session.revs_per_reading} revolutions when steady; Space: now."
 
     def action_take(self) -> None:
         if not self._can_take():

@@ -50,6 +50,18 @@ def tolerance_text(values: dict[str, str], units: str = METRIC) -> str:
     )
 
 
+def resume_prompt(store: Any, summary: Any) -> str:
+    """Two lines for an unfinished job in the resume list: which job and machine, then when it
+    started (local time), how many runs and how many weights are on the rotor now."""
+    rec = store.get_job(summary.id)
+    four_run = rec is not None and bool(rec.options.get("amplitude_only"))
+    tag = " 4-run" if four_run else ""  # amplitude-only jobs say so
+    runs = store.runs(summary.id)
+    on = len(runs[-1].weights) if runs else len((rec.options if rec else {}).get("weights_at_start", []))
+    when = local_time_text(summary.started_at)[5:16]
+    return f"job {summary.id}{tag} {summary.machine_name}"[:23] + f"\n {when} {len(runs)}r {on}w on"[:24]
+
+
 def history_text(store: Any, machine_id: int) -> str:
     """One line of a saved machine's history: jobs so far and how the last one ended."""
     jobs = store.machine_history(machine_id)
@@ -130,11 +142,8 @@ class MachineScreen(StepScreen):
         unfinished = store.unfinished_jobs()
         if unfinished:
             ol.add_option(Option("-- resume a job --", disabled=True))
-            for j in unfinished[:8]:
-                rec = store.get_job(j.id)
-                four_run = rec is not None and bool(rec.options.get("amplitude_only"))
-                tag = " 4-run" if four_run else ""  # amplitude-only jobs say so
-                ol.add_option(Option(f"job {j.id}{tag} {j.machine_name}"[:24], id=f"j{j.id}"))
+            for j in sorted(unfinished, key=lambda j: j.id, reverse=True)[:8]:
+                ol.add_option(Option(resume_prompt(store, j), id=f"j{j.id}"))
 
     def _values(self) -> dict[str, str]:
         return {key: self.query_one(f"#f_{key}", Input).value for key, _, _ in FIELDS}
@@ -142,6 +151,8 @@ class MachineScreen(StepScreen):
     def _load(self, machine: Any) -> None:
         self._editing_id = machine.id
         self._base = machine
+        if machine.id is not None:  # the method is remembered with the machine
+            self.rt_app.amplitude_only = machine.method == "no mark" and machine.n_planes == 1
         for key, value in fields_from_machine(machine).items():
             self.query_one(f"#f_{key}", Input).value = value
 
@@ -272,6 +283,10 @@ class MachineScreen(StepScreen):
         if not self.rt_app.use_channels(machine.n_pickups):
             self.query_one("#f_pickups", Input).focus()
             return
+        method = "no mark" if amplitude_only else "mark"
+        if machine.method != method:  # remembered for the next job on this machine
+            machine.method = method
+            store.save_machine(machine)
         from runtrue.jobs.workflow import weights_left_on
 
         left = weights_left_on(store, machine)

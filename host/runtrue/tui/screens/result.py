@@ -76,11 +76,21 @@ class ResultScreen(StepScreen):
         else:
             lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}."]
         self.query_one("#result-text", Static).update("\n".join(lines))
-        self.query_one("#hint", Static).update("h: write the HTML report   e: CSV + JSON export of the runs")
+        self.query_one("#hint", Static).update(
+            f"h: HTML report (to print or share)   e: CSV + JSON of the runs\ninto {self._folder()}")
+
+    def _folder(self) -> Path:
+        """Where reports go: the folder given to the application, else ``reports`` beside the
+        job database in the user's data directory (not wherever the program was started)."""
+        given = Path(self.rt_app.report_dir)
+        store_path = Path(str(self.session.store.path))
+        if given == Path.cwd() / "reports" and str(store_path) != ":memory:":
+            return store_path.resolve().parent / "reports"
+        return given.resolve()
 
     def _out_path(self, suffix: str) -> Path:
         job = self.session.job
-        folder = Path(self.rt_app.report_dir)
+        folder = self._folder()
         folder.mkdir(parents=True, exist_ok=True)
         return folder / f"job-{job.job_id}-{_slug(job.machine.name)}{suffix}"
 
@@ -96,7 +106,8 @@ class ResultScreen(StepScreen):
         except (OSError, ValueError) as exc:
             self.notify(f"Report not written: {exc}", severity="error", timeout=8)
             return
-        self.query_one("#hint", Static).update(f"Report written: {path}")
+        self.query_one("#hint", Static).update(
+            f"Report: {path}\nOpen it in a web browser to read or print it (Ctrl+P; save as PDF to send it).")
         self.notify(f"Report written: {path}", title="Report", timeout=6)
 
     def action_export(self) -> None:
@@ -113,7 +124,7 @@ class ResultScreen(StepScreen):
         except (OSError, ValueError) as exc:
             self.notify(f"Export not written: {exc}", severity="error", timeout=8)
             return
-        self.query_one("#hint", Static).update(f"Written: {csv_path.name}, {json_path.name} in {csv_path.parent}")
+        self.query_one("#hint", Static).update(f"Written: {csv_path.name}, {json_path.name}\nin {csv_path.parent}")
         self.notify(f"Exported to {csv_path.parent}", title="Export", timeout=6)
 
     def action_back(self) -> None:

@@ -134,12 +134,12 @@ def expected_after_fitting(job: Any) -> list[complex]:
 
 
 class RunsScreen(StepScreen):
-    STEP = "4 Balancing runs"
+    STEP = "3 Balancing runs"
     BINDINGS = [
         Binding("r", "reading", "Reading"),
         Binding("f", "fitting", "Fitting"),
         Binding("w", "trial", "Trial weight"),
-        Binding("a", "accept", "Accept trial"),
+        Binding("k", "accept", "Keep weak trial"),
         Binding("x", "stop", "Stop job"),
         Binding("v", "result", "Result"),
     ]
@@ -248,7 +248,7 @@ class RunsScreen(StepScreen):
 
         four_run = is_four_run(job)
         self.app.push_screen(
-            LiveScreen(current_step_name(job) + " run", marks=polar_marks(job), auto=self.rt_app.auto_take,
+            LiveScreen(current_step_name(job) + " run", marks=polar_marks(job), auto=True,
                        amplitude_only=four_run, earlier=amplitude_marks(job) if four_run else None),
             self._record,
         )
@@ -312,7 +312,7 @@ class RunsScreen(StepScreen):
         self.notify(f"Run {run.seq} ({run.kind}) saved.", timeout=2)
         chk = job.state.last_trial_check
         if run.kind == "trial" and chk is not None and not chk.ok:
-            self.notify(chk.message + " Fit the larger trial shown, or press a to go on anyway.",
+            self.notify("Fit the larger trial shown, or press k to keep this one and go on.",
                         title="Trial too small?", severity="warning", timeout=10)
         if job.state.step == "done":
             self.rt_app.show_result()
@@ -322,7 +322,11 @@ class RunsScreen(StepScreen):
     def action_fitting(self) -> None:
         from runtrue.tui.screens.fitting import FittingScreen
 
-        self.app.push_screen(FittingScreen())
+        def back(choice: str | None) -> None:
+            if choice == "run":  # everything ticked off (or confirmed): take the reading
+                self.action_reading()
+
+        self.app.push_screen(FittingScreen(), back)
 
     def action_trial(self) -> None:
         job = self.session.job
