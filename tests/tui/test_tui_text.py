@@ -138,3 +138,21 @@ def test_live_rows_of_an_amplitude_only_job_show_no_phase() -> None:
     assert "phase not used" in lines[1] and "g pk" in lines[1]
     assert lines[-1] == "now " + "\N{FULL BLOCK}" * 12 + " 0.820"
     assert lines[2] == "R   " + "\N{FULL BLOCK}" * 6 + "\N{LIGHT SHADE}" * 6 + " 0.410"
+
+
+def test_a_noisy_reading_is_repeated_and_must_agree_within_its_scatter() -> None:
+    from types import SimpleNamespace
+
+    from runtrue.tui.screens.live import is_noisy, repeat_verdict
+
+    def reading(z: complex, conf: float) -> SimpleNamespace:
+        return SimpleNamespace(channels=[SimpleNamespace(mean=z, confidence_g=conf)])
+
+    steady = reading(0.4 + 0j, 0.01)
+    assert not is_noisy(steady)  # 95 % radius 2.5 % of the 1x
+    first = reading(0.4 + 0j, 0.08)
+    assert is_noisy(first)  # 20 %
+    assert repeat_verdict(None, first) is None
+    assert repeat_verdict(first, reading(0.45 + 0.02j, 0.08))[0] is True  # 0.054 apart, allowed 0.113
+    ok, why = repeat_verdict(first, reading(0.2 + 0.2j, 0.08))
+    assert not ok and "not repeating" in why

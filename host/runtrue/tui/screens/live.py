@@ -32,6 +32,11 @@ from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.widgets.polar import PolarData, PolarPlot
 
 NO_REVS_S = 3.0  # say so when no revolution came for this long
+STEADY_LIMIT_S = 30.0  # waiting longer than this for steady readings: offer take anyway / average longer (our choice)
+#: A reading is noisy when its 95 % radius exceeds this fraction of its 1x amplitude; a noisy
+#: reading is taken twice and the two must agree within their scatter (our choice).
+NOISY_FRACTION = 0.10
+LONGER_FACTOR = 2  # "average longer" takes this many times the usual revolutions
 REFRESH_S = 0.25  # redraw period: a few times a second is enough, and kind to a Pi over SSH
 
 
@@ -53,6 +58,31 @@ def channel_rows(reading: Any, amplitude_only: bool = False, unit: str = DEFAULT
             f"{vib_number(abs(ch.h2), reading.speed_rpm, unit, order=2):>7} {sig3(ch.rms_g):>7}"
         )
     return rows
+
+
+def is_noisy(reading: Any) -> bool:
+    """True when a reading's 95 % radius is more than NOISY_FRACTION of its 1x on any pickup."""
+    for ch in getattr(reading, "channels", []):
+        amp, conf = abs(ch.mean), float(getattr(ch, "confidence_g", 0.0) or 0.0)
+        if amp > 0 and math.isfinite(conf) and conf > NOISY_FRACTION * amp:
+            return True
+    return False
+
+
+def repeat_verdict(first: Any, second: Any) -> tuple[bool, str] | None:
+    """Do two readings of the same state agree?  Each pickup's 1x vectors must lie within the
+    combined 95 % radii of each other (independent readings: radii add in quadrature).  None when
+    there is no first reading to compare with."""
+    if first is None or second is None:
+        return None
+    for i, (a, b) in enumerate(zip(first.channels, second.channels), start=1):
+        ca = float(getattr(a, "confidence_g", 0.0) or 0.0)
+        cb = float(getattr(b, "confidence_g", 0.0) or 0.0)
+        allowed = math.hypot(ca, cb)
+        if abs(a.mean - b.mean) > allowed:
+            return False, (f"Pickup {i}: the repeat differs by {abs(a.mean - b.mean) / max(abs(a.mean), 1e-12):.0%} "
+                           "of the 1x, more than the readings' scatter: the machine is not repeating.")
+    return True, "The repeat agrees with the first reading."
 
 
 def amplitude_lines(earlier: list[tuple[str, list[float]]], now: float | None, channel: int,
@@ -79,6 +109,7 @@ class LiveScreen(StepScreen):
     BINDINGS = [
         Binding("r", "auto", "Reading when steady"),
         Binding("space", "take", "Take now"),
+        Binding("l", "longer", "Average longer"),
         Binding("c", "channel", "Pickup"),
         Binding("u", "vib_unit", "Unit"),
         Binding("escape", "back", "Back"),
@@ -96,6 +127,8 @@ class LiveScreen(StepScreen):
         self.marks = marks or []
         self.channel = 0
         self._auto = auto
+        self._first: Any = None  # a noisy reading, kept while its repeat is taken
+        self._repeat_note = ""
 
     def _title_text(self) -> str:
         return f" runtrue | {self.STEP}" + (f": {self.purpose}" if self.purpose else "")
@@ -133,6 +166,19 @@ class LiveScreen(StepScreen):
         live = self.session.live
         if live.done is not None:
             reading, live.done = live.done, None
+            verdict = repeat_verdict(self._first, reading)
+            if verdict is None and is_noisy(reading):  # noisy: take it once more and compare
+                self._first = reading
+                self._repeat_note = "Noisy machine: taking the reading a second time to check it repeats."
+                live.start_taking(self.session.revs_per_reading)
+                self._redraw()
+                return
+            if verdict is not None and not verdict[0]:
+                self._first = reading  # the latest becomes the one to compare with
+                self._repeat_note = verdict[1] + " Taking it again; Esc to stop and check the machine."
+                live.start_taking(self.session.revs_per_reading)
+                self._redraw()
+                return
             self.dismiss(reading)
             return
         self._redraw()
@@ -147,8 +193,12 @@ class LiveScreen(StepScreen):
         reading = live.window_reading()
         speed = live.speed_rpm()
         st = live.steadiness()
+        quiet_since = max(live.last_rev_at, self._shown_at)
+        silent = s.link is not None and live.clock() - quiet_since > NO_REVS_S
+        if silent:  # never show old numbers as if they were live
+            reading, speed = None, math.nan
         speed_txt = f"{speed:7.1f} rpm" if math.isfinite(speed) else "  --- rpm"
-        steady_txt = "STEADY" if st.steady else "settling"
+        steady_txt = "NO SIGNAL" if silent else "STEADY" if st.steady else "settling"
         self.query_one("#live-status", Static).update(
             f"{speed_txt}  steadiness {bar(st.score, 8)} {steady_txt:<8}  revs {live.total_revs}"
             f"  flagged {live.unusable_revs}  lost {live.lost_frames}"
@@ -169,10 +219,14 @@ class LiveScreen(StepScreen):
             notes.append(PHASE_NOT_USED_NOTE + ".")
         else:
             notes.append(PHASE_NOTE + ". u: vibration unit.")
-        if not st.steady:
+        if self._repeat_note:
+            notes.append(self._repeat_note)
+        if not st.steady and not silent:
             notes.append(f"Not steady yet: {st.reason}.")
-        quiet_since = max(live.last_rev_at, self._shown_at)
-        if s.link is not None and s.link.connected and live.clock() - quiet_since > NO_REVS_S:
+        if live.waiting_for_steady and live.clock() - live.started_at > STEADY_LIMIT_S:
+            notes.insert(0, f"Not steady after {STEADY_LIMIT_S:.0f} s: Space takes it anyway, l averages longer "
+                            f"({LONGER_FACTOR * self.session.revs_per_reading} revolutions).")
+        if s.link is not None and s.link.connected and silent:
             notes.append(
                 "No revolutions: is the machine running, and does the reference sensor see its mark "
                 "once per revolution (sensor LED, gap, mark contrast)?"
@@ -188,8 +242,9 @@ class LiveScreen(StepScreen):
                 + (advice or "a weight that makes the sensor clip, a loose reference sensor or mark") + "."
             )
         elif live.last_flags:
-            flags = ", ".join(f.replace("_", " ").lower() for f in live.last_flags)
-            notes.append(f"Last revolution left out: {flags}.")
+            names = [f.replace("_", " ").lower() for f in live.last_flags]
+            notes.append(f"Last revolution left out: {', '.join(names)}.")
+            notes += [f"  {n}: {FLAG_ADVICE[n]}." for n in names if n in FLAG_ADVICE][:2]
         if "LOST" in s.meter_state:
             notes.append("METER LOST: check the USB cable. The job is kept; it reconnects by itself.")
         self.query_one("#live-notes", Static).update("\n".join(notes))
@@ -238,6 +293,13 @@ class LiveScreen(StepScreen):
         if not self._can_take():
             return
         self.session.live.start_taking(self.session.revs_per_reading)
+        self._redraw()
+
+    def action_longer(self) -> None:
+        """Average more revolutions (a slow or unsteady machine), without waiting for steady."""
+        if not self._can_take():
+            return
+        self.session.live.start_taking(LONGER_FACTOR * self.session.revs_per_reading)
         self._redraw()
 
     def action_auto(self) -> None:
