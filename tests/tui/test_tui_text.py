@@ -156,3 +156,14 @@ def test_a_noisy_reading_is_repeated_and_must_agree_within_its_scatter() -> None
     assert repeat_verdict(first, reading(0.45 + 0.02j, 0.08))[0] is True  # 0.054 apart, allowed 0.113
     ok, why = repeat_verdict(first, reading(0.2 + 0.2j, 0.08))
     assert not ok and "not repeating" in why
+
+
+def test_the_grade_table_cites_the_standard_and_fits_the_picker() -> None:
+    from runtrue.tui.grades import SOURCE, TYPICAL_GRADES
+
+    assert "ISO 21940-11:2016, Table 1" in SOURCE and "memory" not in SOURCE
+    grades = {g for g, _ in TYPICAL_GRADES}
+    assert grades == {"G40", "G16", "G6.3", "G2.5", "G1", "G0.4"}
+    assert any("fans" in text and g == "G6.3" for g, text in TYPICAL_GRADES)
+    assert any("gas and steam turbines" in text and g == "G2.5" for g, text in TYPICAL_GRADES)
+    assert all(len(f"{g:5} {text}") <= 70 for g, text in TYPICAL_GRADES)  # one line in the 76-wide picker

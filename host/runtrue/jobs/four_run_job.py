@@ -41,7 +41,7 @@ import math
 from typing import Any
 
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunRecord, Weight
-from runtrue.jobs.numbers import force_text, mass_text
+from runtrue.jobs.numbers import force_text, mass_text, unbalance_text
 from runtrue.jobs.store import JobStore
 from runtrue.jobs.workflow import (
     DEFAULT_MAX_TRIM_RUNS,
@@ -237,8 +237,8 @@ class AmplitudeOnlyJob(BalanceJob):
         r = self.result()
         if r.residual_unbalance_gmm:
             out.append(
-                f"Residual unbalance ≈ {r.residual_unbalance_gmm[0]:.3g} g·mm, estimated from the amplitude and the "
-                f"four-run influence magnitude (no phase); permissible {r.permissible_unbalance_gmm[0]:.3g} g·mm."
+                f"Residual unbalance about {unbalance_text(r.residual_unbalance_gmm[0])}, estimated from the amplitude "
+                f"alone (no phase); permissible {unbalance_text(r.permissible_unbalance_gmm[0])}."
             )
         return out + base
 
@@ -362,9 +362,9 @@ class AmplitudeOnlyJob(BalanceJob):
             return
         self._start_cycle(len(self.runs) - 1, s.cycle + 1)
         s.message = (
-            f"Check run: residual unbalance ≈ {residual[0]:.3g} g·mm ± {unc[0]:.2g} (estimated from the "
-            f"amplitude and |H| = {h_mag:.3g} g per g·mm, without phase), {residual[0] / perm:.1f} times the "
-            f"permissible {perm:.3g} g·mm: not passed. Trimming by the amplitude-only method is not standard; "
+            f"Check run: residual unbalance about {unbalance_text(residual[0])} ± {unbalance_text(unc[0])} "
+            f"(estimated from the amplitude alone, without phase), {residual[0] / perm:.1f} times the "
+            f"permissible {unbalance_text(perm)}: not passed. Trimming by the amplitude-only method is not standard; "
             "another four-run cycle starts from the corrected state (this run is its reference), or stop the job here."
         )
 
@@ -410,7 +410,8 @@ class AmplitudeOnlyJob(BalanceJob):
             sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=1,
                                        grade=parse_grade(m.grade))
             mass, angle = float(sug.mass_g), None
-            message = str(getattr(sug, "rule", ""))
+            message = (f"Trial weight sized to move the reading clearly (common practice) and kept under the "
+                       f"{force_text(self.force_limit_n)} force limit.")
         staying = [w for w in ref.weights if not self._is_trial(w)]
         if user is not None:
             trial = Weight(1, user.mass_g, user.angle_deg, user.radius_mm, "trial weight, plane 1")
