@@ -359,8 +359,10 @@ async def test_help_states_the_conventions_and_cautions() -> None:
     app = make_app("manual")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("f1")
-        text = screen_text(app)
-        assert "against the" in text and "drive end" in text and "CONVENTIONS" in text
+        from textual.widgets import Static
+
+        text = " ".join(str(app.screen.query_one(Static).render()).split())  # the whole page, scrolled or not
+        assert "against the" in text and "drive end" in text and "CONVENTIONS" in text and "SAFETY" in text
         await pilot.press("escape")
         assert screen_name(app) == "ConnectScreen"
 
@@ -495,3 +497,17 @@ async def test_the_result_screen_and_the_report_print_the_same_digits(tmp_path: 
         row = grade_row(res.residual_unbalance_gmm[0], res.residual_uncertainty_gmm[0], res.permissible_unbalance_gmm[0])
         for key in ("residual", "permissible", "ratio"):
             assert row[key] in screen and f"<td>{row[key]}</td>" in report, key
+
+
+async def test_help_on_the_connect_screen_says_how_to_mount_the_pickup_and_the_tape() -> None:
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        await pilot.press("f1")
+        await pilot.pause()
+        text = " ".join(screen_text(app).split())
+        assert "MOUNTING THE PICKUP" in text and "REFERENCE TAPE" in text
+        await pilot.press("escape", "n", "f1")
+        await pilot.pause()
+        text = " ".join(screen_text(app).split())
+        assert "DESCRIBING THE MACHINE" in text and "MOUNTING THE PICKUP" not in text
