@@ -511,3 +511,23 @@ async def test_help_on_the_connect_screen_says_how_to_mount_the_pickup_and_the_t
         await pilot.pause()
         text = " ".join(screen_text(app).split())
         assert "DESCRIBING THE MACHINE" in text and "MOUNTING THE PICKUP" not in text
+
+
+async def test_report_details_are_typed_on_the_result_screen_and_printed_in_the_report(tmp_path: Any) -> None:
+    from runtrue.jobs.report import render_html
+
+    app = make_app("manual", report_dir=str(tmp_path))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.412", "phase0": "208"}, prefix="#")
+        await pilot.press("enter", "x", "x")
+        assert screen_name(app) == "ResultScreen"
+        await pilot.press("d")
+        fill(app.screen, {"technician": "A. Fitter", "site": "Boiler house", "asset": "FAN-0042",
+                          "work_order": "WO 1187", "notes": "bearing noisy, replace at next stop"}, prefix="#")
+        await pilot.press("enter")
+        html = render_html(app.session.store, app.session.job.job_id)
+        for text in ("A. Fitter", "Boiler house", "FAN-0042", "WO 1187", "bearing noisy"):
+            assert text in html

@@ -125,6 +125,16 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
     return "".join(parts)
 
 
+def _details_table(store: JobStore, job_id: int) -> list[str]:
+    details = report_details(store, job_id)
+    rows = [(label, details[key]) for key, label in REPORT_FIELDS if details[key]]
+    if not rows:
+        return []
+    return ['<table id="details">'] + [
+        f'<tr><th class="l">{_e(label)}</th><td class="l">{_e(value)}</td></tr>' for label, value in rows
+    ] + ["</table>"]
+
+
 def _side_words(machine: Any, plane: int) -> str:
     return "from the far end" if machine.planes[plane - 1].view_side == "far" else "from the drive end"
 
@@ -176,6 +186,33 @@ def position_sketch_svg(machine: Any, plane: int, weights: list[Any], size_px: i
     return "".join(parts)
 
 
+#: What the technician adds to a report: (key, label).  Kept with the job as a recorded decision
+#: ("report_details" event), so no database change is needed and the latest entry wins.
+REPORT_FIELDS: tuple[tuple[str, str], ...] = (
+    ("technician", "Technician"),
+    ("site", "Site"),
+    ("asset", "Asset tag"),
+    ("work_order", "Work order"),
+    ("notes", "Notes"),
+)
+
+
+def report_details(store: JobStore, job_id: int) -> dict[str, str]:
+    """The report fields last saved for ``job_id`` (empty strings when none)."""
+    out = {key: "" for key, _ in REPORT_FIELDS}
+    for e in store.events(job_id):
+        if e.kind == "report_details":
+            out.update({k: str(v) for k, v in e.data.items() if k in out})
+    return out
+
+
+def save_report_details(store: JobStore, job_id: int, details: dict[str, str]) -> None:
+    """Record the report fields for ``job_id`` (each a line of text)."""
+    data = {key: " ".join(str(details.get(key, "")).split())[:200] for key, _ in REPORT_FIELDS}
+    data["n_runs"] = len(store.runs(job_id))  # type: ignore[assignment]
+    store.add_event(job_id, "report_details", data)
+
+
 def _verdict(result: JobResult) -> tuple[str, str]:
     if result.passed is True:
         return "pass", f"PASSED: residual unbalance within {result.grade} ({STANDARD})"
@@ -225,6 +262,7 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
         f'finished {_e(local_time_text(rec.finished_at) or "not finished")}; '
         f"report written {_e(local_time_text(now_iso()))} (local time).</p>",
         f'<p class="verdict {cls}" id="verdict">{_e(verdict)}</p>',
+        *_details_table(store, job_id),
         f'<p id="method">{_e(method)}</p>',
     ]
     # Machine

@@ -238,3 +238,24 @@ class WeightsLeftDialog(ModalScreen[str | None]):
 
     def action_answer(self, choice: str | None) -> None:
         self.dismiss(choice)
+
+
+class ReportDetailsForm(_Form):
+    """Technician, site, asset tag, work order and notes for the report."""
+
+    TITLE_TEXT = "Report details"
+    NOTE = "Printed at the top of the report. Leave blank what does not apply."
+
+    def __init__(self, values: dict[str, str]) -> None:
+        super().__init__()
+        self.values = values
+
+    def fields(self) -> list[tuple[str, str, str]]:
+        from runtrue.jobs.report import REPORT_FIELDS
+
+        return [(key, label, self.values.get(key, "")) for key, label in REPORT_FIELDS]
+
+    def build(self) -> dict[str, str]:
+        from runtrue.jobs.report import REPORT_FIELDS
+
+        return {key: self.value(key) for key, _ in REPORT_FIELDS}

@@ -30,6 +30,7 @@ class ResultScreen(StepScreen):
     BINDINGS = [
         Binding("h", "report", "HTML report"),
         Binding("e", "export", "Export CSV+JSON"),
+        Binding("d", "details", "Details"),
         Binding("b", "back", "Back to runs"),
         Binding("n", "new_job", "New job"),
         Binding("f1", "app.help", "Help"),
@@ -126,6 +127,30 @@ class ResultScreen(StepScreen):
             return
         self.query_one("#hint", Static).update(f"Written: {csv_path.name}, {json_path.name}\nin {csv_path.parent}")
         self.notify(f"Exported to {csv_path.parent}", title="Export", timeout=6)
+
+    def action_details(self) -> None:
+        """Technician, site, asset tag, work order and notes for the report; technician and
+        site start from the machine's previous job."""
+        from runtrue.jobs.report import report_details, save_report_details
+        from runtrue.tui.screens.dialogs import ReportDetailsForm
+
+        job = self.session.job
+        if job is None:
+            return
+        store = self.session.store
+        values = report_details(store, job.job_id)
+        if not any(values.values()) and job.machine.id is not None:
+            earlier = [j.id for j in store.machine_history(job.machine.id) if j.id != job.job_id]
+            if earlier:
+                last = report_details(store, max(earlier))
+                values.update({k: last[k] for k in ("technician", "site", "asset")})
+
+        def saved(details: dict[str, str] | None) -> None:
+            if details is not None:
+                save_report_details(store, job.job_id, details)
+                self.notify("Saved with the job; h writes the report with them.", title="Report details", timeout=4)
+
+        self.app.push_screen(ReportDetailsForm(values), saved)
 
     def action_back(self) -> None:
         self.rt_app.show_runs()
