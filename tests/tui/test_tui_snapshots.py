@@ -135,3 +135,31 @@ def test_live_screen_of_an_amplitude_only_job(snap_compare: Any) -> None:
         await _settle(pilot)
 
     assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)
+
+
+def test_machine_screen(snap_compare: Any) -> None:
+    async def run_before(pilot: Any) -> None:
+        await pilot.press("n")
+        fill(pilot.app.screen, FAN_FIELDS)
+        await _settle(pilot)
+
+    assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)
+
+
+def test_a_trial_above_the_force_limit_asks_for_confirmation(snap_compare: Any) -> None:
+    async def run_before(pilot: Any) -> None:
+        await _to_trial(pilot)
+        await pilot.press("w")
+        fill(pilot.app.screen, {"mass": "30", "angle": "0"}, prefix="#")
+        await pilot.press("enter")
+        await _settle(pilot)
+
+    assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)
+
+
+def test_help_on_the_connect_screen(snap_compare: Any) -> None:
+    async def run_before(pilot: Any) -> None:
+        await pilot.press("f1")
+        await _settle(pilot)
+
+    assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)

@@ -167,3 +167,10 @@ def test_the_grade_table_cites_the_standard_and_fits_the_picker() -> None:
     assert any("fans" in text and g == "G6.3" for g, text in TYPICAL_GRADES)
     assert any("gas and steam turbines" in text and g == "G2.5" for g, text in TYPICAL_GRADES)
     assert all(len(f"{g:5} {text}") <= 70 for g, text in TYPICAL_GRADES)  # one line in the 76-wide picker
+
+
+def test_every_machine_form_hint_fits_its_field_at_80_columns() -> None:
+    from runtrue.tui.machine_form import FIELDS
+
+    # 80 columns: 26 for the saved list, 21 for the label, padding: 29 characters are visible
+    assert all(len(placeholder) <= 29 for _key, _label, placeholder in FIELDS)
