@@ -500,7 +500,7 @@ class BalanceJob:
             out.append("Stop the machine and lock it out first.")
             removing = self._to_remove_before_trial()
             for w in removing:
-                out.append(f"Take off the {w.label or 'weight'}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}° "
+                out.append(f"Take off the {'trial weight' if self._is_trial(w) else (w.label or 'weight')}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}° "
                            f"in {m.plane_name(w.plane)}.")
             staying = [w for w in (self.runs[-1].weights if self.runs else ()) if w not in removing]
             if staying:
@@ -526,7 +526,7 @@ class BalanceJob:
             out[0:0] = [poor, head] if poor else [head]
             out.append(f"{what}: stop the machine and lock it out first.")
             for w in plan.remove:
-                out.append(f"Take off the {w.label or 'weight'}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}° "
+                out.append(f"Take off the {'trial weight' if self._is_trial(w) else (w.label or 'weight')}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}° "
                            f"in {m.plane_name(w.plane)}.")
             staying = [w for w in (self.runs[-1].weights if self.runs else ()) if w not in plan.remove]
             if staying:

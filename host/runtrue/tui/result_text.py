@@ -88,13 +88,18 @@ def method_lines(result: Any, units: str = METRIC) -> list[str]:
     ]
 
 
-def weights_lines(result: Any, units: str = METRIC) -> list[str]:
-    """The weights on the rotor now, each with the centrifugal force it must hold at speed."""
+def weights_lines(result: Any, units: str = METRIC, machine: Any = None) -> list[str]:
+    """The weights on the rotor now, each with its plane's name, position and the centrifugal
+    force it must hold at speed."""
     if not result.weights_on:
         return ["No weights added."]
-    return [
-        f"plane {w.plane}: {mass_text(w.mass_g, units)} at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}, "
-        f"{force_text(centrifugal_force_n(w.mass_g, w.radius_mm, result.speed_rpm), units)}"
-        + (f" ({w.label})" if w.label else "")
-        for w in result.weights_on
-    ]
+    from runtrue.jobs.report import position_number
+
+    out = []
+    for w in result.weights_on:
+        name = machine.plane_name(w.plane) if machine is not None else f"plane {w.plane}"
+        pos = position_number(machine, w.plane, w.angle_deg) if machine is not None else None
+        where = f"position {pos} ({w.angle_deg:.1f}{DEG})" if pos is not None else f"{w.angle_deg:.1f}{DEG}"
+        force = force_text(centrifugal_force_n(w.mass_g, w.radius_mm, result.speed_rpm), units)
+        out.append(f"{name}: {mass_text(w.mass_g, units)} at {where}, r {radius_text(w.radius_mm, units)}, {force}")
+    return out

@@ -69,7 +69,7 @@ class ResultScreen(StepScreen):
         lines += method_lines(res, units)
         lines += [""] + channel_lines(res, vib_unit_of(self.app))
         lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res, units, names)
-        lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res, units)
+        lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res, units, m)
         if res.warnings:
             lines += ["", "Notes:"] + [f"- {w}" for w in res.warnings]
         if is_four_run_result(res):
