@@ -78,7 +78,8 @@ class ResultScreen(StepScreen):
             lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}."]
         self.query_one("#result-text", Static).update("\n".join(lines))
         self.query_one("#hint", Static).update(
-            f"h: HTML report (to print or share)   e: CSV + JSON of the runs\ninto {self._folder()}")
+            "h: HTML report (to print or share)   e: CSV + JSON of the runs   d: technician, site ...\n"
+            "Written beside the job database; the full path is shown here when written.")
 
     def _folder(self) -> Path:
         """Where reports go: the folder given to the application, else ``reports`` beside the
