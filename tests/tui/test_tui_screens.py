@@ -531,3 +531,23 @@ async def test_report_details_are_typed_on_the_result_screen_and_printed_in_the_
         html = render_html(app.session.store, app.session.job.job_id)
         for text in ("A. Fitter", "Boiler house", "FAN-0042", "WO 1187", "bearing noisy"):
             assert text in html
+
+
+async def test_the_resume_list_says_when_each_job_started_its_runs_and_the_weights_on(tmp_path: Any) -> None:
+    from textual.widgets import OptionList
+
+    app = make_app("manual", store_path=str(tmp_path / "db.sqlite"))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.412", "phase0": "208"}, prefix="#")
+        await pilot.press("enter")
+        job_id = app.session.job.job_id
+        app.session.job = None
+        app.show_machine()
+        await pilot.pause()
+        ol = app.screen.query_one("#machines", OptionList)
+        prompt = str(ol.get_option(f"j{job_id}").prompt)
+        assert f"job {job_id}" in prompt and "1r" in prompt and "0w on" in prompt
+        assert prompt.splitlines()[1].strip()[:2].isdigit()  # month-day of the start, local time

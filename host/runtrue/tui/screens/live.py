@@ -46,15 +46,15 @@ def channel_rows(reading: Any, amplitude_only: bool = False, unit: str = DEFAULT
     acceleration (g rms, all frequencies).  With ``amplitude_only`` (four-run method) the phase
     is not shown: it is not used."""
     rows = [f"1x and 2x in {unit}; overall in g rms",
-            f"{'pickup':<10} {'1x':>7} {'phase':>5} {'2x':>7} {'overall':>7}"]
+            f"{'pickup':<14} {'1x':>7} {'phase':>5} {'2x':>7} {'overall':>7}"]
     if reading is None:
         rows.append("(no revolutions yet)")
         return rows
     for i, ch in enumerate(reading.channels):
-        name = (labels[i] if labels and i < len(labels) else f"pickup {i + 1}")[:10]
+        name = (labels[i] if labels and i < len(labels) else f"pickup {i + 1}")[:14]
         phase = f"{'-':>5}" if amplitude_only else f"{phase_text(ch.phase_deg):>5}"
         rows.append(
-            f"{name:<10} {vib_number(ch.amp_g, reading.speed_rpm, unit):>7} {phase} "
+            f"{name:<14} {vib_number(ch.amp_g, reading.speed_rpm, unit):>7} {phase} "
             f"{vib_number(abs(ch.h2), reading.speed_rpm, unit, order=2):>7} {sig3(ch.rms_g):>7}"
         )
     return rows
