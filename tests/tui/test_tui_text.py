@@ -174,3 +174,18 @@ def test_every_machine_form_hint_fits_its_field_at_80_columns() -> None:
 
     # 80 columns: 26 for the saved list, 21 for the label, padding: 29 characters are visible
     assert all(len(placeholder) <= 29 for _key, _label, placeholder in FIELDS)
+
+
+def test_a_typed_unit_carries_its_detector() -> None:
+    import math as m
+
+    import pytest
+
+    from runtrue.tui.screens.dialogs import parse_vib_unit
+
+    assert parse_vib_unit("mm/s rms") == ("mm/s", pytest.approx(m.sqrt(2)))
+    assert parse_vib_unit("g pk") == ("g", 1.0)
+    assert parse_vib_unit("um pk-pk") == ("um", 0.5)
+    assert parse_vib_unit("mm/s") == ("mm/s", 1.0)
+    with pytest.raises(ValueError, match="mm/s rms"):
+        parse_vib_unit("mm/s average")

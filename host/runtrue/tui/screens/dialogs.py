@@ -28,6 +28,20 @@ def parse_float(text: str, what: str, *, minimum: float | None = 0.0) -> float:
     return v
 
 
+def parse_vib_unit(text: str) -> tuple[str, float]:
+    """``"mm/s rms"`` -> (``"mm/s"``, sqrt 2): the unit and the factor that turns the typed value
+    into a peak value (sinusoid: peak = rms x sqrt 2 = pk-pk / 2).  No detector given: peak."""
+    parts = text.strip().lower().split()
+    if not parts:
+        return "g", 1.0
+    factors = {"pk": 1.0, "peak": 1.0, "rms": math.sqrt(2.0), "pk-pk": 0.5, "pp": 0.5, "p-p": 0.5}
+    if len(parts) == 2 and parts[1] in factors:
+        return parts[0], factors[parts[1]]
+    if len(parts) == 1:
+        return parts[0], 1.0
+    raise ValueError(f"unit {text!r}: write it like mm/s rms, mm/s pk, g pk or um pk-pk")
+
+
 class _Form(ModalScreen[Any]):
     """A titled column of labelled one-line inputs; Enter submits, Esc cancels."""
 
@@ -67,15 +81,15 @@ class ManualReadingForm(_Form):
 
     TITLE_TEXT = "Type the reading (from another instrument)"
     NOTE = (
-        f"Amplitude: 1x PEAK (RMS x 1.414) in the unit given: g, m/s2, mm/s, in/s, um or mil; "
-        f"it is converted to g at the speed given. Phase: lag after the reference mark, "
+        f"Amplitude: the 1x in the unit given, with its detector: mm/s rms, mm/s pk, g pk, "
+        f"in/s pk, um pk-pk, mil pk-pk (no detector: peak). Phase: lag after the reference mark, "
         f"0-360{DEG}, as your instrument shows it with the same mark every run."
     )
 
     NOTE_AMPLITUDE_ONLY = (
-        "Amplitude: 1x PEAK (RMS x 1.414) in the unit given: g, m/s2, mm/s, in/s, um or mil; "
-        "it is converted to g at the speed given. No phase: the amplitude-only (four-run) method "
-        "does not use it."
+        "Amplitude: the 1x in the unit given, with its detector: mm/s rms, mm/s pk, g pk, "
+        "in/s pk, um pk-pk, mil pk-pk (no detector: peak). No phase: the amplitude-only (four-run) "
+        "method does not use it."
     )
 
     def __init__(self, labels: list[str], speed_rpm: float, unit: str = "g", *, amplitude_only: bool = False) -> None:
@@ -86,8 +100,8 @@ class ManualReadingForm(_Form):
             self.NOTE = self.NOTE_AMPLITUDE_ONLY
         self.labels = labels
         self.speed_rpm = speed_rpm
-        self.unit = unit
-        self.chosen_unit = unit
+        self.unit = "g pk" if unit == "g" else unit  # an acceleration always shows its detector
+        self.chosen_unit = self.unit
 
     def fields(self) -> list[tuple[str, str, str]]:
         out = [("speed", "Speed rpm", f"{self.speed_rpm:g}"), ("unit", "Unit", self.unit)]
@@ -102,11 +116,13 @@ class ManualReadingForm(_Form):
 
         speed = parse_float(self.value("speed"), "speed (rpm)", minimum=1.0)
         amps = [parse_float(self.value(f"amp{i}"), f"pickup {i + 1} amplitude") for i in range(len(self.labels))]
-        unit = self.value("unit").strip() or "g"
+        typed_unit = self.value("unit").strip() or "g pk"
+        unit, to_peak = parse_vib_unit(typed_unit)
+        amps = [a * to_peak for a in amps]
         from runtrue.balancing import BalancingError, convert_1x
 
         if self.amplitude_only:
-            self.chosen_unit = unit
+            self.chosen_unit = typed_unit
             try:
                 amps_g = [abs(convert_1x(complex(a, 0.0), unit, "g", speed)) for a in amps]
             except BalancingError as exc:
@@ -116,7 +132,7 @@ class ManualReadingForm(_Form):
             parse_float(self.value(f"phase{i}"), f"pickup {i + 1} phase", minimum=None) % 360.0
             for i in range(len(self.labels))
         ]
-        self.chosen_unit = unit
+        self.chosen_unit = typed_unit
         try:
             in_g = [convert_1x(cmath.rect(a, math.radians(p)), unit, "g", speed) for a, p in zip(amps, phases)]
         except BalancingError as exc:
