@@ -84,11 +84,17 @@ def test_signal_check_counts_pulses_flags_and_the_rest_of_the_signal() -> None:
     # sqrt(0.09 - 0.16/2 - 0.01/2) = sqrt(0.005) = 0.0707 g RMS (Parseval).
     revs = [Revolution(n, 40_000.0, 160, 0, 1, [0.4 + 0j], [0.1j], [0.3]) for n in range(10)]
     revs.append(Revolution(10, 80_000.0, 320, 1, 1, [0.4 + 0j], [0j], [0.3]))  # a missed pulse
-    text = signal_check_text(revs)
-    assert "11 revs, 10 usable" in text and "1500 rpm" in text
-    assert "missing pulse 1" in text
-    assert "rest 0.0707 g" in text
-    assert "No revolutions" in signal_check_text([])
+    text = signal_check_text(revs, ["fan end"])
+    # 1 of 11 flagged (9 %): more than the 5 % a clean tape allows
+    assert "Reference: NOT CLEAN - 9% of revolutions flagged" in text and "1500 rpm" in text
+    assert "missing pulse 1: move the sensor closer" in text  # each flag with what to do
+    assert "rest 0.0707 g rms" in text
+    assert "fan end: usable" in text  # 1x 0.4 g pk against 0.07 g rms of everything else
+    clean = signal_check_text(revs[:10])
+    assert "Reference: tape seen cleanly, 1500 rpm (10/10 revs)" in clean
+    noisy = [Revolution(n, 40_000.0, 160, 0, 1, [0.01 + 0j], [0j], [0.3]) for n in range(10)]
+    assert "WEAK" in signal_check_text(noisy)
+    assert "NO PULSES" in signal_check_text([])
 
 
 def test_refused_revolutions_while_taking_are_counted() -> None:

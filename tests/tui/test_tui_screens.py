@@ -76,7 +76,7 @@ async def test_grade_table_picks_a_grade() -> None:
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("n", "f3")
         assert "ISO 21940-11:2016" in screen_text(app)
-        await pilot.press("down", "down", "down", "down", "enter")  # 4th row: motors above ~950 rpm
+        await pilot.press(*["down"] * 7, "enter")  # 8th row: motors above 950 rpm
         assert app.screen.query_one("#f_grade", Input).value == "G2.5"
 
 
@@ -92,7 +92,7 @@ async def test_live_screen_shows_readings_and_takes_one(tmp_path: Path) -> None:
         await wait_until(pilot, lambda: app.session.live.total_revs > 20, what="revolutions")
         await pilot.pause(0.3)
         text = screen_text(app)
-        assert "rpm" in text and "1x amp" in text and "phase" in text
+        assert "rpm" in text and "mm/s rms" in text and "phase" in text
         assert "0\N{DEGREE SIGN} up, lag cw" in text
         await key(pilot, "space")
         await wait_until(pilot, lambda: bool(taken), what="reading taken")
@@ -157,6 +157,9 @@ async def test_manual_job_reference_trial_correction_result(tmp_path: Path) -> N
         assert abs(expected - actual) < 0.02 * abs(influence * u0)
         # correction run: the allocated weights (trial removed)
         await pilot.press("r")
+        if job.weights_over_limit():  # a correction pulling over the force limit is confirmed first
+            assert screen_name(app) == "ConfirmDialog" and "x the limit" in screen_text(app)
+            await pilot.press("y")
         fill(app.screen, _typed(app, *reading_for([fitted])), prefix="#")
         await pilot.press("enter")
         await pilot.pause()
@@ -198,7 +201,8 @@ async def test_pulled_cable_shows_a_message_keeps_the_job_and_reconnects() -> No
         opened.append(m)
         return m
 
-    app = make_app("sim:fake", opener=opener, realtime=False, revs_per_reading=8, post_interval_s=0.05)
+    # a reading longer than the cable lasts: it is still being taken when the cable is pulled
+    app = make_app("sim:fake", opener=opener, realtime=False, revs_per_reading=48, post_interval_s=0.05)
     async with app.run_test(size=SIZE) as pilot:
         await wait_until(pilot, lambda: app.session.meter_state == "connected")
         await pilot.press("n")
@@ -233,6 +237,8 @@ async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_cor
                 break
             total = u0 + sum(w.unbalance_gmm for w in job.planned_weights())
             await pilot.press("r")
+            if screen_name(app) == "ConfirmDialog":  # a correction over the force limit
+                await pilot.press("y")
             fill(app.screen, typed(total), prefix="#")
             await pilot.press("enter")
         assert job.result().passed
@@ -248,11 +254,17 @@ async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_cor
         assert "Stored influence coefficients" in screen_text(app), screen_text(app)
         await pilot.press("f6")  # the machine's history: the job just done, and its coefficients
         text = screen_text(app)
-        assert "passed" in text and "Influence coefficients kept from job 1" in text
+        assert "passed" in text and "Kept from job 1" in text
         await pilot.press("escape")
         await pilot.press("f2")
+        # the weights the first job left are offered: still on, combine, or taken off
+        assert screen_name(app) == "WeightsLeftDialog"
+        text = screen_text(app)
+        assert "Job 1" in text and "left these on the rotor" in text and "position" in text
+        await pilot.press("k")
         job2 = app.session.job
-        assert job2 is not job
+        assert job2 is not job and job2.planned_weights() == list(job.runs[-1].weights)
+        assert "left by the last job still on" in app.screen.todo_text
         await pilot.press("r")
         fill(app.screen, typed(u0 + 1500), prefix="#")  # the machine has changed since
         await pilot.press("enter")
@@ -300,7 +312,9 @@ async def test_an_interrupted_job_resumes_with_its_runs(tmp_path: Path) -> None:
         job = app.session.job
         assert job.job_id == job_id and [r.kind for r in job.runs] == ["reference"]
         assert job.state.step == "trial"
-        assert "0.480 g" in screen_text(app)
+        from runtrue.jobs.numbers import vib_number
+
+        assert vib_number(0.48, job.runs[0].reading.speed_rpm) in screen_text(app)  # 1x in mm/s rms
 
 
 async def test_live_view_from_connect_only_looks() -> None:
@@ -326,10 +340,12 @@ async def test_choose_the_trial_weight_then_stop_the_job() -> None:
         await pilot.press("enter", "w")
         fill(app.screen, {"mass": "12", "angle": "45"}, prefix="#")
         await pilot.press("enter")
+        assert screen_name(app) == "ConfirmDialog"  # 12 g pulls 45 N, over the fan's 41 N force limit
+        await pilot.press("y")
         trial = app.session.job.suggested_trial()
         assert (trial.mass_g, trial.angle_deg) == (12, 45)
         todo = str(app.screen.query_one("#todo").render())
-        assert "trial weight of 12 g" in todo and "45.0\N{DEGREE SIGN}" in todo
+        assert "Fit 12.0 g at position 2 (45.0\N{DEGREE SIGN})" in todo
         await pilot.press("x")
         assert screen_name(app) == "RunsScreen"  # asks once more before stopping
         await pilot.press("x")
@@ -343,8 +359,10 @@ async def test_help_states_the_conventions_and_cautions() -> None:
     app = make_app("manual")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("f1")
-        text = screen_text(app)
-        assert "against the" in text and "drive end" in text and "CONVENTIONS" in text
+        from textual.widgets import Static
+
+        text = " ".join(str(app.screen.query_one(Static).render()).split())  # the whole page, scrolled or not
+        assert "against the" in text and "drive end" in text and "CONVENTIONS" in text and "SAFETY" in text
         await pilot.press("escape")
         assert screen_name(app) == "ConnectScreen"
 
@@ -428,3 +446,130 @@ async def test_live_screen_says_when_line_hum_sits_on_an_order() -> None:
         text = screen_text(app)
         assert "Hum: line hum at 100 Hz is within 2.0 % of 4x:" in text  # wrapped on the 80x24 screen
         assert "average longer or change speed." in text
+
+
+async def test_a_typed_trial_above_the_force_limit_asks_before_it_is_used(tmp_path: Any) -> None:
+    from tui_helpers import FAN_FIELDS, fill
+
+    from runtrue.tui import make_app
+    from runtrue.tui.screens.dialogs import ConfirmDialog
+
+    app = make_app("manual", store_path=str(tmp_path / "db.sqlite"))
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.412", "phase0": "208"}, prefix="#")
+        await pilot.press("enter")
+        await pilot.pause()
+        job = app.session.job
+        assert job.step == "trial"
+        await pilot.press("w")
+        fill(app.screen, {"mass": "30", "angle": "0"}, prefix="#")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert isinstance(app.screen, ConfirmDialog)
+        text = "\n".join(app.screen.lines)
+        assert "x the limit" in text and "N at 1470 rpm" in text
+        await pilot.press("n")
+        await pilot.pause()
+        assert job.suggested_trial().mass_g != 30.0
+        await pilot.press("w")
+        fill(app.screen, {"mass": "30", "angle": "0"}, prefix="#")
+        await pilot.press("enter", "y")
+        await pilot.pause()
+        assert job.suggested_trial().mass_g == 30.0
+
+
+async def test_the_result_screen_and_the_report_print_the_same_digits(tmp_path: Any) -> None:
+    """Before/after vibration, residual, permissible and ratio: the same text on the screen and
+    in the HTML report (both format through runtrue.jobs.numbers)."""
+    import html as htmlmod
+    import re
+
+    from runtrue.jobs.numbers import grade_row, vib_number
+
+    app = make_app("manual", report_dir=str(tmp_path))
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1466", "amp0": "0.412", "phase0": "208"}, prefix="#")
+        await pilot.press("enter", "r")
+        job = app.session.job
+        if screen_name(app) == "ConfirmDialog":
+            await pilot.press("y")
+        fill(app.screen, {"speed": "1472", "amp0": "0.371", "phase0": "238"}, prefix="#")
+        await pilot.press("enter", "r")
+        if screen_name(app) == "ConfirmDialog":
+            await pilot.press("y")
+        fill(app.screen, {"speed": "1475", "amp0": "0.0061", "phase0": "331"}, prefix="#")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert screen_name(app) == "ResultScreen"
+        screen = str(app.screen.query_one("#result-text").render())
+        await pilot.press("h")
+        report = htmlmod.unescape(next(tmp_path.glob("*.html")).read_text())
+        res = job.result()
+        for ch in res.channels:
+            before = vib_number(abs(ch.before), 1466.0)
+            after = vib_number(abs(ch.after), 1475.0)
+            assert before in screen and after in screen
+            assert re.search(rf"<td>{re.escape(before)}</td>", report) and re.search(rf"<td>{re.escape(after)}</td>", report)
+        row = grade_row(res.residual_unbalance_gmm[0], res.residual_uncertainty_gmm[0], res.permissible_unbalance_gmm[0])
+        for key in ("residual", "permissible", "ratio"):
+            assert row[key] in screen and f"<td>{row[key]}</td>" in report, key
+
+
+async def test_help_on_the_connect_screen_says_how_to_mount_the_pickup_and_the_tape() -> None:
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        await pilot.press("f1")
+        await pilot.pause()
+        text = " ".join(screen_text(app).split())
+        assert "MOUNTING THE PICKUP" in text and "REFERENCE TAPE" in text
+        await pilot.press("escape", "n", "f1")
+        await pilot.pause()
+        text = " ".join(screen_text(app).split())
+        assert "DESCRIBING THE MACHINE" in text and "MOUNTING THE PICKUP" not in text
+
+
+async def test_report_details_are_typed_on_the_result_screen_and_printed_in_the_report(tmp_path: Any) -> None:
+    from runtrue.jobs.report import render_html
+
+    app = make_app("manual", report_dir=str(tmp_path))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.412", "phase0": "208"}, prefix="#")
+        await pilot.press("enter", "x", "x")
+        assert screen_name(app) == "ResultScreen"
+        await pilot.press("d")
+        fill(app.screen, {"technician": "A. Fitter", "site": "Boiler house", "asset": "FAN-0042",
+                          "work_order": "WO 1187", "notes": "bearing noisy, replace at next stop"}, prefix="#")
+        await pilot.press("enter")
+        html = render_html(app.session.store, app.session.job.job_id)
+        for text in ("A. Fitter", "Boiler house", "FAN-0042", "WO 1187", "bearing noisy"):
+            assert text in html
+
+
+async def test_the_resume_list_says_when_each_job_started_its_runs_and_the_weights_on(tmp_path: Any) -> None:
+    from textual.widgets import OptionList
+
+    app = make_app("manual", store_path=str(tmp_path / "db.sqlite"))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2", "r")
+        fill(app.screen, {"speed": "1470", "amp0": "0.412", "phase0": "208"}, prefix="#")
+        await pilot.press("enter")
+        job_id = app.session.job.job_id
+        app.session.job = None
+        app.show_machine()
+        await pilot.pause()
+        ol = app.screen.query_one("#machines", OptionList)
+        prompt = str(ol.get_option(f"j{job_id}").prompt)
+        assert f"job {job_id}" in prompt and "1r" in prompt and "0w on" in prompt
+        assert prompt.splitlines()[1].strip()[:2].isdigit()  # month-day of the start, local time

@@ -92,6 +92,8 @@ def test_result_screen(snap_compare: Any) -> None:
         job = app.session.job
         # the correction run: what the fitted weights leave (typed as read off an instrument)
         await pilot.press("r")
+        if job.weights_over_limit():  # confirm a correction over the force limit
+            await pilot.press("y")
         fill(app.screen, {"speed": "1470", "amp0": "0.0061", "phase0": "331"}, prefix="#")
         await pilot.press("enter")
         assert job.state.step == "done"
@@ -130,6 +132,34 @@ def test_live_screen_of_an_amplitude_only_job(snap_compare: Any) -> None:
         from runtrue.tui.screens.live import LiveScreen
 
         app.push_screen(LiveScreen("trial 2 run", amplitude_only=True, earlier=[("R", [0.412]), ("T1", [0.371])]))
+        await _settle(pilot)
+
+    assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)
+
+
+def test_machine_screen(snap_compare: Any) -> None:
+    async def run_before(pilot: Any) -> None:
+        await pilot.press("n")
+        fill(pilot.app.screen, FAN_FIELDS)
+        await _settle(pilot)
+
+    assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)
+
+
+def test_a_trial_above_the_force_limit_asks_for_confirmation(snap_compare: Any) -> None:
+    async def run_before(pilot: Any) -> None:
+        await _to_trial(pilot)
+        await pilot.press("w")
+        fill(pilot.app.screen, {"mass": "30", "angle": "0"}, prefix="#")
+        await pilot.press("enter")
+        await _settle(pilot)
+
+    assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)
+
+
+def test_help_on_the_connect_screen(snap_compare: Any) -> None:
+    async def run_before(pilot: Any) -> None:
+        await pilot.press("f1")
         await _settle(pilot)
 
     assert snap_compare(make_app("manual"), terminal_size=SIZE, run_before=run_before)

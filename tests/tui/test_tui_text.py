@@ -26,9 +26,9 @@ def test_centrifugal_force_of_a_weight() -> None:
 
 
 def test_amplitudes_keep_three_significant_figures() -> None:
-    assert amp_text(0.48213) == "0.482 g"
-    assert amp_text(0.0063) == "0.00630 g"
-    assert amp_text(12.345) == "12.3 g"
+    assert amp_text(0.48213) == "0.482 g pk"  # never a bare "g", which reads as grams
+    assert amp_text(0.0063) == "0.00630 g pk"
+    assert amp_text(12.345) == "12.3 g pk"
     assert amp_text(math.nan) == "---"
 
 
@@ -103,18 +103,18 @@ def test_static_couple_split_of_a_two_plane_correction() -> None:
     def plan(w1: Weight, w2: Weight) -> SimpleNamespace:
         return SimpleNamespace(planes=[SimpleNamespace(plane=1, correction=w1), SimpleNamespace(plane=2, correction=w2)])
 
-    # equal weights at the same angle: purely static, 2 x 100 g.mm
+    # equal weights at the same angle: purely static, 2 x 100 g·mm
     lines = static_couple_lines(plan(Weight(1, 1.0, 30.0, 100.0), Weight(2, 1.0, 30.0, 100.0)))
     assert lines[0] == "Correction: mostly static"
-    assert lines[1] == "static 200 g.mm @ 30\N{DEGREE SIGN}"
+    assert lines[1] == "static 200 g·mm @ 30\N{DEGREE SIGN}"
     assert lines[2].startswith("couple \N{PLUS-MINUS SIGN}0")
-    # equal and opposite: a pure couple of 150 g.mm, +C in plane 1 at 90 deg
+    # equal and opposite: a pure couple of 150 g·mm, +C in plane 1 at 90 deg
     lines = static_couple_lines(plan(Weight(1, 1.5, 90.0, 100.0), Weight(2, 1.5, 270.0, 100.0)))
     assert lines[0] == "Correction: mostly couple"
-    assert lines[2] == "couple \N{PLUS-MINUS SIGN}150 g.mm @ 90\N{DEGREE SIGN}"
-    # different radii are taken as g.mm: 2 g at 50 mm and 1 g at 100 mm, same angle -> 200 g.mm static
+    assert lines[2] == "couple \N{PLUS-MINUS SIGN}150 g·mm @ 90\N{DEGREE SIGN}"
+    # different radii are taken as g·mm: 2 g at 50 mm and 1 g at 100 mm, same angle -> 200 g·mm static
     lines = static_couple_lines(plan(Weight(1, 2.0, 0.0, 50.0), Weight(2, 1.0, 0.0, 100.0)))
-    assert lines[1] == "static 200 g.mm @ 0\N{DEGREE SIGN}"
+    assert lines[1] == "static 200 g·mm @ 0\N{DEGREE SIGN}"
     # one plane: nothing to split
     assert static_couple_lines(SimpleNamespace(planes=[SimpleNamespace(plane=1, correction=Weight(1, 1.0, 0.0, 100.0))])) == []
     # every line fits the runs screen's side pane
@@ -128,11 +128,64 @@ def test_live_rows_of_an_amplitude_only_job_show_no_phase() -> None:
 
     ch = SimpleNamespace(amp_g=0.41, phase_deg=208.0, h2=0.02 + 0.01j, rms_g=0.3)
     reading = SimpleNamespace(speed_rpm=1470.0, channels=[ch])
-    assert "208.0" in channel_rows(reading)[1]
-    row = channel_rows(reading, amplitude_only=True)[1]
-    assert "208" not in row and "unused" in row and "0.410 g" in row
+    assert "208\N{DEGREE SIGN}" in channel_rows(reading)[2]
+    assert "in mm/s rms" in channel_rows(reading)[0]  # the unit is named, mm/s rms by default
+    row = channel_rows(reading, amplitude_only=True)[2]
+    assert "208" not in row and "18.5" in row  # 0.41 g pk at 1470 rpm = 18.5 mm/s rms
+    assert "0.410" in channel_rows(reading, amplitude_only=True, unit="g pk")[2]
     # earlier runs and the reading now on one scale: the largest gets the full bar
-    lines = amplitude_lines([("R", [0.41]), ("T1", [0.205])], 0.82, 0)
-    assert "phase not used" in lines[1]
-    assert lines[-1] == "now " + "\N{FULL BLOCK}" * 12 + " 0.820 g"
-    assert lines[2] == "R   " + "\N{FULL BLOCK}" * 6 + "\N{LIGHT SHADE}" * 6 + " 0.410 g"
+    lines = amplitude_lines([("R", [0.41]), ("T1", [0.205])], 0.82, 0, 1470.0, "g pk")
+    assert "phase not used" in lines[1] and "g pk" in lines[1]
+    assert lines[-1] == "now " + "\N{FULL BLOCK}" * 12 + " 0.820"
+    assert lines[2] == "R   " + "\N{FULL BLOCK}" * 6 + "\N{LIGHT SHADE}" * 6 + " 0.410"
+
+
+def test_a_noisy_reading_is_repeated_and_must_agree_within_its_scatter() -> None:
+    from types import SimpleNamespace
+
+    from runtrue.tui.screens.live import is_noisy, repeat_verdict
+
+    def reading(z: complex, conf: float) -> SimpleNamespace:
+        return SimpleNamespace(channels=[SimpleNamespace(mean=z, confidence_g=conf)])
+
+    steady = reading(0.4 + 0j, 0.01)
+    assert not is_noisy(steady)  # 95 % radius 2.5 % of the 1x
+    first = reading(0.4 + 0j, 0.08)
+    assert is_noisy(first)  # 20 %
+    assert repeat_verdict(None, first) is None
+    assert repeat_verdict(first, reading(0.45 + 0.02j, 0.08))[0] is True  # 0.054 apart, allowed 0.113
+    ok, why = repeat_verdict(first, reading(0.2 + 0.2j, 0.08))
+    assert not ok and "not repeating" in why
+
+
+def test_the_grade_table_cites_the_standard_and_fits_the_picker() -> None:
+    from runtrue.tui.grades import SOURCE, TYPICAL_GRADES
+
+    assert "ISO 21940-11:2016, Table 1" in SOURCE and "memory" not in SOURCE
+    grades = {g for g, _ in TYPICAL_GRADES}
+    assert grades == {"G40", "G16", "G6.3", "G2.5", "G1", "G0.4"}
+    assert any("fans" in text and g == "G6.3" for g, text in TYPICAL_GRADES)
+    assert any("gas and steam turbines" in text and g == "G2.5" for g, text in TYPICAL_GRADES)
+    assert all(len(f"{g:5} {text}") <= 70 for g, text in TYPICAL_GRADES)  # one line in the 76-wide picker
+
+
+def test_every_machine_form_hint_fits_its_field_at_80_columns() -> None:
+    from runtrue.tui.machine_form import FIELDS
+
+    # 80 columns: 26 for the saved list, 21 for the label, padding: 29 characters are visible
+    assert all(len(placeholder) <= 29 for _key, _label, placeholder in FIELDS)
+
+
+def test_a_typed_unit_carries_its_detector() -> None:
+    import math as m
+
+    import pytest
+
+    from runtrue.tui.screens.dialogs import parse_vib_unit
+
+    assert parse_vib_unit("mm/s rms") == ("mm/s", pytest.approx(m.sqrt(2)))
+    assert parse_vib_unit("g pk") == ("g", 1.0)
+    assert parse_vib_unit("um pk-pk") == ("um", 0.5)
+    assert parse_vib_unit("mm/s") == ("mm/s", 1.0)
+    with pytest.raises(ValueError, match="mm/s rms"):
+        parse_vib_unit("mm/s average")

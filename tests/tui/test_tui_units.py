@@ -30,7 +30,7 @@ def test_one_ounce_and_one_inch_show_as_their_gram_and_millimetre_values() -> No
     # NIST SP 811 (2008), Appendix B (from memory): 1 oz = 28.349523125 g, 1 in = 25.4 mm
     assert mass_text(28.349523125, IMPERIAL) == "1.00 oz"
     assert radius_text(25.4, IMPERIAL) == "1.00 in"
-    assert unbalance_text(28.349523125 * 25.4, IMPERIAL) == "1.00 oz.in"
+    assert unbalance_text(28.349523125 * 25.4, IMPERIAL) == "1.00 oz·in"
     assert g_to_oz(28.349523125) == pytest.approx(1.0, rel=1e-15)
     assert gmm_to_ozin(720.077887375) == pytest.approx(1.0, rel=1e-12)
 
@@ -43,13 +43,13 @@ def test_imperial_text_uses_the_engine_conversions() -> None:
         shown = float(radius_text(radius_mm, IMPERIAL).removesuffix(" in"))
         assert shown == pytest.approx(mm_to_in(radius_mm), abs=0.005)
     for u_gmm in (3.2, 87.0, 1880.0, 2.0e6):
-        shown = float(unbalance_text(u_gmm, IMPERIAL).removesuffix(" oz.in"))
+        shown = float(unbalance_text(u_gmm, IMPERIAL).removesuffix(" oz·in"))
         assert ozin_to_gmm(shown) == pytest.approx(u_gmm, rel=5e-3)
 
 
 def test_small_masses_keep_three_significant_figures_without_exponent() -> None:
     assert mass_text(1.0, IMPERIAL) == "0.0353 oz"  # 1 g = 0.035274 oz
-    assert unbalance_text(45.0, IMPERIAL) == "0.0625 oz.in"  # 45 / 720.078 = 0.06249
+    assert unbalance_text(45.0, IMPERIAL) == "0.0625 oz·in"  # 45 / 720.078 = 0.06249
 
 
 def test_forces_stay_in_newtons_with_pounds_force_beside_them() -> None:
@@ -62,9 +62,9 @@ def test_metric_text_is_what_the_screens_showed_before() -> None:
     for mass_g in (0.7, 12.0, 150.0):
         assert mass_text(mass_g, METRIC) == metric_format.mass_text(mass_g)
     assert radius_text(160.0, METRIC) == "160 mm"
-    assert unbalance_text(4.56, METRIC) == "4.56 g.mm"
-    assert unbalance_text(1880.0, METRIC) == "1880 g.mm"
-    assert unbalance_text(12_300.0, METRIC) == "12.3 kg.mm"
+    assert unbalance_text(4.56, METRIC) == "4.56 g·mm"
+    assert unbalance_text(1880.0, METRIC) == "1880 g·mm"
+    assert unbalance_text(12_300.0, METRIC) == "12.3 kg·mm"
 
 
 def test_toggle_alternates_and_unknown_units_are_refused() -> None:
@@ -81,7 +81,7 @@ def test_result_lines_in_imperial_say_oz_in_and_lbf() -> None:
         method="", residual_unbalance_gmm=[72.0077887375], residual_uncertainty_gmm=None,
         permissible_unbalance_gmm=[144.015577475], weights_on=[weight], speed_rpm=1500.0,
     )
-    assert plane_lines(result, IMPERIAL) == ["plane 1: 0.100 oz.in of 0.200 oz.in allowed (0.50x) ok"]
+    assert plane_lines(result, IMPERIAL) == ["plane 1: 0.100 oz·in of 0.200 oz·in allowed (0.50x) ok"]
     (line,) = weights_lines(result, IMPERIAL)
     assert line.startswith("plane 1: 1.00 oz at 45.0\N{DEGREE SIGN}, r 10.00 in, ")
     assert line.endswith(" N (40 lbf)")  # 0.02835 kg x 0.254 m x (157.08 /s)^2 = 177.7 N
@@ -93,14 +93,14 @@ async def test_imperial_toggle_on_the_machine_screen_shows_oz_and_in_on_the_fitt
         await pilot.press("n")
         fill(app.screen, FAN_FIELDS)
         await pilot.pause()
-        assert "g.mm" in screen_text(app) and app.units == METRIC
+        assert "g·mm" in screen_text(app) and app.units == METRIC
         await pilot.press("f8")
         await pilot.pause()
         app.clear_notifications()
         await pilot.pause()
         text = screen_text(app)
         assert app.units == IMPERIAL
-        assert "oz.in" in text and "g.mm" not in text
+        assert "oz·in" in text and "g·mm" not in text
         footer = text.splitlines()[-1]
         assert "f8 Units" in footer and "f1 Help" in footer and "^q Quit" in footer  # all keys within 80 columns
         await pilot.press("f2")
@@ -129,4 +129,4 @@ def test_help_says_where_the_units_switch_is_and_that_the_job_stays_metric() -> 
     from runtrue.tui.screens.help import help_text
 
     text = " ".join(help_text().split())
-    assert "F8 on the machine screen" in text and "oz, in, oz.in" in text and "stay metric" in text
+    assert "F8 on the machine screen" in text and "oz, in, oz·in" in text and "stay metric" in text

@@ -45,7 +45,6 @@ async def test_whole_job_on_the_simulator_meets_the_grade(scenario: str, seed: i
                 split_seen = True
             await key(pilot, "r")
             await wait_until(pilot, lambda: screen_name(app) == "LiveScreen", what="live readings")
-            await key(pilot, "a")  # take the reading by itself once it has settled
             await wait_until(pilot, lambda: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
             await wait_until(pilot, lambda: screen_name(app) != "LiveScreen", what="back from live")
         await wait_until(pilot, lambda: screen_name(app) == "ResultScreen", what="result")
@@ -65,3 +64,43 @@ async def test_whole_job_on_the_simulator_meets_the_grade(scenario: str, seed: i
             assert abs(ch.after) < 0.3 * abs(ch.before)
         await key(pilot, "h")
         await wait_until(pilot, lambda: bool(list(tmp_path.glob("*.html"))), what="report written")
+
+
+async def test_a_one_plane_job_with_the_fitting_list_takes_at_most_twelve_keys(tmp_path: Path) -> None:
+    """The technician's way on the simulated fan: n (machine), F2 (start), r (reference, taken
+    when steady), then for each run f (fitting list), Space per item (ticks and moves down), r
+    (run, taken when steady); y where a weight over the force limit must be confirmed."""
+    app = make_app("sim:fan", seed=7, realtime=False, revs_per_reading=24, post_interval_s=0.05,
+                   report_dir=str(tmp_path), max_revs_per_s=400, store_path=str(tmp_path / "db.sqlite"))
+    keys: list[str] = []
+
+    async def press(name: str) -> None:
+        keys.append(name)
+        await key(pilot, name)
+
+    async with app.run_test(size=(80, 24)) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="simulator connected")
+        await press("n")
+        await wait_until(pilot, lambda: screen_name(app) == "MachineScreen", what="machine screen")
+        await press("f2")
+        await wait_until(pilot, lambda: screen_name(app) == "RunsScreen", what="job started")
+        job = app.session.job
+        await press("r")
+        await wait_until(pilot, lambda: len(job.runs) == 1, timeout_s=30, what="reference taken")
+        for _ in range(4):
+            await wait_until(pilot, lambda: screen_name(app) in ("RunsScreen", "ResultScreen"), what="back")
+            if screen_name(app) == "ResultScreen":
+                break
+            n_runs = len(job.runs)
+            await press("f")
+            await wait_until(pilot, lambda: hasattr(app.screen, "items"), what="fitting list")
+            for _item in app.screen.items:
+                await press("space")
+            await press("r")
+            await pilot.pause(0.2)
+            if screen_name(app) == "ConfirmDialog":
+                await press("y")
+            await wait_until(pilot, lambda: len(job.runs) > n_runs, timeout_s=30, what="run taken")
+        await wait_until(pilot, lambda: screen_name(app) == "ResultScreen", what="result")
+        assert job.result().passed is True
+        assert len(keys) <= 12, keys

@@ -1,6 +1,7 @@
 """Exports of a job's runs: CSV (one row per run and pickup) and JSON (everything, with conventions).
 
-Conventions in both: amplitude is the 1x peak in g; phase is a lag in degrees of rotation after
+Conventions in both: amplitude ``amp_g`` is the 1x acceleration peak in units of standard
+gravity (g pk, not grams), ``amp_mm_s_rms`` the same as velocity RMS at the run's speed; phase is a lag in degrees of rotation after
 the reference mark (0-360); weight angles are from the reference mark against rotation; planes
 and pickups are numbered from 1.
 """
@@ -12,11 +13,12 @@ import io
 from typing import Any
 
 from runtrue.jobs.model import ANGLE_CONVENTION
+from runtrue.jobs.numbers import VIB_MM_S_RMS, vib_value
 from runtrue.jobs.store import JobStore
 
 CSV_COLUMNS = (
     "job_id", "run", "kind", "taken_at", "speed_rpm", "speed_sd_rpm", "n_revs", "source",
-    "pickup", "pickup_label", "amp_g", "phase_deg", "spread_g", "confidence_g", "weights",
+    "pickup", "pickup_label", "amp_g", "phase_deg", "spread_g", "confidence_g", "weights", "amp_mm_s_rms",
 )
 
 
@@ -48,7 +50,7 @@ def runs_csv(store: JobStore, job_id: int) -> str:
                 job_id, run.seq, run.kind, run.taken_at, f"{rd.speed_rpm:.2f}", f"{rd.speed_sd_rpm:.2f}",
                 rd.n_revs, rd.source, i + 1, labels[i] if i < len(labels) else "",
                 f"{ch.amp_g:.6g}", f"{ch.phase_deg:.2f}" if rd.has_phase else "", f"{ch.spread_g:.6g}", f"{ch.confidence_g:.6g}",
-                weights_text(run.weights),
+                weights_text(run.weights), f"{vib_value(ch.amp_g, rd.speed_rpm, VIB_MM_S_RMS):.6g}",
             ])
     return buf.getvalue()
 
@@ -78,7 +80,7 @@ def job_json(store: JobStore, job_id: int) -> dict[str, Any]:
         "format": "runtrue job",
         "format_version": 1,
         "conventions": {
-            "amplitude": "1x peak, g",
+            "amplitude": "1x acceleration peak in units of standard gravity (g pk, not grams)",
             "phase": "lag in degrees of rotation after the reference mark, 0-360",
             "weight_angle": "degrees from the reference mark, against the direction of rotation",
             "rotation": "seen from the drive end",

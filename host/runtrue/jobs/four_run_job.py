@@ -45,6 +45,7 @@ import math
 from typing import Any
 
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunRecord, Weight
+from runtrue.jobs.numbers import force_text, mass_text, unbalance_text
 from runtrue.jobs.store import JobStore
 from runtrue.jobs.workflow import (
     DEFAULT_MAX_TRIM_RUNS,
@@ -55,6 +56,7 @@ from runtrue.jobs.workflow import (
     JobResult,
     TrialCheck,
     _plane_sums,
+    _start_weights_options,
     parse_grade,
 )
 
@@ -124,6 +126,7 @@ class AmplitudeOnlyJob(BalanceJob):
         self._cycle_base = 0  # index in self.runs of the current cycle's reference run
         self._checks: dict[int, tuple[int, float, float | None]] = {}  # check run seq -> (pickup, |H|, its sd)
         self._user_trial: tuple[int, Weight] | None = None  # (cycle, trial chosen by the user)
+        self._early_larger: Weight | None = None  # suggested after a weak-looking trial run 1
         super().__init__(store, job_id, machine, options)
         self.state.method = METHOD
 
@@ -136,6 +139,7 @@ class AmplitudeOnlyJob(BalanceJob):
         trial_removed: bool = True,
         use_stored_influence: bool | None = None,
         max_trim_runs: int = DEFAULT_MAX_TRIM_RUNS,
+        weights_at_start: Any = (),
     ) -> AmplitudeOnlyJob:
         if machine.n_planes != 1:
             raise ValueError(
@@ -156,6 +160,7 @@ class AmplitudeOnlyJob(BalanceJob):
             "max_trim_runs": int(max_trim_runs),
             "amplitude_only": True,
             "method": METHOD,
+            **_start_weights_options(machine, list(weights_at_start), False),
         }
         job_id = store.new_job(machine, options)
         return cls(store, job_id, machine, options)
@@ -177,7 +182,9 @@ class AmplitudeOnlyJob(BalanceJob):
                 "Chalk or paint a mark on the rotor and call it 0°: any point will do"
                 + self._holes_words()
                 + ". Every angle in this job is measured from that mark, against the direction of rotation.",
-                f"Reference run: run {m.name} at its working speed ({speed}) as found, with no weights added.",
+                f"Reference run: run {m.name} at its working speed ({speed}), "
+                + (f"with the {len(self._weights_at_start)} weight(s) left by the last job still on and nothing added."
+                   if self._weights_at_start else "as found, with no weights added."),
                 "Stand clear of the plane of rotation when starting up; never exceed the rated speed.",
                 "Take the reading (amplitude) when it has settled.",
                 ANGLE_CONVENTION,
@@ -187,8 +194,15 @@ class AmplitudeOnlyJob(BalanceJob):
             t = s.trial
             assert t is not None and s.trial_number is not None
             if s.message:
-                out.append(s.message)
+                out.insert(0, s.message)  # the verdict on the last run comes first
             k = s.trial_number
+            head_at = 1 if s.message and ("SMALL" in s.message or "GOOD" in s.message) else 0
+            force = force_text(self._force_n(t))
+            if k == 1:
+                out.insert(head_at, f"Fit {mass_text(t.mass_g)} at {self._where(t)} from the chalk mark - secure it "
+                                    f"for {force} - then r.")
+            else:
+                out.insert(head_at, f"Move the trial weight to {self._where(t)} - secure it for {force} - then r.")
             out.append(f"Four-run cycle {s.cycle}, trial run {k} of 3: stop the machine and lock it out.")
             if s.cycle > 1 and k == 1:
                 out.append(
@@ -211,8 +225,7 @@ class AmplitudeOnlyJob(BalanceJob):
                 "The three trial angles of this cycle: " + ", ".join(f"{a:.1f}°" for a in s.trial_angles_deg)
                 + " (the positions closest to 0°, 120° and 240° from the first one)."
             )
-            out.append(m.angle_direction_words())
-            out.append(f"Secure it for {self._force_n(t):.0f} N at {speed}.")
+            out.append(m.angle_direction_words(1))
             out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
             out.append(ANGLE_CONVENTION)
             return out
@@ -228,17 +241,19 @@ class AmplitudeOnlyJob(BalanceJob):
         r = self.result()
         if r.residual_unbalance_gmm:
             out.append(
-                f"Residual unbalance ≈ {r.residual_unbalance_gmm[0]:.3g} g·mm, estimated from the amplitude and the "
-                f"four-run influence magnitude (no phase); permissible {r.permissible_unbalance_gmm[0]:.3g} g·mm."
+                f"Residual unbalance about {unbalance_text(r.residual_unbalance_gmm[0])}, estimated from the amplitude "
+                f"alone (no phase); permissible {unbalance_text(r.permissible_unbalance_gmm[0])}."
             )
         return out + base
 
-    def set_trial(self, mass_g: float, angle_deg: float, radius_mm: float | None = None) -> Weight:
+    def set_trial(
+        self, mass_g: float, angle_deg: float, radius_mm: float | None = None, *, confirm_over_limit: bool = False
+    ) -> Weight:
         """Use this trial weight (mass, first angle from the chalk mark, radius) for the cycle;
         only before its first trial run (the three angles follow from the first)."""
-        if self.state.step == "trial" and self.state.trial_number != 1:
+        if self.state.step == "trial" and self.state.trial_number != 1 and self.early_larger_trial is None:
             raise ValueError("the trial weight can be changed only before the first trial run of a cycle")
-        return super().set_trial(mass_g, angle_deg, radius_mm)
+        return super().set_trial(mass_g, angle_deg, radius_mm, confirm_over_limit=confirm_over_limit)
 
     # -- results ---------------------------------------------------------------------------------
     def result(self) -> JobResult:
@@ -322,7 +337,10 @@ class AmplitudeOnlyJob(BalanceJob):
             k = s.trial_number or 1
             if k < 3:
                 self._set_trial_number(k + 1)
+                if k == 1:
+                    self._judge_first_trial(run)
             else:
+                self._early_larger = None
                 self._check_cycle()
             return
         # The check run after a correction.
@@ -348,9 +366,9 @@ class AmplitudeOnlyJob(BalanceJob):
             return
         self._start_cycle(len(self.runs) - 1, s.cycle + 1)
         s.message = (
-            f"Check run: residual unbalance ≈ {residual[0]:.3g} g·mm ± {unc[0]:.2g} (estimated from the "
-            f"amplitude and |H| = {h_mag:.3g} g per g·mm, without phase), {residual[0] / perm:.1f} times the "
-            f"permissible {perm:.3g} g·mm: not passed. Trimming by the amplitude-only method is not standard; "
+            f"Check run: residual unbalance about {unbalance_text(residual[0])} ± {unbalance_text(unc[0])} "
+            f"(estimated from the amplitude alone, without phase), {residual[0] / perm:.1f} times the "
+            f"permissible {unbalance_text(perm)}: not passed. Trimming by the amplitude-only method is not standard; "
             "another four-run cycle starts from the corrected state (this run is its reference), or stop the job here."
         )
 
@@ -365,11 +383,20 @@ class AmplitudeOnlyJob(BalanceJob):
         spec = m.planes[0]
         ref = self.runs[base]
         message = ""
+        capped_note = ""
         user = self._user_trial[1] if self._user_trial and self._user_trial[0] == cycle and previous is None else None
         if user is not None:
             mass, angle = user.mass_g, user.angle_deg
         elif previous is not None:
             mass, angle = previous.mass_g * scale, previous.angle_deg
+            limit_mass = self._limit_mass_g(spec.radius_mm)
+            if mass > limit_mass:
+                capped_note = (
+                    f"A trial of {mass:.3g} g would be needed, but that pulls {mass / limit_mass:.1f} times the "
+                    f"{self.force_limit_n:.3g} N force limit: the suggestion stays at {max(limit_mass, previous.mass_g):.3g} g. "
+                    "Average longer, or choose a larger trial with w and confirm its force."
+                )
+                mass = max(limit_mass, previous.mass_g)
         elif cycle > 1 and self._checks:
             pick, h_mag, _sd = self._checks[ref.seq] if ref.seq in self._checks else next(reversed(self._checks.values()))
             first = next((w for r in self.runs for w in r.weights if self._is_trial(w)), None)
@@ -389,13 +416,16 @@ class AmplitudeOnlyJob(BalanceJob):
             sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=1,
                                        grade=parse_grade(m.grade))
             mass, angle = float(sug.mass_g), None
-            message = str(getattr(sug, "rule", ""))
+            message = (f"Trial weight sized to move the reading clearly (common practice) and kept under the "
+                       f"{force_text(self.force_limit_n)} force limit.")
         staying = [w for w in ref.weights if not self._is_trial(w)]
         if user is not None:
             trial = Weight(1, user.mass_g, user.angle_deg, user.radius_mm, "trial weight, plane 1")
         else:
-            trial = fitting.trial_weight(
-                m, 1, mass, angle, [p for w in staying for p in w.pieces], at_least=previous is not None
+            in_use = [p for w in staying for p in w.pieces]
+            trial = self._within_force_limit(
+                lambda mass_g, at_least: fitting.trial_weight(m, 1, mass_g, angle, in_use, at_least=at_least),
+                mass, at_least=previous is not None and not capped_note,
             )
         angles = three_trial_angles_deg(m, 1, trial.angle_deg)
         s = self.state
@@ -409,6 +439,50 @@ class AmplitudeOnlyJob(BalanceJob):
         s.trial = trial
         if message:
             s.message = message
+        self._capped_note = capped_note
+
+    def _judge_first_trial(self, run: RunRecord) -> None:
+        """After trial run 1, the trade's early look: the amplitude change is a lower bound on the
+        trial's effect (|A1 - A0| <= |H T|), so a change of MIN_TRIAL_EFFECT_FRACTION or more
+        proves the trial large enough; a smaller change may be a small trial or one placed near
+        90 degrees from the heavy spot - the user may fit a larger one now instead of two more runs."""
+        from runtrue.balancing.four_run import MIN_TRIAL_EFFECT_FRACTION
+
+        from runtrue.jobs.workflow import trial_change_words
+
+        s = self.state
+        ref = self.runs[self._cycle_base]
+        pick = max(range(self.machine.n_pickups), key=lambda i: ref.reading.channels[i].amp_g)
+        a0, a1 = ref.reading.channels[pick].amp_g, run.reading.channels[pick].amp_g
+        if a0 <= 0:
+            return
+        frac = abs(a1 - a0) / a0
+        pct = (a1 / a0 - 1.0) * 100.0
+        words = f"{self.machine.pickup_name(pick)}: {trial_change_words(pct, 0.0, with_phase=False)}"
+        self._early_larger = None
+        if frac >= MIN_TRIAL_EFFECT_FRACTION:
+            s.message = f"Trial run 1 GOOD - {words}: the trial is large enough; go on with trial run 2."
+            return
+        t = s.trial
+        assert t is not None
+        scale = min(4.0, 1.2 * MIN_TRIAL_EFFECT_FRACTION / max(frac, 0.05))
+        mass = t.mass_g * scale
+        limit_mass = self._limit_mass_g(t.radius_mm)
+        held = ""
+        if mass > limit_mass:
+            mass = max(limit_mass, t.mass_g)
+            held = f" (held at the {self.force_limit_n:.3g} N force limit)"
+        self._early_larger = Weight(1, round(mass, 1), t.angle_deg, t.radius_mm, "trial weight, plane 1")
+        s.message = (
+            f"Trial run 1 SMALL SO FAR - {words}. The trial may be too small, or sit near 90° from the heavy "
+            f"spot. Fit {mass:.3g} g instead{held} now (w; the run taken is kept), or go on with trial run 2."
+        )
+
+    @property
+    def early_larger_trial(self) -> Weight | None:
+        """After a weak-looking trial run 1: the larger trial to fit instead (None otherwise)."""
+        s = self.state
+        return self._early_larger if s.step == "trial" and s.trial_number == 2 else None
 
     def _set_trial_number(self, k: int) -> None:
         s = self.state
@@ -456,6 +530,8 @@ class AmplitudeOnlyJob(BalanceJob):
             f"The trial weight was too small to trust: {msg}. Take the three trial runs again with this larger "
             "trial weight (the runs already taken are kept in the solution), or accept the weak trial."
         )
+        if self._capped_note:
+            s.message += " " + self._capped_note
 
     def _after_trial_accepted(self, plane: int) -> None:
         self._enter_correction("correction" if self.state.cycle <= 1 else "trim")
@@ -468,6 +544,7 @@ class AmplitudeOnlyJob(BalanceJob):
                 return
             angles = three_trial_angles_deg(self.machine, 1, w.angle_deg)
             self._user_trial = (s.cycle, w)
+            self._early_larger = None
             s.trial_number = 1
             s.trial_angles_deg = angles
             s.trial = w

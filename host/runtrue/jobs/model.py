@@ -26,6 +26,13 @@ from dataclasses import dataclass, field
 from typing import Any, Literal, Sequence
 
 Rotation = Literal["cw", "ccw"]
+#: Where the fitter stands to look at a correction plane: at the drive end, looking along the
+#: shaft towards the rotor, or at the far end (an overhung fan's inlet, a roll's far plane),
+#: looking back towards the drive.  Seen from the far end the rotation reverses.
+VIEW_SIDES: tuple[str, ...] = ("drive", "far")
+VIEW_SIDE_WORDS = {"drive": "from the drive end", "far": "from the far end"}
+#: How a machine is balanced: with a reference mark (phase) or without one (amplitude only).
+METHODS: tuple[str, ...] = ("mark", "no mark")
 RunKind = Literal["reference", "trial", "correction", "trim"]
 RUN_KINDS: tuple[str, ...] = ("reference", "trial", "correction", "trim")
 
@@ -71,8 +78,11 @@ class PlaneSpec:
     excluded: list[int] = field(default_factory=list)
     max_pieces_per_position: int | None = None
     max_mass_per_position_g: float | None = None
+    view_side: str = "drive"  # where the fitter stands to see this plane: "drive" end or the "far" end
 
     def __post_init__(self) -> None:
+        if self.view_side not in VIEW_SIDES:
+            raise ValueError(f"view side must be one of {', '.join(VIEW_SIDES)}, got {self.view_side!r}")
         kinds = (self.count is not None) + (self.angles_deg is not None) + bool(self.continuous)
         if kinds == 0:
             self.continuous = True  # nothing said: any angle
@@ -130,6 +140,7 @@ class PlaneSpec:
             "excluded": list(self.excluded),
             "max_pieces_per_position": self.max_pieces_per_position,
             "max_mass_per_position_g": self.max_mass_per_position_g,
+            "view_side": self.view_side,
         }
 
     @classmethod
@@ -144,6 +155,7 @@ class PlaneSpec:
             excluded=[int(n) for n in d.get("excluded", [])],
             max_pieces_per_position=d.get("max_pieces_per_position"),
             max_mass_per_position_g=d.get("max_mass_per_position_g"),
+            view_side=str(d.get("view_side", "drive")),
         )
 
 
@@ -247,8 +259,20 @@ class Machine:
     influence: StoredInfluence | None = None
     notes: str = ""
     id: int | None = None
+    rated_speed_rpm: float | None = None  # the most the rotor, wheel or machine may run at (maker's plate)
+    method: str = "mark"  # "mark" (reference mark, phase) or "no mark" (amplitude only), remembered
 
     def __post_init__(self) -> None:
+        if self.rated_speed_rpm is not None:
+            if not (self.rated_speed_rpm > 0 and math.isfinite(self.rated_speed_rpm)):
+                raise ValueError(f"rated speed must be a positive number of rpm, got {self.rated_speed_rpm!r}")
+            if self.speed_rpm > self.rated_speed_rpm:
+                raise ValueError(
+                    f"the running speed {self.speed_rpm:g} rpm is above the rated speed {self.rated_speed_rpm:g} rpm: "
+                    "balance at or below the rated speed"
+                )
+        if self.method not in METHODS:
+            raise ValueError(f"method must be one of {', '.join(METHODS)}, got {self.method!r}")
         if not self.name.strip():
             raise ValueError("a machine needs a name")
         if not (self.rotor_mass_kg > 0 and math.isfinite(self.rotor_mass_kg)):
@@ -270,13 +294,34 @@ class Machine:
     def n_pickups(self) -> int:
         return len(self.pickups)
 
-    def angle_direction_words(self) -> str:
-        """How to count weight angles on this machine, in words a fitter can follow."""
-        way = "counter-clockwise" if self.rotation == "cw" else "clockwise"
-        turn = "clockwise" if self.rotation == "cw" else "counter-clockwise"
+    def plane_name(self, plane: int) -> str:
+        """The name of correction plane ``plane`` (1-based) as the user gave it, else "plane N"."""
+        name = self.planes[plane - 1].name.strip() if 1 <= plane <= self.n_planes else ""
+        return name or f"plane {plane}"
+
+    def pickup_name(self, index: int) -> str:
+        """The label of pickup ``index`` (0-based) as the user gave it, else "pickup N"."""
+        label = self.pickups[index].label.strip() if 0 <= index < self.n_pickups else ""
+        return label if label and label != str(index + 1) else f"pickup {index + 1}"
+
+    def turns_seen_from(self, plane: int) -> str:
+        """"cw" or "ccw": the rotation as seen by someone looking at ``plane`` from its view side."""
+        side = self.planes[plane - 1].view_side if 1 <= plane <= self.n_planes else "drive"
+        if side == "drive":
+            return self.rotation
+        return "ccw" if self.rotation == "cw" else "cw"
+
+    def angle_direction_words(self, plane: int | None = None) -> str:
+        """How to count weight angles on this machine, in words a fitter can follow; for
+        ``plane``, as seen from the end the fitter stands at for it."""
+        rotation = self.turns_seen_from(plane) if plane is not None else self.rotation
+        side = VIEW_SIDE_WORDS[self.planes[plane - 1].view_side] if plane is not None and 1 <= plane <= self.n_planes \
+            else VIEW_SIDE_WORDS["drive"]
+        way = "counter-clockwise" if rotation == "cw" else "clockwise"
+        turn = "clockwise" if rotation == "cw" else "counter-clockwise"
         return (
-            f"The rotor turns {turn} seen from the drive end; count weight angles {way} "
-            "(against rotation) from the reference mark, seen from the drive end."
+            f"Seen {side}, the rotor turns {turn}: count weight angles {way} "
+            "(against the direction of rotation) from the reference mark."
         )
 
     def to_dict(self) -> dict[str, Any]:
@@ -292,6 +337,8 @@ class Machine:
             "strip": self.strip.to_dict() if self.strip else None,
             "influence": self.influence.to_dict() if self.influence else None,
             "notes": self.notes,
+            "rated_speed_rpm": self.rated_speed_rpm,
+            "method": self.method,
         }
 
     @classmethod
@@ -309,6 +356,8 @@ class Machine:
             influence=StoredInfluence.from_dict(d["influence"]) if d.get("influence") else None,
             notes=str(d.get("notes", "")),
             id=id,
+            rated_speed_rpm=float(d["rated_speed_rpm"]) if d.get("rated_speed_rpm") is not None else None,
+            method=str(d.get("method", "mark")),
         )
 
 

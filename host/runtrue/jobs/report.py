@@ -16,6 +16,18 @@ from typing import Any
 
 from runtrue import __version__
 from runtrue.jobs.model import ANGLE_CONVENTION, RunRecord
+from runtrue.jobs.numbers import (
+    DEFAULT_VIB_UNIT,
+    angle_text,
+    force_text,
+    grade_row,
+    local_time_text,
+    mass_text,
+    percent_change_text,
+    phase_text,
+    unbalance_text,
+    vib_number,
+)
 from runtrue.jobs.store import JobStore, now_iso
 from runtrue.jobs.workflow import CAUTIONS, STANDARD, BalanceJob, JobResult
 
@@ -59,7 +71,7 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
     """An inline SVG polar diagram of one pickup's 1x vector in every run.
 
     0° (the reference mark) at the top; phase lag increases clockwise on the page; the radius
-    is the 1x amplitude in g.  Reference and last run are drawn as arrows, the others as dots,
+    is the 1x acceleration amplitude in g peak (the meter's own unit; the tables convert).  Reference and last run are drawn as arrows, the others as dots,
     each labelled with its run number and circled by its 95 % confidence radius.
     """
     c = size_px / 2.0
@@ -75,7 +87,7 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
         rr = r_px * k / 4
         parts.append(f'<circle cx="{c:.1f}" cy="{c:.1f}" r="{rr:.1f}" fill="none" stroke="#ccc"/>')
         parts.append(
-            f'<text x="{c + 3:.1f}" y="{c - rr + 11:.1f}" font-size="9" fill="#666">{full * k / 4:.3g} g</text>'
+            f'<text x="{c + 3:.1f}" y="{c - rr + 11:.1f}" font-size="9" fill="#666">{full * k / 4:.3g} g pk</text>'
         )
     for deg in range(0, 360, 30):
         a = math.radians(deg)
@@ -104,13 +116,101 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
             parts.append(
                 f'<line x1="{c:.1f}" y1="{c:.1f}" x2="{x:.1f}" y2="{y:.1f}" stroke="{colour}" '
                 f'stroke-width="2" marker-end="url(#ah-{pickup}-{run.kind})"><title>run {run.seq} ({run.kind}): '
-                f"{amp:.4g} g at {ph:.0f}°</title></line>"
+                f"{amp:.3g} g pk at {ph:.0f}°</title></line>"
             )
         else:
             parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3.5" fill="{colour}"/>')
         parts.append(f'<text x="{x + 5:.1f}" y="{y - 4:.1f}" font-size="10" fill="{colour}">{run.seq}</text>')
     parts.append("</svg>")
     return "".join(parts)
+
+
+def _details_table(store: JobStore, job_id: int) -> list[str]:
+    details = report_details(store, job_id)
+    rows = [(label, details[key]) for key, label in REPORT_FIELDS if details[key]]
+    if not rows:
+        return []
+    return ['<table id="details">'] + [
+        f'<tr><th class="l">{_e(label)}</th><td class="l">{_e(value)}</td></tr>' for label, value in rows
+    ] + ["</table>"]
+
+
+def _side_words(machine: Any, plane: int) -> str:
+    return "from the far end" if machine.planes[plane - 1].view_side == "far" else "from the drive end"
+
+
+def position_number(machine: Any, plane: int, angle_deg: float) -> int | None:
+    """The 1-based position at ``angle_deg`` in ``plane`` (None in a groove or between positions)."""
+    angles = machine.planes[plane - 1].position_angles_deg()
+    if angles is None:
+        return None
+    for n, a in enumerate(angles, start=1):
+        if abs((a - angle_deg + 180.0) % 360.0 - 180.0) < 1e-6:
+            return n
+    return None
+
+
+def position_sketch_svg(machine: Any, plane: int, weights: list[Any], size_px: int = 240, mark: str = "mark") -> str:
+    """An inline SVG of one correction plane as the fitter sees it from the plane's view side:
+    the reference mark at the top, the rotation arrow, every position numbered, the weights as
+    filled dots with their mass.  Weight angles are counted from the mark against rotation."""
+    c = size_px / 2.0
+    r = c - 40.0
+    turns = machine.turns_seen_from(plane)
+
+    def xy(angle_deg: float, rr: float) -> tuple[float, float]:
+        screen = (-angle_deg if turns == "cw" else angle_deg) % 360.0  # clockwise from the top
+        a = math.radians(screen)
+        return c + rr * math.sin(a), c - rr * math.cos(a)
+
+    parts = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="{size_px}" height="{size_px}" viewBox="0 0 {size_px} '
+        f'{size_px}" role="img" aria-label="positions of plane {plane}">',
+        f'<circle cx="{c:.1f}" cy="{c:.1f}" r="{r:.1f}" fill="none" stroke="#888"/>',
+        f'<line x1="{c:.1f}" y1="{c - r - 14:.1f}" x2="{c:.1f}" y2="{c - r + 6:.1f}" stroke="#b23a3a" stroke-width="3"/>',
+        f'<text x="{c:.1f}" y="{c - r - 18:.1f}" font-size="10" text-anchor="middle" fill="#b23a3a">{_e(mark)}</text>',
+        f'<text x="4" y="14" font-size="10" fill="#444">turns {"clockwise" if turns == "cw" else "counter-clockwise"}</text>',
+    ]
+    for n, a in enumerate(machine.planes[plane - 1].position_angles_deg() or [], start=1):
+        x, y = xy(a, r)
+        tx, ty = xy(a, r + 13)
+        parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3" fill="#fff" stroke="#555"/>')
+        parts.append(f'<text x="{tx:.1f}" y="{ty + 3:.1f}" font-size="9" text-anchor="middle" fill="#555">{n}</text>')
+    for w in weights:
+        x, y = xy(w.angle_deg, r)
+        lx, ly = xy(w.angle_deg, r - 18)
+        parts.append(f'<circle cx="{x:.1f}" cy="{y:.1f}" r="6" fill="#1f5fa8"/>')
+        parts.append(f'<text x="{lx:.1f}" y="{ly + 3:.1f}" font-size="9" text-anchor="middle" fill="#1f5fa8">'
+                     f"{_e(mass_text(w.mass_g))}</text>")
+    parts.append("</svg>")
+    return "".join(parts)
+
+
+#: What the technician adds to a report: (key, label).  Kept with the job as a recorded decision
+#: ("report_details" event), so no database change is needed and the latest entry wins.
+REPORT_FIELDS: tuple[tuple[str, str], ...] = (
+    ("technician", "Technician"),
+    ("site", "Site"),
+    ("asset", "Asset tag"),
+    ("work_order", "Work order"),
+    ("notes", "Notes"),
+)
+
+
+def report_details(store: JobStore, job_id: int) -> dict[str, str]:
+    """The report fields last saved for ``job_id`` (empty strings when none)."""
+    out = {key: "" for key, _ in REPORT_FIELDS}
+    for e in store.events(job_id):
+        if e.kind == "report_details":
+            out.update({k: str(v) for k, v in e.data.items() if k in out})
+    return out
+
+
+def save_report_details(store: JobStore, job_id: int, details: dict[str, str]) -> None:
+    """Record the report fields for ``job_id`` (each a line of text)."""
+    data = {key: " ".join(str(details.get(key, "")).split())[:200] for key, _ in REPORT_FIELDS}
+    data["n_runs"] = len(store.runs(job_id))  # type: ignore[assignment]
+    store.add_event(job_id, "report_details", data)
 
 
 def _verdict(result: JobResult) -> tuple[str, str]:
@@ -121,9 +221,11 @@ def _verdict(result: JobResult) -> tuple[str, str]:
     return "open", "NOT CHECKED: no correction run yet"
 
 
-def render_html(store: JobStore, job_id: int) -> str:
-    """The report of job ``job_id`` as a complete HTML document (UTF-8 text)."""
-    from runtrue.balancing import centrifugal_force_n, convert_1x
+def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) -> str:
+    """The report of job ``job_id`` as a complete HTML document (UTF-8 text).  Vibration is
+    printed in ``vib_unit`` (default mm/s rms), every number through ``runtrue.jobs.numbers``
+    so the report shows the digits the screens show."""
+    from runtrue.balancing import centrifugal_force_n
 
     rec = store.get_job(job_id)
     if rec is None:
@@ -144,8 +246,11 @@ def render_html(store: JobStore, job_id: int) -> str:
     if no_phase:
         method = ("Method: amplitude-only balancing (four-run method: a reference run and one trial weight "
                   "at three angles per cycle); no reference mark, phase not used.")
-    else:
+    elif any(r.kind == "trial" for r in runs):
         method = ("Method: influence-coefficient balancing with trial weights (least squares over every run), "
+                  "1x amplitude and phase from a reference mark.")
+    else:
+        method = (f"Method: influence-coefficient balancing without trial runs; coefficients {res.influence_source}; "
                   "1x amplitude and phase from a reference mark.")
     out: list[str] = [
         "<!DOCTYPE html>",
@@ -153,9 +258,11 @@ def render_html(store: JobStore, job_id: int) -> str:
         f"<title>Balancing report: {_e(m.name)} (job {job_id})</title>",
         f"<style>{_CSS}</style></head><body>",
         f"<h1>Balancing report: {_e(m.name)}</h1>",
-        f'<p>Job {job_id}; started {_e(rec.started_at)}; finished {_e(rec.finished_at or "not finished")}; '
-        f"report written {_e(now_iso())}.</p>",
+        f'<p>Job {job_id}; started {_e(local_time_text(rec.started_at))}; '
+        f'finished {_e(local_time_text(rec.finished_at) or "not finished")}; '
+        f"report written {_e(local_time_text(now_iso()))} (local time).</p>",
         f'<p class="verdict {cls}" id="verdict">{_e(verdict)}</p>',
+        *_details_table(store, job_id),
         f'<p id="method">{_e(method)}</p>',
     ]
     # Machine
@@ -164,54 +271,55 @@ def render_html(store: JobStore, job_id: int) -> str:
         f'<tr><th class="l">Name</th><td class="l">{_e(m.name)}</td></tr>',
         f'<tr><th class="l">Rotor mass</th><td class="l">{m.rotor_mass_kg:g} kg</td></tr>',
         f'<tr><th class="l">Running speed</th><td class="l">{m.speed_rpm:g} rpm</td></tr>',
+        f'<tr><th class="l">Rated speed</th><td class="l">'
+        f'{f"{m.rated_speed_rpm:g} rpm" if m.rated_speed_rpm is not None else "not given"}</td></tr>',
         f'<tr><th class="l">Rotation</th><td class="l">{"clockwise" if m.rotation == "cw" else "counter-clockwise"}'
         " seen from the drive end</td></tr>",
         f'<tr><th class="l">Balance quality grade</th><td class="l">{_e(m.grade)} ({STANDARD})</td></tr>',
     ]
     for i, p in enumerate(m.planes, start=1):
-        out.append(f'<tr><th class="l">Correction plane {i}</th><td class="l">{_e(p.describe())}</td></tr>')
+        out.append(f'<tr><th class="l">Correction plane {i}: {_e(m.plane_name(i))}</th><td class="l">'
+                   f'{_e(p.describe())}; seen {"from the far end" if p.view_side == "far" else "from the drive end"}</td></tr>')
     for i, pk in enumerate(m.pickups, start=1):
-        out.append(f'<tr><th class="l">Pickup {i}</th><td class="l">{_e(pk.label)}</td></tr>')
+        out.append(f'<tr><th class="l">Pickup {i}</th><td class="l">{_e(m.pickup_name(i - 1))}</td></tr>')
     out.append("</table>")
     if m.notes:
         out.append(f'<p class="note">{_e(m.notes)}</p>')
     # Conventions
     out += [
         '<h2 id="conventions">Conventions</h2><ul>',
-        "<li>Vibration: 1x (once per revolution) component, peak acceleration in g.</li>",
+        f"<li>Vibration: 1x (once per revolution) component in {_e(vib_unit)} at each run's measured speed "
+        "(the meter measures acceleration; velocity = acceleration / ω, rms = peak / √2).</li>",
         "<li>Phase: not used (amplitude-only method).</li>" if no_phase else
         "<li>Phase: lag in degrees of rotation after the reference mark, 0-360.</li>",
         "<li>Weight angles: degrees from a mark chalked on the rotor as 0°, measured against the direction of "
         "rotation.</li>" if no_phase else
         "<li>Weight angles: degrees from the reference mark, measured against the direction of rotation.</li>",
         f"<li>{_e(directions)}</li>",
-        "<li>Unbalance: mass x radius, g·mm.  Planes and pickups are numbered from 1.</li>",
+        "<li>Unbalance: mass x radius, g·mm. Masses in grams.</li>",
         "</ul>",
     ]
     # Before / after
     out += [
         '<h2 id="before-after">Before and after</h2><table>',
-        '<tr><th class="l">Pickup</th><th>Before (g)</th><th>Phase</th><th>After (g)</th><th>Phase</th>'
-        "<th>Reduction</th><th>Before (mm/s)</th><th>After (mm/s)</th></tr>",
+        f'<tr><th class="l">Pickup</th><th>Before ({_e(vib_unit)})</th><th>Phase</th><th>After ({_e(vib_unit)})</th>'
+        "<th>Phase</th><th>Change</th></tr>",
     ]
-    ref_speed = next((r.reading.speed_rpm for r in runs if r.kind == "reference"), m.speed_rpm)
-    last_speed = runs[-1].reading.speed_rpm if runs else m.speed_rpm
+    before_speed = res.before_speed_rpm or m.speed_rpm
+    after_speed = res.after_speed_rpm or m.speed_rpm
     for i, ch in enumerate(res.channels, start=1):
         ba, bp = _amp_phase(ch.before)
-        bv = abs(convert_1x(ch.before, "g", "mm/s", ref_speed))
+        bps = "-" if no_phase else phase_text(bp)
         if ch.after is not None:
             aa, ap = _amp_phase(ch.after)
-            av = abs(convert_1x(ch.after, "g", "mm/s", last_speed))
-            red = f"{100.0 * (1 - aa / ba):.0f} %" if ba > 0 else "-"
-            aps = "-" if no_phase else f"{ap:.0f}°"
-            after = f"<td>{aa:.4g}</td><td>{aps}</td><td>{red}</td><td>{bv:.3g}</td><td>{av:.3g}</td>"
+            aps = "-" if no_phase else phase_text(ap)
+            after = (f"<td>{vib_number(aa, after_speed, vib_unit)}</td><td>{aps}</td>"
+                     f"<td>{percent_change_text(ba, aa) or '-'}</td>")
         else:
-            after = f"<td>-</td><td>-</td><td>-</td><td>{bv:.3g}</td><td>-</td>"
-        bps = "-" if no_phase else f"{bp:.0f}°"
-        out.append(f'<tr><td class="l">{i}: {_e(ch.label)}</td><td>{ba:.4g}</td><td>{bps}</td>{after}</tr>')
+            after = "<td>-</td><td>-</td><td>-</td>"
+        out.append(f'<tr><td class="l">{i}: {_e(ch.label)}</td><td>{vib_number(ba, before_speed, vib_unit)}</td>'
+                   f"<td>{bps}</td>{after}</tr>")
     out.append("</table>")
-    out.append('<p class="note">Velocity (mm/s, 1x peak) is the acceleration integrated at the run\'s speed: '
-               "v = a / ω.</p>")
     # Polar diagrams
     if runs and no_phase:
         out.append('<h2 id="polar">Polar diagram</h2><p class="note">None: the amplitude-only method measures no '
@@ -236,21 +344,24 @@ def render_html(store: JobStore, job_id: int) -> str:
     )
     if res.tolerance_rule:
         out.append(f'<p class="note">{_e(res.tolerance_rule)}</p>')
-    out.append('<table><tr><th class="l">Plane</th><th>Residual (g·mm), estimated</th><th>± (95 %)</th>'
-               "<th>Permissible (g·mm)</th><th>Ratio</th><th>Result</th></tr>")
+    out.append('<table><tr><th class="l">Plane</th><th>Residual, estimated</th><th>± (95 %)</th>'
+               "<th>Permissible</th><th>Ratio</th><th>Result</th></tr>")
     residual = res.residual_unbalance_gmm or []
     unc = res.residual_uncertainty_gmm or [0.0] * len(residual)
     for i, perm in enumerate(res.permissible_unbalance_gmm, start=1):
+        name = _e(m.plane_name(i)) if len(res.permissible_unbalance_gmm) == m.n_planes else str(i)
         if i <= len(residual):
-            r, u = residual[i - 1], unc[i - 1]
-            ok = r + u <= perm
-            out.append(f'<tr><td class="l">{i}</td><td>{r:.4g}</td><td>{u:.2g}</td><td>{perm:.4g}</td>'
-                       f'<td>{r / perm:.2f}</td><td>{"pass" if ok else "fail"}</td></tr>')
+            row = grade_row(residual[i - 1], unc[i - 1], perm)
+            out.append(f'<tr><td class="l">{name}</td><td>{row["residual"]}</td><td>{row["uncertainty"]}</td>'
+                       f'<td>{row["permissible"]}</td><td>{row["ratio"]}</td><td>{row["verdict"]}</td></tr>')
         else:
-            out.append(f'<tr><td class="l">{i}</td><td>-</td><td>-</td><td>{perm:.4g}</td><td>-</td><td>-</td></tr>')
+            out.append(f'<tr><td class="l">{name}</td><td>-</td><td>-</td><td>{unbalance_text(perm)}</td>'
+                       "<td>-</td><td>-</td></tr>")
     out.append("</table>")
+    out.append('<p class="note">Ratio: (residual + its 95 % uncertainty) / permissible; a plane passes at 1.00x '
+               "or less.</p>")
     if no_phase:
-        h = f" (|H| = {res.influence_magnitude:.4g} g per g·mm)" if res.influence_magnitude else ""
+        h = ""
         out.append(
             '<p class="note">The residual unbalance is an estimate without phase: the last check run\'s amplitude '
             f"divided by the influence magnitude |H| that its four-run cycle found{_e(h)}; it cannot tell "
@@ -264,39 +375,59 @@ def render_html(store: JobStore, job_id: int) -> str:
             "reading's scatter. A plane passes when the residual plus that uncertainty is within the "
             "permissible value.</p>"
         )
-    # Weights fitted
-    out += ['<h2 id="weights">Weights fitted</h2>']
+        out.append(f'<p id="coefficients">Influence coefficients: {_e(res.influence_source)}.</p>')
+    # What is on the rotor at the end
+    out += ['<h2 id="weights">On the rotor at the end</h2>']
+    if res.weights_at_start:
+        out.append("<p>At the start of this job these weights were already on the rotor (left by an earlier job "
+                   "and confirmed by the technician): "
+                   + _e("; ".join(f"{m.plane_name(w.plane)}: {mass_text(w.mass_g)} at {angle_text(w.angle_deg)}"
+                                  for w in res.weights_at_start)) + ".</p>")
     if res.weights_on:
-        out.append('<table><tr><th class="l">Plane</th><th class="l">What</th><th>Mass (g)</th>'
-                   "<th>Angle</th><th>Radius (mm)</th><th>Force at speed (N)</th></tr>")
+        out.append('<table><tr><th class="l">Plane</th><th>Position</th><th>Angle</th><th>Mass</th>'
+                   '<th>Radius (mm)</th><th class="l">What</th><th>Force at speed</th></tr>')
         for w in res.weights_on:
             f_n = centrifugal_force_n(w.mass_g, w.radius_mm, m.speed_rpm)
-            what = w.label + (f" ({' + '.join(f'{p:g} g' for p in w.pieces)})" if w.pieces else "")
+            what = w.label + (f" ({' + '.join(mass_text(p) for p in w.pieces)})" if w.pieces else "")
+            pos = position_number(m, w.plane, w.angle_deg)
             out.append(
-                f'<tr><td class="l">{w.plane}</td><td class="l">{_e(what)}</td><td>{w.mass_g:.4g}</td>'
-                f"<td>{w.angle_deg:.1f}°</td><td>{w.radius_mm:g}</td><td>{f_n:.0f}</td></tr>"
+                f'<tr><td class="l">{_e(m.plane_name(w.plane))}</td><td>{pos if pos is not None else "-"}</td>'
+                f"<td>{angle_text(w.angle_deg)}</td><td>{mass_text(w.mass_g)}</td><td>{w.radius_mm:g}</td>"
+                f'<td class="l">{_e(what)}</td><td>{force_text(f_n)}</td></tr>'
             )
         out.append("</table>")
         out.append('<p class="note">Force: centrifugal force F = m·r·ω² at the running speed; every weight must '
                    "be secured to hold it with margin.</p>")
+        for plane in sorted({w.plane for w in res.weights_on}):
+            mark = "chalk mark" if no_phase else "reference mark"
+            sketch = position_sketch_svg(m, plane, [w for w in res.weights_on if w.plane == plane],
+                                         mark="chalk" if no_phase else "mark")
+            out.append(f"<figure>{sketch}"
+                       f"<figcaption>{_e(m.plane_name(plane))}, seen {_e(_side_words(m, plane))}: {mark} at "
+                       "the top, positions numbered, the weights on the rotor at the end as filled dots.</figcaption>"
+                       "</figure>")
     else:
         out.append("<p>No weights are on the rotor.</p>")
     # Run log
     out += ['<h2 id="runs">Runs</h2><table><tr><th>Run</th><th class="l">Kind</th><th class="l">Taken</th>'
             "<th>Speed (rpm)</th>"]
     for i in range(m.n_pickups):
-        out.append(f"<th>Pickup {i + 1} (g)</th>" if no_phase else f"<th>Pickup {i + 1} (g @ lag)</th>")
+        out.append(f"<th>{_e(m.pickup_name(i))} ({_e(vib_unit)})</th>" if no_phase else
+                   f"<th>{_e(m.pickup_name(i))} ({_e(vib_unit)} @ lag)</th>")
     out.append('<th class="l">Weights on (relative to the reference run)</th></tr>')
     from runtrue.jobs.export import weights_text
 
     for run in runs:
+        sp = run.reading.speed_rpm
         cells = "".join(
-            f"<td>{ch.amp_g:.4g} ± {ch.confidence_g:.2g}</td>" if no_phase else
-            f"<td>{ch.amp_g:.4g} @ {ch.phase_deg:.0f}° ± {ch.confidence_g:.2g}</td>" for ch in run.reading.channels
+            f"<td>{vib_number(ch.amp_g, sp, vib_unit)} ± {vib_number(ch.confidence_g, sp, vib_unit)}</td>" if no_phase
+            else f"<td>{vib_number(ch.amp_g, sp, vib_unit)} @ {phase_text(ch.phase_deg)} ± "
+            f"{vib_number(ch.confidence_g, sp, vib_unit)}</td>"
+            for ch in run.reading.channels
         )
         out.append(
-            f'<tr><td>{run.seq}</td><td class="l">{_e(run.kind)}</td><td class="l">{_e(run.taken_at)}</td>'
-            f'<td>{run.reading.speed_rpm:.0f}</td>{cells}<td class="l">{_e(weights_text(run.weights)) or "none"}</td></tr>'
+            f'<tr><td>{run.seq}</td><td class="l">{_e(run.kind)}</td><td class="l">{_e(local_time_text(run.taken_at))}</td>'
+            f'<td>{sp:.0f}</td>{cells}<td class="l">{_e(weights_text(run.weights)) or "none"}</td></tr>'
         )
     out.append("</table>")
     out.append('<p class="note">± is the 95 % confidence radius of each reading.</p>')

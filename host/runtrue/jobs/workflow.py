@@ -37,6 +37,7 @@ from dataclasses import dataclass, field, replace
 from typing import Any, Sequence
 
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunReading, RunRecord, StoredInfluence, Weight
+from runtrue.jobs.numbers import force_text, mass_text
 from runtrue.jobs.store import JobStore, now_iso
 
 STANDARD = "ISO 21940-11"
@@ -51,6 +52,117 @@ CAUTIONS: tuple[str, ...] = (
     "Stand clear of the plane of rotation when starting up; keep guards in place.",
     "Follow the machine maker's instructions, local codes and licensed practice; they take precedence.",
 )
+
+
+def force_limit_n(machine: Machine) -> float:
+    """The largest centrifugal force a weight may pull with before the user must confirm it:
+    ``TRIAL_FORCE_CAP_FRACTION`` (30 %) of the rotor's weight share per plane, in newtons."""
+    from runtrue.balancing.trial import STANDARD_GRAVITY_M_S2, TRIAL_FORCE_CAP_FRACTION
+
+    return TRIAL_FORCE_CAP_FRACTION * machine.rotor_mass_kg * STANDARD_GRAVITY_M_S2 / machine.n_planes
+
+
+def force_limit_basis(machine: Machine) -> str:
+    """The limit and where it comes from, in one sentence (said once where it matters)."""
+    from runtrue.balancing.trial import TRIAL_FORCE_CAP_FRACTION
+
+    per_plane = " per plane" if machine.n_planes > 1 else ""
+    return (
+        f"Force limit {force_limit_n(machine):.3g} N: {TRIAL_FORCE_CAP_FRACTION * 100:.0f} % of the rotor's weight{per_plane}. "
+        "This is runtrue's own figure, not from a standard (common practice sizes a trial weight near 10 %); "
+        "a weight above it needs your confirmation."
+    )
+
+
+def _start_weights_options(machine: Machine, weights: Sequence[Weight], combine: bool) -> dict[str, Any]:
+    """Job options for weights already on the rotor when the job starts (left by an earlier job)."""
+    out: dict[str, Any] = {}
+    for w in weights:
+        if not 1 <= w.plane <= machine.n_planes:
+            raise ValueError(f"a weight left on is in plane {w.plane}, but {machine.name!r} has {machine.n_planes} plane(s)")
+    if weights:
+        out["weights_at_start"] = [w.to_dict() for w in weights]
+        out["combine_at_start"] = bool(combine)
+    return out
+
+
+def weights_left_on(store: JobStore, machine: Machine) -> tuple[int, str, list[Weight]] | None:
+    """What the latest earlier job on ``machine`` left on the rotor: (job id, when it ended, the
+    weights, relative to the rotor as found before any job), or None (no earlier job with weights)."""
+    if machine.id is None:
+        return None
+    jobs = [j for j in store.machine_history(machine.id) if j.n_runs > 0]
+    if not jobs:
+        return None
+    last = max(jobs, key=lambda j: j.id)
+    runs = store.runs(last.id)
+    weights = list(runs[-1].weights) if runs else []
+    if not weights:
+        return None
+    return last.id, last.finished_at or runs[-1].taken_at, weights
+
+
+class ForceLimitExceeded(ValueError):
+    """A weight would pull with more than the force limit; the user must confirm it first."""
+
+    def __init__(self, weight: Weight, force_n: float, limit_n: float) -> None:
+        self.weight = weight
+        self.force_n = force_n
+        self.limit_n = limit_n
+        self.multiple = force_n / limit_n if limit_n > 0 else math.inf
+        super().__init__(
+            f"{weight.mass_g:.3g} g at radius {weight.radius_mm:g} mm pulls with {force_n:.0f} N at speed, "
+            f"{self.multiple:.1f} times the {limit_n:.3g} N force limit: confirm it to go on"
+        )
+
+
+class OverSpeed(ValueError):
+    """A run's measured speed is above the machine's rated speed; the user must confirm it."""
+
+    def __init__(self, speed_rpm: float, rated_rpm: float) -> None:
+        self.speed_rpm = speed_rpm
+        self.rated_rpm = rated_rpm
+        super().__init__(
+            f"the run was at {speed_rpm:.0f} rpm, above the rated {rated_rpm:g} rpm of the machine: "
+            "stop it now; record the run only if the maker allows this speed"
+        )
+
+
+@dataclass(frozen=True)
+class ForceCheck:
+    """A weight to fit for the next run, its force at running speed and the multiple of the limit."""
+
+    weight: Weight
+    force_n: float
+    limit_n: float
+
+    @property
+    def multiple(self) -> float:
+        return self.force_n / self.limit_n if self.limit_n > 0 else math.inf
+
+
+#: The trade's rule for a trial run worth using (common practice, no standard): the trial moves
+#: the 1x amplitude by at least 30 % or its phase by at least 30 degrees.
+TRIAL_GOOD_CHANGE_PCT = 30.0
+TRIAL_GOOD_CHANGE_DEG = 30.0
+
+
+def trial_change(before: complex, after: complex) -> tuple[float, float]:
+    """(amplitude change in percent, phase change in degrees, -180..180) from one run to the next."""
+    pct = (abs(after) / abs(before) - 1.0) * 100.0 if abs(before) > 0 else math.inf
+    if abs(before) == 0 or abs(after) == 0:
+        return pct, 0.0
+    deg = (math.degrees(math.atan2(after.imag, after.real) - math.atan2(before.imag, before.real)) + 180.0) % 360.0 - 180.0
+    return pct, deg
+
+
+def trial_change_words(pct: float, deg: float, with_phase: bool = True) -> str:
+    """``amplitude +35 %, phase +42°`` and whether that meets the common-practice rule."""
+    big = abs(pct) >= TRIAL_GOOD_CHANGE_PCT or (with_phase and abs(deg) >= TRIAL_GOOD_CHANGE_DEG)
+    text = f"amplitude {pct:+.0f} %" + (f", phase {deg:+.0f}°" if with_phase else "")
+    rule = (f"at least {TRIAL_GOOD_CHANGE_PCT:.0f} % or {TRIAL_GOOD_CHANGE_DEG:.0f}° (common practice)" if with_phase
+            else f"at least {TRIAL_GOOD_CHANGE_PCT:.0f} % (common practice)")
+    return f"{text}; {'meets' if big else 'under'} the usual {rule}"
 
 
 def parse_grade(grade: str | float) -> float:
@@ -160,11 +272,19 @@ class JobResult:
     residual_uncertainty_gmm: list[float] | None = None
     method: str = "influence-coefficient"
     influence_magnitude: float | None = None
+    before_speed_rpm: float | None = None  # measured speed of the reference run
+    after_speed_rpm: float | None = None  # measured speed of the last correction or trim run
+    influence_source: str = ""  # where the coefficients came from, in words
+    weights_at_start: list[Weight] = field(default_factory=list)  # left on by an earlier job
 
     def to_dict(self) -> dict[str, Any]:
         extra: dict[str, Any] = {"method": self.method}
         if self.influence_magnitude is not None:
             extra["influence_magnitude_g_per_gmm"] = self.influence_magnitude
+        extra["influence_source"] = self.influence_source
+        extra["before_speed_rpm"] = self.before_speed_rpm
+        extra["after_speed_rpm"] = self.after_speed_rpm
+        extra["weights_at_start"] = [w.to_dict() for w in self.weights_at_start]
         return {
             "job_id": self.job_id,
             "machine": self.machine_name,
@@ -237,6 +357,9 @@ class BalanceJob:
         self._tolerance = self._make_tolerance()
         self._replaying = False  # True while resume() rebuilds the state: nothing is written then
         self._plan_pending: str | None = None
+        self._capped_note = ""  # set when a larger trial is held back by the force limit
+        self._confirmed_forces: dict[int, set[tuple[int, float, float, float]]] = {}  # n_runs -> weights
+        self._weights_at_start: list[Weight] = [Weight.from_dict(d) for d in options.get("weights_at_start", [])]
         self._enter_reference()
 
     # -- creating and resuming --------------------------------------------------------------------
@@ -250,6 +373,8 @@ class BalanceJob:
         use_stored_influence: bool | None = None,
         max_trim_runs: int = DEFAULT_MAX_TRIM_RUNS,
         amplitude_only: bool = False,
+        weights_at_start: Sequence[Weight] = (),
+        combine_at_start: bool = False,
     ) -> BalanceJob:
         """Start and record a new job on ``machine`` (saved or not).
 
@@ -262,7 +387,7 @@ class BalanceJob:
 
             return AmplitudeOnlyJob.start_new(
                 store, machine, trial_removed=trial_removed, use_stored_influence=use_stored_influence,
-                max_trim_runs=max_trim_runs,
+                max_trim_runs=max_trim_runs, weights_at_start=weights_at_start,
             )
         if use_stored_influence is None:
             use_stored_influence = machine.influence is not None
@@ -280,6 +405,7 @@ class BalanceJob:
             "trial_removed": bool(trial_removed),
             "use_stored_influence": bool(use_stored_influence),
             "max_trim_runs": int(max_trim_runs),
+            **_start_weights_options(machine, weights_at_start, combine_at_start),
         }
         job_id = store.new_job(machine, options)
         return cls(store, job_id, machine, options)
@@ -328,7 +454,7 @@ class BalanceJob:
     def planned_weights(self) -> list[Weight]:
         """Every weight that should be on the rotor (relative to the reference state) for the next run."""
         s = self.state
-        on = list(self.runs[-1].weights) if self.runs else []
+        on = list(self.runs[-1].weights) if self.runs else list(self._weights_at_start)
         if s.step == "reference" or s.step == "done":
             return on
         if s.step == "trial":
@@ -353,8 +479,11 @@ class BalanceJob:
         if s.message:
             out.append(s.message)
         if s.step == "reference":
+            left = self._weights_at_start
+            as_found = (f"with the {len(left)} weight(s) left by the last job still on and nothing added" if left
+                        else "as found, with no weights added")
             out += [
-                f"Reference run: run {m.name} at its working speed ({speed}) as found, with no weights added.",
+                f"Reference run: run {m.name} at its working speed ({speed}), {as_found}.",
                 "Stand clear of the plane of rotation when starting up; never exceed the rated speed.",
                 "Take the reading when it has settled.",
             ]
@@ -363,20 +492,20 @@ class BalanceJob:
         elif s.step == "trial":
             t = s.trial
             assert t is not None and s.plane is not None
-            out.append(f"Trial run for plane {s.plane}: stop the machine and lock it out.")
+            pos = _position_number(m, s.plane, t.angle_deg)
+            where = f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
+            verdict_first = 1 if s.message and "TOO SMALL" in s.message else 0
+            out.insert(verdict_first, f"Fit {mass_text(t.mass_g)} at {where} in {m.plane_name(s.plane)}, radius "
+                                      f"{t.radius_mm:g} mm - secure it for {force_text(self._force_n(t))} - then r.")
+            out.append("Stop the machine and lock it out first.")
             removing = self._to_remove_before_trial()
             for w in removing:
-                out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+                out.append(f"Take off the {'trial weight' if self._is_trial(w) else (w.label or 'weight')}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}° "
+                           f"in {m.plane_name(w.plane)}.")
             staying = [w for w in (self.runs[-1].weights if self.runs else ()) if w not in removing]
             if staying:
                 out.append(f"Leave the {len(staying)} weight(s) already fitted where they are.")
-            pos = _position_number(m, s.plane, t.angle_deg)
-            where = f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
-            out.append(
-                f"Fit a trial weight of {t.mass_g:.3g} g in plane {s.plane} at {where}, radius {t.radius_mm:g} mm."
-            )
-            out.append(m.angle_direction_words())
-            out.append(f"Secure it for {self._force_n(t):.0f} N at {speed}.")
+            out.append(m.angle_direction_words(s.plane))
             out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
         elif s.step in ("correction", "trim"):
             plan = s.plan
@@ -385,24 +514,36 @@ class BalanceJob:
                 out.append(f"{what}: no correction could be worked out (see above). Take another run or stop the job.")
                 out.append(ANGLE_CONVENTION)
                 return out
-            out.append(f"{what}: stop the machine and lock it out.")
+            rows = [(pc, row) for pc in plan.planes for row in pc.sheet if getattr(row, "action", "fit") == "fit"]
+            if len(rows) == 1:
+                pc, row = rows[0]
+                at = f"position {row.number} ({row.angle_deg:.1f}°)" if row.number is not None else f"{row.angle_deg:.1f}°"
+                head = (f"Fit {row.what} ({mass_text(row.mass_g)}) at {at} in {m.plane_name(pc.plane)} - "
+                        f"secure for {force_text(row.force_n)} - then r.")
+            else:
+                head = f"{what}: fit the {len(rows)} pieces below (f: the list to tick off), then r."
+            poor = self.poor_prediction()
+            out[0:0] = [poor, head] if poor else [head]
+            out.append(f"{what}: stop the machine and lock it out first.")
             for w in plan.remove:
-                out.append(f"Remove the {w.label or 'weight'}: {w.mass_g:.3g} g at {w.angle_deg:.1f}° in plane {w.plane}.")
+                out.append(f"Take off the {'trial weight' if self._is_trial(w) else (w.label or 'weight')}: {mass_text(w.mass_g)} at {w.angle_deg:.1f}° "
+                           f"in {m.plane_name(w.plane)}.")
             staying = [w for w in (self.runs[-1].weights if self.runs else ()) if w not in plan.remove]
             if staying:
                 out.append(f"Leave the {len(staying)} weight(s) already fitted where they are; add:")
             for pc in plan.planes:
                 c = pc.correction
                 out.append(
-                    f"Plane {pc.plane}: the correction is {c.mass_g:.3g} g at {c.angle_deg:.1f}°, radius {c.radius_mm:g} mm."
+                    f"{m.plane_name(pc.plane)}: the correction is {mass_text(c.mass_g)} at {c.angle_deg:.1f}°, "
+                    f"radius {c.radius_mm:g} mm."
                 )
                 for row in pc.sheet:
                     at = f"position {row.number} " if row.number is not None else ""
                     out.append(
                         f"  Fit {row.what} at {at}{row.angle_deg:.1f}°, radius {row.radius_mm:g} mm "
-                        f"({row.mass_g:.3g} g, secure for {row.force_n:.0f} N)."
+                        f"({mass_text(row.mass_g)}, secure for {force_text(row.force_n)})."
                     )
-            out.append(m.angle_direction_words())
+                out.append(m.angle_direction_words(pc.plane))
             out.append(f"Stand clear, start up, run at {speed} (never above the rated speed) and take the reading.")
         else:
             r = self.result()
@@ -410,11 +551,15 @@ class BalanceJob:
                 out.append(f"Done: residual unbalance within {r.grade} ({STANDARD}). Remove the meter and tape; refit the guards.")
             else:
                 out.append("Stopped before the grade was met. The runs so far are kept with the job.")
-        out.append(ANGLE_CONVENTION)
+        if s.step not in ("trial", "correction", "trim"):  # those say how to count angles for their plane
+            out.append(ANGLE_CONVENTION)
         return out
 
     # -- recording -------------------------------------------------------------------------------
-    def record_run(self, reading: Any, weights_present: Sequence[Weight] | None = None, note: str = "") -> RunRecord:
+    def record_run(
+        self, reading: Any, weights_present: Sequence[Weight] | None = None, note: str = "",
+        *, over_speed_confirmed: bool = False,
+    ) -> RunRecord:
         """Record a taken reading for the current step (written to the store first), then advance.
 
         ``reading``: a ``runtrue.readings.Reading`` or a :class:`RunReading`; its channels must
@@ -433,6 +578,11 @@ class BalanceJob:
                 raise ValueError(f"pickup {i}: the reading is not a number; take the reading again")
         if not (rr.speed_rpm > 0 and math.isfinite(rr.speed_rpm)):
             raise ValueError("the reading has no valid speed; check the reference sensor and take it again")
+        rated = self.machine.rated_speed_rpm
+        if rated is not None and rr.speed_rpm > rated and not over_speed_confirmed:
+            raise OverSpeed(rr.speed_rpm, rated)
+        if rated is not None and rr.speed_rpm > rated:
+            note = (note + " " if note else "") + f"recorded above the rated speed ({rr.speed_rpm:.0f} > {rated:g} rpm), confirmed by the user"
         for w in weights_present or ():
             if not 1 <= w.plane <= self.machine.n_planes:
                 raise ValueError(f"weight in plane {w.plane}, but the machine has {self.machine.n_planes} plane(s)")
@@ -444,19 +594,80 @@ class BalanceJob:
         self._apply_run(run)
         return run
 
-    def set_trial(self, mass_g: float, angle_deg: float, radius_mm: float | None = None) -> Weight:
-        """Use this trial weight instead of the suggestion (recorded)."""
+    def set_trial(
+        self, mass_g: float, angle_deg: float, radius_mm: float | None = None, *, confirm_over_limit: bool = False
+    ) -> Weight:
+        """Use this trial weight instead of the suggestion (recorded).  A weight pulling with more
+        than the force limit raises :class:`ForceLimitExceeded` unless ``confirm_over_limit``."""
         s = self.state
         if s.step != "trial" or s.plane is None:
             raise ValueError("a trial weight can be chosen only at a trial step")
         if not (mass_g > 0 and math.isfinite(mass_g)):
             raise ValueError("the trial mass must be a positive number of grams")
         radius = radius_mm if radius_mm is not None else self.machine.planes[s.plane - 1].radius_mm
+        candidate = Weight(s.plane, mass_g, angle_deg % 360.0, radius, f"trial weight, plane {s.plane}")
+        force, limit = self._force_n(candidate), self.force_limit_n
+        if force > limit and not confirm_over_limit:
+            raise ForceLimitExceeded(candidate, force, limit)
         data = {"plane": s.plane, "mass_g": mass_g, "angle_deg": angle_deg % 360.0, "radius_mm": radius}
         self.store.add_event(self.job_id, "trial_set", {**data, "n_runs": len(self.runs)})
         self._apply_event("trial_set", data)
+        if force > limit:
+            self.confirm_forces()
         assert self.state.trial is not None
         return self.state.trial
+
+    def poor_prediction(self) -> str:
+        """When the pieces to fit cannot bring a plane within its permissible unbalance: what
+        they leave and what to do; empty when the plan is predicted to pass."""
+        plan = self.state.plan
+        if plan is None or self.state.step not in ("correction", "trim"):
+            return ""
+        short = [(pc, self._plane_permissible(pc.plane)) for pc in plan.planes]
+        short = [(pc, perm) for pc, perm in short if pc.residual_gmm > perm]
+        if not short:
+            return ""
+        from runtrue.jobs.numbers import unbalance_text
+
+        parts = "; ".join(f"{self.machine.plane_name(pc.plane)} {unbalance_text(pc.residual_gmm)} "
+                          f"(allowed {unbalance_text(perm)})" for pc, perm in short)
+        return (f"PREDICTED NOT TO PASS: the pieces available leave {parts}. Add weights of other sizes to the "
+                "stock (machine screen), allow more pieces per position, or fit these and trim afterwards.")
+
+    # -- the force limit ----------------------------------------------------------------------------
+    @property
+    def force_limit_n(self) -> float:
+        return force_limit_n(self.machine)
+
+    def weights_over_limit(self) -> list[ForceCheck]:
+        """Weights to fit for the next run whose force at running speed exceeds the force limit."""
+        on = list(self.runs[-1].weights) if self.runs else list(self._weights_at_start)
+        rest = list(on)
+        add = []
+        for w in self.planned_weights():
+            if w in rest:
+                rest.remove(w)
+            else:
+                add.append(w)
+        limit = self.force_limit_n
+        return [ForceCheck(w, self._force_n(w), limit) for w in add if self._force_n(w) > limit]
+
+    @property
+    def forces_confirmed(self) -> bool:
+        """True when no weight for the next run is over the limit, or the user confirmed them."""
+        over = self.weights_over_limit()
+        if not over:
+            return True
+        keys = self._confirmed_forces.get(len(self.runs), set())
+        return all(_weight_key(c.weight) in keys for c in over)
+
+    def confirm_forces(self) -> None:
+        """Record that the user saw and confirmed the forces of the weights over the limit."""
+        over = self.weights_over_limit()
+        data = {"weights": [c.weight.to_dict() for c in over], "forces_n": [c.force_n for c in over],
+                "limit_n": self.force_limit_n}
+        self.store.add_event(self.job_id, "forces_confirmed", {**data, "n_runs": len(self.runs)})
+        self._apply_event("forces_confirmed", {**data, "n_runs": len(self.runs)})
 
     def accept_trial_anyway(self) -> None:
         """Go on with a trial whose effect looked too small (recorded; the warning stays)."""
@@ -513,7 +724,26 @@ class BalanceJob:
             warnings=list(self.state.warnings),
             tolerance_rule=str(getattr(tol, "rule", "")),
             residual_uncertainty_gmm=uncertainty,
+            before_speed_rpm=ref.reading.speed_rpm if ref else None,
+            after_speed_rpm=after_run.reading.speed_rpm if after_run else None,
+            influence_source=self.influence_source(),
+            weights_at_start=list(self._weights_at_start),
         )
+
+    def influence_source(self) -> str:
+        """Where the influence coefficients in use came from, in words for the report."""
+        if self._influence is None:
+            return "not known yet (no trial run)"
+        inf = self.machine.influence
+        if self.options.get("use_stored_influence") and inf is not None:
+            trial_runs = [r.seq for r in self.runs if r.kind in ("correction", "trim")]
+            when = inf.measured_at[:10] if inf.measured_at else "an earlier date"
+            head = f"stored from job {inf.job_id} on {when}" if inf.job_id is not None else f"stored on {when}"
+            if len(trial_runs) > 1:
+                return head + ", refitted with the runs of this job"
+            return head
+        seqs = [r.seq for r in self.runs]
+        return f"measured in this job (runs {seqs[0]}-{seqs[-1]})" if len(seqs) > 1 else "measured in this job"
 
     # -- internals: transitions -------------------------------------------------------------------
     def _make_tolerance(self) -> Any:
@@ -526,6 +756,11 @@ class BalanceJob:
         from runtrue.balancing import centrifugal_force_n
 
         return float(centrifugal_force_n(w.mass_g, w.radius_mm, self.machine.speed_rpm))
+
+    def _limit_mass_g(self, radius_mm: float) -> float:
+        """The mass at ``radius_mm`` that pulls exactly the force limit at running speed."""
+        omega = 2 * math.pi * self.machine.speed_rpm / 60.0
+        return self.force_limit_n / ((radius_mm / 1000.0) * omega * omega) * 1000.0
 
     @staticmethod
     def _is_trial(w: Weight) -> bool:
@@ -565,18 +800,50 @@ class BalanceJob:
             sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=m.n_planes,
                                        grade=parse_grade(m.grade))
             mass = float(sug.mass_g)
-            self.state.message = str(getattr(sug, "rule", ""))
+            self.state.message = (
+                f"Trial weight sized to move the reading clearly (common practice) and kept under the "
+                f"{force_text(self.force_limit_n)} force limit."
+            )
             angle = None
         else:
             mass = previous.mass_g * scale
             angle = previous.angle_deg
+            self._capped_note = ""
+            limit_mass = self._limit_mass_g(spec.radius_mm)
+            if mass > limit_mass:
+                needed = mass
+                mass = max(limit_mass, previous.mass_g)
+                self._capped_note = (
+                    f"A trial of {needed:.3g} g would be needed, but that pulls "
+                    f"{needed / limit_mass:.1f} times the {self.force_limit_n:.3g} N force limit: "
+                    f"the suggestion stays at {mass:.3g} g. Average longer (more revolutions), or choose a "
+                    "larger trial with w and confirm its force."
+                )
         on = list(self.runs[-1].weights) if self.runs else []
         staying = [w for w in on if not self._is_trial(w)] if self.options["trial_removed"] else [
             w for w in on if not (self._is_trial(w) and w.plane == plane)
         ]
-        return fitting.trial_weight(
-            m, plane, mass, angle, [p for w in staying for p in w.pieces], at_least=previous is not None
+        capped = previous is not None and bool(self._capped_note)
+        in_use = [p for w in staying for p in w.pieces]
+        return self._within_force_limit(
+            lambda mass_g, at_least: fitting.trial_weight(m, plane, mass_g, angle, in_use, at_least=at_least),
+            mass, at_least=previous is not None and not capped,
         )
+
+    def _within_force_limit(self, make: Any, mass_g: float, at_least: bool) -> Weight:
+        """``make(mass_g, at_least)`` rounds a trial to what the stock can make; when that rounding
+        lands above the force limit (and the wish was not), ask for a little less, a few times."""
+        w = make(mass_g, at_least)
+        limit = self.force_limit_n
+        if self._force_n(Weight(w.plane, mass_g, 0.0, w.radius_mm)) > limit:
+            return w  # asked for more than the limit on purpose: the user confirms it
+        for _ in range(4):
+            force = self._force_n(w)
+            if force <= limit:
+                break
+            mass_g *= 0.97 * limit / force
+            w = make(mass_g, False)
+        return w
 
     def _apply_event(self, kind: str, data: dict[str, Any]) -> None:
         s = self.state
@@ -598,6 +865,9 @@ class BalanceJob:
             self._guarded(lambda: self._after_trial_accepted(plane), "The trial run cannot be used")
         elif kind == "stopped":
             self._finish("stopped", str(data.get("reason", "")))
+        elif kind == "forces_confirmed":
+            keys = self._confirmed_forces.setdefault(int(data.get("n_runs", len(self.runs))), set())
+            keys.update(_weight_key(Weight.from_dict(d)) for d in data.get("weights", []))
 
     def _apply_run(self, run: RunRecord) -> None:
         """Advance on a recorded run.  If the maths refuses (a ``ValueError`` such as
@@ -685,16 +955,27 @@ class BalanceJob:
         assert best is not None
         chk = TrialCheck(plane, bool(best.ok), float(best.ratio), str(best.message), float(best.suggested_scale))
         s.last_trial_check = chk
+        # the pickup the trial moved most, in the trade's terms: percent and degrees
+        moved = max(range(self.machine.n_pickups),
+                    key=lambda i: abs(run.reading.channels[i].mean - base.reading.channels[i].mean))
+        pct, deg = trial_change(base.reading.channels[moved].mean, run.reading.channels[moved].mean)
+        change = f"{self.machine.pickup_name(moved)}: {trial_change_words(pct, deg)}"
         if chk.ok:
             self._accepted[plane] = run
             self._after_trial_accepted(plane)
+            verdict = f"Trial in {self.machine.plane_name(plane)} GOOD - {change}."
+            s.message = verdict + (" " + s.message if s.message else "")
         else:
             prev = trial_ws[0] if trial_ws else s.trial
             self._trial_override.pop(plane, None)
             scale = chk.suggested_scale if math.isfinite(chk.suggested_scale) else 4.0
             # 20 % margin over the bare minimum: the next reading's scatter is random too.
             self._enter_trial(plane, max(scale * 1.2, 1.5), prev)
-            s.message = f"The trial weight in plane {plane} did not change the reading enough to trust: {chk.message}"
+            bigger = f"fit {s.trial.mass_g:.3g} g instead" if s.trial is not None else "fit a larger trial"
+            s.message = (f"Trial in {self.machine.plane_name(plane)} TOO SMALL - {change}; {bigger} and run again. "
+                         f"{chk.message}")
+            if self._capped_note:
+                s.message += " " + self._capped_note
 
     def _baseline_for(self, run: RunRecord, trial_ws: list[Weight]) -> RunRecord:
         """The latest earlier run with the same weights as ``run`` less its trial in this plane."""
@@ -717,7 +998,8 @@ class BalanceJob:
 
         runs = [_engine_run(r) for r in self.runs]
         radii = {i + 1: p.radius_mm for i, p in enumerate(self.machine.planes)}
-        seen = {w.plane for r in self.runs for w in r.weights}
+        first = _plane_sums(self.runs[0].weights)  # weights on in every run (left on) separate nothing
+        seen = {p for r in self.runs for p, u in _plane_sums(r.weights).items() if abs(u - first.get(p, 0j)) > 1e-9}
         missing = [p for p in range(1, self.machine.n_planes + 1) if p not in seen]
         if missing:
             if self._influence is not None:
@@ -766,10 +1048,19 @@ class BalanceJob:
         spreads = [c.spread_g for c in base.reading.channels]
         sol = correction_from_influence(self._influence, base.reading.vector(), radii, spreads=spreads if any(spreads) else None)
         planes = []
+        # Combine: the weights left on by the last job come off, and the correction takes their place.
+        old = [w for w in now if w in self._weights_at_start] if self.options.get("combine_at_start") else []
+        if old and kind == "correction":
+            remove = remove + old
+            now = [w for w in now if w not in old]
+        else:
+            old = []
+        old_sums = _plane_sums(old)
         in_use = [m for w in now for m in w.pieces]
         for w in sol.corrections:
             pc = fitting.plan_plane(
-                self.machine, w.plane, w.unbalance_gmm, kind, s.trims_done + 1, self._plane_permissible(w.plane), in_use
+                self.machine, w.plane, w.unbalance_gmm + old_sums.get(w.plane, 0j), kind, s.trims_done + 1,
+                self._plane_permissible(w.plane), in_use
             )
             in_use += [m for f in pc.fit for m in f.pieces]
             planes.append(pc)
@@ -849,6 +1140,10 @@ def _position_number(machine: Machine, plane: int, angle_deg: float) -> int | No
         if abs((a - angle_deg + 180.0) % 360.0 - 180.0) < 1e-6:
             return n
     return None
+
+
+def _weight_key(w: Weight) -> tuple[int, float, float, float]:
+    return (w.plane, round(w.mass_g, 4), round(w.angle_deg % 360.0, 3), round(w.radius_mm, 3))
 
 
 def _plane_sums(weights: Any) -> dict[int, complex]:

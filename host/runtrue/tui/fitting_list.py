@@ -59,6 +59,8 @@ def fit_items(job: Any, units: str = METRIC) -> list[FitItem]:
     remove = _multiset_minus(on, planned)
     add = _multiset_minus(planned, on)
     speed = job.machine.speed_rpm
+    m = job.machine
+    trial_word = "trial weight"
     sheet_rows: dict[int, list[Any]] = {}
     plan = job.state.plan
     if plan is not None:
@@ -68,8 +70,9 @@ def fit_items(job: Any, units: str = METRIC) -> list[FitItem]:
     for k, w in enumerate(remove):
         items.append(
             FitItem(f"r{k}", w.plane, "x", w.angle_deg, True,
-                    f"TAKE OFF {mass_text(w.mass_g, units)}: {w.label or 'weight'}\n"
-                    f"  plane {w.plane} at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}")
+                    f"TAKE OFF {mass_text(w.mass_g, units)}: "
+                    f"{trial_word if w.label.startswith(trial_word) else (w.label or 'weight')}\n"
+                    f"  {m.plane_name(w.plane)} at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}")
         )
     letters = "ABCDEFGHIJKLMNOPQRSTUVWXYZ"
     used: dict[int, int] = {}
@@ -84,7 +87,7 @@ def fit_items(job: Any, units: str = METRIC) -> list[FitItem]:
         items.append(
             FitItem(f"a{k}", w.plane, letters[k % 26], w.angle_deg, False,
                     f"{letters[k % 26]} FIT {mass_text(w.mass_g, units)}{what}\n"
-                    f"  plane {w.plane} {where}at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}\n"
+                    f"  {m.plane_name(w.plane)} {where}at {w.angle_deg:.1f}{DEG}, r {radius_text(w.radius_mm, units)}\n"
                     f"  secure for {force_text(force, units)}")
         )
     return items

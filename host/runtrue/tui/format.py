@@ -23,14 +23,21 @@ SAFETY_START = (
 )
 
 
-def amp_text(amp_g: float, unit: str = "g") -> str:
-    """Amplitude with 3 significant figures, e.g. ``0.0412 g``."""
+def amp_text(amp_g: float, unit: str = "g pk") -> str:
+    """An acceleration amplitude with 3 significant figures and its detector, e.g.
+    ``0.0412 g pk`` (never a bare "g", which reads as grams)."""
+    from runtrue.jobs.numbers import sig3
+
     if not math.isfinite(amp_g):
         return "---"
-    if amp_g == 0:
-        return f"0 {unit}"
-    digits = max(0, 2 - int(math.floor(math.log10(abs(amp_g)))))
-    return f"{amp_g:.{min(digits, 5)}f} {unit}"
+    return f"{sig3(amp_g, 5)} {unit}"
+
+
+def vib_unit_of(app: object) -> str:
+    """The vibration display unit chosen in the running application (default mm/s rms)."""
+    from runtrue.jobs.numbers import DEFAULT_VIB_UNIT
+
+    return str(getattr(app, "vib_unit", DEFAULT_VIB_UNIT))
 
 
 def phase_text(phase_deg: float) -> str:
@@ -44,17 +51,15 @@ def vector_text(v: complex, unit: str = "g") -> str:
 
 
 def mass_text(mass_g: float) -> str:
-    if mass_g >= 100:
-        return f"{mass_g:.0f} g"
-    if mass_g >= 10:
-        return f"{mass_g:.1f} g"
-    return f"{mass_g:.2f} g"
+    from runtrue.jobs.numbers import mass_text as _mass_text
+
+    return _mass_text(mass_g)
 
 
 def force_text(force_n: float) -> str:
-    if force_n >= 10_000:
-        return f"{force_n / 1000:.1f} kN"
-    return f"{force_n:.0f} N"
+    from runtrue.jobs.numbers import force_text as _force_text
+
+    return _force_text(force_n)
 
 
 def centrifugal_force_n(mass_g: float, radius_mm: float, speed_rpm: float) -> float:

@@ -20,20 +20,25 @@ FIELDS: tuple[tuple[str, str, str], ...] = (
     ("name", "Machine name", "e.g. Boiler-house fan 2"),
     ("mass", "Rotor mass kg", "mass of the rotating part, kg"),
     ("speed", "Running speed rpm", "normal working speed"),
-    ("rotation", "Rotation", "cw or ccw, seen from the drive end"),
-    ("grade", "Grade (ISO)", "e.g. G6.3 (F3 shows typical grades)"),
+    ("rated", "Rated speed rpm", "maker's max (blank: unknown)"),
+    ("rotation", "Rotation", "cw or ccw, from the drive end"),
+    ("grade", "Grade (ISO)", "G6.3 (F3: typical grades)"),
     ("planes", "Planes", "1 or 2 correction planes"),
+    ("p1_name", "Plane 1 name", "e.g. inlet side (optional)"),
+    ("p1_view", "Plane 1 seen from", "drive or far: where you stand"),
     ("p1_radius", "Plane 1 radius mm", "radius where weights sit"),
     ("p1_pos", "Plane 1 positions", "8 | any | 0, 40, 95"),
-    ("p1_first", "Plane 1 first, deg", "deg from mark, against rotation (usually 0)"),
-    ("p1_blocked", "Plane 1 not usable", "position numbers, e.g. 3, 7 (key, full hole)"),
+    ("p1_first", "Plane 1 first, deg", "deg from mark (usually 0)"),
+    ("p1_blocked", "Plane 1 not usable", "position numbers, e.g. 3, 7"),
+    ("p2_name", "Plane 2 name", "(two planes only)"),
+    ("p2_view", "Plane 2 seen from", "drive or far"),
     ("p2_radius", "Plane 2 radius mm", "(two planes only)"),
     ("p2_pos", "Plane 2 positions", "8 | any | 0, 40, 95"),
     ("p2_first", "Plane 2 first, deg", "deg"),
     ("p2_blocked", "Plane 2 not usable", "position numbers"),
-    ("stock", "Stock weights, g", "1x6 2x6 5x4 (g x count) | strip 0.8 (g/mm)"),
-    ("stack", "Pieces per hole", "most pieces stacked at one position (blank: any)"),
-    ("pickups", "Pickups", "labels in channel order, separated by ;"),
+    ("stock", "Stock weights, g", "1x6 2x6 (g x count)|strip 0.8"),
+    ("stack", "Pieces per hole", "most per hole (blank: any)"),
+    ("pickups", "Pickups", "names in channel order: a; b"),
 )
 
 
@@ -108,6 +113,11 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
         raise FormError("name", "give the machine a name you will recognise next time")
     mass = _number(values, "mass", "rotor mass (kg)")
     speed = _number(values, "speed", "running speed (rpm)")
+    rated: float | None = None
+    if values.get("rated", "").strip():
+        rated = _number(values, "rated", "rated speed (rpm)")
+        if speed > rated:
+            raise FormError("speed", f"running speed {speed:g} rpm is above the rated {rated:g} rpm: never run above it")
     rotation = values.get("rotation", "").strip().lower()
     if rotation not in ("cw", "ccw"):
         raise FormError("rotation", "rotation: write cw or ccw, as seen from the drive end")
@@ -129,10 +139,16 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
             first = float(first_text)
         except ValueError:
             raise FormError(f"p{p}_first", f"plane {p} first position: an angle in degrees") from None
+        plane_name = values.get(f"p{p}_name", "").strip()
         try:
-            spec = parse_positions(values.get(f"p{p}_pos", ""), radius, first, f"plane {p}")
+            spec = parse_positions(values.get(f"p{p}_pos", ""), radius, first, plane_name)
         except ValueError as exc:
             raise FormError(f"p{p}_pos", f"plane {p} {exc}") from None
+        view = values.get(f"p{p}_view", "").strip().lower() or "drive"
+        view = {"d": "drive", "drive end": "drive", "f": "far", "far end": "far"}.get(view, view)
+        if view not in ("drive", "far"):
+            raise FormError(f"p{p}_view", f"plane {p} seen from: write drive or far (the end you stand at)")
+        spec.view_side = view
         blocked_text = values.get(f"p{p}_blocked", "").strip()
         if blocked_text:
             try:
@@ -154,7 +170,6 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
                 raise FormError("stack", "pieces per position: at least 1")
         if base is not None and p <= base.n_planes:
             old = base.planes[p - 1]
-            spec.name = old.name or spec.name
             spec.max_mass_per_position_g = old.max_mass_per_position_g
         planes.append(spec)
     try:
@@ -184,6 +199,8 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
             strip=strip,
             notes=notes,
             id=machine_id,
+            rated_speed_rpm=rated,
+            method=base.method if base is not None else "mark",
         )
     except ValueError as exc:
         raise FormError("name", str(exc)) from None
@@ -210,6 +227,7 @@ def fields_from_machine(m: Machine) -> dict[str, str]:
         "name": m.name,
         "mass": f"{m.rotor_mass_kg:g}",
         "speed": f"{m.speed_rpm:g}",
+        "rated": f"{m.rated_speed_rpm:g}" if m.rated_speed_rpm is not None else "",
         "rotation": m.rotation,
         "grade": m.grade,
         "planes": str(m.n_planes),
@@ -221,10 +239,13 @@ def fields_from_machine(m: Machine) -> dict[str, str]:
     stacks = {p.max_pieces_per_position for p in m.planes}
     out["stack"] = str(stacks.pop()) if len(stacks) == 1 and None not in stacks else ""
     for i, p in enumerate(m.planes, start=1):
+        out[f"p{i}_name"] = p.name if p.name != f"plane {i}" else ""
+        out[f"p{i}_view"] = p.view_side
         out[f"p{i}_radius"] = f"{p.radius_mm:g}"
         out[f"p{i}_pos"] = _positions_text(p)
         out[f"p{i}_first"] = f"{p.first_angle_deg:g}"
         out[f"p{i}_blocked"] = ", ".join(str(n) for n in p.excluded)
     for i in range(m.n_planes + 1, 3):
         out[f"p{i}_radius"] = out[f"p{i}_pos"] = out[f"p{i}_first"] = out[f"p{i}_blocked"] = ""
+        out[f"p{i}_name"] = out[f"p{i}_view"] = ""
     return out

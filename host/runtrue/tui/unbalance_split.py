@@ -21,7 +21,7 @@ DOMINANT_RATIO = 2.0
 
 
 def gmm_text(u_gmm: float, units: str = METRIC) -> str:
-    """An unbalance amount without exponent: ``4.56 g.mm``, ``1880 g.mm``, ``12.3 kg.mm`` (or oz.in)."""
+    """An unbalance amount without exponent: ``4.56 g·mm``, ``1880 g·mm``, ``12.3 kg·mm`` (or oz·in)."""
     return unbalance_text(u_gmm, units)
 
 
@@ -36,8 +36,8 @@ def split_kind(static_gmm: complex, couple_gmm: complex) -> str:
 
 
 def static_couple_lines(plan: Any, units: str = METRIC) -> list[str]:
-    """For a plan correcting planes 1 and 2: ``["Correction: mostly static", "static 245 g.mm @
-    30°", "couple ±88 g.mm @ 200°"]``; no lines for anything else (one plane, no plan)."""
+    """For a plan correcting planes 1 and 2: ``["Correction: mostly static", "static 245 g·mm @
+    30°", "couple ±88 g·mm @ 200°"]``; no lines for anything else (one plane, no plan)."""
     if plan is None or len(plan.planes) != 2:
         return []
     from runtrue.balancing import BalancingError

@@ -1,5 +1,5 @@
-"""Display units for masses, radii, unbalance and forces: metric (g, mm, g.mm, N) or imperial
-(oz, in, oz.in, N with lbf in brackets).  Pure functions, no Textual, so every screen formats
+"""Display units for masses, radii, unbalance and forces: metric (g, mm, g·mm, N) or imperial
+(oz, in, oz·in, N with lbf in brackets).  Pure functions, no Textual, so every screen formats
 the same way.  Conversion happens only here, at display: the job, the database and the machine
 form stay metric.
 
@@ -23,7 +23,7 @@ UNIT_SYSTEMS = (METRIC, IMPERIAL)
 N_PER_LBF = 0.45359237 * STANDARD_GRAVITY_M_S2
 
 #: What each system shows, for the one-line notes on the screens.
-UNITS_WORDS = {METRIC: "g, mm, g.mm", IMPERIAL: "oz, in, oz.in"}
+UNITS_WORDS = {METRIC: "g, mm, g\N{MIDDLE DOT}mm", IMPERIAL: "oz, in, oz\N{MIDDLE DOT}in"}
 
 
 def check_units(units: str) -> str:
@@ -65,22 +65,20 @@ def radius_text(radius_mm: float, units: str = METRIC) -> str:
 
 
 def unbalance_text(u_gmm: float, units: str = METRIC) -> str:
-    """An unbalance amount without exponent: ``4.56 g.mm``, ``1880 g.mm``, ``12.3 kg.mm``;
-    imperial ``0.0633 oz.in``, ``2.61 oz.in``, ``1250 oz.in``."""
+    """An unbalance amount without exponent: ``4.56 g·mm``, ``1880 g·mm``, ``12.3 kg·mm``;
+    imperial ``0.0633 oz·in``, ``2.61 oz·in``, ``1250 oz·in``."""
     if check_units(units) == METRIC:
-        if u_gmm >= 10_000:
-            return f"{u_gmm / 1000:.3g} kg.mm"
-        if u_gmm >= 100:
-            return f"{u_gmm:.0f} g.mm"
-        return f"{u_gmm:.3g} g.mm"
+        from runtrue.jobs.numbers import unbalance_text as metric_unbalance_text
+
+        return metric_unbalance_text(u_gmm)
     ozin = gmm_to_ozin(u_gmm)
     if ozin >= 1000:
-        return f"{ozin:.0f} oz.in"
-    return f"{_sig3(ozin)} oz.in"
+        return f"{ozin:.0f} oz\N{MIDDLE DOT}in"
+    return f"{_sig3(ozin)} oz\N{MIDDLE DOT}in"
 
 
 def unbalance_unit(units: str = METRIC) -> str:
-    return "g.mm" if check_units(units) == METRIC else "oz.in"
+    return "g\N{MIDDLE DOT}mm" if check_units(units) == METRIC else "oz\N{MIDDLE DOT}in"
 
 
 def force_text(force_n: float, units: str = METRIC) -> str:

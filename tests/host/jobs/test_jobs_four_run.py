@@ -268,7 +268,7 @@ def test_store_round_trip_resumes_the_same_step(tmp_path: Path, stop_after: int)
         assert finished.result().to_dict() == res.to_dict()
         assert store.get_job(job_id).result["method"] == "four-run"  # type: ignore[union-attr]
         html = render_html(store, job_id)
-        assert "four-run" in html and "phase not used" in html and "<svg" not in html
+        assert "four-run" in html and "phase not used" in html and 'aria-label="polar diagram' not in html
         assert "estimate without phase" in html and "chalk mark" in html and "from the reference mark" not in html
         assert job_json(store, job_id)["job"]["method"] == "four-run"
         saved = store.get_machine(m.name)
@@ -314,3 +314,24 @@ def test_trial_angles_skip_blocked_positions_and_need_three() -> None:
         job.record_run(RunReading.manual([0.3], None, 1500.0))
         assert len(job.runs) == 1 and job.step == "reference", "the run is kept; the job says why it cannot go on"
         assert "three different angles" in job.state.message
+
+
+def test_a_weak_first_trial_run_is_judged_at_once_and_a_larger_trial_can_be_fitted() -> None:
+    """The four-run method needs three trial runs for its answer, but the first already bounds the
+    trial's effect from below: a small change says so after one run, not three."""
+    from runtrue.jobs import BalanceJob, JobStore, Machine, PlaneSpec, RunReading
+
+    with JobStore(":memory:") as store:
+        m = Machine("sander drum", 9.0, 2900.0, [PlaneSpec(110.0, continuous=True)])
+        job = BalanceJob.start(store, m, amplitude_only=True)
+        job.record_run(RunReading.manual([0.50], None, 2900.0))
+        job.record_run(RunReading.manual([0.52], None, 2900.0))  # 4 %: small so far
+        assert job.state.trial_number == 2
+        text = " ".join(job.instructions())
+        assert "SMALL SO FAR" in text and "amplitude +4 %" in text and "common practice" in text
+        larger = job.early_larger_trial
+        assert larger is not None and larger.mass_g > job.runs[1].weights[0].mass_g
+        job.set_trial(larger.mass_g, larger.angle_deg)  # fitted now instead of two more runs
+        assert job.state.trial_number == 1 and job.suggested_trial().mass_g == larger.mass_g
+        job.record_run(RunReading.manual([0.70], None, 2900.0))  # 40 %: large enough
+        assert "GOOD" in " ".join(job.instructions()) and job.early_larger_trial is None

@@ -96,7 +96,7 @@ def test_too_small_trial_is_flagged_and_a_larger_one_suggested(store: JobStore) 
     assert job.step == "trial" and chk is not None and not chk.ok
     bigger = job.suggested_trial()
     assert bigger is not None and bigger.mass_g >= 0.05 * chk.suggested_scale * 0.99
-    assert "did not change the reading enough" in " ".join(job.instructions())
+    assert "TOO SMALL" in " ".join(job.instructions()) and "g instead" in " ".join(job.instructions())
     drive(job, rotor)
     assert job.result().passed is True
     assert [r.kind for r in job.runs][:3] == ["reference", "trial", "trial"]
@@ -164,7 +164,7 @@ def test_every_step_states_the_convention_and_the_cautions(store: JobStore) -> N
         assert "against the direction of rotation" in text
         if job.step != "reference":
             assert "lock it out" in text and "never above the rated speed" in text
-            assert "counter-clockwise (against rotation)" in text
+            assert "counter-clockwise (against the direction of rotation)" in text
             assert re.search(r"secure (it )?for \d+ N", text, re.IGNORECASE)
         job.record_run(rotor.reading(job.planned_weights()))
     assert seen == ["reference", "trial", "correction"]
@@ -295,3 +295,35 @@ def test_nonsense_readings_and_weights_are_refused_before_anything_is_written(st
     with pytest.raises(ValueError, match="mass"):
         job.record_run(RunReading.manual([0.4], [10.0], 1470.0), weights_present=[Weight(1, -3.0, 0.0, 160.0)])
     assert store.runs(job.job_id) == []
+
+
+def test_weights_left_by_the_last_job_are_offered_and_can_stay_or_be_combined(store: JobStore) -> None:
+    """The repeat job on a machine: what the last job left on the rotor is known; kept on, the
+    reference run includes it; combined, the correction replaces it with fewer pieces."""
+    from runtrue.jobs.report import render_html
+    from runtrue.jobs.workflow import weights_left_on
+
+    m = fan(stock=[StockPiece(1.0, 12), StockPiece(2.0, 12), StockPiece(5.0, 8), StockPiece(10.0, 4)])
+    m.id = store.save_machine(m)
+    rotor = LinearRotor(FAN_H, [polar(2400.0, 117.0)], 1470.0)
+    first = BalanceJob.start(store, m)
+    drive(first, rotor)
+    left = weights_left_on(store, m)
+    assert left is not None and left[0] == first.job_id
+    on_rotor = left[2]
+    assert on_rotor == list(first.runs[-1].weights) and on_rotor
+    # the machine later picks up more unbalance elsewhere: the repeat job
+    rotor.u0 = [rotor.u0[0] + polar(900.0, 300.0)]
+    m2 = store.get_machine(m.id)
+    for combine in (False, True):
+        job = BalanceJob.start(store, m2, weights_at_start=on_rotor, combine_at_start=combine)
+        assert "left by the last job still on" in " ".join(job.instructions())
+        assert job.planned_weights() == on_rotor
+        kinds = drive(job, rotor)
+        assert kinds[0] == "reference" and job.result().passed is True
+        assert true_residual_within_grade(m2, rotor, job)
+        first_correction = next(r for r in job.runs if r.kind == "correction")
+        still_on = [w for w in first_correction.weights if w in on_rotor]
+        assert (still_on == []) if combine else (still_on == on_rotor)
+        html = render_html(store, job.job_id)
+        assert "already on the rotor" in html and "On the rotor at the end" in html

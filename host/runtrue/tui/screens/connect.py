@@ -77,7 +77,7 @@ def device_text(info: dict[str, Any]) -> str:
 
 def self_test_text(result: dict[str, Any] | None) -> str:
     if result is None:
-        return "Self-test: press t (spin the machine first so reference pulses are seen)."
+        return "Self-test: press t with the machine running (it checks the tape and the pickup)."
     head = "Self-test PASSED" if result.get("pass") else "Self-test FAILED - see notes"
     lines = [head]
     # Compact for 80x24: the passed checks on one line, each failed one with its value and note
@@ -100,28 +100,48 @@ def self_test_text(result: dict[str, Any] | None) -> str:
 CHECK_S = 2.0  # seconds of revolutions looked at after the self-test
 
 
-def signal_check_text(revs: list[Any]) -> str:
-    """What a couple of seconds of revolutions say about the sensors: reference pulses seen,
-    speed, revolutions flagged (and why), and per channel the RMS left after the 1x and 2x -
-    the noise floor plus everything at other frequencies.  For a DC-free signal the mean square
-    is the sum of each harmonic's (peak^2)/2 and the rest (Parseval's theorem), so
+#: The reference sensor "sees the tape cleanly" when at most this share of revolutions is flagged
+#: (missing or extra pulses, speed jumps) over the check (our choice).
+CLEAN_FLAGGED_SHARE = 0.05
+#: A pickup's signal is usable for balancing when its 1x (peak, per revolution) is at least this
+#: fraction of everything else it measures (rms): vector averaging over a reading's 32
+#: revolutions then lowers the rest by about sqrt(32) = 5.7, leaving the 1x about 3 times above
+#: it (our choice).
+USABLE_1X_TO_REST = 0.5
+
+
+def signal_check_text(revs: list[Any], labels: list[str] | None = None) -> str:
+    """What a couple of seconds of revolutions say about the sensors, in plain words first: does
+    the reference sensor see the tape cleanly, is each pickup's signal usable; then the figures:
+    revolutions, speed, flags with what to do, and per pickup the 1x and the RMS left after the 1x
+    and 2x - the noise floor plus everything at other frequencies.  For a DC-free signal the mean
+    square is the sum of each harmonic's (peak^2)/2 and the rest (Parseval's theorem), so
     rest = sqrt(rms^2 - |1x|^2/2 - |2x|^2/2)."""
+    from runtrue.device.advice import FLAG_ADVICE
+
     if not revs:
-        return "No revolutions seen: is the machine running and the reference sensor aimed at its mark?"
+        return ("Reference sensor: NO PULSES - is the machine running, and is the sensor aimed at the tape "
+                "(LED lights on the tape, off beside it)?")
     flagged: dict[str, int] = {}
     for r in revs:
         for name in getattr(r, "flag_names", []):
             if name.lower() != "first":
                 flagged[name] = flagged.get(name, 0) + 1
     usable = [r for r in revs if r.usable]
-    lines = [f"{len(revs)} revs, {len(usable)} usable"]
+    share = 1.0 - len(usable) / len(revs)
+    lines = []
+    speed = ""
     if usable:
         speeds = [r.speed_rpm for r in usable]
-        lines[0] += f", {sum(speeds) / len(speeds):.0f} rpm ({min(speeds):.0f}-{max(speeds):.0f})"
-    if flagged:
-        lines.append("Flagged: " + ", ".join(f"{k.replace('_', ' ').lower()} {v}" for k, v in sorted(flagged.items())))
+        speed = f", {sum(speeds) / len(speeds):.0f} rpm"
+    clean = share <= CLEAN_FLAGGED_SHARE
+    if clean:
+        lines.append(f"Reference: tape seen cleanly{speed} ({len(usable)}/{len(revs)} revs).")
     else:
-        lines.append("No pulse faults, speed jumps or clipping.")
+        lines.append(f"Reference: NOT CLEAN - {share:.0%} of revolutions flagged{speed}.")
+        for k, v in sorted(flagged.items()):  # what to do about each flag
+            name = k.replace("_", " ").lower()
+            lines.append(f"{name} {v}: {FLAG_ADVICE.get(name, 'see the help')}")
     if usable:
         n_ch = len(usable[-1].h1)
         for i in range(n_ch):
@@ -129,8 +149,11 @@ def signal_check_text(revs: list[Any]) -> str:
             h1 = sum(abs(r.h1[i]) ** 2 for r in usable) / len(usable) / 2
             h2 = sum(abs(r.h2[i]) ** 2 for r in usable) / len(usable) / 2
             rest = max(0.0, ms - h1 - h2) ** 0.5
-            lines.append(f"ch{i + 1}: 1x {amp_text(sum(abs(r.h1[i]) for r in usable) / len(usable))} pk, "
-                         f"rest {amp_text(rest)} rms")
+            one_x = sum(abs(r.h1[i]) for r in usable) / len(usable)
+            name = labels[i] if labels and i < len(labels) else f"pickup {i + 1}"
+            ok = rest == 0 or one_x >= USABLE_1X_TO_REST * rest
+            verdict = "usable" if ok else "WEAK, check its mounting"
+            lines.append(f"{name[:14]}: {verdict} (1x {amp_text(one_x)}, rest {amp_text(rest, 'g rms')})")
     return "\n".join(lines)
 
 
@@ -240,7 +263,9 @@ class ConnectScreen(StepScreen):
         if s.link is not None:
             s.link.stream(False)
         self._checking = False
-        self._check_text = signal_check_text(list(s.live.seen))
+        m = s.machine
+        labels = [m.pickup_name(i) for i in range(m.n_pickups)] if m is not None else None
+        self._check_text = signal_check_text(list(s.live.seen), labels)
         self._update_device()
 
     def action_live(self) -> None:

@@ -2,7 +2,7 @@
 direction of rotation, and a list to tick off as each weight is taken off or fitted.
 
 Convention (said on the screen): angles from the reference mark against rotation; the dial is
-drawn as seen from the drive end.
+drawn as seen from the end the fitter stands at for that plane (machine record).
 """
 
 from __future__ import annotations
@@ -23,9 +23,10 @@ from runtrue.tui.widgets.dial import DialData, FittingDial
 
 
 class FittingScreen(StepScreen):
-    STEP = "5 Fitting"
+    STEP = "4 Fitting"
     BINDINGS = [
-        Binding("space", "tick", "Tick off / untick"),
+        Binding("space", "tick", "Tick off"),
+        Binding("r", "run", "Reading"),
         Binding("p", "plane", "Next plane"),
         Binding("escape", "back", "Back to runs"),
         Binding("f1", "app.help", "Help"),
@@ -53,15 +54,6 @@ class FittingScreen(StepScreen):
             sl.add_option(Option(self._prompt(item), id=item.key))
         if not self.items:
             sl.add_option(Option("Nothing to fit or take off for this run.", disabled=True))
-        m = job.machine if job is not None else None
-        if m is not None:
-            from runtrue.tui.method import is_four_run
-
-            mark = "chalk mark (0\N{DEGREE SIGN})" if is_four_run(job) else "mark"
-            self.query_one("#fit-convention", Static).update(
-                f"Angles from the {mark}, against rotation. Rotor turns {rotation_words(m.rotation)} "
-                "seen from the drive end (dial drawn from there)."
-            )
         if self.items:
             sl.highlighted = 0
         sl.focus()
@@ -77,14 +69,22 @@ class FittingScreen(StepScreen):
             (i.letter, i.angle_deg, i.key in self.ticked) for i in self.items if i.plane == self.plane
         ]
         where = "any angle" if spec.continuous else f"{len(spec.position_angles_deg() or [])} positions"
+        of = f" ({self.plane}/{m.n_planes})" if m.n_planes > 1 else ""
         self.query_one("#fit-plane", Static).update(
-            f"Plane {self.plane}/{m.n_planes}: r {radius_text(spec.radius_mm, self.rt_app.units)}, {where}"
+            f"{m.plane_name(self.plane)}{of}: r {radius_text(spec.radius_mm, self.rt_app.units)}, {where}"
         )
+        from runtrue.jobs.model import VIEW_SIDE_WORDS
         from runtrue.tui.method import is_four_run
 
         self.query_one(FittingDial).show(
-            DialData(m.rotation, spec.position_angles_deg() or [], placements,
-                     mark_label="CHALK" if is_four_run(job) else "MARK")
+            DialData(m.turns_seen_from(self.plane), spec.position_angles_deg() or [], placements,
+                     mark_label="CHALK" if is_four_run(job) else "MARK",
+                     seen_from=VIEW_SIDE_WORDS[spec.view_side].replace("the ", ""))
+        )
+        mark = "chalk mark (0\N{DEGREE SIGN})" if is_four_run(job) else "mark"
+        self.query_one("#fit-convention", Static).update(
+            f"Angles from the {mark}, against rotation. Seen {VIEW_SIDE_WORDS[spec.view_side]}, as drawn: "
+            f"the rotor turns {rotation_words(m.turns_seen_from(self.plane))}."
         )
 
     def _prompt(self, item: FitItem) -> str:
@@ -108,10 +108,21 @@ class FittingScreen(StepScreen):
         else:
             self.ticked.add(key)
         sl.replace_option_prompt(key, self._prompt(item))
+        if key in self.ticked and sl.highlighted is not None and sl.highlighted < len(self.items) - 1:
+            sl.highlighted += 1  # ticked: on to the next one
+            nxt = self.items[sl.highlighted]
+            if nxt.plane != self.plane:
+                self.plane = nxt.plane
         self._draw_dial()
         if self.items and len(self.ticked & {i.key for i in self.items}) == len(self.items):
-            self.notify("All done. Tools and loose parts off the rotor, guards on, stand clear, then take the reading.",
+            self.notify("All done. Tools and loose parts off the rotor, guards on, stand clear, then r.",
                         title="Ready to run", timeout=5)
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        job = self.session.job
+        if action == "plane":
+            return job is not None and job.machine.n_planes > 1
+        return True
 
     def action_plane(self) -> None:
         job = self.session.job
@@ -122,3 +133,22 @@ class FittingScreen(StepScreen):
 
     def action_back(self) -> None:
         self.dismiss(None)
+
+    def action_run(self) -> None:
+        """Start the run: at once when every item is ticked off, else after a confirmation."""
+        left = [i for i in self.items if i.key not in self.ticked]
+        if not left:
+            self.dismiss("run")
+            return
+        from runtrue.tui.screens.dialogs import ConfirmDialog
+
+        lines = [f"{len(left)} of {len(self.items)} item(s) not ticked off:"]
+        lines += ["  " + i.text.splitlines()[0].strip() for i in left[:6]]
+        lines.append("Run only if they are done: a weight left loose or missing changes the answer, "
+                     "and a loose one is a projectile.")
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                self.dismiss("run")
+
+        self.app.push_screen(ConfirmDialog("Not everything is ticked off", lines, yes="y: all done, run"), answered)

@@ -13,7 +13,7 @@ from textual.containers import VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
-from runtrue.tui.format import DEG
+from runtrue.jobs.numbers import local_time_text, phase_text, vib_number, vib_text
 
 
 def history_lines(store: Any, machine: Any) -> list[str]:
@@ -22,29 +22,32 @@ def history_lines(store: Any, machine: Any) -> list[str]:
     if not jobs:
         lines.append("No jobs yet.")
     trend = {p.job_id: p for p in store.trend(machine.id)}
-    lines.append(f"{'job':>4} {'started':<17} {'status':<8} {'runs':>4}  1x ch1 before -> after, residual")
+    lines.append(f"{'job':>4} {'started':<17} {'status':<8} {'runs':>4}  1x {machine.pickup_name(0)} before -> after")
     for j in jobs:
         p = trend.get(j.id)
         detail = j.problem  # "unreadable record #N (...): reason", or ""
         if p is not None and p.initial_amp_g and p.final_amp_g and p.final_amp_g[0] is not None:
-            detail = f"{p.initial_amp_g[0]:.3g} -> {p.final_amp_g[0]:.3g} g"
+            detail = (f"{vib_number(p.initial_amp_g[0], machine.speed_rpm)} -> "
+                      f"{vib_text(p.final_amp_g[0], machine.speed_rpm)}")
             if p.residual_unbalance_gmm and p.permissible_unbalance_gmm:
                 ratio = max(r / a for r, a in zip(p.residual_unbalance_gmm, p.permissible_unbalance_gmm))
                 detail += f", {ratio:.2f}x allowed"
-        lines.append(f"{j.id:>4} {j.started_at[:16]:<17} {j.status:<8} {j.n_runs:>4}  {detail}")
+        lines.append(f"{j.id:>4} {local_time_text(j.started_at)[:16]:<17} {j.status:<8} {j.n_runs:>4}  {detail}")
     inf = machine.influence
     lines.append("")
     if inf is None:
         lines.append("No influence coefficients kept yet (a passed job keeps them).")
     else:
-        lines.append(f"Influence coefficients kept from job {inf.job_id}, at {inf.speed_rpm:.0f} rpm "
-                     f"(g per g.mm, lag after the mark):")
-        for i, row in enumerate(inf.coefficients, start=1):
+        when = local_time_text(inf.measured_at)[:10] or "an earlier date"
+        lines.append(f"Kept from job {inf.job_id} ({when}, {inf.speed_rpm:.0f} rpm): the next job can go straight")
+        lines.append("to the correction. What 100 g\N{MIDDLE DOT}mm at 0\N{DEGREE SIGN} in each plane does to each pickup:")
+        for i, row in enumerate(inf.coefficients):
             cells = "  ".join(
-                f"plane {p}: {abs(z):.3g} @ {math.degrees(cmath.phase(z)) % 360:.0f}{DEG}"
+                f"{machine.plane_name(p)}: {vib_text(abs(z) * 100.0, inf.speed_rpm)} "
+                f"{phase_text(math.degrees(cmath.phase(z)))}"
                 for p, z in enumerate(row, start=1)
             )
-            lines.append(f"  pickup {i}: {cells}")
+            lines.append(f"  {machine.pickup_name(i)}: {cells}")
     return lines
 
 

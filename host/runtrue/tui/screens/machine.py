@@ -6,6 +6,7 @@ correction.  The grade table (F3) lists typical balance quality grades by rotor 
 
 from __future__ import annotations
 
+import math
 from typing import Any, Iterable
 
 from textual.binding import Binding
@@ -14,6 +15,7 @@ from textual.widget import Widget
 from textual.widgets import Footer, Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
+from runtrue.jobs.numbers import local_time_text, vib_number, vib_text
 from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields
 from runtrue.tui.method import TWO_PLANES_REFUSED, is_four_run, method_hint
 from runtrue.tui.screens.base import StepScreen
@@ -41,11 +43,23 @@ def tolerance_text(values: dict[str, str], units: str = METRIC) -> str:
             f"Permissible residual unbalance (ISO 21940-11): {unbalance_text(tol.permissible_unbalance_gmm, units)} "
             f"(per plane {per}), {tol.permissible_eccentricity_um:.2f} um."
         )
-    per = " + ".join(f"{u:.0f}" for u in tol.per_plane_gmm)
+    per = " + ".join(unbalance_text(u) for u in tol.per_plane_gmm)
     return (
-        f"Permissible residual unbalance (ISO 21940-11): {tol.permissible_unbalance_gmm:.0f} g.mm "
-        f"(per plane {per}), {tol.permissible_eccentricity_um:.2f} um."
+        f"Permissible residual unbalance (ISO 21940-11): {unbalance_text(tol.permissible_unbalance_gmm)} "
+        f"(per plane {per}), {tol.permissible_eccentricity_um:.2f} \N{MICRO SIGN}m."
     )
+
+
+def resume_prompt(store: Any, summary: Any) -> str:
+    """Two lines for an unfinished job in the resume list: which job and machine, then when it
+    started (local time), how many runs and how many weights are on the rotor now."""
+    rec = store.get_job(summary.id)
+    four_run = rec is not None and bool(rec.options.get("amplitude_only"))
+    tag = " 4-run" if four_run else ""  # amplitude-only jobs say so
+    runs = store.runs(summary.id)
+    on = len(runs[-1].weights) if runs else len((rec.options if rec else {}).get("weights_at_start", []))
+    when = local_time_text(summary.started_at)[5:16]
+    return f"job {summary.id}{tag} {summary.machine_name}"[:23] + f"\n {when} {len(runs)}r {on}w on"[:24]
 
 
 def history_text(store: Any, machine_id: int) -> str:
@@ -59,7 +73,10 @@ def history_text(store: Any, machine_id: int) -> str:
         last = trend[-1]
         verdict = "passed" if last.passed else "not passed"
         if last.initial_amp_g and last.final_amp_g and last.final_amp_g[0] is not None:
-            text += f" Last ({last.date[:10]}): {last.initial_amp_g[0]:.3g} -> {last.final_amp_g[0]:.3g} g, {verdict}."
+            m = store.get_machine(machine_id)
+            speed = m.speed_rpm if m is not None else math.nan
+            text += (f" Last ({local_time_text(last.date)[:10]}): {vib_number(last.initial_amp_g[0], speed)} -> "
+                     f"{vib_text(last.final_amp_g[0], speed)}, {verdict}.")
         else:
             text += f" Last ({last.date[:10]}): {verdict}."
     return text
@@ -129,15 +146,12 @@ class MachineScreen(StepScreen):
         unfinished = store.unfinished_jobs()
         if unfinished:
             ol.add_option(Option("-- resume a job --", disabled=True))
-            for j in unfinished[:8]:
+            for j in sorted(unfinished, key=lambda j: j.id, reverse=True)[:8]:
                 if j.problem:  # shown, never opened: Enter says why and offers to set it aside
                     self._unreadable[f"x{j.id}"] = j.problem
                     ol.add_option(Option(f"! job {j.id} unreadable"[:24], id=f"x{j.id}"))
                     continue
-                rec = store.get_job(j.id)
-                four_run = rec is not None and bool(rec.options.get("amplitude_only"))
-                tag = " 4-run" if four_run else ""  # amplitude-only jobs say so
-                ol.add_option(Option(f"job {j.id}{tag} {j.machine_name}"[:24], id=f"j{j.id}"))
+                ol.add_option(Option(resume_prompt(store, j), id=f"j{j.id}"))
 
     def _values(self) -> dict[str, str]:
         return {key: self.query_one(f"#f_{key}", Input).value for key, _, _ in FIELDS}
@@ -145,6 +159,8 @@ class MachineScreen(StepScreen):
     def _load(self, machine: Any) -> None:
         self._editing_id = machine.id
         self._base = machine
+        if machine.id is not None:  # the method is remembered with the machine
+            self.rt_app.amplitude_only = machine.method == "no mark" and machine.n_planes == 1
         for key, value in fields_from_machine(machine).items():
             self.query_one(f"#f_{key}", Input).value = value
 
@@ -300,14 +316,39 @@ class MachineScreen(StepScreen):
         if not self.rt_app.use_channels(machine.n_pickups):
             self.query_one("#f_pickups", Input).focus()
             return
+        method = "no mark" if amplitude_only else "mark"
+        if machine.method != method:  # remembered for the next job on this machine
+            machine.method = method
+            store.save_machine(machine)
+        from runtrue.jobs.workflow import weights_left_on
+
+        left = weights_left_on(store, machine)
+        if left is None:
+            self._start(machine, [], False)
+            return
+        from runtrue.tui.screens.dialogs import WeightsLeftDialog, weights_left_lines
+
+        job_id, when, weights = left
+
+        def answered(choice: str | None) -> None:
+            if choice is None:
+                return
+            self._start(machine, weights if choice in ("keep", "combine") else [], choice == "combine")
+
+        self.app.push_screen(WeightsLeftDialog(weights_left_lines(machine, job_id, when, weights),
+                                               can_combine=not amplitude_only), answered)
+
+    def _start(self, machine: Any, weights_at_start: list[Any], combine: bool) -> None:
         from runtrue.jobs import BalanceJob
 
+        store = self.session.store
         self.session.machine = machine
         try:
-            if amplitude_only:
-                job = BalanceJob.start(store, machine, amplitude_only=True)
+            if self.rt_app.amplitude_only:
+                job = BalanceJob.start(store, machine, amplitude_only=True, weights_at_start=weights_at_start)
             else:
-                job = BalanceJob.start(store, machine, trial_removed=self.rt_app.trial_removed)
+                job = BalanceJob.start(store, machine, trial_removed=self.rt_app.trial_removed,
+                                       weights_at_start=weights_at_start, combine_at_start=combine)
         except ValueError as exc:
             self.notify(str(exc), title="Job not started", severity="error", timeout=8)
             return

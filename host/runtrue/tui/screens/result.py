@@ -15,7 +15,7 @@ from textual.containers import VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
-from runtrue.tui.format import ANGLE_NOTE, PHASE_NOTE
+from runtrue.tui.format import ANGLE_NOTE, PHASE_NOTE, vib_unit_of
 from runtrue.tui.method import CHALK_ANGLE_NOTE, PHASE_NOT_USED_NOTE
 from runtrue.tui.result_text import channel_lines, is_four_run_result, method_lines, plane_lines, verdict, weights_lines
 from runtrue.tui.screens.base import StepScreen
@@ -30,6 +30,7 @@ class ResultScreen(StepScreen):
     BINDINGS = [
         Binding("h", "report", "HTML report"),
         Binding("e", "export", "Export CSV+JSON"),
+        Binding("d", "details", "Details"),
         Binding("b", "back", "Back to runs"),
         Binding("n", "new_job", "New job"),
         Binding("f1", "app.help", "Help"),
@@ -63,22 +64,35 @@ class ResultScreen(StepScreen):
         v.set_classes(cls)
         lines = [f"{res.machine_name}, job {res.job_id}: {res.runs} run(s), {res.speed_rpm:g} rpm, status {res.status}"]
         units = self.rt_app.units
+        m = job.machine
+        names = [m.plane_name(p) for p in range(1, m.n_planes + 1)]
         lines += method_lines(res, units)
-        lines += [""] + channel_lines(res)
-        lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res, units)
-        lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res, units)
+        lines += [""] + channel_lines(res, vib_unit_of(self.app))
+        lines += ["", f"Residual unbalance vs permissible ({res.grade}, {res.standard}):"] + plane_lines(res, units, names)
+        lines += ["", "Weights added (on the rotor now), with the force each must hold:"] + weights_lines(res, units, m)
         if res.warnings:
             lines += ["", "Notes:"] + [f"- {w}" for w in res.warnings]
         if is_four_run_result(res):
-            lines += ["", f"{PHASE_NOT_USED_NOTE}; {CHALK_ANGLE_NOTE}. Amplitudes 1x peak."]
+            lines += ["", f"{PHASE_NOT_USED_NOTE}; {CHALK_ANGLE_NOTE}."]
         else:
-            lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}. Amplitudes 1x peak."]
+            lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}."]
         self.query_one("#result-text", Static).update("\n".join(lines))
-        self.query_one("#hint", Static).update("h: write the HTML report   e: CSV + JSON export of the runs")
+        self.query_one("#hint", Static).update(
+            "h: HTML report (to print or share)   e: CSV + JSON of the runs   d: technician, site ...\n"
+            "Written beside the job database; the full path is shown here when written.")
+
+    def _folder(self) -> Path:
+        """Where reports go: the folder given to the application, else ``reports`` beside the
+        job database in the user's data directory (not wherever the program was started)."""
+        given = Path(self.rt_app.report_dir)
+        store_path = Path(str(self.session.store.path))
+        if given == Path.cwd() / "reports" and str(store_path) != ":memory:":
+            return store_path.resolve().parent / "reports"
+        return given.resolve()
 
     def _out_path(self, suffix: str) -> Path:
         job = self.session.job
-        folder = Path(self.rt_app.report_dir)
+        folder = self._folder()
         folder.mkdir(parents=True, exist_ok=True)
         return folder / f"job-{job.job_id}-{_slug(job.machine.name)}{suffix}"
 
@@ -90,11 +104,12 @@ class ResultScreen(StepScreen):
             return
         try:
             path = self._out_path(".html")
-            path.write_text(render_html(self.session.store, job.job_id), encoding="utf-8")
+            path.write_text(render_html(self.session.store, job.job_id, vib_unit_of(self.app)), encoding="utf-8")
         except (OSError, ValueError) as exc:
             self.notify(f"Report not written: {exc}", severity="error", timeout=8)
             return
-        self.query_one("#hint", Static).update(f"Report written: {path}")
+        self.query_one("#hint", Static).update(
+            f"Report: {path}\nOpen it in a web browser to read or print it (Ctrl+P; save as PDF to send it).")
         self.notify(f"Report written: {path}", title="Report", timeout=6)
 
     def action_export(self) -> None:
@@ -111,8 +126,32 @@ class ResultScreen(StepScreen):
         except (OSError, ValueError) as exc:
             self.notify(f"Export not written: {exc}", severity="error", timeout=8)
             return
-        self.query_one("#hint", Static).update(f"Written: {csv_path.name}, {json_path.name} in {csv_path.parent}")
+        self.query_one("#hint", Static).update(f"Written: {csv_path.name}, {json_path.name}\nin {csv_path.parent}")
         self.notify(f"Exported to {csv_path.parent}", title="Export", timeout=6)
+
+    def action_details(self) -> None:
+        """Technician, site, asset tag, work order and notes for the report; technician and
+        site start from the machine's previous job."""
+        from runtrue.jobs.report import report_details, save_report_details
+        from runtrue.tui.screens.dialogs import ReportDetailsForm
+
+        job = self.session.job
+        if job is None:
+            return
+        store = self.session.store
+        values = report_details(store, job.job_id)
+        if not any(values.values()) and job.machine.id is not None:
+            earlier = [j.id for j in store.machine_history(job.machine.id) if j.id != job.job_id]
+            if earlier:
+                last = report_details(store, max(earlier))
+                values.update({k: last[k] for k in ("technician", "site", "asset")})
+
+        def saved(details: dict[str, str] | None) -> None:
+            if details is not None:
+                save_report_details(store, job.job_id, details)
+                self.notify("Saved with the job; h writes the report with them.", title="Report details", timeout=4)
+
+        self.app.push_screen(ReportDetailsForm(values), saved)
 
     def action_back(self) -> None:
         self.rt_app.show_runs()

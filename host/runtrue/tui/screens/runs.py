@@ -17,7 +17,8 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
-from runtrue.tui.format import DEG, SAFETY_FIT, SAFETY_START, amp_text
+from runtrue.jobs.numbers import DEG, phase_text, vib_number, vib_text
+from runtrue.tui.format import SAFETY_FIT, SAFETY_START, vib_unit_of
 from runtrue.tui.fitting_list import imperial_lines
 from runtrue.tui.method import is_four_run
 from runtrue.tui.screens.base import StepScreen
@@ -68,21 +69,27 @@ def _trial_angle(run: Any) -> float | None:
     return next((w.angle_deg for w in run.weights if w.label.startswith("trial")), None)
 
 
-def runs_lines(job: Any) -> list[str]:
-    """The runs so far: number, kind, and each pickup's 1x as amp and phase; for the four-run
-    method the amplitude only, and for a trial run the trial weight's angle from the chalk mark."""
+def runs_lines(job: Any, unit: str = "mm/s rms") -> list[str]:
+    """The runs so far: number, kind, and each pickup's 1x in the display unit (named in the pane
+    title) and phase; for the four-run method the amplitude only, and for a trial run the trial
+    weight's angle from the chalk mark."""
     four_run = is_four_run(job)
     lines = []
+    m = job.machine
+    several = m.n_pickups > 1
     for r in job.runs:
         head = f"{r.seq:>2} {r.kind[:5]:<5}"
+        speed = r.reading.speed_rpm
+        if several:  # a line per run, then each pickup by name
+            lines.append(head)
         for i, ch in enumerate(r.reading.channels):
-            prefix = head if i == 0 else " " * len(head)
+            prefix = f"  {m.pickup_name(i)[:6]:<6}" if several else head
             if not four_run:
-                lines.append(f"{prefix} {amp_text(ch.amp_g)} {ch.phase_deg:3.0f}{DEG}")
+                lines.append(f"{prefix} {vib_number(ch.amp_g, speed, unit):>6} {phase_text(ch.phase_deg):>4}")
                 continue
             angle = _trial_angle(r) if r.kind == "trial" and i == 0 else None
             at = f" T@{angle:.0f}{DEG}" if angle is not None else ""
-            lines.append(f"{prefix} {amp_text(ch.amp_g)}{at}")
+            lines.append(f"{prefix} {vib_number(ch.amp_g, speed, unit):>6}{at}")
     return lines or ["(no runs yet)"]
 
 
@@ -127,12 +134,12 @@ def expected_after_fitting(job: Any) -> list[complex]:
 
 
 class RunsScreen(StepScreen):
-    STEP = "4 Balancing runs"
+    STEP = "3 Balancing runs"
     BINDINGS = [
         Binding("r", "reading", "Reading"),
         Binding("f", "fitting", "Fitting"),
         Binding("w", "trial", "Trial weight"),
-        Binding("a", "accept", "Accept trial"),
+        Binding("k", "accept", "Keep weak trial"),
         Binding("x", "stop", "Stop job"),
         Binding("v", "result", "Result"),
     ]
@@ -165,7 +172,7 @@ class RunsScreen(StepScreen):
             return None
         step = job.state.step
         if action == "trial":
-            if is_four_run(job) and job.state.trial_number not in (None, 1):
+            if is_four_run(job) and job.state.trial_number not in (None, 1) and job.early_larger_trial is None:
                 return False  # the three angles follow from the first: change it before trial run 1
             return True if step == "trial" else False
         if action == "accept":
@@ -184,19 +191,21 @@ class RunsScreen(StepScreen):
         self.refresh_status()
         step = job.state.step
         self.query_one("#stepbar", Static).update(step_bar(job))
+        unit = vib_unit_of(self.app)
         lines = [f"- {line}" for line in job.instructions()]
         lines += [f"- {line}" for line in imperial_lines(job, self.rt_app.units)]
         plan = job.state.plan
         if plan is not None and plan.predicted:
             expected = expected_after_fitting(job)
-            text = ", ".join(f"ch{i + 1} {amp_text(abs(v))}" for i, v in enumerate(expected))
+            speed = job.runs[-1].reading.speed_rpm if job.runs else job.machine.speed_rpm
+            text = ", ".join(f"{job.machine.pickup_name(i)} {vib_text(abs(v), speed, unit)}" for i, v in enumerate(expected))
             lines.append(f"- Expected 1x after fitting these pieces: {text}.")
         if job.state.warnings:
             lines += ["", "Warnings:"] + [f"! {w}" for w in job.state.warnings]
         self.query_one("#todo", Static).update("\n".join(lines))
         self.todo_text = "\n".join(lines)
-        self.query_one("#runs-title", Static).update("Runs (1x amplitude)" if is_four_run(job) else "Runs (1x)")
-        self.query_one("#runs-list", Static).update("\n".join(runs_lines(job)))
+        self.query_one("#runs-title", Static).update(f"Runs, 1x {unit}")
+        self.query_one("#runs-list", Static).update("\n".join(runs_lines(job, unit)))
         split = static_couple_lines(plan, self.rt_app.units) if step in ("correction", "trim") else []
         split_w = self.query_one("#split", Static)
         split_w.update("\n".join(split))
@@ -210,6 +219,9 @@ class RunsScreen(StepScreen):
         s = self.session
         job = s.job
         if job is None or job.state.step == "done":
+            return
+        if not job.forces_confirmed:
+            self._confirm_forces(then=self.action_reading)
             return
         if s.manual:
             from runtrue.tui.screens.dialogs import ManualReadingForm
@@ -236,7 +248,7 @@ class RunsScreen(StepScreen):
 
         four_run = is_four_run(job)
         self.app.push_screen(
-            LiveScreen(current_step_name(job) + " run", marks=polar_marks(job), auto=self.rt_app.auto_take,
+            LiveScreen(current_step_name(job) + " run", marks=polar_marks(job), auto=True,
                        amplitude_only=four_run, earlier=amplitude_marks(job) if four_run else None),
             self._record,
         )
@@ -251,7 +263,23 @@ class RunsScreen(StepScreen):
             )
         return epoch
 
-    def _record(self, reading: Any) -> None:
+    def _confirm_forces(self, then: Any) -> None:
+        """Ask before a run whose weights pull harder than the force limit; ``then`` on yes."""
+        from runtrue.jobs.workflow import force_limit_basis
+        from runtrue.tui.screens.dialogs import ConfirmDialog, force_confirm_lines
+
+        job = self.session.job
+        lines = force_confirm_lines(job.weights_over_limit(), force_limit_basis(job.machine), job.machine.speed_rpm)
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                job.confirm_forces()
+                then()
+
+        self.app.push_screen(ConfirmDialog("Weight above the force limit", lines, yes="y: fitted and secured for it"),
+                             answered)
+
+    def _record(self, reading: Any, over_speed_confirmed: bool = False) -> None:
         if reading is None:
             return
         job = self.session.job
@@ -261,8 +289,22 @@ class RunsScreen(StepScreen):
             rr = RunReading.from_reading(reading)
             if rr.has_phase:  # the meter's phase is not part of this method: keep the amplitudes only
                 reading = rr.amplitudes_only()
+        from runtrue.jobs.workflow import OverSpeed
+
         try:
-            run = job.record_run(reading)
+            run = job.record_run(reading, over_speed_confirmed=over_speed_confirmed)
+        except OverSpeed as exc:
+            from runtrue.tui.screens.dialogs import ConfirmDialog
+
+            lines = [f"Measured {exc.speed_rpm:.0f} rpm; the machine's rated speed is {exc.rated_rpm:g} rpm.",
+                     "STOP the machine. Record this run only if the maker allows this speed."]
+
+            def answered(yes: bool | None) -> None:
+                if yes:
+                    self._record(reading, over_speed_confirmed=True)
+
+            self.app.push_screen(ConfirmDialog("Above the rated speed", lines, yes="y: record it anyway"), answered)
+            return
         except Exception as exc:  # noqa: BLE001 - shown to the user, nothing recorded is lost
             self.notify(f"Reading not recorded: {exc}", severity="error", title="Not recorded", timeout=8)
             return
@@ -270,7 +312,7 @@ class RunsScreen(StepScreen):
         self.notify(f"Run {run.seq} ({run.kind}) saved.", timeout=2)
         chk = job.state.last_trial_check
         if run.kind == "trial" and chk is not None and not chk.ok:
-            self.notify(chk.message + " Fit the larger trial shown, or press a to go on anyway.",
+            self.notify("Fit the larger trial shown, or press k to keep this one and go on.",
                         title="Trial too small?", severity="warning", timeout=10)
         if job.state.step == "done":
             self.rt_app.show_result()
@@ -280,20 +322,41 @@ class RunsScreen(StepScreen):
     def action_fitting(self) -> None:
         from runtrue.tui.screens.fitting import FittingScreen
 
-        self.app.push_screen(FittingScreen())
+        def back(choice: str | None) -> None:
+            if choice == "run":  # everything ticked off (or confirmed): take the reading
+                self.action_reading()
+
+        self.app.push_screen(FittingScreen(), back)
 
     def action_trial(self) -> None:
         job = self.session.job
         t = job.suggested_trial() if job is not None else None
         if t is None:
             return
+        t = getattr(job, "early_larger_trial", None) or t  # four-run: the larger trial after a weak run 1
         from runtrue.tui.screens.dialogs import TrialWeightForm
 
         def chosen(value: tuple[float, float] | None) -> None:
             if value is None:
                 return
+            from runtrue.jobs.workflow import ForceCheck, ForceLimitExceeded, force_limit_basis
+
             try:
                 job.set_trial(value[0], value[1])
+            except ForceLimitExceeded as exc:
+                from runtrue.tui.screens.dialogs import ConfirmDialog, force_confirm_lines
+
+                check = ForceCheck(exc.weight, exc.force_n, exc.limit_n)
+                lines = force_confirm_lines([check], force_limit_basis(job.machine), job.machine.speed_rpm)
+
+                def answered(yes: bool | None) -> None:
+                    if yes:
+                        job.set_trial(value[0], value[1], confirm_over_limit=True)
+                        self.redraw()
+
+                self.app.push_screen(ConfirmDialog("Trial weight above the force limit", lines,
+                                                   yes="y: use it, I will secure it"), answered)
+                return
             except ValueError as exc:
                 self.notify(str(exc), severity="error")
             self.redraw()

@@ -2,9 +2,10 @@
 available positions and where each weight goes.
 
 Convention: weight angles are measured from the reference mark AGAINST the direction of
-rotation (DEVELOPERS.md).  The dial is drawn as the user sees the rotor from the side where the
-rotation is described ("cw" = clockwise as seen from there), so a weight at theta is drawn
-theta away from the mark in the direction opposite to the arrow.
+rotation (DEVELOPERS.md).  The dial is drawn as the fitter sees the plane from the end they stand
+at (``DialData.rotation`` is the rotation seen from there: the machine's rotation from the drive
+end, reversed for the far end), so a weight at theta is drawn theta away from the mark in the
+direction opposite to the arrow.  Positions are numbered on the dial (inside the ring).
 """
 
 from __future__ import annotations
@@ -28,6 +29,7 @@ class DialData:
     positions_deg: list[float] = field(default_factory=list)  # fixed holes/slots (may be empty)
     placements: list[tuple[str, float, bool]] = field(default_factory=list)  # (label, angle, fitted)
     mark_label: str = "MARK"  # "CHALK" for the amplitude-only method (a chalk mark is 0 deg)
+    seen_from: str = "from drive end"  # where the fitter stands: "from drive end" or "from far end"
 
 
 def screen_angle_deg(angle_deg: float, rotation: str) -> float:
@@ -47,11 +49,17 @@ def draw_dial(data: DialData, width_chars: int, height_chars: int) -> BrailleCan
         a = math.radians(screen_angle_deg(angle_deg, data.rotation))
         return cx + rr * math.sin(a), cy - rr * math.cos(a)
 
-    for p in data.positions_deg:
+    n_pos = len(data.positions_deg)
+    every = max(1, math.ceil(n_pos / 12))  # number at most about 12 positions, so the digits stay apart
+    for n, p in enumerate(data.positions_deg, start=1):
         x, y = xy(p, r)
         for dx in (-1, 0, 1):
             for dy in (-1, 0, 1):
                 cv.set(x + dx, y + dy, "grey70")
+        if (n - 1) % every == 0:
+            nx, ny = xy(p, r - 7)
+            text = str(n)
+            cv.label(int(nx // 2) - (len(text) - 1) // 2, int(ny // 4), text, "cyan")
     for label, angle, fitted in data.placements:
         x, y = xy(angle, r * 0.8)
         cv.line(cx, cy, x, y, "green" if fitted else "bold yellow")
@@ -63,7 +71,7 @@ def draw_dial(data: DialData, width_chars: int, height_chars: int) -> BrailleCan
     cv.line(cx, 4, cx, cy - r + 1, "red")
     arrow = ARROW_CW if data.rotation == "cw" else ARROW_CCW
     cv.label(0, 0, f"{arrow} turns", "bold cyan")
-    cv.label(0, cv.height_chars - 1, "from drive end", "dim")
+    cv.label(0, cv.height_chars - 1, data.seen_from, "dim")
     return cv
 
 

@@ -28,8 +28,8 @@ class PolarData:
     scatter: list[complex] = field(default_factory=list)
     mean: complex | None = None
     marks: list[tuple[str, complex]] = field(default_factory=list)  # (letter, vector)
-    unit: str = "g"
-    label: str = ""  # e.g. "ch 1"
+    unit: str = "mm/s rms"  # always with its detector: "mm/s rms", "mm/s pk", "g pk"
+    label: str = ""  # the pickup's name
 
 
 def _to_xy(v: complex, cx: float, cy: float, r_dots: float, full_scale: float) -> tuple[float, float]:
@@ -69,6 +69,8 @@ def draw_polar(data: PolarData, width_chars: int, height_chars: int) -> tuple[Br
     cv.label(cv.width_chars - 3, cv.height_chars // 2, "90", "dim")
     cv.label(0, cv.height_chars // 2, "270", "dim")
     cv.label(mid - 1, cv.height_chars - 1, "180", "dim")
+    if data.label:
+        cv.label(0, 0, data.label[: max(0, mid - 1)], "bold")
     return cv, fs
 
 
@@ -103,6 +105,5 @@ class PolarPlot(Widget):
             return Text("")
         cv, fs = draw_polar(self._data, w, h - 1)
         text = canvas_text(cv)
-        label = f"{self._data.label} " if self._data.label else ""
-        text.append(f"\n{label}ring {fs:g} {self._data.unit}, {CAPTION}"[: w + 1], "dim")
+        text.append(f"\n{CAPTION}, ring {fs:g} {self._data.unit}"[: w + 1], "dim")
         return text
