@@ -100,6 +100,14 @@ def test_plain_dial_spells_the_direction_of_rotation() -> None:
 
 # -- the whole application on the Linux console, without colour -----------------------------------
 
+async def _confirm_if_asked(pilot: Any) -> None:
+    """Answer yes to a safety question (force limit, pieces not ticked off) if one is asked."""
+    await pilot.pause()
+    if type(pilot.app.screen).__name__ == "ConfirmDialog":
+        await pilot.press("y")
+        await pilot.pause()
+
+
 async def test_plain_screens_stay_legible_in_16_colours() -> None:
     app = make_app("manual", plain=True)
     async with app.run_test(size=SIZE) as pilot:
@@ -112,8 +120,10 @@ async def test_plain_screens_stay_legible_in_16_colours() -> None:
         await _settle(pilot)
         assert not unreadable_in_16_colours(app), "fitting screen"
         await pilot.press("escape", "r")
+        await _confirm_if_asked(pilot)
         fill(app.screen, {"speed": "1470", "amp0": "0.371", "phase0": "238"}, prefix="#")
         await pilot.press("enter", "r")
+        await _confirm_if_asked(pilot)
         fill(app.screen, {"speed": "1470", "amp0": "0.0061", "phase0": "331"}, prefix="#")
         await pilot.press("enter")
         await _settle(pilot)
