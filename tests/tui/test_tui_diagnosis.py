@@ -36,16 +36,49 @@ async def test_diagnosis_screen_shows_verdict_zone_spectrum_and_the_coast_down_w
 
 
 async def test_the_one_line_binding_reaches_the_screen_and_keeps_before_and_after() -> None:
-    """The hook the live screen gets: Binding("x", "app.push_screen('diagnosis')", ...), with the
-    screen installed under that name once (App.SCREENS or install_screen)."""
-    from runtrue.tui.screens.diagnosis import DiagnosisScreen
-
+    """The hook the live and machine screens use: Binding(key, "app.push_screen('diagnosis')", ...),
+    with the screen installed under that name once (App.SCREENS)."""
     app = make_app("sim:fan", seed=2, realtime=False, max_revs_per_s=300, post_interval_s=0.05)
     async with app.run_test(size=SIZE) as pilot:
         await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
-        app.install_screen(DiagnosisScreen, "diagnosis")
         await app.run_action("app.push_screen('diagnosis')")
         await wait_until(pilot, lambda: len(getattr(app.session, "diagnoses", [])) == 1, what="diagnosis")
         await key(pilot, "d")
         await wait_until(pilot, lambda: len(app.session.diagnoses) == 2, what="second diagnosis")
         assert "zone" in screen_text(app)
+
+
+async def test_d_on_the_reading_screen_diagnoses_and_each_opening_takes_a_fresh_one() -> None:
+    app = make_app("sim:fan", seed=3, realtime=False, max_revs_per_s=300, post_interval_s=0.05)
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
+        await key(pilot, "l")
+        assert type(app.screen).__name__ == "LiveScreen"
+        await wait_until(pilot, lambda: "d Diagnose" in screen_text(app), what="the key in the bottom bar")
+        await key(pilot, "d")
+        assert type(app.screen).__name__ == "DiagnosisScreen"
+        await wait_until(pilot, lambda: len(app.session.diagnoses) == 1, what="diagnosis")
+        await key(pilot, "escape")
+        assert type(app.screen).__name__ == "LiveScreen"
+        await key(pilot, "d")
+        await wait_until(pilot, lambda: len(app.session.diagnoses) == 2, what="second diagnosis")
+        assert "zone" in screen_text(app)
+        await key(pilot, "escape")
+        await wait_until(pilot, lambda: app.session.live.total_revs > 5, what="live readings go on")
+
+
+async def test_f10_on_the_machine_screen_diagnoses_and_the_job_keeps_it_for_the_report() -> None:
+    app = make_app("sim:fan", seed=4, realtime=False, max_revs_per_s=300, post_interval_s=0.05,
+                   store_path=":memory:")
+    async with app.run_test(size=SIZE) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
+        await key(pilot, "n")
+        assert type(app.screen).__name__ == "MachineScreen"
+        await key(pilot, "f10")
+        await wait_until(pilot, lambda: len(app.session.diagnoses) == 1, what="diagnosis")
+        await key(pilot, "escape")
+        await key(pilot, "f2")
+        await wait_until(pilot, lambda: app.session.job is not None, what="job started")
+        job = app.session.job
+        events = [e.kind for e in job.store.events(job.job_id)]
+        assert events.count("diagnosis") == 1             # the diagnosis before the job is its "before"

@@ -546,7 +546,7 @@ async def test_report_details_are_typed_on_the_result_screen_and_printed_in_the_
         fill(app.screen, {"speed": "1470", "amp0": "0.412", "phase0": "208"}, prefix="#")
         await pilot.press("enter", "x", "x")
         assert screen_name(app) == "ResultScreen"
-        await pilot.press("d")
+        await pilot.press("i")
         fill(app.screen, {"technician": "A. Fitter", "site": "Boiler house", "asset": "FAN-0042",
                           "work_order": "WO 1187", "notes": "bearing noisy, replace at next stop"}, prefix="#")
         await pilot.press("enter")

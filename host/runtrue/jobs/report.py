@@ -285,6 +285,15 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
     out.append("</table>")
     if m.notes:
         out.append(f'<p class="note">{_e(m.notes)}</p>')
+    # Diagnosis: the job's diagnoses (first = before, last = after) and its last speed run
+    diagnoses = [e.data for e in store.events(job_id) if e.kind == "diagnosis"]
+    speed_runs = [e.data for e in store.events(job_id) if e.kind == "speed_run"]
+    if diagnoses or speed_runs:
+        from runtrue.jobs.diagnosis_section import diagnosis_section_html
+
+        out.append(diagnosis_section_html(diagnoses[0] if diagnoses else None,
+                                          diagnoses[-1] if len(diagnoses) > 1 else None,
+                                          speed_runs[-1] if speed_runs else None))
     # Conventions
     out += [
         '<h2 id="conventions">Conventions</h2><ul>',

@@ -26,6 +26,7 @@ from runtrue.tui.messages import (
     SelfTestDone,
 )
 from runtrue.tui.screens.connect import ConnectScreen
+from runtrue.tui.screens.diagnosis import DiagnosisScreen
 from runtrue.tui.session import MANUAL_PORT, Session
 from runtrue.tui.units_text import METRIC
 from runtrue.tui.widgets.braille import plain_wanted, use_plain
@@ -67,6 +68,9 @@ class RuntrueApp(App):
     CSS_PATH = "app.tcss"
     TITLE = "runtrue"
     ENABLE_COMMAND_PALETTE = False
+    # reached from the live and machine screens with app.push_screen('diagnosis'); installed, so
+    # it keeps its last diagnosis and takes a fresh one each time it is opened again
+    SCREENS = {"diagnosis": DiagnosisScreen}
     BINDINGS = [
         Binding("ctrl+q", "quit", "Quit", priority=True),
         Binding("f1", "help", "Help", show=False),

@@ -72,3 +72,55 @@ def test_section_shows_spectrum_zone_before_and_after_and_the_speed_plot() -> No
 def test_section_without_a_diagnosis_says_so() -> None:
     html = diagnosis_section_html(None)
     assert "No diagnosis was taken" in html and html.startswith('<section id="diagnosis">')
+
+
+def test_a_job_keeps_its_diagnoses_and_its_report_shows_zones_before_and_after_and_the_spectrum() -> None:
+    """The diagnoses are kept as job events (JSON with the spectrum); the report takes the first
+    as "before" and the last as "after", right after the Machine table."""
+    from runtrue.jobs import BalanceJob, JobStore
+    from runtrue.jobs.demo_machine import machine_for_scenario
+    from runtrue.jobs.report import render_html
+    from runtrue.tui.session import Session
+
+    with open_meter("sim:fan", seed=7) as c:
+        c.identify()
+        before = take_diagnosis(c, revs=20)
+        m = c.transport.machine
+        u = m.unbalance_gmm()[0]
+        r = m.scenario.planes[0].radius_mm
+        m.add_weight(0, 0.95 * abs(u) / r, math.degrees(np.angle(-u)), r)
+        c.discard_revolutions()
+        after = take_diagnosis(c, revs=20)
+    store = JobStore(":memory:")
+    session = Session()
+    session._store = store
+    session.diagnoses.append(before)               # taken before the job started
+    assert session.record_diagnoses() == 0         # no job open: nothing to keep it with yet
+    session.job = BalanceJob.start(store, machine_for_scenario("fan"))
+    assert session.record_diagnoses() == 1
+    session.diagnoses.append(after)
+    assert session.record_diagnoses() == 1         # only the new one
+    assert session.record_diagnoses() == 0
+    kinds = [e.kind for e in store.events(session.job.job_id)]
+    assert kinds.count("diagnosis") == 2
+    page = render_html(store, session.job.job_id)
+    ids = set(re.findall(r'id="([^"]+)"', page))
+    assert {"diagnosis", "severity-table", "spectrum"} <= ids
+    assert page.index('id="machine"') < page.index('id="diagnosis"') < page.index('id="before-after"')
+    table = re.search(r'<table id="severity-table">.*?</table>', page, re.S).group(0)
+    zones = re.findall(r"zone ([ABCD]):", table)
+    assert len(zones) == 2                         # one pickup: a zone before and a zone after
+    assert f"{before.channels[0].severity.velocity_rms_mm_s:.2f}" in table
+    assert f"{after.channels[0].severity.velocity_rms_mm_s:.2f}" in table
+    assert before.channels[0].severity.velocity_rms_mm_s > after.channels[0].severity.velocity_rms_mm_s
+    assert "<svg" in page.split('id="spectrum"')[1]
+
+
+def test_a_job_without_a_diagnosis_has_no_diagnosis_section() -> None:
+    from runtrue.jobs import BalanceJob, JobStore
+    from runtrue.jobs.demo_machine import machine_for_scenario
+    from runtrue.jobs.report import render_html
+
+    store = JobStore(":memory:")
+    job = BalanceJob.start(store, machine_for_scenario("fan"))
+    assert 'id="diagnosis"' not in render_html(store, job.job_id)

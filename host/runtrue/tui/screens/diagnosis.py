@@ -59,6 +59,12 @@ class DiagnosisScreen(StepScreen):
         if self.session.link is not None and not self.session.manual:
             self.action_diagnose()
 
+    def on_screen_resume(self) -> None:
+        """Opened again (the app keeps this screen installed): a fresh diagnosis of the rotor as
+        it is now; the earlier ones stay with the session and the job."""
+        if self.diagnosis is not None and self.session.link is not None and not self.session.manual:
+            self.action_diagnose()
+
     # ---- text -------------------------------------------------------------------------------
     def _status_text(self) -> str:
         table = ZONE_TABLES[self.machine_class]
@@ -150,13 +156,21 @@ class DiagnosisScreen(StepScreen):
         self.busy = ""
         if isinstance(result, SpeedAnalysis):
             self.speed, self.view = result, "speed"
-            self.session.speed_analysis = result      # type: ignore[attr-defined]
+            self.session.speed_analysis = result
         else:
             self.diagnosis, self.view = result, "spectrum"
-            if not hasattr(self.session, "diagnoses"):
-                self.session.diagnoses = []           # type: ignore[attr-defined]
-            self.session.diagnoses.append(result)     # type: ignore[attr-defined]
+            self.session.diagnoses.append(result)
+        self._keep_with_job()
         self._redraw()
+
+    def _keep_with_job(self) -> None:
+        """The open job keeps each diagnosis and speed run for its report (job events)."""
+        import sqlite3
+
+        try:
+            self.session.record_diagnoses()
+        except (OSError, ValueError, sqlite3.Error) as exc:
+            self.notify(f"Shown, but not kept with the job: {exc}", title="Diagnosis", severity="warning")
 
     def action_diagnose(self) -> None:
         from runtrue.diagnosis.acquire import take_diagnosis

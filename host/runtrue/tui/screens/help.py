@@ -22,7 +22,11 @@ STEPS = (
     "in each plane) and its couple (+ in plane 1, - in plane 2): mostly static, mostly couple, or both.",
     "4 Fitting: the dial shows where each weight goes, positions numbered, drawn from the end you "
     "stand at for that plane; Space ticks an item off and moves down; r starts the run.",
-    "5 Reading: the 1x live; r takes the reading once steady (Space: now); u changes the vibration unit.",
+    "Diagnosis (d on the reading screen, F10 on the machine screen): before weights go on, is it "
+    "unbalance? Severity zone per pickup, spectrum, the verdict with what to check; c records a "
+    "coast-down for resonances. The job keeps each diagnosis: the report shows before and after.",
+    "5 Reading: the 1x live; r takes the reading once steady (Space: now); u changes the vibration unit; "
+    "d diagnoses.",
     "6 Result: before and after, residual against permissible, the report and the export.",
 )
 
@@ -55,6 +59,8 @@ STEP_HELP: dict[str, tuple[str, ...]] = {
         "from there), the radius where weights sit and the positions (a count, 'any', or a list of angles; "
         "position 1 is at the 'first' angle from the mark, numbered on against rotation).",
         "- Stock: the weights you have (g x count) or strip (g per mm). F7: no reference tape (four-run method).",
+        "- F10 Diagnose, before weights go on: is it unbalance? A loose foot, misalignment, a bearing or a "
+        "resonance is not cured by balancing weights.",
     ),
     "RunsScreen": (
         "BALANCING RUNS",
@@ -76,12 +82,15 @@ STEP_HELP: dict[str, tuple[str, ...]] = {
         "- A noisy reading is taken twice: the two must agree within their scatter.",
         "- Flagged revolutions are left out; each flag shows what to check (tape, sensor distance, belts).",
         "- NO SIGNAL: no revolutions are arriving - the numbers are blanked, not frozen.",
+        "- d Diagnose, before weights go on: is it unbalance? Zones, spectrum and verdict; kept with the job.",
     ),
     "ResultScreen": (
         "RESULT AND REPORT",
         "- h writes the report (HTML) beside the job database; open it in a web browser to read or print it "
         "(Ctrl+P, or save as PDF to send). e writes the runs as CSV and JSON for a spreadsheet.",
         "- The report lists what is on the rotor at the end, with a sketch per plane: keep it with the machine.",
+        "- i: technician, site and notes for the report. The report shows the job's diagnoses (first = before, "
+        "last = after).",
     ),
 }
 

@@ -112,6 +112,7 @@ class LiveScreen(StepScreen):
         Binding("l", "longer", "Average longer"),
         Binding("c", "channel", "Pickup"),
         Binding("u", "vib_unit", "Unit"),
+        Binding("d", "app.push_screen('diagnosis')", "Diagnose"),
         Binding("escape", "back", "Back"),
         Binding("f1", "app.help", "Help"),
     ]

@@ -92,6 +92,8 @@ class MachineScreen(StepScreen):
         Binding("f6", "history", "Jobs"),
         Binding("f7", "amplitude_mode", "No mark"),
         Binding("f8", "units", "Units"),
+        # not in the bottom bar (it would pass 80 columns): the hint below the form names it
+        Binding("f10", "app.push_screen('diagnosis')", "Diagnose", show=False),
         Binding("f1", "app.help", "Help"),
     ]
 
@@ -207,7 +209,10 @@ class MachineScreen(StepScreen):
             mode = "taken off before the next run (F5)"
         else:
             mode = "left on, correction net of them (F5)"
-        lines = [tolerance_text(values, self.rt_app.units), method_hint(amplitude_only), f"Trial weights: {mode}."]
+        trial = f"Trial weights: {mode}."
+        diagnose = "F10 Diagnose: is it unbalance?"
+        lines = [tolerance_text(values, self.rt_app.units), method_hint(amplitude_only)]
+        lines += [f"{trial} {diagnose}"] if len(trial) + len(diagnose) < 78 else [trial, diagnose]
         if self._editing_id is not None:
             m = next((m for m in self._machines.values() if m.id == self._editing_id), None)
             if m is not None and m.influence is not None:
@@ -353,7 +358,17 @@ class MachineScreen(StepScreen):
             self.notify(str(exc), title="Job not started", severity="error", timeout=8)
             return
         self.session.job = job
+        self._keep_diagnoses()
         self.rt_app.show_runs()
+
+    def _keep_diagnoses(self) -> None:
+        """Diagnoses taken before the job started are its "before" (job events, for the report)."""
+        import sqlite3
+
+        try:
+            self.session.record_diagnoses()
+        except (OSError, ValueError, sqlite3.Error) as exc:
+            self.notify(f"The diagnosis is not kept with the job: {exc}", title="Diagnosis", severity="warning")
 
     def _resume(self, job_id: int) -> None:
         from runtrue.jobs import BalanceJob

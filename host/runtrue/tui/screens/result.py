@@ -30,7 +30,7 @@ class ResultScreen(StepScreen):
     BINDINGS = [
         Binding("h", "report", "HTML report"),
         Binding("e", "export", "Export CSV+JSON"),
-        Binding("d", "details", "Details"),
+        Binding("i", "details", "Details"),
         Binding("b", "back", "Back to runs"),
         Binding("n", "new_job", "New job"),
         Binding("f1", "app.help", "Help"),
@@ -78,7 +78,7 @@ class ResultScreen(StepScreen):
             lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}."]
         self.query_one("#result-text", Static).update("\n".join(lines))
         self.query_one("#hint", Static).update(
-            "h: HTML report (to print or share)   e: CSV + JSON of the runs   d: technician, site ...\n"
+            "h: HTML report (to print or share)   e: CSV + JSON of the runs   i: technician, site ...\n"
             "Written beside the job database; the full path is shown here when written.")
 
     def _folder(self) -> Path:
