@@ -14,7 +14,7 @@ from typing import Any, Iterable
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.widget import Widget
-from textual.widgets import Static
+from textual.widgets import Footer, Static
 
 from runtrue.jobs.numbers import (
     DEFAULT_VIB_UNIT,
@@ -107,9 +107,11 @@ class LiveScreen(StepScreen):
 
     STEP = "5 Reading"
     BINDINGS = [
-        Binding("r", "auto", "Reading when steady"),
-        Binding("space", "take", "Take now"),
-        Binding("l", "longer", "Average longer"),
+        # short labels so every key fits the bottom line at 80 columns; the line above the
+        # bottom line says them in full (r: a reading when steady; Space: now)
+        Binding("r", "auto", "Reading"),
+        Binding("space", "take", "Now"),
+        Binding("l", "longer", "Longer"),
         Binding("c", "channel", "Pickup"),
         Binding("u", "vib_unit", "Unit"),
         Binding("d", "app.push_screen('diagnosis')", "Diagnose"),
@@ -151,6 +153,7 @@ class LiveScreen(StepScreen):
         if s.link is not None:
             s.link.stream(True)
         self.query_one(PolarPlot).display = not self.amplitude_only
+        self.query_one(Footer).compact = True  # nine keys: fits 80 columns with single spacing
         self.query_one("#live-amps", Static).display = self.amplitude_only
         if self._auto:
             self.action_auto()

@@ -78,7 +78,7 @@ class ResultScreen(StepScreen):
             lines += ["", f"{PHASE_NOTE}; {ANGLE_NOTE}."]
         self.query_one("#result-text", Static).update("\n".join(lines))
         self.query_one("#hint", Static).update(
-            "h: HTML report (to print or share)   e: CSV + JSON of the runs   i: technician, site ...\n"
+            "h: HTML report   e: CSV + JSON of the runs   i: technician, site, notes\n"
             "Written beside the job database; the full path is shown here when written.")
 
     def _folder(self) -> Path:
