@@ -92,14 +92,18 @@ def suggest_trial_weight(
     r_mm = check_radius_mm(radius_mm)
     if isinstance(n_planes, bool) or not isinstance(n_planes, int) or n_planes < 1:
         raise BalancingError(f"number of planes must be a whole number from 1, got {n_planes!r}")
+    # the shared number format (every number a user reads); imported here, not at the top:
+    # runtrue.jobs builds on this package
+    from runtrue.jobs.numbers import force_text, unbalance_text
+
     w = 2.0 * math.pi * n / 60.0
     weight_share_n = mass * STANDARD_GRAVITY_M_S2 / n_planes
     force_n = TRIAL_FORCE_FRACTION * weight_share_n
     mass_g = force_n / ((r_mm / 1000.0) * w * w) * 1000.0
     per_plane = " per plane" if n_planes > 1 else ""
     rule = (
-        f"Trial weight sized so its centrifugal force at {n:g} rpm is {TRIAL_FORCE_FRACTION:.0%} of the "
-        f"rotor's weight{per_plane} ({force_n:.3g} N) - common practice, not a standard."
+        f"Trial weight sized so its centrifugal force at {n:g} rpm is {TRIAL_FORCE_FRACTION * 100:.0f} % of the "
+        f"rotor's weight{per_plane} ({force_text(force_n)}) - common practice, not a standard."
     )
     if grade is not None:
         from runtrue.balancing.tolerance import permissible_unbalance
@@ -113,16 +117,17 @@ def suggest_trial_weight(
             force_n = centrifugal_force_n(mass_g, r_mm, n)
             rule = (
                 f"Trial weight sized to {TRIAL_GRADE_MULTIPLE:g} times the G {grade:g} allowance{per_plane} "
-                f"({TRIAL_GRADE_MULTIPLE * u_per:.3g} g*mm), larger than the 10 %-of-weight rule gives at "
-                f"{n:g} rpm (our choice)."
+                f"({unbalance_text(TRIAL_GRADE_MULTIPLE * u_per)}), larger than the 10 %-of-weight rule gives at "
+                f"{n:g} rpm: runtrue's own rule, not from a standard."
             )
             if capped:
                 rule += (
-                    f" Capped so its force stays at {TRIAL_FORCE_CAP_FRACTION:.0%} of the rotor's weight{per_plane} "
-                    f"({force_n:.3g} N), a safety limit (our choice)."
+                    f" Capped so its force stays at {TRIAL_FORCE_CAP_FRACTION * 100:.0f} % of the rotor's weight{per_plane} "
+                    f"({force_text(force_n)}): runtrue's own safety limit, not from a standard."
                 )
             else:
-                rule += f" Its force is {force_n:.3g} N, {force_n / weight_share_n:.0%} of the rotor's weight{per_plane}."
+                rule += (f" Its force is {force_text(force_n)}, {100 * force_n / weight_share_n:.0f} % of the rotor's "
+                         f"weight{per_plane}.")
     rule += " Secure it for that force; if the machine is delicate, start smaller."
     return TrialSuggestion(
         mass_g=mass_g, radius_mm=r_mm, force_n=centrifugal_force_n(mass_g, r_mm, n), rule=rule

@@ -139,14 +139,17 @@ def _list(store: Any, args: argparse.Namespace) -> int:
     if machine_id is not None:
         trend = store.trend(machine_id)
         if trend:
-            print("trend (finished jobs, oldest first): 1x before -> after (g, worst pickup), "
-                  "residual / permissible unbalance (worst plane)")
+            from runtrue.jobs.numbers import DEFAULT_VIB_UNIT, ratio_text, vib_number
+
+            print(f"trend (finished jobs, oldest first): 1x before -> after ({DEFAULT_VIB_UNIT} at the machine's "
+                  "running speed, worst pickup), residual / permissible unbalance (worst plane)")
             for t in trend:
                 before = max(t.initial_amp_g, default=0.0)
                 after = max((a for a in t.final_amp_g if a is not None), default=0.0)
                 ratio = max((r / p for r, p in zip(t.residual_unbalance_gmm or [], t.permissible_unbalance_gmm or []) if p),
                             default=float("nan"))
-                print(f"{t.job_id:>5}  {t.date[:10]}  {before:.4g} -> {after:.4g} g  residual {ratio:.2f} of permissible"
+                print(f"{t.job_id:>5}  {t.date[:10]}  {vib_number(before, m.speed_rpm)} -> "
+                      f"{vib_number(after, m.speed_rpm)} {DEFAULT_VIB_UNIT}  residual {ratio_text(ratio)} of permissible"
                       f"  {'passed' if t.passed else 'not passed'}")
     return 0
 
@@ -160,13 +163,25 @@ def _show(store: Any, rec: Any) -> int:
     print(f"machine: {m.rotor_mass_kg:g} kg, {m.speed_rpm:g} rpm, {m.rotation} seen from the drive end, grade {m.grade}")
     for i, p in enumerate(m.planes, start=1):
         print(f"  plane {i}: {p.describe()}")
-    print("runs (1x g @ phase lag after the mark; weights from the mark against rotation):")
+    from runtrue.jobs.numbers import DEFAULT_VIB_UNIT, phase_text, unbalance_text, vib_text
+
+    print(f"runs (1x in {DEFAULT_VIB_UNIT} at the run's speed, phase lag after the mark; "
+          "weights from the mark against rotation):")
     for run in store.runs(rec.id):
-        amps = "  ".join(f"{c.amp_g:.4g} g @ {c.phase_deg:.0f}°" for c in run.reading.channels)
+        amps = "  ".join(f"{vib_text(c.amp_g, run.reading.speed_rpm)} {phase_text(c.phase_deg)}"
+                         for c in run.reading.channels)
         ws = weights_text(run.weights) or "no weights"
         print(f"  {run.seq:>2} {run.kind:10} {run.reading.speed_rpm:7.0f} rpm  {amps}  [{ws}]")
     res = rec.result
     if res:
-        print(f"result: passed={res.get('passed')}, residual {res.get('residual_unbalance_gmm')} g.mm, "
-              f"permissible {res.get('permissible_unbalance_gmm')} g.mm ({res.get('standard', '')} {res.get('grade', '')})")
+        def gmm(values: Any) -> str:
+            try:
+                return " + ".join(unbalance_text(float(u)) for u in values) or "-"
+            except (TypeError, ValueError):
+                return "-"
+
+        passed = {True: "passed", False: "not passed"}.get(res.get("passed"), "not checked")
+        print(f"result: {passed}, residual {gmm(res.get('residual_unbalance_gmm') or [])}, "
+              f"permissible {gmm(res.get('permissible_unbalance_gmm') or [])} "
+              f"({res.get('standard', '')} {res.get('grade', '')})")
     return 0

@@ -70,7 +70,8 @@ def test_with_a_grade_a_fast_light_rotor_gets_a_trial_of_five_allowances() -> No
     s = suggest_trial_weight(20, 1000, 200, grade=2.5)
     u_per = 30000 / math.pi * 2.5 * 20 / 1000
     assert s.mass_g * 200 == pytest.approx(5 * u_per, rel=1e-9)
-    assert "allowance" in s.rule and "our choice" in s.rule and "Capped" not in s.rule
+    assert "allowance" in s.rule and "runtrue's own rule" in s.rule and "Capped" not in s.rule
+    assert "our choice" not in s.rule and f"{5 * u_per:.0f} g\N{MIDDLE DOT}mm" in s.rule  # one number format
     assert s.force_n == pytest.approx(centrifugal_force_n(s.mass_g, 200, 1000))
     assert s.force_n < 0.3 * 20 * 9.80665
 
@@ -82,7 +83,7 @@ def test_grade_rule_is_capped_at_30_percent_of_the_rotor_weight_for_safety() -> 
     weight_n = 3 * 9.80665
     assert s.force_n == pytest.approx(0.3 * weight_n, rel=1e-9)
     assert s.force_n == pytest.approx(centrifugal_force_n(s.mass_g, 30, 24000))
-    assert "Capped" in s.rule and "safety limit" in s.rule
+    assert "Capped" in s.rule and "runtrue's own safety limit" in s.rule and "our choice" not in s.rule
 
 
 def test_with_a_grade_a_slow_heavy_rotor_keeps_the_force_rule() -> None:
@@ -99,3 +100,10 @@ def test_unknown_scatter_falls_back_on_the_thirty_percent_rule() -> None:
     small = check_trial_effect(10 + 0j, 9 + 0j, spread=math.inf)
     assert big.ok and "unknown" in big.message
     assert not small.ok and small.suggested_scale == pytest.approx(3.0)
+
+
+def test_a_large_trial_allowance_reads_in_plain_digits_and_the_unbalance_unit() -> None:
+    # 200 kg at 1000 rpm, G 6.3, radius 300 mm: five allowances are 60,160 g*mm (over 10,000: kg*mm)
+    s = suggest_trial_weight(200, 1000, 300, grade=6.3)
+    assert "e+" not in s.rule and "g*mm" not in s.rule
+    assert "allowance" not in s.rule or "\N{MIDDLE DOT}mm" in s.rule

@@ -34,7 +34,12 @@ def test_show_lists_every_run_with_its_weights(db: Path, capsys: pytest.CaptureF
     assert main(["jobs", "--db", str(db), "show", "1"]) == 0
     out = capsys.readouterr().out
     assert "reference" in out and "trial" in out and "correction" in out
-    assert "against rotation" in out and "passed=True" in out
+    assert "against rotation" in out and "result: passed, residual" in out
+    # vibration in mm/s rms with its detector, never a bare "g" that reads as grams
+    runs = [line for line in out.splitlines() if " rpm " in line]
+    readings = [line.split("[")[0] for line in runs]              # the weights after "[" are masses
+    assert readings and all("mm/s rms" in r and " g " not in r for r in readings)
+    assert "g\N{MIDDLE DOT}mm" in out and "g.mm" not in out and "e+" not in out
 
 
 def test_report_writes_a_printable_page(db: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
@@ -90,4 +95,4 @@ def test_machine_history_shows_the_trend(tmp_path: Path, capsys: pytest.CaptureF
     out = capsys.readouterr().out
     trend = out.split("trend")[1].splitlines()[1:]
     assert [line.split()[0] for line in trend] == ["1", "2"]
-    assert all("passed" in line for line in trend)
+    assert all("passed" in line and "mm/s rms" in line for line in trend)
