@@ -137,6 +137,10 @@ async def test_typed_amplitudes_without_phase_and_resume_from_the_machine_screen
         speed = job.runs[0].reading.speed_rpm  # the runs pane shows 1x in mm/s rms
         assert vib_number(0.48, speed) in text and vib_number(0.61, speed) in text and "trial 2" in text
         assert isinstance(app.screen, RunsScreen) and "trial run 2 of 3" in app.screen.todo_text
+        # lock-out is said once on the screen: in the bottom line, not again in the instructions
+        assert "lock it out" not in app.screen.todo_text.lower()
+        text = screen_text(app).lower()
+        assert text.count("lock out") + text.count("lock it out") == 1
         # the second trial run, typed, and the job goes on to the third
         await pilot.press("r")
         fill(app.screen, {"speed": "1470", "amp0": "0.33"}, prefix="#")

@@ -8,6 +8,7 @@ user is told to fit are put on the virtual rotor, by their geometry, before each
 
 from __future__ import annotations
 
+import re
 import time
 from typing import Any, Iterable
 
@@ -133,6 +134,25 @@ def expected_after_fitting(job: Any) -> list[complex]:
     return out
 
 
+_LOCK_OUT = re.compile(r"(?:^|:\s*)stop the machine and lock it out(?: first)?\.\s*$", re.IGNORECASE)
+
+
+def without_lock_out(steps: list[str]) -> list[str]:
+    """The job's instructions without their lock-out sentence, for a screen whose bottom line
+    already says STOP and LOCK OUT: a step named before it keeps its name ("Four-run cycle 1,
+    trial run 2 of 3."), a bare one ("Correction: stop ...") goes."""
+    out = []
+    for line in steps:
+        m = _LOCK_OUT.search(line)
+        if m is None:
+            out.append(line)
+            continue
+        rest = line[:m.start()].strip()
+        if len(rest.split()) > 3:
+            out.append(rest + ".")
+    return out
+
+
 class RunsScreen(StepScreen):
     STEP = "3 Balancing runs"
     BINDINGS = [
@@ -192,7 +212,11 @@ class RunsScreen(StepScreen):
         step = job.state.step
         self.query_one("#stepbar", Static).update(step_bar(job))
         unit = vib_unit_of(self.app)
-        lines = [f"- {line}" for line in job.instructions()]
+        caution = SAFETY_FIT if step in ("trial", "correction", "trim") else SAFETY_START if step == "reference" else ""
+        steps = job.instructions()
+        if "LOCK OUT" in caution:  # the bottom line says it: once per screen
+            steps = without_lock_out(steps)
+        lines = [f"- {line}" for line in steps]
         lines += [f"- {line}" for line in imperial_lines(job, self.rt_app.units)]
         plan = job.state.plan
         if plan is not None and plan.predicted:
@@ -210,7 +234,6 @@ class RunsScreen(StepScreen):
         split_w = self.query_one("#split", Static)
         split_w.update("\n".join(split))
         split_w.display = bool(split)
-        caution = SAFETY_FIT if step in ("trial", "correction", "trim") else SAFETY_START if step == "reference" else ""
         self.query_one("#caution", Static).update(caution)
         self.refresh_bindings()
 
