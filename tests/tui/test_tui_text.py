@@ -189,3 +189,19 @@ def test_a_typed_unit_carries_its_detector() -> None:
     assert parse_vib_unit("mm/s") == ("mm/s", 1.0)
     with pytest.raises(ValueError, match="mm/s rms"):
         parse_vib_unit("mm/s average")
+
+
+def test_a_long_pickup_name_is_shown_whole_with_its_numbers_under_it() -> None:
+    from types import SimpleNamespace
+
+    from runtrue.tui.screens.live import channel_rows
+    from runtrue.validation import MAX_LABEL_CHARS
+
+    ch = SimpleNamespace(amp_g=0.41, phase_deg=208.0, h2=0.02 + 0.01j, rms_g=0.3)
+    reading = SimpleNamespace(speed_rpm=1470.0, channels=[ch, ch])
+    long_name = "fan-end bearing, horizontal, outboard"[:MAX_LABEL_CHARS]
+    rows = channel_rows(reading, labels=[long_name, "motor DE"])
+    assert rows[2] == long_name                      # whole, on a line of its own
+    assert rows[3].split()[:2] == ["18.5", "208\N{DEGREE SIGN}"]  # its numbers under it
+    assert rows[4].startswith("motor DE ") and "18.5" in rows[4]    # a short name keeps its column
+    assert all(len(r) <= 46 for r in rows)           # the live screen's left pane at 80 columns

@@ -37,6 +37,7 @@ STEADY_LIMIT_S = 30.0  # waiting longer than this for steady readings: offer tak
 #: reading is taken twice and the two must agree within their scatter (our choice).
 NOISY_FRACTION = 0.10
 LONGER_FACTOR = 2  # "average longer" takes this many times the usual revolutions
+NAME_COLUMN = 14  # pickup name column of the live table; a longer name gets a line of its own
 REFRESH_S = 0.25  # redraw period: a few times a second is enough, and kind to a Pi over SSH
 
 
@@ -46,15 +47,18 @@ def channel_rows(reading: Any, amplitude_only: bool = False, unit: str = DEFAULT
     acceleration (g rms, all frequencies).  With ``amplitude_only`` (four-run method) the phase
     is not shown: it is not used."""
     rows = [f"1x and 2x in {unit}; overall in g rms",
-            f"{'pickup':<14} {'1x':>7} {'phase':>5} {'2x':>7} {'overall':>7}"]
+            f"{'pickup':<{NAME_COLUMN}} {'1x':>7} {'phase':>5} {'2x':>7} {'overall':>7}"]
     if reading is None:
         rows.append("(no revolutions yet)")
         return rows
     for i, ch in enumerate(reading.channels):
-        name = (labels[i] if labels and i < len(labels) else f"pickup {i + 1}")[:14]
+        name = labels[i] if labels and i < len(labels) else f"pickup {i + 1}"
+        if len(name) > NAME_COLUMN:  # a long name on its own line, its numbers under it: nothing cut
+            rows.append(name)
+            name = ""
         phase = f"{'-':>5}" if amplitude_only else f"{phase_text(ch.phase_deg):>5}"
         rows.append(
-            f"{name:<14} {vib_number(ch.amp_g, reading.speed_rpm, unit):>7} {phase} "
+            f"{name:<{NAME_COLUMN}} {vib_number(ch.amp_g, reading.speed_rpm, unit):>7} {phase} "
             f"{vib_number(abs(ch.h2), reading.speed_rpm, unit, order=2):>7} {sig3(ch.rms_g):>7}"
         )
     return rows
@@ -93,7 +97,7 @@ def amplitude_lines(earlier: list[tuple[str, list[float]]], now: float | None, c
     if now is not None and math.isfinite(now):
         amps.append(("now", now))
     top = max((a for _, a in amps), default=0.0)
-    lines = [f"1x, {(name or f'pickup {channel + 1}')[:24]}", f"({unit}; phase not used)"]
+    lines = [f"1x, {name or f'pickup {channel + 1}'}", f"({unit}; phase not used)"]
     for label, a in amps:
         frac = a / top if top > 0 else 0.0
         lines.append(f"{label:<3} {bar(frac, 12)} {vib_number(a, speed_rpm, unit)}")
