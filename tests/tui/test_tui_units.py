@@ -130,3 +130,23 @@ def test_help_says_where_the_units_switch_is_and_that_the_job_stays_metric() -> 
 
     text = " ".join(help_text().split())
     assert "F8 on the machine screen" in text and "oz, in, oz·in" in text and "stay metric" in text
+
+
+async def test_the_vibration_unit_chosen_is_kept_for_the_next_session(tmp_path) -> None:
+    from tui_helpers import key, wait_until
+
+    from runtrue.tui import make_app
+
+    db = str(tmp_path / "jobs.sqlite")
+    app = make_app("sim:fan", seed=1, realtime=False, post_interval_s=0.05, store_path=db)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
+        assert app.vib_unit == "mm/s rms"                       # the default
+        await key(pilot, "l")
+        await key(pilot, "u")
+        await wait_until(pilot, lambda: app.vib_unit == "mm/s pk", what="unit changed")
+    again = make_app("sim:fan", seed=1, realtime=False, store_path=db)
+    assert again.vib_unit == "mm/s pk"                         # remembered beside the job database
+    (tmp_path / "settings.json").write_text("{not json", encoding="utf-8")
+    assert make_app("sim:fan", store_path=db).vib_unit == "mm/s rms"   # a spoilt file: the default
+    assert make_app("sim:fan", store_path=":memory:").vib_unit == "mm/s rms"

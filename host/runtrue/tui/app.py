@@ -112,6 +112,10 @@ class RuntrueApp(App):
         self.trial_removed = True  # take each trial weight off before the next run
         self.amplitude_only = False  # no reference mark: the four-run method (machine screen, F7)
         self.units = METRIC  # display units, metric or imperial (machine screen, F8); jobs stay metric
+        from runtrue.tui.settings import saved_vib_unit, settings_path
+
+        self.settings_path = settings_path(store_path)  # settings.json beside the job database
+        self.vib_unit = saved_vib_unit(self.settings_path)  # u on the reading screen; kept between sessions
         self.failure: str = ""  # the one line shown after an unexpected error ended the application
 
     # -- notifications ----------------------------------------------------------------------------

@@ -25,7 +25,7 @@ STEPS = (
     "Diagnosis (d on the reading screen, F10 on the machine screen): before weights go on, is it "
     "unbalance? Severity zone per pickup, spectrum, the verdict with what to check; c records a "
     "coast-down for resonances. The job keeps each diagnosis: the report shows before and after.",
-    "5 Reading: the 1x live; r takes the reading once steady (Space: now); u changes the vibration unit; "
+    "5 Reading: the 1x live; r takes the reading once steady (Space: now); u changes the vibration unit (kept for next time); "
     "d diagnoses.",
     "6 Result: before and after, residual against permissible, the report and the export.",
 )

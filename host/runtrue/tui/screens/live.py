@@ -329,7 +329,14 @@ class LiveScreen(StepScreen):
 
     def action_vib_unit(self) -> None:
         """Show vibration as mm/s rms, mm/s pk or g pk (display only: the job stores g pk)."""
-        self.app.vib_unit = next_vib_unit(vib_unit_of(self.app))  # type: ignore[attr-defined]
+        from runtrue.tui.settings import save_setting
+
+        unit = next_vib_unit(vib_unit_of(self.app))
+        self.app.vib_unit = unit  # type: ignore[attr-defined]
+        problem = save_setting(getattr(self.app, "settings_path", None), "vib_unit", unit)
+        if problem:
+            self.notify(f"Shown in {unit} now, but not kept for next time: {problem}", title="Unit",
+                        severity="warning")
         self._redraw()
 
     def action_channel(self) -> None:
