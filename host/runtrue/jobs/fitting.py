@@ -8,6 +8,7 @@ Conventions: angles from the reference mark against rotation; planes numbered fr
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from typing import Any, Sequence
 
 from runtrue.jobs.model import Machine, PlaneSpec, Weight
@@ -138,12 +139,15 @@ def plan_plane(
     number: int,
     permissible_gmm: float | None = None,
     in_use: Sequence[float] = (),
+    existing: Sequence[Weight] = (),
 ) -> Any:
     """The correction for one plane as placements and a fitting sheet (a ``PlaneCorrection``).
 
     With ``permissible_gmm`` (the plane's share of the permissible residual unbalance) the
     allocator may stop at a residual of :data:`GOOD_ENOUGH_FRACTION` of it, preferring fewer
-    positions.
+    positions.  ``existing``: weights already on this plane (their effect is in the reading and
+    so in ``correction_gmm``) that may stay, be moved to another position or be taken off; the
+    ones that come off their place are the result's ``taken_off``.
     """
     from runtrue.allocation import centrifugal_force_n, allocate, fitting_sheet
     from runtrue.allocation.sheet import SheetRow
@@ -158,10 +162,11 @@ def plan_plane(
     if mag == 0.0:
         return PlaneCorrection(plane, correction, [], [], 0.0, 0.0, [])
     note: list[str] = []
+    old = _existing_weights(spec, existing)
     try:
         material = _material(machine, in_use)
         alloc = None
-        if material:
+        if material or any(e.may_move for e in old):
             alloc = allocate(
                 correction_gmm,
                 positions_for(spec),
@@ -171,6 +176,7 @@ def plan_plane(
                 good_enough_gmm=GOOD_ENOUGH_FRACTION * permissible_gmm if permissible_gmm else None,
                 prefer_fewer_positions=permissible_gmm is not None,
                 max_nodes=MAX_SEARCH_NODES,
+                existing=old,
                 **material,
             )
     except ValueError as exc:  # AllocationError is a ValueError: stock used up, nothing fits...
@@ -186,16 +192,62 @@ def plan_plane(
         if note:
             pc.warnings = note
         return pc
-    sheet = fitting_sheet(alloc, machine.speed_rpm)
+    from runtrue.jobs.numbers import mass_text
+
+    sheet = list(fitting_sheet(alloc, machine.speed_rpm))
     fit = []
-    for p in alloc.placements:
+    taken_off = [existing[i] for i in alloc.removed_existing]
+    for k, p in enumerate(alloc.placements):
         where = f"position {p.position_index + 1}" if p.position_index is not None else "groove"
+        text = f"{label}, plane {plane}, {where}"
+        if p.moved_existing:
+            moved = [existing[i] for i in p.moved_existing]
+            taken_off += moved
+            text += ", with " + " and ".join(f"the {_old_text(spec, w)} moved here" for w in moved)
+            row = sheet[k]
+            new_parts = " + ".join(mass_text(m) for m in p.pieces)
+            sheet[k] = replace(row, what=", ".join(
+                [x for x in [new_parts] if x] + [f"the {_old_text(spec, w)} moved here" for w in moved]))
         fit.append(Weight(plane, float(p.mass_g), float(p.angle_deg), float(p.radius_mm),
-                          f"{label}, plane {plane}, {where}", tuple(float(m) for m in p.pieces)))
+                          text, tuple(float(m) for m in p.pieces)))
     warnings = note + [f"Plane {plane}: {w}" for w in alloc.warnings]
     return PlaneCorrection(
-        plane, correction, fit, list(sheet), abs(alloc.residual_gmm), float(alloc.residual_fraction), warnings
+        plane, correction, fit, sheet, abs(alloc.residual_gmm), float(alloc.residual_fraction), warnings,
+        taken_off,
     )
+
+
+def _position_index(spec: PlaneSpec, w: Weight) -> int | None:
+    """The 0-based position a weight sits at (within 0.5 degree, same radius), or None."""
+    if spec.continuous or abs(w.radius_mm - spec.radius_mm) > 0.5:
+        return None
+    for i, a in enumerate(positions_for(spec).angles_deg):
+        if abs((w.angle_deg - a + 180.0) % 360.0 - 180.0) <= 0.5:
+            return i
+    return None
+
+
+def _existing_weights(spec: PlaneSpec, existing: Sequence[Weight]) -> list[Any]:
+    """The allocator's view of weights already on: each may come off; one sitting at a known
+    position may also be moved to another (the allocator needs its position to do that)."""
+    from runtrue.allocation import ExistingWeight
+
+    out = []
+    if spec.continuous:  # in a groove they stay where they are (the correction allows for them)
+        return out
+    for w in existing:
+        index = _position_index(spec, w)
+        out.append(ExistingWeight(w.mass_g, w.angle_deg, w.radius_mm, index, may_move=index is not None,
+                                  may_remove=True))
+    return out
+
+
+def _old_text(spec: PlaneSpec, w: Weight) -> str:
+    index = _position_index(spec, w)
+    from runtrue.jobs.numbers import angle_text, mass_text
+
+    where = f"position {index + 1}" if index is not None else angle_text(w.angle_deg)
+    return f"{mass_text(w.mass_g)} from {where}"
 
 
 def _split_without_stock(

@@ -74,15 +74,22 @@ def force_limit_basis(machine: Machine) -> str:
     )
 
 
-def _start_weights_options(machine: Machine, weights: Sequence[Weight], combine: bool) -> dict[str, Any]:
-    """Job options for weights already on the rotor when the job starts (left by an earlier job)."""
+def _start_weights_options(machine: Machine, weights: Sequence[Weight], combine: bool,
+                           move: bool = False) -> dict[str, Any]:
+    """Job options for weights already on the rotor when the job starts (left by an earlier job):
+    ``combine`` - the correction replaces them; ``move`` - the correction may leave each where it
+    is, move it to another position, or take it off (the allocator decides, with the stock)."""
     out: dict[str, Any] = {}
     for w in weights:
         if not 1 <= w.plane <= machine.n_planes:
             raise ValueError(f"a weight left on is in plane {w.plane}, but {machine.name!r} has {machine.n_planes} plane(s)")
+    if combine and move:
+        raise ValueError("weights left on are either combined into the correction or moved, not both")
     if weights:
         out["weights_at_start"] = [w.to_dict() for w in weights]
         out["combine_at_start"] = bool(combine)
+        if move:
+            out["move_at_start"] = True
     return out
 
 
@@ -208,6 +215,7 @@ class PlaneCorrection:
     residual_gmm: float
     residual_fraction: float
     warnings: list[str] = field(default_factory=list)
+    taken_off: list[Weight] = field(default_factory=list)  # weights already on that come off (moved or removed)
 
 
 @dataclass
@@ -375,6 +383,7 @@ class BalanceJob:
         amplitude_only: bool = False,
         weights_at_start: Sequence[Weight] = (),
         combine_at_start: bool = False,
+        move_at_start: bool = False,
     ) -> BalanceJob:
         """Start and record a new job on ``machine`` (saved or not).
 
@@ -405,7 +414,7 @@ class BalanceJob:
             "trial_removed": bool(trial_removed),
             "use_stored_influence": bool(use_stored_influence),
             "max_trim_runs": int(max_trim_runs),
-            **_start_weights_options(machine, weights_at_start, combine_at_start),
+            **_start_weights_options(machine, weights_at_start, combine_at_start, move_at_start),
         }
         job_id = store.new_job(machine, options)
         return cls(store, job_id, machine, options)
@@ -1056,13 +1065,18 @@ class BalanceJob:
         else:
             old = []
         old_sums = _plane_sums(old)
+        # Move: the weights left on by the last job may stay, move to another position or come off,
+        # whichever the allocator finds best for the correction (their effect is in the reading).
+        movable = ([w for w in now if w in self._weights_at_start]
+                   if self.options.get("move_at_start") and kind == "correction" else [])
         in_use = [m for w in now for m in w.pieces]
         for w in sol.corrections:
             pc = fitting.plan_plane(
                 self.machine, w.plane, w.unbalance_gmm + old_sums.get(w.plane, 0j), kind, s.trims_done + 1,
-                self._plane_permissible(w.plane), in_use
+                self._plane_permissible(w.plane), in_use, existing=[x for x in movable if x.plane == w.plane]
             )
             in_use += [m for f in pc.fit for m in f.pieces]
+            remove = remove + [x for x in pc.taken_off if x not in remove]
             planes.append(pc)
         s.plan = CorrectionPlan(
             kind=kind,

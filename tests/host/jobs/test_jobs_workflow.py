@@ -327,3 +327,40 @@ def test_weights_left_by_the_last_job_are_offered_and_can_stay_or_be_combined(st
         assert (still_on == []) if combine else (still_on == on_rotor)
         html = render_html(store, job.job_id)
         assert "already on the rotor" in html and "On the rotor at the end" in html
+
+
+def test_a_weight_left_on_at_the_wrong_place_is_moved_where_the_correction_needs_it(store: JobStore) -> None:
+    """Move: the last job's 10 g sits at position 1 (0°); the rotor now needs 10 g at position 3
+    (90°) and the stock has only two 1 g pieces: the correction moves the old weight there
+    (the allocator's refitting of weights already on) and the job passes."""
+    from runtrue.jobs.model import Weight
+
+    m = fan(stock=[StockPiece(1.0, 2)])
+    old = Weight(1, 10.0, 0.0, 160.0, "left by job 1")
+    rotor = LinearRotor(FAN_H, [polar(1600.0, 270.0)], 1470.0)
+    # the rotor's own unbalance is 1600 g·mm at 270°: 10 g at 90° (position 3) cancels it
+    job = BalanceJob.start(store, m, weights_at_start=[old], move_at_start=True)
+    assert job.options["move_at_start"] is True and job.planned_weights() == [old]
+    while job.step != "correction":
+        job.record_run(rotor.reading(job.planned_weights()))
+        assert len(job.runs) < 6
+    plan = job.state.plan
+    assert old in plan.remove                                     # off position 1 ...
+    moved = [w for w in plan.weights_to_fit() if "moved here" in w.label]
+    assert moved and moved[0].angle_deg == pytest.approx(90.0)    # ... onto position 3
+    assert "10.0 g from position 1 moved here" in moved[0].label
+    assert any("moved here" in row.what for pc in plan.planes for row in pc.sheet)
+    assert old not in job.planned_weights()
+    drive(job, rotor)
+    assert job.result().passed is True and true_residual_within_grade(m, rotor, job)
+    # a resumed job plans the same move
+    again = BalanceJob.resume(store, job.job_id)
+    assert again.result().passed is True
+
+
+def test_weights_left_on_are_combined_or_moved_not_both(store: JobStore) -> None:
+    from runtrue.jobs.model import Weight
+
+    with pytest.raises(ValueError, match="not both"):
+        BalanceJob.start(store, fan(), weights_at_start=[Weight(1, 10.0, 0.0, 160.0)],
+                         combine_at_start=True, move_at_start=True)
