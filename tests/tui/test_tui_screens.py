@@ -261,6 +261,7 @@ async def test_saved_machine_keeps_its_coefficients_and_goes_straight_to_the_cor
         assert screen_name(app) == "WeightsLeftDialog"
         text = screen_text(app)
         assert "Job 1" in text and "left these on the rotor" in text and "position" in text
+        assert "m: still on, the correction may move them" in text
         await pilot.press("k")
         job2 = app.session.job
         assert job2 is not job and job2.planned_weights() == list(job.runs[-1].weights)
@@ -573,3 +574,21 @@ async def test_the_resume_list_says_when_each_job_started_its_runs_and_the_weigh
         prompt = str(ol.get_option(f"j{job_id}").prompt)
         assert f"job {job_id}" in prompt and "1r" in prompt and "0w on" in prompt
         assert prompt.splitlines()[1].strip()[:2].isdigit()  # month-day of the start, local time
+
+
+async def test_weights_left_on_can_be_moved_by_the_correction(monkeypatch: pytest.MonkeyPatch) -> None:
+    import runtrue.jobs.workflow as workflow
+    from runtrue.jobs.model import Weight
+
+    left = Weight(1, 10.0, 45.0, 160.0, "left by job 7")
+    monkeypatch.setattr(workflow, "weights_left_on", lambda store, machine: (7, "2026-11-30T10:00:00Z", [left]))
+    app = make_app("manual")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n")
+        fill(app.screen, FAN_FIELDS)
+        await pilot.press("f2")
+        assert screen_name(app) == "WeightsLeftDialog"
+        await pilot.press("m")
+        job = app.session.job
+        assert screen_name(app) == "RunsScreen"
+        assert job.options["move_at_start"] is True and job.planned_weights() == [left]

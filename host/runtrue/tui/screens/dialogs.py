@@ -223,11 +223,13 @@ def weights_left_lines(machine: Any, job_id: int, when: str, weights: list[Any])
 
 
 class WeightsLeftDialog(ModalScreen[str | None]):
-    """At the start of a job: the weights the last job left on; still on, combine, or taken off."""
+    """At the start of a job: the weights the last job left on; still on, combine, may be moved,
+    or taken off."""
 
     BINDINGS = [
         Binding("k", "answer('keep')", "Still on"),
         Binding("c", "answer('combine')", "Still on, combine"),
+        Binding("m", "answer('move')", "Still on, may move"),
         Binding("t", "answer('off')", "Taken off"),
         Binding("escape", "answer(None)", "Back"),
     ]
@@ -238,17 +240,18 @@ class WeightsLeftDialog(ModalScreen[str | None]):
         self.can_combine = can_combine
 
     def compose(self) -> ComposeResult:
-        keys = "k: still on, leave them    "
+        keys = "k: still on, leave them    t: taken off (nothing on now)\n"
         if self.can_combine:
-            keys += "c: still on, replace them with the correction\n"
-        keys += "t: taken off (nothing on now)    Esc: back"
+            keys += ("c: still on, replace them with the correction\n"
+                     "m: still on, the correction may move them to another position\n")
+        keys += "Esc: back"
         with Vertical(classes="form-box confirm-box"):
             yield Static("Weights already on the rotor?", classes="pane-title", markup=False)
             yield Static("\n".join(self.lines), classes="confirm-text", markup=False)
             yield Static(keys, classes="note", markup=False)
 
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
-        if action == "answer" and parameters and parameters[0] == "combine" and not self.can_combine:
+        if action == "answer" and parameters and parameters[0] in ("combine", "move") and not self.can_combine:
             return False
         return True
 

@@ -14,7 +14,8 @@ STEPS = (
     "2 Machine: describe it once (mass, speed, rotation, planes, positions, stock, grade, pickups).",
     "3 Balancing runs: reference run as found; a trial weight per plane; the correction; trim runs "
     "until the residual unbalance is within the grade. A saved machine with coefficients skips the "
-    "trials; weights an earlier job left on are offered to keep, combine or mark as taken off.",
+    "trials; weights an earlier job left on are offered to keep, combine, move (the correction may "
+    "refit them at another position) or mark as taken off.",
     "No reference mark (F7 on the machine screen, one plane only): the amplitude-only four-run "
     "method - chalk a 0 deg mark, a reference run, the trial weight moved to three angles, the "
     "correction; only the 1x amplitude is used and the residual is an estimate without phase.",

@@ -338,12 +338,13 @@ class MachineScreen(StepScreen):
         def answered(choice: str | None) -> None:
             if choice is None:
                 return
-            self._start(machine, weights if choice in ("keep", "combine") else [], choice == "combine")
+            self._start(machine, weights if choice in ("keep", "combine", "move") else [], choice == "combine",
+                        move=choice == "move")
 
         self.app.push_screen(WeightsLeftDialog(weights_left_lines(machine, job_id, when, weights),
                                                can_combine=not amplitude_only), answered)
 
-    def _start(self, machine: Any, weights_at_start: list[Any], combine: bool) -> None:
+    def _start(self, machine: Any, weights_at_start: list[Any], combine: bool, move: bool = False) -> None:
         from runtrue.jobs import BalanceJob
 
         store = self.session.store
@@ -353,7 +354,8 @@ class MachineScreen(StepScreen):
                 job = BalanceJob.start(store, machine, amplitude_only=True, weights_at_start=weights_at_start)
             else:
                 job = BalanceJob.start(store, machine, trial_removed=self.rt_app.trial_removed,
-                                       weights_at_start=weights_at_start, combine_at_start=combine)
+                                       weights_at_start=weights_at_start, combine_at_start=combine,
+                                       move_at_start=move)
         except ValueError as exc:
             self.notify(str(exc), title="Job not started", severity="error", timeout=8)
             return
