@@ -24,9 +24,9 @@ async def test_diagnosis_screen_shows_verdict_zone_spectrum_and_the_coast_down_w
         text = screen_text(app)
         assert "Hann window" in text and "zone" in text and "mm/s rms" in text
         assert screen.diagnosis.channels[0].severity.zone in "ABCD"
-        await key(pilot, "k")
+        await key(pilot, "g")
         assert screen.machine_class == "class-II" and "class II" in screen_text(app)
-        await key(pilot, "c")
+        await key(pilot, "o")
         await wait_until(pilot, lambda: screen.speed is not None, timeout_s=60, what="coast-down")
         text = screen_text(app)
         assert "WARNING" in text and "above the balancing speed" in text

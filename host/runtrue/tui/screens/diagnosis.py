@@ -3,7 +3,7 @@
 Reached from the live/machine flow with one key (the lead binds it there: see DEVELOPERS.md,
 "Diagnosis").  Shows the waveform and the velocity spectrum (Hann window, running-speed orders
 marked) of a raw capture, the severity zone per pickup, the verdict with what to check, and after
-``c`` the 1x against speed (amplitude, phase, polar locus) of a coast-down with resonances and
+``o`` the 1x against speed (amplitude, phase, polar locus) of a coast-down with resonances and
 the near-resonance warning.  The verdict is advice: Esc goes back to balancing whatever it says.
 
 The meter work runs in the link's worker thread (``MeterLink.call``); results come back with
@@ -31,10 +31,10 @@ class DiagnosisScreen(StepScreen):
     STEP = "Diagnosis: is it unbalance?"
     BINDINGS = [
         Binding("d", "diagnose", "Diagnose"),
-        Binding("c", "speed_run", "Coast-down"),
-        Binding("v", "view", "Spectrum/speed"),
-        Binding("n", "next_channel", "Pickup"),
-        Binding("k", "machine_class", "Class"),
+        Binding("o", "speed_run", "Coast-down"),
+        Binding("s", "view", "Spectrum/speed"),
+        Binding("c", "next_channel", "Pickup"),
+        Binding("g", "machine_class", "Class"),
         Binding("escape", "back", "Go on"),
     ]
 
@@ -82,7 +82,7 @@ class DiagnosisScreen(StepScreen):
         d = self.diagnosis
         if self.view == "speed":
             if self.speed is None:
-                return ("No run-up or coast-down recorded yet. Press c, then switch the drive off (the "
+                return ("No run-up or coast-down recorded yet. Press o, then switch the drive off (the "
                         "simulator coasts down by itself). Keep clear of the machine.")
             sa = self.speed
             ch = sorted(sa.curves)[min(self.channel_row, len(sa.curves) - 1)]
