@@ -292,9 +292,9 @@ class AmplitudeOnlyJob(BalanceJob):
         )
 
     def _where(self, t: Weight) -> str:
-        from runtrue.jobs.workflow import _position_number
+        from runtrue.jobs.workflow import position_number
 
-        pos = _position_number(self.machine, 1, t.angle_deg)
+        pos = position_number(self.machine, 1, t.angle_deg)
         return f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
 
     def _estimate(

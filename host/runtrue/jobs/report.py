@@ -29,7 +29,7 @@ from runtrue.jobs.numbers import (
     vib_number,
 )
 from runtrue.jobs.store import JobStore, now_iso
-from runtrue.jobs.workflow import CAUTIONS, STANDARD, BalanceJob, JobResult
+from runtrue.jobs.workflow import CAUTIONS, STANDARD, BalanceJob, JobResult, position_number
 
 _CSS = """
 body { font-family: system-ui, -apple-system, "Segoe UI", sans-serif; color: #1b1b1b; margin: 2em auto;
@@ -137,17 +137,6 @@ def _details_table(store: JobStore, job_id: int) -> list[str]:
 
 def _side_words(machine: Any, plane: int) -> str:
     return "from the far end" if machine.planes[plane - 1].view_side == "far" else "from the drive end"
-
-
-def position_number(machine: Any, plane: int, angle_deg: float) -> int | None:
-    """The 1-based position at ``angle_deg`` in ``plane`` (None in a groove or between positions)."""
-    angles = machine.planes[plane - 1].position_angles_deg()
-    if angles is None:
-        return None
-    for n, a in enumerate(angles, start=1):
-        if abs((a - angle_deg + 180.0) % 360.0 - 180.0) < 1e-6:
-            return n
-    return None
 
 
 def position_sketch_svg(machine: Any, plane: int, weights: list[Any], size_px: int = 240, mark: str = "mark") -> str:

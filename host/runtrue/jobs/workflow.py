@@ -501,7 +501,7 @@ class BalanceJob:
         elif s.step == "trial":
             t = s.trial
             assert t is not None and s.plane is not None
-            pos = _position_number(m, s.plane, t.angle_deg)
+            pos = position_number(m, s.plane, t.angle_deg)
             where = f"position {pos} ({t.angle_deg:.1f}°)" if pos is not None else f"{t.angle_deg:.1f}°"
             verdict_first = 1 if s.message and "TOO SMALL" in s.message else 0
             out.insert(verdict_first, f"Fit {mass_text(t.mass_g)} at {where} in {m.plane_name(s.plane)}, radius "
@@ -1145,7 +1145,7 @@ class BalanceJob:
                 )
 
 
-def _position_number(machine: Machine, plane: int, angle_deg: float) -> int | None:
+def position_number(machine: Machine, plane: int, angle_deg: float) -> int | None:
     """The 1-based position number at ``angle_deg`` in ``plane`` (None in a groove or between)."""
     angles = machine.planes[plane - 1].position_angles_deg()
     if angles is None:

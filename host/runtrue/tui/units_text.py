@@ -15,6 +15,7 @@ import math
 
 from runtrue.balancing import g_to_oz, gmm_to_ozin, mm_to_in
 from runtrue.balancing.units import STANDARD_GRAVITY_M_S2
+from runtrue.jobs.numbers import sig3
 
 METRIC = "metric"
 IMPERIAL = "imperial"
@@ -37,15 +38,6 @@ def other_units(units: str) -> str:
     return IMPERIAL if check_units(units) == METRIC else METRIC
 
 
-def _sig3(value: float, max_decimals: int = 6) -> str:
-    """Three significant figures, never an exponent: ``0.0353``, ``4.23``, ``42.3``, ``423``."""
-    if not math.isfinite(value):
-        return "---"
-    if value == 0:
-        return "0"
-    rounded = float(f"{abs(value):.3g}")  # 0.099999 counts as 0.100, not 0.0999
-    digits = max(0, 2 - int(math.floor(math.log10(rounded))))
-    return f"{value:.{min(digits, max_decimals)}f}"
 
 
 def mass_text(mass_g: float, units: str = METRIC) -> str:
@@ -54,7 +46,7 @@ def mass_text(mass_g: float, units: str = METRIC) -> str:
         from runtrue.tui.format import mass_text as metric_mass_text
 
         return metric_mass_text(mass_g)
-    return f"{_sig3(g_to_oz(mass_g))} oz"
+    return f"{sig3(g_to_oz(mass_g))} oz"
 
 
 def radius_text(radius_mm: float, units: str = METRIC) -> str:
@@ -74,7 +66,7 @@ def unbalance_text(u_gmm: float, units: str = METRIC) -> str:
     ozin = gmm_to_ozin(u_gmm)
     if ozin >= 1000:
         return f"{ozin:.0f} oz\N{MIDDLE DOT}in"
-    return f"{_sig3(ozin)} oz\N{MIDDLE DOT}in"
+    return f"{sig3(ozin)} oz\N{MIDDLE DOT}in"
 
 
 def unbalance_unit(units: str = METRIC) -> str:

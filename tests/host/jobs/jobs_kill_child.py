@@ -10,7 +10,9 @@ from __future__ import annotations
 
 import itertools
 import json
+import os
 import sys
+from pathlib import Path
 
 from runtrue.jobs import BalanceJob, JobStore
 from runtrue.jobs.headless import run_demo
@@ -23,6 +25,28 @@ def report(job: BalanceJob) -> None:
     print(json.dumps({"job": job.job_id, "seq": run.seq, "reading": run.reading.to_dict()}), flush=True)
 
 
+def seeds_file(db: str) -> Path:
+    """Job id -> the simulator seed it was started with, so a resumed job meets the same rotor."""
+    return Path(db + ".seeds.json")
+
+
+def load_seeds(db: str) -> dict[str, int]:
+    try:
+        return json.loads(seeds_file(db).read_text())
+    except (OSError, ValueError):
+        return {}
+
+
+def remember_seed(db: str, job_id: int, seed: int) -> None:
+    seeds = load_seeds(db)
+    if str(job_id) in seeds:
+        return
+    seeds[str(job_id)] = seed
+    tmp = seeds_file(db).with_suffix(".tmp")
+    tmp.write_text(json.dumps(seeds))
+    os.replace(tmp, seeds_file(db))  # atomic: a kill leaves the old file or the new one
+
+
 def scenario_of(store: JobStore, job_id: int) -> str:
     rec = store.get_job(job_id)
     assert rec is not None
@@ -33,13 +57,22 @@ def main() -> None:
     db = sys.argv[1]
     finish_only = "--finish" in sys.argv
     store = JobStore(db)
+    seeds = load_seeds(db)
     for summary in store.unfinished_jobs():
-        run_demo(scenario_of(store, summary.id), summary.id, store=store, resume_job_id=summary.id,
+        # the same virtual rotor as before the kill (a job with no run yet may start on any)
+        seed = seeds.get(str(summary.id), summary.id)
+        run_demo(scenario_of(store, summary.id), seed, store=store, resume_job_id=summary.id,
                  revs=20, on_run=report)
     if finish_only:
         return
     for k in itertools.count():
-        run_demo(SCENARIOS[k % len(SCENARIOS)], 100 + k, store=store, revs=20, on_run=report)
+        seed = 100 + k
+
+        def on_run(job: BalanceJob, seed: int = seed) -> None:
+            remember_seed(db, job.job_id, seed)
+            report(job)
+
+        run_demo(SCENARIOS[k % len(SCENARIOS)], seed, store=store, revs=20, on_run=on_run)
 
 
 if __name__ == "__main__":
