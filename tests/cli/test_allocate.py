@@ -1,4 +1,4 @@
-"""``runtrue allocate``: the JSON contract of issue 4, and one-line errors (exit 2) for bad input."""
+"""``runtrue allocate``: its JSON contract, and one-line errors (exit 2) for bad input."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""``runtrue solve``: the JSON contract of issue 3, and one-line errors (exit 2) for bad input."""
+"""``runtrue solve``: its JSON contract, and one-line errors (exit 2) for bad input."""
 
 from __future__ import annotations
 

@@ -1,6 +1,6 @@
 """The weight allocator: a correction vector turned into pieces that can be fitted.
 
-Objective (issue 4), compared lexicographically, residuals rounded to 1e-9·|correction|:
+Objective, compared lexicographically, residuals rounded to 1e-9·|correction|:
 
 1. the residual ``|correction − change|`` in g·mm, where any residual at or below the
    good-enough value ``g`` counts as ``g``.  Without one, ``g`` is 1 % of the correction

@@ -1,6 +1,6 @@
 """The data the balancing engine works on: weights, runs, solutions, and its one error type.
 
-Conventions (DEVELOPERS.md, issue 3; used by every module of ``runtrue.balancing``):
+Conventions (DEVELOPERS.md, "Conventions"; used by every module of ``runtrue.balancing``):
 
 * A **reading** is the 1x vibration of one pickup as a complex number ``amp * e^{+j*lag}``,
   where ``lag`` is the phase lag in degrees of rotation after the reference mark (0-360).

@@ -1,6 +1,6 @@
 """``runtrue allocate FILE|-``: turn a correction into pieces that can be fitted (JSON in, JSON out).
 
-Input (a contract; see issue 4)::
+Input (a contract, kept stable for scripts)::
 
     {"correction": {"mass": 9.4, "angle": 212.5, "radius": 120},
      "positions": {"count": 12, "first_angle": 0, "radius": 120},

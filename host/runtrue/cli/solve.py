@@ -1,6 +1,6 @@
 """``runtrue solve FILE|-``: balance corrections from a JSON description of the runs.
 
-Input (a contract; see issue 3)::
+Input (a contract, kept stable for scripts)::
 
     {"runs": [
        {"readings": [{"amp": 7.9, "phase": 41}]},

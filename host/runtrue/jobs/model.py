@@ -106,7 +106,7 @@ class PlaneSpec:
         return [(self.first_angle_deg + 360.0 * k / self.count) % 360.0 for k in range(self.count)]
 
     def allocator_positions(self) -> dict[str, Any]:
-        """The ``positions`` object of the allocator's JSON contract (issue 4)."""
+        """The ``positions`` object of the allocator's JSON contract (``runtrue allocate``)."""
         if self.continuous:
             return {"continuous": True, "radius": self.radius_mm}
         angles = self.position_angles_deg() or []

@@ -1,6 +1,6 @@
 """Reference solvers for the weight allocator's tests and benchmark (never used at run time).
 
-* ``brute_force``: every allocation enumerated, the objective of issue 4 applied literally.
+* ``brute_force``: every allocation enumerated, the allocator's stated objective applied literally.
 * ``milp_reference``: the same problem as a mixed-integer programme solved by scipy's ``milp``
   (HiGHS).  The Euclidean residual is replaced by a regular N-gon norm
   ``z = max_i (R·d_i)`` over N unit directions; for any vector ``cos(π/N)·|R| ≤ z ≤ |R|``

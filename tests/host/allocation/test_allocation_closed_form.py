@@ -1,4 +1,4 @@
-"""Closed-form special cases: the two-position vector split and radius conversion (issue 4).
+"""Closed-form special cases: the two-position vector split and radius conversion.
 
 Formulas: resolution of a vector into two given directions by the law of sines, as taught for
 forces (Beer & Johnston, *Vector Mechanics for Engineers: Statics*, "resolution of a force into

@@ -1,4 +1,4 @@
-"""Positions, stock, strip, old weights, limits, grooves, planes and the fitting sheet (issue 4)."""
+"""Positions, stock, strip, old weights, limits, grooves, planes and the fitting sheet."""
 
 from __future__ import annotations
 

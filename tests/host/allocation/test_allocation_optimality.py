@@ -1,5 +1,5 @@
 """The allocator is exactly optimal: equal to exhaustive search on small cases, never worse than a
-mixed-integer reference (scipy.optimize.milp, HiGHS) on larger ones (issue 4)."""
+mixed-integer reference (scipy.optimize.milp, HiGHS) on larger ones."""
 
 from __future__ import annotations
 

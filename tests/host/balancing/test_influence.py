@@ -33,7 +33,7 @@ from runtrue.balancing.influence import CONDITION_WARN
 
 
 def test_single_plane_matches_the_vector_method_by_hand() -> None:
-    # Reference 7.9 at 41 deg; 15 g at 0 deg, 120 mm gives 4.6 at 97 deg (issue 3's example).
+    # Reference 7.9 at 41 deg; 15 g at 0 deg, 120 mm gives 4.6 at 97 deg (an example of our own).
     o = phasor(7.9, 41)
     ot = phasor(4.6, 97)
     t = ot - o  # effect of the trial weight

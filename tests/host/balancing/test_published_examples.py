@@ -179,7 +179,7 @@ def test_api_style_limit_matches_the_published_example() -> None:
 
 
 def test_tolerance_command_on_the_published_example(capsys: pytest.CaptureFixture[str]) -> None:
-    # The same published example through the command line's JSON contract (issue 3).
+    # The same published example through the command line's JSON contract.
     code = main([
         "tolerance", "--grade", "G 2.5", "--mass-kg", repr(ENERGY_TECH_ROTOR_KG), "--rpm", "15000",
         "--planes", "2", "--journal-load-kg", repr(ENERGY_TECH_JOURNAL_KG),
@@ -330,7 +330,7 @@ def test_single_plane_rao_example_matches_the_graphical_method() -> None:
 def test_solve_command_on_the_rao_single_plane_example(
     monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    # The JSON contract of ``runtrue solve`` (issue 3) on the same example.
+    # The JSON contract of ``runtrue solve`` on the same example.
     monkeypatch.setattr(sys, "stdin", io.StringIO(json.dumps(RAO_9_1)))
     code = main(["solve", "-"])
     out, err = capsys.readouterr()
