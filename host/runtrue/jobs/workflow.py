@@ -36,6 +36,7 @@ import re
 from dataclasses import dataclass, field, replace
 from typing import Any, Sequence
 
+from runtrue.validation import WEIGHT_MIN_G
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunReading, RunRecord, StoredInfluence, Weight
 from runtrue.jobs.numbers import force_text, mass_text
 from runtrue.jobs.store import JobStore, now_iso
@@ -475,7 +476,10 @@ class BalanceJob:
         if s.plan is None:  # the correction could not be worked out: nothing to change
             return on
         removed = set(s.plan.remove)
-        return [w for w in on if w not in removed] + s.plan.weights_to_fit()
+        # a piece lighter than the smallest weight anyone can fit (a strip cut of a few tenths of a
+        # milligram) is nothing to fit: it is left out rather than recorded
+        to_fit = [w for w in s.plan.weights_to_fit() if w.mass_g >= WEIGHT_MIN_G]
+        return [w for w in on if w not in removed] + to_fit
 
     def suggested_trial(self) -> Weight | None:
         return self.state.trial if self.state.step == "trial" else None
