@@ -21,7 +21,9 @@ import math
 import sys
 from typing import Any
 
-from runtrue.cli import UsageError
+from runtrue import validation as v
+from runtrue.cli import UsageError, checked
+from runtrue.cli.measure import _channels_mask
 
 
 def register(subparsers: Any) -> None:
@@ -34,42 +36,50 @@ def register(subparsers: Any) -> None:
         "the machine while it runs; follow the machine maker's instructions for stopping and starting.",
     )
     p.add_argument("--port", help="serial port of the meter, or sim:NAME / sim:FILE for the simulator")
-    p.add_argument("--balancing-rpm", type=float, default=None, metavar="RPM",
+    p.add_argument("--balancing-rpm", type=checked(_rpm("--balancing-rpm")), default=None, metavar="RPM",
                    help="the speed balancing is done at (default: the machine's running speed in the "
                    "simulator, else the speed when recording starts)")
-    p.add_argument("--from-rpm", type=float, default=None, metavar="RPM", help="simulator: start speed")
-    p.add_argument("--to-rpm", type=float, default=None, metavar="RPM",
+    p.add_argument("--from-rpm", type=checked(_rpm("--from-rpm")), default=None, metavar="RPM", help="simulator: start speed")
+    p.add_argument("--to-rpm", type=checked(_rpm("--to-rpm")), default=None, metavar="RPM",
                    help="stop recording at this speed (above the start: a run-up in the simulator)")
-    p.add_argument("--rate", type=float, default=None, metavar="RPM_PER_S",
+    p.add_argument("--rate", type=checked(_rate), default=None, metavar="RPM_PER_S",
                    help="simulator: deceleration or run-up rate (default: the scenario's coast-down)")
-    p.add_argument("--channels", default=None, metavar="LIST", help="channels, e.g. 0 or 0,1 or all")
-    p.add_argument("--max-s", type=float, default=600.0, metavar="S", help="longest recording, seconds")
+    p.add_argument("--channels", type=_channels_mask, default=None, metavar="LIST",
+                   help="channels, e.g. 0 or 0,1 or all")
+    p.add_argument("--max-s", type=checked(_max_s), default=600.0, metavar="S",
+                   help=f"longest recording, 1-{MAX_RECORDING_S:g} s")
     p.add_argument("--json", action="store_true", help="print one JSON object")
-    p.add_argument("--seed", type=int, default=None, help="simulator only: make the run repeatable")
-    p.add_argument("--timeout", type=float, default=5.0, metavar="S",
+    p.add_argument("--seed", type=checked(v.seed), default=None,
+                   help=f"simulator only: make the run repeatable, 0-{v.MAX_SEED}")
+    p.add_argument("--timeout", type=checked(v.timeout_s), default=5.0, metavar="S",
                    help="the recording ends when no revolution comes for this long")
 
 
-def run(args: Any) -> int:
-    import argparse
+MAX_RECORDING_S = 3600.0  # one hour: a large machine's coast-down is minutes, not hours
+MAX_RATE_RPM_PER_S = 100_000.0
 
-    from runtrue.cli.measure import _channels_mask, _pick_port
+
+def _rpm(option: str) -> Any:
+    def check(value: Any) -> float:
+        return v.in_range(value, option, 1.0, v.SPEED_MAX_RPM, "rpm", "give a positive speed")
+    return check
+
+
+def _rate(value: Any) -> float:
+    return v.in_range(value, "--rate", 0.01, MAX_RATE_RPM_PER_S, "rpm/s", "give a positive rate")
+
+
+def _max_s(value: Any) -> float:
+    return v.in_range(value, "--max-s", 1.0, MAX_RECORDING_S, "s", "give a positive number of seconds")
+
+
+def run(args: Any) -> int:
+    from runtrue.cli.measure import _pick_port
     from runtrue.device import MeterError, open_meter
     from runtrue.diagnosis.acquire import analyse_speed_run, record_speed_change
     from runtrue.transport import PortError, TransportLost
 
-    for name in ("balancing_rpm", "from_rpm", "to_rpm", "rate"):
-        v = getattr(args, name)
-        if v is not None and not (math.isfinite(v) and v > 0):
-            raise UsageError(f"--{name.replace('_', '-')} {v}: give a positive number")
-    if args.timeout <= 0 or args.max_s <= 0:
-        raise UsageError("--timeout and --max-s must be positive numbers of seconds")
-    mask = None
-    if args.channels is not None:
-        try:
-            mask = _channels_mask(args.channels)
-        except argparse.ArgumentTypeError as exc:
-            raise UsageError(f"--channels {exc}") from None
+    mask = args.channels
     port = _pick_port(args.port)
     try:
         client = open_meter(port, seed=args.seed)

@@ -23,7 +23,9 @@ import argparse
 import json
 from typing import Any
 
-from runtrue.cli import UsageError
+from runtrue import validation as v
+from runtrue.cli import UsageError, checked
+from runtrue.cli.measure import _channels_mask
 
 CLASSES = ("class-I", "class-II", "class-III", "class-IV", "group2-rigid", "group2-flexible",
            "group1-rigid", "group1-flexible")
@@ -47,40 +49,44 @@ def register(subparsers: Any) -> None:
         "of rotation, and follow the machine maker's instructions and local rules.",
     )
     p.add_argument("--port", help="serial port of the meter, or sim:NAME / sim:FILE for the simulator")
-    p.add_argument("--revs", type=int, default=30, help="usable revolutions (default 30)")
-    p.add_argument("--capture", type=int, default=4096, metavar="FRAMES",
+    p.add_argument("--revs", type=checked(_diag_revs), default=30,
+                   help=f"usable revolutions, 3-{v.MAX_REVS} (default 30)")
+    p.add_argument("--capture", type=checked(_capture_frames), default=4096, metavar="FRAMES",
                    help="raw capture length in sample frames, 64-4096 (0: none; default 4096)")
     p.add_argument("--class", dest="machine_class", default="class-I", choices=CLASSES,
                    help="machine class/group and support for the severity zones (default class-I: up to 15 kW)")
-    p.add_argument("--channels", default=None, metavar="LIST", help="channels, e.g. 0 or 0,1 or all")
+    p.add_argument("--channels", type=_channels_mask, default=None, metavar="LIST",
+                   help="channels, e.g. 0 or 0,1 or all")
     p.add_argument("--pair", type=_pair, default=None, metavar="A,B",
                    help="two channels on one bearing, 90 deg apart (the simulator finds them itself)")
     p.add_argument("--spectrum", action="store_true", help="with --json: include each spectrum")
     p.add_argument("--before", default=None, metavar="FILE",
                    help="an earlier `diagnose --json` output (before balancing): print the zones before and after")
     p.add_argument("--json", action="store_true", help="print one JSON object")
-    p.add_argument("--seed", type=int, default=None, help="simulator only: make the run repeatable")
-    p.add_argument("--timeout", type=float, default=5.0, metavar="S", help="longest wait for a revolution")
+    p.add_argument("--seed", type=checked(v.seed), default=None,
+                   help=f"simulator only: make the run repeatable, 0-{v.MAX_SEED}")
+    p.add_argument("--timeout", type=checked(v.timeout_s), default=5.0, metavar="S",
+                   help=f"longest wait for a revolution, {v.MIN_TIMEOUT_S:g}-{v.MAX_TIMEOUT_S:g} s")
+
+
+def _diag_revs(value: Any) -> int:
+    return v.revs(value, lo=3)
+
+
+def _capture_frames(value: Any) -> int:
+    frames = v.whole(value, "--capture", 0, 4096)
+    if 0 < frames < 64:
+        raise v.ValidationError(f"--capture {frames}: give 64 to 4096 frames, or 0 for no capture")
+    return frames
 
 
 def run(args: Any) -> int:
-    from runtrue.cli.measure import _channels_mask, _pick_port
+    from runtrue.cli.measure import _pick_port
     from runtrue.device import MeterError, open_meter
     from runtrue.diagnosis.acquire import take_diagnosis
     from runtrue.transport import PortError, TransportLost
 
-    if args.revs < 3:
-        raise UsageError(f"--revs {args.revs}: use at least 3 revolutions (30 is usual)")
-    if args.capture and not 64 <= args.capture <= 4096:
-        raise UsageError(f"--capture {args.capture}: give 64 to 4096 frames, or 0 for no capture")
-    if args.timeout <= 0:
-        raise UsageError("--timeout must be a positive number of seconds")
-    mask = None
-    if args.channels is not None:
-        try:
-            mask = _channels_mask(args.channels)
-        except argparse.ArgumentTypeError as exc:
-            raise UsageError(f"--channels {exc}") from None
+    mask = args.channels
     before = _load_before(args.before) if args.before else None
     port = _pick_port(args.port)
     try:
