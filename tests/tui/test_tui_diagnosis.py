@@ -79,6 +79,8 @@ async def test_f10_on_the_machine_screen_diagnoses_and_the_job_keeps_it_for_the_
         await key(pilot, "f10")
         await wait_until(pilot, lambda: len(app.session.diagnoses) == 1, what="diagnosis")
         await key(pilot, "escape")
+        # the next key only once the machine screen is back on top (a loaded machine is slow)
+        await wait_until(pilot, lambda: type(app.screen).__name__ == "MachineScreen", what="machine screen")
         await key(pilot, "f2")
         await wait_until(pilot, lambda: app.session.job is not None, what="job started")
         job = app.session.job

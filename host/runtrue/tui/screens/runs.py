@@ -206,7 +206,7 @@ class RunsScreen(StepScreen):
 
     def redraw(self) -> None:
         job = self.session.job
-        if job is None:
+        if job is None or not self.query("#todo"):  # no job, or not composed yet / going away
             return
         self.refresh_status()
         step = job.state.step
