@@ -75,7 +75,7 @@ async def test_f10_on_the_machine_screen_diagnoses_and_the_job_keeps_it_for_the_
     async with app.run_test(size=SIZE) as pilot:
         await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
         await key(pilot, "n")
-        assert type(app.screen).__name__ == "MachineScreen"
+        await wait_until(pilot, lambda: type(app.screen).__name__ == "MachineScreen", what="machine screen")
         await key(pilot, "f10")
         await wait_until(pilot, lambda: len(app.session.diagnoses) == 1, what="diagnosis")
         await key(pilot, "escape")
