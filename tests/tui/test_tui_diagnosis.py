@@ -20,19 +20,22 @@ async def test_diagnosis_screen_shows_verdict_zone_spectrum_and_the_coast_down_w
         await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
         screen = DiagnosisScreen()
         app.push_screen(screen)
-        await wait_until(pilot, lambda: screen.diagnosis is not None, what="diagnosis")
+        await wait_until(pilot, lambda: screen.diagnosis is not None and "Hann window" in screen_text(app),
+                         what="diagnosis on screen")
         text = screen_text(app)
         assert "Hann window" in text and "zone" in text and "mm/s rms" in text
         assert screen.diagnosis.channels[0].severity.zone in "ABCD"
         await key(pilot, "g")
-        assert screen.machine_class == "class-II" and "class II" in screen_text(app)
+        await wait_until(pilot, lambda: screen.machine_class == "class-II" and "class II" in screen_text(app),
+                         what="class II")
         await key(pilot, "o")
-        await wait_until(pilot, lambda: screen.speed is not None, timeout_s=60, what="coast-down")
+        await wait_until(pilot, lambda: screen.speed is not None and "WARNING" in screen_text(app), timeout_s=60,
+                         what="coast-down on screen")
         text = screen_text(app)
         assert "WARNING" in text and "above the balancing speed" in text
         assert "polar" in text
         await key(pilot, "escape")
-        assert type(app.screen).__name__ != "DiagnosisScreen"
+        await wait_until(pilot, lambda: type(app.screen).__name__ != "DiagnosisScreen", what="back from the diagnosis")
 
 
 async def test_the_one_line_binding_reaches_the_screen_and_keeps_before_and_after() -> None:
@@ -53,18 +56,18 @@ async def test_d_on_the_reading_screen_diagnoses_and_each_opening_takes_a_fresh_
     async with app.run_test(size=SIZE) as pilot:
         await wait_until(pilot, lambda: app.session.meter_state == "connected", what="connected")
         await key(pilot, "l")
-        assert type(app.screen).__name__ == "LiveScreen"
+        await wait_until(pilot, lambda: type(app.screen).__name__ == "LiveScreen", what="LiveScreen")
         await wait_until(pilot, lambda: "d Diagnose" in screen_text(app), what="the key in the bottom bar")
         await key(pilot, "d")
-        assert type(app.screen).__name__ == "DiagnosisScreen"
+        await wait_until(pilot, lambda: type(app.screen).__name__ == "DiagnosisScreen", what="DiagnosisScreen")
         await wait_until(pilot, lambda: len(app.session.diagnoses) == 1, what="diagnosis")
         await key(pilot, "escape")
-        assert type(app.screen).__name__ == "LiveScreen"
+        await wait_until(pilot, lambda: type(app.screen).__name__ == "LiveScreen", what="LiveScreen")
         await key(pilot, "d")
         await wait_until(pilot, lambda: len(app.session.diagnoses) == 2, what="second diagnosis")
         assert "zone" in screen_text(app)
         await key(pilot, "escape")
-        assert type(app.screen).__name__ == "LiveScreen"
+        await wait_until(pilot, lambda: type(app.screen).__name__ == "LiveScreen", what="LiveScreen")
         revs = app.session.live.total_revs
         await wait_until(pilot, lambda: app.session.live.total_revs > revs + 5, what="live readings go on")
 
