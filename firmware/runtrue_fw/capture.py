@@ -17,7 +17,8 @@ The meter calls: `note_edge(pos_q8)` for every accepted edge, `request(...)` for
 import struct
 
 from runtrue_fw import frames as fr
-from runtrue_fw.buffers import RING_FRAMES, zeros as _zeros
+from runtrue_fw.buffers import RING_FRAMES
+from runtrue_fw.buffers import zeros as _zeros
 from runtrue_fw.edges import wrap_diff_q8
 
 try:

@@ -25,11 +25,12 @@ import struct
 from array import array
 
 from runtrue_fw import FW_VERSION, basis, envelope
-from runtrue_fw.buffers import RING_FRAMES, zeros as _zeros
-from runtrue_fw.capture import C_RAW, Capture
 from runtrue_fw import frames as fr
 from runtrue_fw import kernels as _k
-from runtrue_fw.edges import DEBOUNCE_Q8, EdgeTracker, Q8_MASK, wrap_diff_q8
+from runtrue_fw.buffers import RING_FRAMES
+from runtrue_fw.buffers import zeros as _zeros
+from runtrue_fw.capture import C_RAW, Capture
+from runtrue_fw.edges import DEBOUNCE_Q8, Q8_MASK, EdgeTracker, wrap_diff_q8
 
 try:
     from runtrue_fw.kernels_viper import deinterleave, rev_sums

@@ -119,7 +119,7 @@ def run_sim(n_rotors: int, seed: int, resize_trials: bool, use_grade: bool) -> l
         floor = [math.hypot(pk.noise_g * math.sqrt(2.0 / NOISE_AVERAGING_SAMPLES), BACKGROUND * a0)
                  for pk, a0 in zip(sc.pickups, initial_amp)]
 
-        def read() -> tuple[list[complex], list[float]]:
+        def read(vm: VirtualMachine = vm, sc=sc, floor: list[float] = floor) -> tuple[list[complex], list[float]]:
             vm.set_speed_rpm(sc.speed_rpm * (1 + rng.uniform(-SPEED_JITTER, SPEED_JITTER)))
             return _noisy(rng, vm.expected_1x(), floor)
 
@@ -184,7 +184,7 @@ def run_linear(n_rotors: int, seed: int) -> list[Result]:
         u = np.array([tol.per_plane_gmm[i] * math.exp(rng.uniform(math.log(3), math.log(100)))
                       * np.exp(1j * rng.uniform(0, 2 * math.pi)) for i in range(n_planes)])
 
-        def read(total: np.ndarray) -> tuple[list[complex], list[float]]:
+        def read(total: np.ndarray, a: np.ndarray = a, n_planes: int = n_planes) -> tuple[list[complex], list[float]]:
             return _noisy(rng, list(a @ total), [1e-5] * n_planes)
 
         y, s = read(u)
@@ -344,7 +344,7 @@ def bench_solve(n_runs: int = 5000) -> None:
         wts = infl._row_weights(runs)
         sd = np.array([r.spreads for r in runs], dtype=float)
 
-        def refit(yy: np.ndarray) -> np.ndarray:
+        def refit(yy: np.ndarray, x: np.ndarray = x, wts: np.ndarray = wts) -> np.ndarray:
             rr, aa = infl._fit(x, yy, wts)
             return infl._correct(aa, rr)
 

@@ -65,7 +65,7 @@ from disturbances import Machine, accels, synth  # noqa: E402
 from runtrue.device.client import MeterClient  # noqa: E402
 from runtrue.readings import revmodel as rm  # noqa: E402
 from runtrue.readings import vector_average  # noqa: E402
-from runtrue.sim.scenarios import SCENARIOS, FrontEnd, Scenario  # noqa: E402
+from runtrue.sim.scenarios import SCENARIOS, Scenario  # noqa: E402
 from runtrue.sim.transport import SimTransport  # noqa: E402
 
 
@@ -399,8 +399,7 @@ def main() -> int:
     print(f"1x estimate vs Cramer-Rao bound: fan scenario (1470 rpm, ~0.4 g 1x), {trials} readings per case")
     print("ratio = measured std / sqrt(CRB); CRB = 2 s^2/N (amp), 2 s^2/(A^2 N) (phase), s = white noise;")
     print("eff = same with s^2 + LSB^2/12; exact/formula = numerical CRB with the fit's nuisances / formula")
-    print("(std of a ratio estimate from %d trials: about +-%.0f %%; 1-rev cases use 2000)"
-          % (trials, 100 / math.sqrt(2 * trials)))
+    print(f"(std of a ratio estimate from {trials} trials: about +-{100 / math.sqrt(2 * trials):.0f} %; 1-rev cases use 2000)")
     head = (f"{'case':52} {'N':>6} {'amp':>5} {'amp':>5} {'ph':>5} {'amp':>5} {'ph':>5} "
             f"{'exact/':>6} {'bias':>7} {'bias':>7} {'sd ph':>6}  note")
     print(head)

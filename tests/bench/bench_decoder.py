@@ -16,7 +16,8 @@ import time
 
 from runtrue.device import revfit
 from runtrue.protocol.frames import FrameDecoder, encode_frame
-from runtrue.protocol.messages import REV, RevStats, parse_message, rev_payload as encode_rev
+from runtrue.protocol.messages import REV, RevStats, parse_message
+from runtrue.protocol.messages import rev_payload as encode_rev
 from runtrue_fw import basis, envelope
 
 WORST_CASE_FRAMES_PER_S = envelope.MAX_RPM / 60  # one REV per revolution at the envelope's top speed

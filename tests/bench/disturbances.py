@@ -13,9 +13,9 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from runtrue_fw import basis as fwb
 
 from runtrue.readings import revmodel as rm
+from runtrue_fw import basis as fwb
 
 
 @dataclass(frozen=True)

@@ -10,7 +10,6 @@ import sys
 from pathlib import Path
 
 import pytest
-
 from cli_harness import assert_contract, no_application, run_cli
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))

@@ -7,10 +7,9 @@ import json
 import os
 
 import pytest
+from cli_harness import assert_contract, no_application, run_cli
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
-
-from cli_harness import assert_contract, no_application, run_cli
 
 # RUNTRUE_FUZZ_EXAMPLES=2000 for a longer hunt by hand (random, not repeatable); CI runs 60, repeatable.
 _EXAMPLES = int(os.environ.get("RUNTRUE_FUZZ_EXAMPLES", "60"))

@@ -41,8 +41,8 @@ def test_api_style_limit_on_request(capsys) -> None:
 @pytest.mark.parametrize(
     ("argv", "fragment"),
     [
-        (["--grade", "abc", "--mass-kg", "1", "--rpm", "1000"], "--grade must be a number"),
-        (["--grade", "nan", "--mass-kg", "1", "--rpm", "1000"], "finite"),
+        (["--grade", "abc", "--mass-kg", "1", "--rpm", "1000"], "--grade: balance quality grade 'abc' not understood"),
+        (["--grade", "nan", "--mass-kg", "1", "--rpm", "1000"], "write it like G6.3"),
         (["--grade", "6.3", "--mass-kg", "0", "--rpm", "1000"], "rotor mass"),
         (["--grade", "6.3", "--mass-kg", "1", "--rpm", "-5"], "speed"),
         (["--grade", "6.3", "--mass-kg", "1", "--rpm", "1000", "--distances-mm", "1", "2"], "--planes 2"),

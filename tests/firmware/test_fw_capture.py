@@ -9,9 +9,9 @@ from __future__ import annotations
 import struct
 
 import pytest
-
 from rtlib.drive import Host, capture_scenario  # type: ignore[import-not-found]
 from rtlib.fakeboard import FakeBoard  # type: ignore[import-not-found]
+
 from runtrue_fw import capture as cap
 from runtrue_fw import frames as fr
 from runtrue_fw.meter import Meter

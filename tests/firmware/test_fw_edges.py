@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from runtrue_fw.edges import (F_EXTRA_PULSE, F_FIRST, F_MISSING_PULSE, F_SPEED_JUMP, Q8_MASK,
-                              EdgeTracker, wrap_diff_q8)
+from runtrue_fw.edges import F_EXTRA_PULSE, F_FIRST, F_MISSING_PULSE, F_SPEED_JUMP, Q8_MASK, EdgeTracker, wrap_diff_q8
 
 P = 100 * 256 + 37          # a period of 100.14 samples, in 1/256 sample
 

@@ -13,10 +13,10 @@ import math
 import struct
 
 import pytest
-
 from rtlib import drive  # type: ignore[import-not-found]
 from rtlib.drive import Host, stream  # type: ignore[import-not-found]
 from rtlib.fakeboard import FakeBoard, Shaft  # type: ignore[import-not-found]
+
 from runtrue.device import revfit
 from runtrue.protocol.messages import RevStats
 from runtrue_fw import frames as fr

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import json
 import struct
-from pathlib import Path
 
 from make_frame_vectors import VECTORS, render  # type: ignore[import-not-found]
+
 from runtrue_fw import frames as fr
 
 

@@ -9,7 +9,6 @@ import types
 from collections.abc import Iterator
 
 import pytest
-
 from rp2040_fake import (
     RAM_ADDRESS_OF_RING,
     TICKS_PERIOD,

@@ -13,12 +13,10 @@ CHAIN_TO 14:11, TREQ_SEL 20:15, IRQ_QUIET 21).
 from __future__ import annotations
 
 import sys
-import time
 import types
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, Callable
-
-import pytest
+from typing import Any
 
 ADC_BASE = 0x4004C000
 ADC_CS = ADC_BASE + 0x00
@@ -70,7 +68,7 @@ class FakePin:
     PULL_UP = 1
     IRQ_RISING = 8
     IRQ_FALLING = 4
-    instances: dict[int, "FakePin"] = {}
+    instances: dict[int, FakePin] = {}
 
     def __init__(self, gpio: int, mode: int = -1, pull: int = -1, *, value: int | None = None) -> None:
         self.gpio = gpio

@@ -16,7 +16,6 @@ import re
 from pathlib import Path
 
 import pytest
-
 from rp2040_fake import ADC_CS, ADC_DIV, ADC_FCS, DMA_BASE, RAM_ADDRESS_OF_RING, RecordingMeter, Rig
 
 ADC_CLOCK_HZ = 48_000_000  # datasheet 4.9: clk_adc 48 MHz

@@ -12,8 +12,8 @@ import cmath
 import math
 
 import pytest
-
 from rp2040_fake import Rig
+
 from runtrue.device import revfit
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import (

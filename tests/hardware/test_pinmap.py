@@ -9,7 +9,6 @@ import sys
 from pathlib import Path
 
 import pytest
-
 from rp2040_fake import Rig
 
 if sys.version_info >= (3, 11):

@@ -6,7 +6,6 @@ from __future__ import annotations
 import json
 
 import pytest
-
 from capture_scripts import HEAP_LOCK_CAPTURE  # type: ignore[import-not-found]
 from rtlib.drive import capture_scenario  # type: ignore[import-not-found]
 

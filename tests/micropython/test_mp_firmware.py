@@ -6,7 +6,6 @@ from __future__ import annotations
 import json
 
 import pytest
-
 from rtlib.drive import scenario  # type: ignore[import-not-found]
 from rtlib.vectors import build  # type: ignore[import-not-found]
 

@@ -54,7 +54,7 @@ async def test_whole_amplitude_only_job_on_the_simulated_fan_meets_the_grade(tmp
                 text = screen_text(app)
                 assert "phase not used" in text and "mm/s rms" in text
                 saw_live_amplitude_view = True
-            await wait_until(pilot, lambda: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
+            await wait_until(pilot, lambda n_runs=n_runs: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
             await wait_until(pilot, lambda: screen_name(app) != "LiveScreen", what="back from live")
         await wait_until(pilot, lambda: screen_name(app) == "ResultScreen", what="result")
         kinds = [r.kind for r in job.runs]
@@ -132,7 +132,7 @@ async def test_typed_amplitudes_without_phase_and_resume_from_the_machine_screen
         assert job.job_id == job_id and job.state.method == "four-run"
         assert job.state.step == "trial" and job.state.trial_number == 2
         text = screen_text(app)
-        from runtrue.jobs.numbers import vib_number
+        from runtrue.readings.numbers import vib_number
 
         speed = job.runs[0].reading.speed_rpm  # the runs pane shows 1x in mm/s rms
         assert vib_number(0.48, speed) in text and vib_number(0.61, speed) in text and "trial 2" in text

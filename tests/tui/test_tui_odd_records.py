@@ -11,7 +11,6 @@ from pathlib import Path
 
 import pytest
 from textual.widgets import Input, OptionList, Static
-
 from tui_helpers import FAN_FIELDS, fill, screen_text
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))

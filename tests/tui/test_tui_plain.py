@@ -182,7 +182,7 @@ async def test_simulated_job_on_the_linux_console_without_colour_shows_only_what
             await pilot.pause(0.3)
             look()
             await key(pilot, "a")
-            await wait_until(pilot, lambda: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
+            await wait_until(pilot, lambda n_runs=n_runs: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
             await wait_until(pilot, lambda: screen_name(app) != "LiveScreen", what="back from live")
         await wait_until(pilot, lambda: screen_name(app) == "ResultScreen", what="result")
         await wait_until(pilot, lambda: "PASS" in screen_text(app), what="PASS shown")

@@ -4,11 +4,10 @@ from __future__ import annotations
 
 import cmath
 import math
+from pathlib import Path
 from typing import Any
 
 import pytest
-from pathlib import Path
-
 from textual.widgets import Input, OptionList
 from tui_fakes import FakeRotor, fake_opener
 from tui_helpers import FAN_FIELDS, fill, key, screen_name, screen_text, wait_until
@@ -313,7 +312,7 @@ async def test_an_interrupted_job_resumes_with_its_runs(tmp_path: Path) -> None:
         job = app.session.job
         assert job.job_id == job_id and [r.kind for r in job.runs] == ["reference"]
         assert job.state.step == "trial"
-        from runtrue.jobs.numbers import vib_number
+        from runtrue.readings.numbers import vib_number
 
         assert vib_number(0.48, job.runs[0].reading.speed_rpm) in screen_text(app)  # 1x in mm/s rms
 
@@ -484,11 +483,11 @@ async def test_a_typed_trial_above_the_force_limit_asks_before_it_is_used(tmp_pa
 
 async def test_the_result_screen_and_the_report_print_the_same_digits(tmp_path: Any) -> None:
     """Before/after vibration, residual, permissible and ratio: the same text on the screen and
-    in the HTML report (both format through runtrue.jobs.numbers)."""
+    in the HTML report (both format through runtrue.readings.numbers)."""
     import html as htmlmod
     import re
 
-    from runtrue.jobs.numbers import grade_row, vib_number
+    from runtrue.readings.numbers import grade_row, vib_number
 
     app = make_app("manual", report_dir=str(tmp_path))
     async with app.run_test(size=(80, 24)) as pilot:

@@ -11,8 +11,8 @@ import pytest
 from tui_helpers import FAN_FIELDS, fill, screen_text
 
 from runtrue.balancing import g_to_oz, gmm_to_ozin, mm_to_in, ozin_to_gmm
-from runtrue.tui import make_app
 from runtrue.tui import format as metric_format
+from runtrue.tui import make_app
 from runtrue.tui.units_text import (
     IMPERIAL,
     METRIC,

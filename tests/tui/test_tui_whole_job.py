@@ -39,13 +39,13 @@ async def test_whole_job_on_the_simulator_meets_the_grade(scenario: str, seed: i
             if job.machine.n_planes == 2 and job.state.step in ("correction", "trim"):
                 # the technician's check: the two-plane correction split into static and couple
                 split = static_couple_lines(job.state.plan)
-                await wait_until(pilot, lambda: split[0] in screen_text(app), what="static/couple shown")
+                await wait_until(pilot, lambda split=split: split[0] in screen_text(app), what="static/couple shown")
                 text = screen_text(app)
                 assert all(line in text for line in split)
                 split_seen = True
             await key(pilot, "r")
             await wait_until(pilot, lambda: screen_name(app) == "LiveScreen", what="live readings")
-            await wait_until(pilot, lambda: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
+            await wait_until(pilot, lambda n_runs=n_runs: len(job.runs) > n_runs, timeout_s=30, what="reading taken")
             await wait_until(pilot, lambda: screen_name(app) != "LiveScreen", what="back from live")
         await wait_until(pilot, lambda: screen_name(app) == "ResultScreen", what="result")
         assert split_seen == (job.machine.n_planes == 2)
@@ -100,7 +100,7 @@ async def test_a_one_plane_job_with_the_fitting_list_takes_at_most_twelve_keys(t
             await pilot.pause(0.2)
             if screen_name(app) == "ConfirmDialog":
                 await press("y")
-            await wait_until(pilot, lambda: len(job.runs) > n_runs, timeout_s=30, what="run taken")
+            await wait_until(pilot, lambda n_runs=n_runs: len(job.runs) > n_runs, timeout_s=30, what="run taken")
         await wait_until(pilot, lambda: screen_name(app) == "ResultScreen", what="result")
         assert job.result().passed is True
         assert len(keys) <= 12, keys

@@ -5,7 +5,8 @@ from __future__ import annotations
 import asyncio
 import io
 import time
-from typing import Any, Callable
+from collections.abc import Callable
+from typing import Any
 
 from rich.console import Console
 

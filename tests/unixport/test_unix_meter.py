@@ -9,8 +9,6 @@ from __future__ import annotations
 
 import json
 
-import pytest
-
 from rtlib.drive import scenario  # type: ignore[import-not-found]
 
 KERNELS_SCRIPT = r"""

@@ -94,16 +94,10 @@ Safety (``forces``)
 
 from __future__ import annotations
 
-from runtrue.balancing.model import BalancingError, Run, Solution, Weight, amp_phase, phasor, wrap_deg
-from runtrue.balancing.influence import CONDITION_WARN, correction_from_influence, net_correction, solve
-from runtrue.balancing.trial import (
-    TRIAL_MIN_RATIO,
-    TrialSuggestion,
-    TrialVerdict,
-    check_trial_effect,
-    suggest_trial_weight,
-)
+from runtrue.balancing.forces import centrifugal_force_n, check_mass_g, check_radius_mm, check_speed_rpm
 from runtrue.balancing.four_run import four_run, solve_amplitude_only
+from runtrue.balancing.influence import CONDITION_WARN, correction_from_influence, net_correction, solve
+from runtrue.balancing.model import BalancingError, Run, Solution, Weight, amp_phase, phasor, wrap_deg
 from runtrue.balancing.static_couple import StaticCouple, static_couple
 from runtrue.balancing.tolerance import (
     STANDARD_GRADES,
@@ -114,6 +108,13 @@ from runtrue.balancing.tolerance import (
     permissible_unbalance,
     residual_unbalance_gmm,
 )
+from runtrue.balancing.trial import (
+    TRIAL_MIN_RATIO,
+    TrialSuggestion,
+    TrialVerdict,
+    check_trial_effect,
+    suggest_trial_weight,
+)
 from runtrue.balancing.units import (
     convert_1x,
     g_to_oz,
@@ -123,7 +124,6 @@ from runtrue.balancing.units import (
     oz_to_g,
     ozin_to_gmm,
 )
-from runtrue.balancing.forces import centrifugal_force_n, check_mass_g, check_radius_mm, check_speed_rpm
 
 __all__ = [
     "BalancingError", "Run", "Solution", "Weight", "amp_phase", "phasor", "wrap_deg",

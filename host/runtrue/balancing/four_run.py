@@ -44,8 +44,8 @@ known; it is checked by simulation in the tests (95 % intervals).
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Sequence
 
 import numpy as np
 

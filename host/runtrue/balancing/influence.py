@@ -26,7 +26,7 @@ Several speeds: coefficients change with speed, so treat each (pickup, speed) pa
 from __future__ import annotations
 
 import math
-from typing import Mapping, Sequence
+from collections.abc import Mapping, Sequence
 
 import numpy as np
 

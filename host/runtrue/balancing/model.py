@@ -20,8 +20,9 @@ Conventions (DEVELOPERS.md, "Conventions"; used by every module of ``runtrue.bal
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
-from typing import Any, Sequence
+from typing import Any
 
 import numpy as np
 

@@ -10,8 +10,8 @@ and ``C = (U1 - U2) / 2`` the couple pair (``+C`` in plane 1, ``-C`` in plane 2)
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Sequence
 
 from runtrue.balancing.model import BalancingError, Weight
 

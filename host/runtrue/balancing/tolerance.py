@@ -26,8 +26,8 @@ machine whose only 1x source is unbalance (run-out, misalignment and resonance b
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
-from typing import Sequence
 
 import numpy as np
 

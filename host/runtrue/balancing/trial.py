@@ -21,7 +21,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from runtrue.balancing.forces import check_radius_mm, check_speed_rpm, centrifugal_force_n
+from runtrue.balancing.forces import centrifugal_force_n, check_radius_mm, check_speed_rpm
 from runtrue.balancing.model import BalancingError
 
 #: Fraction of the rotor's weight (per plane share) the trial weight's force should reach.
@@ -94,7 +94,7 @@ def suggest_trial_weight(
         raise BalancingError(f"number of planes must be a whole number from 1, got {n_planes!r}")
     # the shared number format (every number a user reads); imported here, not at the top:
     # runtrue.jobs builds on this package
-    from runtrue.jobs.numbers import force_text, unbalance_text
+    from runtrue.readings.numbers import force_text, unbalance_text
 
     w = 2.0 * math.pi * n / 60.0
     weight_share_n = mass * STANDARD_GRAVITY_M_S2 / n_planes

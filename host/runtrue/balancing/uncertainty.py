@@ -18,7 +18,7 @@ when each solve is linear in the readings; kept as the general tool and the test
 from __future__ import annotations
 
 import math
-from typing import Callable
+from collections.abc import Callable
 
 import numpy as np
 

@@ -19,7 +19,8 @@ import argparse
 import importlib
 import os
 import sys
-from typing import Any, Callable, NoReturn
+from collections.abc import Callable
+from typing import Any, NoReturn
 
 # Sub-command name -> module.  Order is the order shown in --help.
 COMMANDS: dict[str, str] = {

@@ -111,11 +111,10 @@ def run(args: argparse.Namespace) -> int:
 
 def _run_auto(args: argparse.Namespace) -> int:
     from runtrue.cli import UsageError
+    from runtrue.cli.jobs import open_store
     from runtrue.device import MeterError
     from runtrue.jobs.headless import DEFAULT_REVS, MAX_RUNS, MAX_RUNS_AMPLITUDE_ONLY, run_demo
     from runtrue.jobs.store import RecordError
-
-    from runtrue.cli.jobs import open_store
 
     store = open_store(args.db, create=args.resume is None) if args.db else None
     try:

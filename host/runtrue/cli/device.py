@@ -52,7 +52,7 @@ def resolve_port(port: str | None) -> str:
 
     try:
         candidates = find_meter_ports()
-    except Exception as exc:  # listing ports depends on the OS; say so instead of a traceback
+    except Exception as exc:  # noqa: BLE001 - listing ports depends on the OS; say so instead of a traceback
         raise UsageError(f"cannot list serial ports ({exc}); name the board with --port") from None
     likely = [c for c in candidates if c.score > 10]
     if len(likely) == 1:

@@ -139,7 +139,7 @@ def _list(store: Any, args: argparse.Namespace) -> int:
     if machine_id is not None:
         trend = store.trend(machine_id)
         if trend:
-            from runtrue.jobs.numbers import DEFAULT_VIB_UNIT, ratio_text, vib_number
+            from runtrue.readings.numbers import DEFAULT_VIB_UNIT, ratio_text, vib_number
 
             print(f"trend (finished jobs, oldest first): 1x before -> after ({DEFAULT_VIB_UNIT} at the machine's "
                   "running speed, worst pickup), residual / permissible unbalance (worst plane)")
@@ -163,7 +163,7 @@ def _show(store: Any, rec: Any) -> int:
     print(f"machine: {m.rotor_mass_kg:g} kg, {m.speed_rpm:g} rpm, {m.rotation} seen from the drive end, grade {m.grade}")
     for i, p in enumerate(m.planes, start=1):
         print(f"  plane {i}: {p.describe()}")
-    from runtrue.jobs.numbers import DEFAULT_VIB_UNIT, phase_text, unbalance_text, vib_text
+    from runtrue.readings.numbers import DEFAULT_VIB_UNIT, phase_text, unbalance_text, vib_text
 
     print(f"runs (1x in {DEFAULT_VIB_UNIT} at the run's speed, phase lag after the mark; "
           "weights from the mark against rotation):")

@@ -68,9 +68,12 @@ def _r(x: float) -> float:
 
 def run(args: argparse.Namespace) -> int:
     from runtrue.balancing import BalancingError, api_limit_gmm, gmm_to_ozin, permissible_unbalance
+    from runtrue.balancing.grades import parse_grade
 
-    # Grades are written "G 6.3", "G6.3" or "6.3" in the trade; all mean 6.3 mm/s.
-    grade = _num(str(args.grade).strip().upper().removeprefix("G").strip(), "--grade")
+    try:
+        grade = parse_grade(str(args.grade))
+    except ValueError as exc:
+        raise UsageError(f"--grade: {exc}") from None
     mass = _num(args.mass_kg, "--mass-kg")
     rpm = _num(args.rpm, "--rpm")
     try:

@@ -13,8 +13,8 @@ import statistics
 from dataclasses import dataclass, field
 from typing import Any
 
-from runtrue.device.advice import FLAG_ADVICE
 from runtrue.deploy.install import OpenClient, Out, _default_open_client, _describe, local_firmware_version
+from runtrue.device.advice import FLAG_ADVICE
 
 STREAM_REVS = 20
 STREAM_TIMEOUT_S = 3.0
@@ -218,7 +218,7 @@ def check(port: str, *, open_client: OpenClient | None = None, out: Out = print,
     finally:
         try:
             client.transport.close()
-        except Exception:  # the port may already be gone
+        except Exception:  # noqa: BLE001 - best-effort close; the port may already be gone
             pass
     for line in report.lines:
         out(f"{'PASS' if line.passed else 'FAIL'}  {line.name}: {line.text}")

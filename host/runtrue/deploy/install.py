@@ -78,7 +78,7 @@ def identify_once(port: str, open_client: OpenClient, timeout_s: float) -> tuple
     finally:
         try:
             client.transport.close()
-        except Exception:  # closing a port that went away is not worth a traceback
+        except Exception:  # noqa: BLE001 - closing a port that went away is not worth a traceback
             pass
 
 
@@ -108,7 +108,7 @@ def request_repl(port: str, open_client: OpenClient, out: Out) -> Any | None:
     finally:
         try:
             client.transport.close()
-        except Exception:  # see identify_once
+        except Exception:  # noqa: BLE001 - closing a port that went away is not worth a traceback
             pass
 
 

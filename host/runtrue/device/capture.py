@@ -112,7 +112,7 @@ class RawAssembler:
             raise CaptureError(f"{b.n_frames - got} of {b.n_frames} sample frames were lost on the link: "
                                "capture again (check the USB cable)")
         edges: list[int] = []
-        for index, block in sorted(self.edges.items()):
+        for _index, block in sorted(self.edges.items()):
             edges.extend(block)
         if len(edges) != b.n_edges:
             raise CaptureError("reference edges of the capture were lost on the link: capture again")

@@ -19,18 +19,18 @@ from __future__ import annotations
 
 import collections
 import time
-from typing import Any, Callable
+from collections.abc import Callable
+from typing import Any
 
 from runtrue.device import revfit
 from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning, link_diagnosis
-from runtrue.device.sequence import DUPLICATE, RESTART, STALE, SequenceTracker
-from runtrue.readings.admit import counts, why_left_out
+from runtrue.device.capture import CaptureError, RawAssembler, RawCapture
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
+from runtrue.device.sequence import DUPLICATE, RESTART, STALE, SequenceTracker
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import (
     ACK,
-    INFO,
     CMD_IDENTIFY,
     CMD_RAW,
     CMD_SELFTEST,
@@ -42,6 +42,7 @@ from runtrue.protocol.messages import (
     CMD_STATUS,
     CMD_STOP,
     COMMAND_NAMES,
+    INFO,
     Ack,
     CommandEncoder,
     DeviceInfo,
@@ -49,8 +50,8 @@ from runtrue.protocol.messages import (
     InfoPart,
     Message,
     RawPart,
-    RevStats,
     Revolution,
+    RevStats,
     SelfTest,
     Status,
     Text,
@@ -61,7 +62,7 @@ from runtrue.protocol.messages import (
     set_line_payload,
     set_rate_payload,
 )
-from runtrue.device.capture import CaptureError, RawAssembler, RawCapture
+from runtrue.readings.admit import counts, why_left_out
 from runtrue.transport.base import Transport, TransportLost
 
 READ_CHUNK = 4096

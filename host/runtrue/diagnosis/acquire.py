@@ -17,7 +17,14 @@ from typing import Any
 import numpy as np
 
 from runtrue.diagnosis.diagnose import Diagnosis, diagnose
-from runtrue.diagnosis.resonance import Resonance, SpeedCurve, find_resonances, near_resonance, speed_curve, warning_text
+from runtrue.diagnosis.resonance import (
+    Resonance,
+    SpeedCurve,
+    find_resonances,
+    near_resonance,
+    speed_curve,
+    warning_text,
+)
 
 CAPTURE_FRAMES = 4096
 

@@ -81,7 +81,7 @@ Workflow (``workflow``; imports numpy and the engine lazily)
         passed: every plane's residual PLUS its 95 % uncertainty within the permissible value.
     A refusal by the maths (BalancingError) never loses a run: the run stays recorded, the step stays,
     and ``state.message`` says why.
-    CAUTIONS: tuple[str, ...];  STANDARD = "ISO 21940-11";  parse_grade("G6.3") -> 6.3
+    CAUTIONS: tuple[str, ...];  STANDARD = "ISO 21940-11"   (grades: ``runtrue.balancing.grades.parse_grade``)
 
 Reports and exports (``report``, ``export``)
     render_html(store, job_id) -> str        (self-contained, printable; inline SVG polar diagram)
@@ -101,6 +101,7 @@ Amplitude-only (``four_run_job``)
 
 from __future__ import annotations
 
+from runtrue.jobs.four_run_job import AMPLITUDE_ONLY_CONVENTION, AmplitudeOnlyJob
 from runtrue.jobs.model import (
     ANGLE_CONVENTION,
     ChannelValue,
@@ -114,7 +115,6 @@ from runtrue.jobs.model import (
     StripSpec,
     Weight,
 )
-from runtrue.jobs.four_run_job import AMPLITUDE_ONLY_CONVENTION, AmplitudeOnlyJob
 from runtrue.jobs.store import JobRecord, JobStore, JobSummary, TrendPoint, default_db_path
 from runtrue.jobs.workflow import (
     CAUTIONS,
@@ -126,7 +126,6 @@ from runtrue.jobs.workflow import (
     JobState,
     PlaneCorrection,
     TrialCheck,
-    parse_grade,
 )
 
 __all__ = [
@@ -134,5 +133,5 @@ __all__ = [
     "StockPiece", "StoredInfluence", "StripSpec", "Weight",
     "JobRecord", "JobStore", "JobSummary", "TrendPoint", "default_db_path",
     "CAUTIONS", "STANDARD", "BalanceJob", "ChannelResult", "CorrectionPlan", "JobResult", "JobState",
-    "PlaneCorrection", "TrialCheck", "parse_grade", "AMPLITUDE_ONLY_CONVENTION", "AmplitudeOnlyJob",
+    "PlaneCorrection", "TrialCheck", "AMPLITUDE_ONLY_CONVENTION", "AmplitudeOnlyJob",
 ]

@@ -13,8 +13,8 @@ import io
 from typing import Any
 
 from runtrue.jobs.model import ANGLE_CONVENTION
-from runtrue.jobs.numbers import VIB_MM_S_RMS, vib_value
 from runtrue.jobs.store import JobStore
+from runtrue.readings.numbers import VIB_MM_S_RMS, vib_value
 
 CSV_COLUMNS = (
     "job_id", "run", "kind", "taken_at", "speed_rpm", "speed_sd_rpm", "n_revs", "source",

@@ -8,8 +8,9 @@ Conventions: angles from the reference mark against rotation; planes numbered fr
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import replace
-from typing import Any, Sequence
+from typing import Any
 
 from runtrue.jobs.model import Machine, PlaneSpec, Weight
 
@@ -149,9 +150,8 @@ def plan_plane(
     so in ``correction_gmm``) that may stay, be moved to another position or be taken off; the
     ones that come off their place are the result's ``taken_off``.
     """
-    from runtrue.allocation import centrifugal_force_n, allocate, fitting_sheet
+    from runtrue.allocation import allocate, centrifugal_force_n, fitting_sheet
     from runtrue.allocation.sheet import SheetRow
-
     from runtrue.jobs.workflow import PlaneCorrection
 
     spec = machine.planes[plane - 1]
@@ -192,7 +192,7 @@ def plan_plane(
         if note:
             pc.warnings = note
         return pc
-    from runtrue.jobs.numbers import mass_text
+    from runtrue.readings.numbers import mass_text
 
     sheet = list(fitting_sheet(alloc, machine.speed_rpm))
     fit = []
@@ -244,7 +244,7 @@ def _existing_weights(spec: PlaneSpec, existing: Sequence[Weight]) -> list[Any]:
 
 def _old_text(spec: PlaneSpec, w: Weight) -> str:
     index = _position_index(spec, w)
-    from runtrue.jobs.numbers import angle_text, mass_text
+    from runtrue.readings.numbers import angle_text, mass_text
 
     where = f"position {index + 1}" if index is not None else angle_text(w.angle_deg)
     return f"{mass_text(w.mass_g)} from {where}"
@@ -257,7 +257,6 @@ def _split_without_stock(
     either side of the correction angle (closed form, ``runtrue.allocation.split_two_positions``)."""
     from runtrue.allocation import centrifugal_force_n, split_two_positions
     from runtrue.allocation.sheet import SheetRow
-
     from runtrue.jobs.workflow import PlaneCorrection
 
     angles = spec.position_angles_deg() or []

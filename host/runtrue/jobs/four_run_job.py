@@ -44,8 +44,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from runtrue.balancing.grades import parse_grade
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunRecord, Weight
-from runtrue.jobs.numbers import force_text, mass_text, unbalance_text
 from runtrue.jobs.store import JobStore
 from runtrue.jobs.workflow import (
     DEFAULT_MAX_TRIM_RUNS,
@@ -57,8 +57,8 @@ from runtrue.jobs.workflow import (
     TrialCheck,
     _plane_sums,
     _start_weights_options,
-    parse_grade,
 )
+from runtrue.readings.numbers import force_text, mass_text, unbalance_text
 
 METHOD = "four-run"
 #: The classic trial angles of the four-run method (degrees from the chalk mark).
@@ -376,7 +376,6 @@ class AmplitudeOnlyJob(BalanceJob):
         """Enter trial 1 of a cycle whose reference run is ``self.runs[base]``.  Everything is
         worked out first and assigned last, so a refusal (ValueError) changes nothing."""
         from runtrue.balancing import suggest_trial_weight
-
         from runtrue.jobs import fitting
 
         m = self.machine
@@ -447,7 +446,6 @@ class AmplitudeOnlyJob(BalanceJob):
         proves the trial large enough; a smaller change may be a small trial or one placed near
         90 degrees from the heavy spot - the user may fit a larger one now instead of two more runs."""
         from runtrue.balancing.four_run import MIN_TRIAL_EFFECT_FRACTION
-
         from runtrue.jobs.workflow import trial_change_words
 
         s = self.state

@@ -15,8 +15,9 @@ job sees it, so the job cannot use phase even by mistake.
 from __future__ import annotations
 
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Any
 
 from runtrue.jobs.model import Machine, Weight
 from runtrue.jobs.store import JobStore

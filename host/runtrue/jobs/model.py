@@ -22,8 +22,9 @@ from __future__ import annotations
 
 import cmath
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
-from typing import Any, Literal, Sequence
+from typing import Any, Literal
 
 Rotation = Literal["cw", "ccw"]
 #: Where the fitter stands to look at a correction plane: at the drive end, looking along the

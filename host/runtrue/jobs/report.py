@@ -16,7 +16,9 @@ from typing import Any
 
 from runtrue import __version__
 from runtrue.jobs.model import ANGLE_CONVENTION, RunRecord
-from runtrue.jobs.numbers import (
+from runtrue.jobs.store import JobStore, now_iso
+from runtrue.jobs.workflow import CAUTIONS, STANDARD, BalanceJob, JobResult, position_number
+from runtrue.readings.numbers import (
     DEFAULT_VIB_UNIT,
     angle_text,
     force_text,
@@ -28,8 +30,6 @@ from runtrue.jobs.numbers import (
     unbalance_text,
     vib_number,
 )
-from runtrue.jobs.store import JobStore, now_iso
-from runtrue.jobs.workflow import CAUTIONS, STANDARD, BalanceJob, JobResult, position_number
 
 _CSS = """
 body { font-family: system-ui, -apple-system, "Segoe UI", sans-serif; color: #1b1b1b; margin: 2em auto;
@@ -212,7 +212,7 @@ def _verdict(result: JobResult) -> tuple[str, str]:
 
 def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) -> str:
     """The report of job ``job_id`` as a complete HTML document (UTF-8 text).  Vibration is
-    printed in ``vib_unit`` (default mm/s rms), every number through ``runtrue.jobs.numbers``
+    printed in ``vib_unit`` (default mm/s rms), every number through ``runtrue.readings.numbers``
     so the report shows the digits the screens show."""
     from runtrue.balancing import centrifugal_force_n
 
@@ -269,7 +269,7 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
     for i, p in enumerate(m.planes, start=1):
         out.append(f'<tr><th class="l">Correction plane {i}: {_e(m.plane_name(i))}</th><td class="l">'
                    f'{_e(p.describe())}; seen {"from the far end" if p.view_side == "far" else "from the drive end"}</td></tr>')
-    for i, pk in enumerate(m.pickups, start=1):
+    for i in range(1, len(m.pickups) + 1):
         out.append(f'<tr><th class="l">Pickup {i}</th><td class="l">{_e(m.pickup_name(i - 1))}</td></tr>')
     out.append("</table>")
     if m.notes:

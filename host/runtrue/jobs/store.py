@@ -25,10 +25,11 @@ import math
 import os
 import sqlite3
 import threading
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Any, Callable, Iterable, TypeVar
+from typing import Any, TypeVar
 
 from runtrue import validation
 from runtrue.jobs.model import RUN_KINDS, Machine, RunReading, RunRecord, StoredInfluence, Weight

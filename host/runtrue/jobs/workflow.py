@@ -32,14 +32,15 @@ rotation; rotation seen from the drive end; planes and pickups numbered from 1).
 from __future__ import annotations
 
 import math
-import re
+from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
-from typing import Any, Sequence
+from typing import Any
 
-from runtrue.validation import WEIGHT_MIN_G
+from runtrue.balancing.grades import parse_grade
 from runtrue.jobs.model import ANGLE_CONVENTION, Machine, RunReading, RunRecord, StoredInfluence, Weight
-from runtrue.jobs.numbers import force_text, mass_text
 from runtrue.jobs.store import JobStore, now_iso
+from runtrue.readings.numbers import force_text, mass_text
+from runtrue.validation import WEIGHT_MIN_G
 
 STANDARD = "ISO 21940-11"
 DEFAULT_MAX_TRIM_RUNS = 5
@@ -171,20 +172,6 @@ def trial_change_words(pct: float, deg: float, with_phase: bool = True) -> str:
     rule = (f"at least {TRIAL_GOOD_CHANGE_PCT:.0f} % or {TRIAL_GOOD_CHANGE_DEG:.0f}° (common practice)" if with_phase
             else f"at least {TRIAL_GOOD_CHANGE_PCT:.0f} % (common practice)")
     return f"{text}; {'meets' if big else 'under'} the usual {rule}"
-
-
-def parse_grade(grade: str | float) -> float:
-    """``"G6.3"`` / ``"6.3"`` / ``6.3`` -> 6.3 (mm/s); ValueError with advice otherwise."""
-    if isinstance(grade, (int, float)):
-        value = float(grade)
-    else:
-        m = re.fullmatch(r"\s*[Gg]?\s*([0-9]+(?:\.[0-9]+)?)\s*", grade)
-        if not m:
-            raise ValueError(f"balance quality grade {grade!r} not understood: write it like G6.3 or G2.5")
-        value = float(m.group(1))
-    if not value > 0:
-        raise ValueError("balance quality grade must be positive, like G6.3")
-    return value
 
 
 @dataclass(frozen=True)
@@ -640,7 +627,7 @@ class BalanceJob:
         short = [(pc, perm) for pc, perm in short if pc.residual_gmm > perm]
         if not short:
             return ""
-        from runtrue.jobs.numbers import unbalance_text
+        from runtrue.readings.numbers import unbalance_text
 
         parts = "; ".join(f"{self.machine.plane_name(pc.plane)} {unbalance_text(pc.residual_gmm)} "
                           f"(allowed {unbalance_text(perm)})" for pc, perm in short)
@@ -804,7 +791,6 @@ class BalanceJob:
 
     def _suggest_trial(self, plane: int, scale: float, previous: Weight | None) -> Weight:
         from runtrue.balancing import suggest_trial_weight
-
         from runtrue.jobs import fitting
 
         m = self.machine
@@ -1035,7 +1021,6 @@ class BalanceJob:
 
     def _enter_correction(self, kind: str) -> None:
         from runtrue.balancing import correction_from_influence
-
         from runtrue.jobs import fitting
 
         s = self.state

@@ -15,7 +15,7 @@ from __future__ import annotations
 import json
 import struct
 from dataclasses import dataclass, field
-from typing import Any, Union
+from typing import Any
 
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import SEQ_MODULO, Frame, encode_frame
@@ -378,7 +378,7 @@ class Unknown:
     payload: bytes
 
 
-Message = Union[DeviceInfo, InfoPart, RevStats, Status, Ack, SelfTest, Text, RawPart, Unknown]
+Message = DeviceInfo | InfoPart | RevStats | Status | Ack | SelfTest | Text | RawPart | Unknown
 
 
 def _json_object(payload: bytes, what: str) -> dict[str, Any]:

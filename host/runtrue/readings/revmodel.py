@@ -55,11 +55,12 @@ from __future__ import annotations
 
 import cmath
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
-from typing import Sequence
 
 import numpy as np
+
 from runtrue_fw import basis as fwb
 
 N_HARMONICS = fwb.N_HARMONICS

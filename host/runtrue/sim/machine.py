@@ -264,7 +264,7 @@ class VirtualMachine:
             saved = self._weights
             base = np.array(self.expected_1x())
             cols = []
-            for p, plane in enumerate(self.scenario.planes):
+            for p in range(len(self.scenario.planes)):
                 self._weights = {0: Weight(p, 1.0, 0.0, 1.0)}
                 cols.append(np.array(self.expected_1x()) - base)
                 self._weights = saved

@@ -13,8 +13,9 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Callable
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from runtrue.sim.rotor import RigidRotor, support_for
 from runtrue.sim.scenarios import FrontEnd, Pickup, Plane, Scenario, SpeedStep

@@ -118,7 +118,7 @@ class SerialTransport(Transport):
         if "://" not in port:
             try:
                 self.serial_number = _serial_number_of(port)
-            except Exception:  # listing ports is a nicety; never fail the open over it
+            except Exception:  # noqa: BLE001 - listing ports is a nicety; never fail the open over it
                 self.serial_number = None
 
     def _open(self, device: str) -> None:
@@ -150,7 +150,7 @@ class SerialTransport(Transport):
         if self._ser is not None:
             try:
                 self._ser.close()
-            except Exception:
+            except Exception:  # noqa: BLE001 - best-effort close of a port that may be gone
                 pass
             self._ser = None
 
@@ -200,7 +200,7 @@ class SerialTransport(Transport):
                 # The same meter, wherever the OS put it now; never another board at the old path.
                 try:
                     device = _device_with_serial_number(self.serial_number)
-                except Exception:
+                except Exception:  # noqa: BLE001 - listing ports is a nicety; fall back to the old path
                     device = self.port
             if device is not None and os.path.exists(device):
                 try:

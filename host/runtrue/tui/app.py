@@ -8,8 +8,9 @@ session state and tells the current screen.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from textual.app import App
 from textual.binding import Binding

@@ -26,7 +26,7 @@ SAFETY_START = (
 def amp_text(amp_g: float, unit: str = "g pk") -> str:
     """An acceleration amplitude with 3 significant figures and its detector, e.g.
     ``0.0412 g pk`` (never a bare "g", which reads as grams)."""
-    from runtrue.jobs.numbers import sig3
+    from runtrue.readings.numbers import sig3
 
     if not math.isfinite(amp_g):
         return "---"
@@ -35,7 +35,7 @@ def amp_text(amp_g: float, unit: str = "g pk") -> str:
 
 def vib_unit_of(app: object) -> str:
     """The vibration display unit chosen in the running application (default mm/s rms)."""
-    from runtrue.jobs.numbers import DEFAULT_VIB_UNIT
+    from runtrue.readings.numbers import DEFAULT_VIB_UNIT
 
     return str(getattr(app, "vib_unit", DEFAULT_VIB_UNIT))
 
@@ -51,13 +51,13 @@ def vector_text(v: complex, unit: str = "g") -> str:
 
 
 def mass_text(mass_g: float) -> str:
-    from runtrue.jobs.numbers import mass_text as _mass_text
+    from runtrue.readings.numbers import mass_text as _mass_text
 
     return _mass_text(mass_g)
 
 
 def force_text(force_n: float) -> str:
-    from runtrue.jobs.numbers import force_text as _force_text
+    from runtrue.readings.numbers import force_text as _force_text
 
     return _force_text(force_n)
 

@@ -19,7 +19,8 @@ from __future__ import annotations
 import queue
 import threading
 import time
-from typing import Any, Callable
+from collections.abc import Callable
+from typing import Any
 
 from runtrue.tui.messages import CommandFailed, MeterConnected, MeterFailed, MeterLost, RevolutionsRead, SelfTestDone
 
@@ -154,7 +155,7 @@ class MeterLink:
                     close()
                 else:
                     client.transport.close()
-            except Exception:
+            except Exception:  # noqa: BLE001 - best-effort close of a link that may be gone
                 pass
 
     def _run(self) -> None:

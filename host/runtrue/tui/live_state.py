@@ -11,7 +11,8 @@ from __future__ import annotations
 import math
 import time
 from collections import deque
-from typing import Any, Callable
+from collections.abc import Callable
+from typing import Any
 
 from runtrue.readings.admit import counts, why_left_out
 from runtrue.tui.steady import Steadiness, judge_steadiness

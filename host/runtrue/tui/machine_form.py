@@ -13,6 +13,8 @@ from __future__ import annotations
 
 import math
 import re
+
+from runtrue.balancing.grades import grade_label, parse_grade
 from runtrue.jobs.model import Machine, Pickup, PlaneSpec, StockPiece, StripSpec
 
 FIELDS: tuple[tuple[str, str, str], ...] = (
@@ -123,8 +125,6 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
         raise FormError("rotation", "rotation: write cw or ccw, as seen from the drive end")
     grade = values.get("grade", "").strip() or "G6.3"
     try:
-        from runtrue.jobs.workflow import parse_grade
-
         parse_grade(grade)
     except ValueError as exc:
         raise FormError("grade", str(exc)) from None
@@ -193,7 +193,7 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
             speed_rpm=speed,
             planes=planes,
             rotation=rotation,  # type: ignore[arg-type]
-            grade=grade if grade.upper().startswith("G") else f"G{grade}",
+            grade=grade_label(grade),
             pickups=pickups,
             stock=stock,
             strip=strip,

@@ -7,7 +7,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from runtrue.jobs.numbers import DEFAULT_VIB_UNIT, grade_row, percent_change_text, phase_text, vib_number
+from runtrue.readings.numbers import DEFAULT_VIB_UNIT, grade_row, percent_change_text, phase_text, vib_number
 from runtrue.tui.format import DEG, centrifugal_force_n
 from runtrue.tui.units_text import METRIC, force_text, mass_text, radius_text, unbalance_text
 
@@ -32,7 +32,7 @@ def verdict(result: Any) -> tuple[str, str]:
 
 def channel_lines(result: Any, unit: str = DEFAULT_VIB_UNIT) -> list[str]:
     """Before (reference run) and after (last run) per pickup, 1x in the display unit at each
-    run's measured speed; the same numbers the report prints (``runtrue.jobs.numbers``)."""
+    run's measured speed; the same numbers the report prints (``runtrue.readings.numbers``)."""
     four_run = is_four_run_result(result)
     before_speed = result.before_speed_rpm or result.speed_rpm
     after_speed = result.after_speed_rpm or result.speed_rpm

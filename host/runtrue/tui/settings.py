@@ -55,7 +55,7 @@ def save_setting(path: Path | None, key: str, value: Any) -> str:
 
 def saved_vib_unit(path: Path | None) -> str:
     """The vibration unit chosen last time, or the default (mm/s rms) if none or not known."""
-    from runtrue.jobs.numbers import DEFAULT_VIB_UNIT, check_vib_unit
+    from runtrue.readings.numbers import DEFAULT_VIB_UNIT, check_vib_unit
 
     value = load_settings(path).get("vib_unit")
     try:

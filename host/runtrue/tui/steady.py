@@ -5,8 +5,9 @@ small value to draw: steady or not, a 0..1 score, and the reason in words.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any, Sequence
+from typing import Any
 
 
 @dataclass(frozen=True)

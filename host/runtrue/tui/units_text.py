@@ -11,11 +11,9 @@ gravity, CGPM 1901).
 
 from __future__ import annotations
 
-import math
-
 from runtrue.balancing import g_to_oz, gmm_to_ozin, mm_to_in
 from runtrue.balancing.units import STANDARD_GRAVITY_M_S2
-from runtrue.jobs.numbers import sig3
+from runtrue.readings.numbers import sig3
 
 METRIC = "metric"
 IMPERIAL = "imperial"
@@ -60,7 +58,7 @@ def unbalance_text(u_gmm: float, units: str = METRIC) -> str:
     """An unbalance amount without exponent: ``4.56 g·mm``, ``1880 g·mm``, ``12.3 kg·mm``;
     imperial ``0.0633 oz·in``, ``2.61 oz·in``, ``1250 oz·in``."""
     if check_units(units) == METRIC:
-        from runtrue.jobs.numbers import unbalance_text as metric_unbalance_text
+        from runtrue.readings.numbers import unbalance_text as metric_unbalance_text
 
         return metric_unbalance_text(u_gmm)
     ozin = gmm_to_ozin(u_gmm)

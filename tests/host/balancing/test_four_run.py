@@ -8,7 +8,6 @@ without phase -- from memory), coded here independently of the least-squares sol
 
 from __future__ import annotations
 
-import cmath
 import math
 
 import pytest

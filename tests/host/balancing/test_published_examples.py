@@ -55,9 +55,9 @@ import pytest
 
 from runtrue.balancing import (
     Run,
-    four_run,
     Weight,
     api_limit_gmm,
+    four_run,
     g_to_oz,
     gmm_to_ozin,
     in_to_mm,

@@ -3,7 +3,6 @@ propagation checked by Monte Carlo."""
 
 from __future__ import annotations
 
-import cmath
 import math
 
 import numpy as np

@@ -20,8 +20,6 @@ import threading
 import time
 from pathlib import Path
 
-import numpy as np
-
 from runtrue.device.revfit import basis_q14
 from runtrue.protocol.frames import FrameDecoder, encode_frame
 from runtrue.protocol.messages import (
@@ -36,8 +34,8 @@ from runtrue.protocol.messages import (
     RevStats,
     rev_payload,
 )
-from runtrue_fw import basis
 from runtrue.transport.base import Transport, TransportLost
+from runtrue_fw import basis
 
 TRUE_1X = [complex(0.12, -0.05), complex(-0.02, 0.07), complex(0.0, 0.01)]  # g, per channel
 PERIOD_US = 20_000.0  # 3,000 rpm

@@ -8,7 +8,7 @@ from __future__ import annotations
 import cmath
 import math
 import random
-from typing import Sequence
+from collections.abc import Sequence
 
 from runtrue.jobs import RunReading, Weight
 from runtrue.jobs.model import ChannelValue

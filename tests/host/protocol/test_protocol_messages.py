@@ -6,7 +6,6 @@ import json
 import struct
 
 import pytest
-
 from hypothesis import given, settings
 from hypothesis import strategies as st
 

@@ -14,10 +14,10 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from runtrue_fw import basis as fwb
 
 from runtrue.readings import revmodel as rm
 from runtrue.sim.frontend import METER_A1_S, METER_A2_S2, lowpass_response
+from runtrue_fw import basis as fwb
 
 RATE_HZ = 4000.0
 

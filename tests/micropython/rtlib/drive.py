@@ -5,10 +5,9 @@ Runs under CPython and MicroPython (the same scenario gives the same revolutions
 
 import struct
 
+from rtlib.fakeboard import FakeBoard, Shaft
 from runtrue_fw import frames as fr
 from runtrue_fw.meter import Meter
-
-from rtlib.fakeboard import FakeBoard, Shaft
 
 
 class Host:
@@ -164,7 +163,7 @@ def capture_scenario(channels=None, rate_hz=4000, rpm=2466.24, n_capture=1000, r
         if f == request_at:
             host.command(cap.C_RAW, struct.pack("<H", n_capture))
             got = host.frames()
-            for t, s, p in got:
+            for t, _s, p in got:
                 if t == fr.T_ACK:
                     ack = (p[3], p[4:].decode())
             frames.extend(got)

@@ -7,7 +7,7 @@ crosses 0.  Nothing here is hardware.
 """
 
 from array import array
-from math import cos, pi, floor
+from math import cos, floor, pi
 
 
 class FakeBoard:

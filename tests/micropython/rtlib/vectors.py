@@ -121,7 +121,7 @@ def build():
     v.append(_vec("ack_bad_frame", "device", fr.T_ACK, 9, p, f))
     v.append(_vec("selftest", "device", fr.T_SELFTEST, 10, SELFTEST_TEXT.encode(),
                   json.loads(SELFTEST_TEXT)))
-    v.append(_vec("text", "device", fr.T_TEXT, 11, "runtrue ready, 4000 Hz".encode(),
+    v.append(_vec("text", "device", fr.T_TEXT, 11, b"runtrue ready, 4000 Hz",
                   {"text": "runtrue ready, 4000 Hz"}))
     long_text = "".join(chr(0x41 + (i % 26)) for i in range(fr.MAX_PAYLOAD))
     v.append(_vec("text_max_length_no_zeros", "device", fr.T_TEXT, 12, long_text.encode(),

@@ -4,7 +4,8 @@ footer listing every key.  Screens build their body in ``compose_body``.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Iterable
+from collections.abc import Iterable
+from typing import TYPE_CHECKING
 
 from textual.app import ComposeResult
 from textual.css.query import NoMatches

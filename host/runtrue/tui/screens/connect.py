@@ -4,20 +4,20 @@ taken with another instrument; see the meter's details and run its self-test.
 
 from __future__ import annotations
 
-from typing import Any, Iterable
+from collections.abc import Iterable
+from typing import Any
 
 from textual import work
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.widget import Widget
 from textual.widgets import OptionList, Static
-from textual.widgets.option_list import Option
+from textual.widgets.option_list import Option, OptionDoesNotExist
 
+from runtrue.tui.format import amp_text
 from runtrue.tui.messages import MeterConnected, MeterFailed, MeterLost, SelfTestDone
 from runtrue.tui.screens.base import StepScreen
-from runtrue.tui.format import amp_text
 from runtrue.tui.session import MANUAL_PORT
-
 
 LIKELY_METER_SCORE = 50  # runtrue.transport.serial ranks MicroPython / RP2040 ports this high or more
 
@@ -225,7 +225,7 @@ class ConnectScreen(StepScreen):
     def _has(ol: OptionList, option_id: str) -> bool:
         try:
             ol.get_option_index(option_id)
-        except Exception:
+        except OptionDoesNotExist:
             return False
         return True
 

@@ -14,7 +14,8 @@ The meter work runs in the link's worker thread (``MeterLink.call``); results co
 
 from __future__ import annotations
 
-from typing import Any, Iterable
+from collections.abc import Iterable
+from typing import Any
 
 from textual.binding import Binding
 from textual.containers import VerticalScroll
@@ -76,7 +77,7 @@ class DiagnosisScreen(StepScreen):
         return head
 
     def _body_text(self) -> str:
-        from runtrue.tui.widgets.speedplot import speed_plot_text, spectrum_text, waveform_text
+        from runtrue.tui.widgets.speedplot import spectrum_text, speed_plot_text, waveform_text
 
         lines: list[str] = []
         d = self.diagnosis

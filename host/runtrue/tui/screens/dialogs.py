@@ -193,7 +193,7 @@ class ConfirmDialog(ModalScreen[bool]):
 
 def force_confirm_lines(checks: list[Any], limit_text: str, speed_rpm: float) -> list[str]:
     """One line per weight over the force limit (force and multiple of the limit), then the basis."""
-    from runtrue.jobs.numbers import force_text, mass_text
+    from runtrue.readings.numbers import force_text, mass_text
 
     out = []
     for c in checks:
@@ -209,8 +209,8 @@ def force_confirm_lines(checks: list[Any], limit_text: str, speed_rpm: float) ->
 
 def weights_left_lines(machine: Any, job_id: int, when: str, weights: list[Any]) -> list[str]:
     """What the last job left on the rotor, one weight a line, with plane name and position."""
-    from runtrue.jobs.numbers import angle_text, local_time_text, mass_text
     from runtrue.jobs.report import position_number
+    from runtrue.readings.numbers import angle_text, local_time_text, mass_text
 
     out = [f"Job {job_id} ({local_time_text(when)[:16]}) left these on the rotor:"]
     for w in weights:

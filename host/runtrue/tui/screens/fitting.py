@@ -7,7 +7,7 @@ drawn as seen from the end the fitter stands at for that plane (machine record).
 
 from __future__ import annotations
 
-from typing import Iterable
+from collections.abc import Iterable
 
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical

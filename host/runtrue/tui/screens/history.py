@@ -13,7 +13,7 @@ from textual.containers import VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
-from runtrue.jobs.numbers import local_time_text, phase_text, vib_number, vib_text
+from runtrue.readings.numbers import local_time_text, phase_text, vib_number, vib_text
 
 
 def history_lines(store: Any, machine: Any) -> list[str]:

@@ -9,14 +9,15 @@ revolutions arrive from the meter link's thread as messages handled by the App.
 from __future__ import annotations
 
 import math
-from typing import Any, Iterable
+from collections.abc import Iterable
+from typing import Any
 
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.widget import Widget
 from textual.widgets import Footer, Static
 
-from runtrue.jobs.numbers import (
+from runtrue.readings.numbers import (
     DEFAULT_VIB_UNIT,
     VIB_G_PK,
     next_vib_unit,

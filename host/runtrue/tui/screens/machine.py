@@ -7,7 +7,8 @@ correction.  The grade table (F3) lists typical balance quality grades by rotor 
 from __future__ import annotations
 
 import math
-from typing import Any, Iterable
+from collections.abc import Iterable
+from typing import Any
 
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
@@ -15,7 +16,7 @@ from textual.widget import Widget
 from textual.widgets import Footer, Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
-from runtrue.jobs.numbers import local_time_text, vib_number, vib_text
+from runtrue.readings.numbers import local_time_text, vib_number, vib_text
 from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields
 from runtrue.tui.method import TWO_PLANES_REFUSED, is_four_run, method_hint
 from runtrue.tui.screens.base import StepScreen
@@ -28,7 +29,7 @@ def tolerance_text(values: dict[str, str], units: str = METRIC) -> str:
     """The permissible residual unbalance for what is typed so far (or what is missing)."""
     try:
         from runtrue.balancing import permissible_unbalance
-        from runtrue.jobs.workflow import parse_grade
+        from runtrue.balancing.grades import parse_grade
 
         grade = parse_grade(values.get("grade", "") or "G6.3")
         mass = float(values.get("mass", "").replace(",", "."))

@@ -7,8 +7,8 @@ from __future__ import annotations
 
 import json
 import re
+from collections.abc import Iterable
 from pathlib import Path
-from typing import Iterable
 
 from textual.binding import Binding
 from textual.containers import VerticalScroll

@@ -10,7 +10,8 @@ from __future__ import annotations
 
 import re
 import time
-from typing import Any, Iterable
+from collections.abc import Iterable
+from typing import Any
 
 from rich.text import Text
 from textual.binding import Binding
@@ -18,9 +19,9 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
-from runtrue.jobs.numbers import DEG, phase_text, vib_number, vib_text
-from runtrue.tui.format import SAFETY_FIT, SAFETY_START, vib_unit_of
+from runtrue.readings.numbers import DEG, phase_text, vib_number, vib_text
 from runtrue.tui.fitting_list import imperial_lines
+from runtrue.tui.format import SAFETY_FIT, SAFETY_START, vib_unit_of
 from runtrue.tui.method import is_four_run
 from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.unbalance_split import static_couple_lines

@@ -94,9 +94,9 @@ def speed_plot_text(curve: Any, resonances: Sequence[Any] = (), balancing_rpm: f
             for row in range(1, cv.height_chars):
                 cv.label(col, row, ":", "yellow")
             cv.label(col, 0, "B", "bold yellow")
-    left = [f"1x amplitude, g pk (R resonance, B balancing speed)"]
+    left = ["1x amplitude, g pk (R resonance, B balancing speed)"]
     left += _frame_lines(a, f"{top:g}", "0", label_w)
-    left += [f"1x phase lag, deg"]
+    left += ["1x phase lag, deg"]
     left += _frame_lines(p, "360", "0", label_w)
     left.append(_x_axis(x0, x1, plot_w, label_w, "rpm"))
     # polar locus

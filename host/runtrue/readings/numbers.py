@@ -16,6 +16,9 @@ decimals.  Unbalance is spelt ``g·mm`` (mass times radius).
 from __future__ import annotations
 
 import math
+from datetime import datetime, timezone
+
+from runtrue.readings.units import accel_g_to_velocity_mm_s
 
 DEG = "\N{DEGREE SIGN}"
 VIB_MM_S_RMS = "mm/s rms"
@@ -57,8 +60,6 @@ def vib_value(amp_g_pk: float, speed_rpm: float, unit: str = DEFAULT_VIB_UNIT, o
         return float(amp_g_pk)
     if not (speed_rpm > 0 and math.isfinite(speed_rpm)):
         return math.nan
-    from runtrue.readings.units import accel_g_to_velocity_mm_s
-
     v_pk = accel_g_to_velocity_mm_s(float(amp_g_pk), speed_rpm, order)
     return v_pk / math.sqrt(2.0) if unit == VIB_MM_S_RMS else v_pk
 
@@ -142,8 +143,6 @@ def local_time_text(iso_utc: str | None) -> str:
     ``2026-12-01 22:50 CET``; the text unchanged when it is not such a time."""
     if not iso_utc:
         return ""
-    from datetime import datetime, timezone
-
     try:
         t = datetime.strptime(iso_utc, "%Y-%m-%dT%H:%M:%SZ").replace(tzinfo=timezone.utc)
     except ValueError:
