@@ -97,7 +97,7 @@ from __future__ import annotations
 from runtrue.balancing.forces import centrifugal_force_n, check_mass_g, check_radius_mm, check_speed_rpm
 from runtrue.balancing.four_run import four_run, solve_amplitude_only
 from runtrue.balancing.influence import CONDITION_WARN, correction_from_influence, net_correction, solve
-from runtrue.balancing.model import BalancingError, Run, Solution, Weight, amp_phase, phasor, wrap_deg
+from runtrue.balancing.model import BalancingError, Run, Solution, Weight
 from runtrue.balancing.static_couple import StaticCouple, static_couple
 from runtrue.balancing.tolerance import (
     STANDARD_GRADES,
@@ -124,6 +124,7 @@ from runtrue.balancing.units import (
     oz_to_g,
     ozin_to_gmm,
 )
+from runtrue.readings.units import amp_phase, phasor, wrap_deg
 
 __all__ = [
     "BalancingError", "Run", "Solution", "Weight", "amp_phase", "phasor", "wrap_deg",

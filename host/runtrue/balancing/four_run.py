@@ -50,7 +50,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from runtrue.balancing.forces import check_mass_g, check_radius_mm
-from runtrue.balancing.model import BalancingError, Solution, Weight, phasor
+from runtrue.balancing.model import BalancingError, Solution, Weight
+from runtrue.readings.units import phasor
 
 #: Warn when the correction is this uncertain (1 sd): relative mass, or degrees (as the phase method).
 MASS_SD_WARN = 0.2

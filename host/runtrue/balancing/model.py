@@ -34,16 +34,6 @@ class BalancingError(ValueError):
     """The engine refuses to compute: the message says what is wrong and what to do."""
 
 
-def wrap_deg(angle_deg: float) -> float:
-    """An angle wrapped into [0, 360)."""
-    a = math.fmod(float(angle_deg), 360.0)
-    if a < 0.0:
-        a += 360.0
-    if a >= 360.0:  # fmod of a tiny negative number can round up to 360
-        a = 0.0
-    return a
-
-
 @dataclass(frozen=True)
 class Weight:
     """A weight on the rotor: ``mass_g`` at ``angle_deg`` (from the mark, against rotation) and

@@ -27,6 +27,26 @@ UNITS = ("g", "m/s2", "mm/s", "um")
 DETECTORS = ("peak", "rms", "pk-pk")
 
 
+def wrap_deg(angle_deg: float) -> float:
+    """An angle wrapped into [0, 360) degrees."""
+    a = math.fmod(float(angle_deg), 360.0)
+    if a < 0.0:
+        a += 360.0
+    if a >= 360.0:  # fmod of a tiny negative number can round up to 360
+        a = 0.0
+    return a
+
+
+def angle_diff_deg(a_deg: float, b_deg: float) -> float:
+    """The signed difference ``a - b`` wrapped into [-180, 180) degrees (the shorter way round)."""
+    return (float(a_deg) - float(b_deg) + 180.0) % 360.0 - 180.0
+
+
+def angle_between_deg(a_deg: float, b_deg: float) -> float:
+    """How far apart two angles are, 0-180 degrees, whichever way round."""
+    return abs(angle_diff_deg(a_deg, b_deg))
+
+
 def phasor(amp: float, lag_deg: float) -> complex:
     """The reading ``amp * e^{+j*lag}`` (amp in g peak, lag in degrees after the mark; any finite
     angle, wrapped exactly before conversion so 761 deg gives the same number as 41 deg)."""
