@@ -24,7 +24,16 @@ import math
 
 import numpy as np
 
-from runtrue.allocation.model import Allocation, AllocationError, Placement, Stock, Strip, angle_of_deg
+from runtrue.allocation.model import (
+    POOR_FIT_FRACTION,
+    Allocation,
+    AllocationError,
+    Placement,
+    Stock,
+    Strip,
+    angle_of_deg,
+)
+from runtrue.readings.units import angle_between_deg
 
 MAX_GROOVE_PIECES = 12
 MAX_STRIP_PIECES = 8
@@ -160,7 +169,7 @@ def _merge_same_angle(placements: list[Placement]) -> list[Placement]:
     out: list[Placement] = []
     for p in placements:
         for i, o in enumerate(out):
-            if abs(((o.angle_deg - p.angle_deg) + 180.0) % 360.0 - 180.0) < 1e-7:
+            if angle_between_deg(o.angle_deg, p.angle_deg) < 1e-7:
                 out[i] = Placement(None, o.angle_deg, o.radius_mm, tuple(sorted(o.pieces + p.pieces, reverse=True)),
                                    None, o.mass_g + p.mass_g, (), o.unbalance_gmm + p.unbalance_gmm)
                 break
@@ -170,8 +179,6 @@ def _merge_same_angle(placements: list[Placement]) -> list[Placement]:
 
 
 def _finish(T: complex, r_c: float, placements: list[Placement], optimal: bool, good_enough_gmm: float) -> Allocation:
-    from runtrue.allocation.solver import POOR_FIT_FRACTION
-
     fitted = sum((p.unbalance_gmm for p in placements), 0j)
     residual = T - fitted
     warnings = []

@@ -43,7 +43,9 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from runtrue.allocation.groove import allocate_groove
 from runtrue.allocation.model import (
+    POOR_FIT_FRACTION,
     Allocation,
     AllocationError,
     ExistingWeight,
@@ -55,6 +57,7 @@ from runtrue.allocation.model import (
     weight_gmm,
 )
 from runtrue.allocation.search import SearchProblem, SearchResult, search
+from runtrue.allocation.strip_search import strip_search
 
 UNLIMITED = 10**6
 MAX_REMOVABLE_OLD_WEIGHTS = 8
@@ -63,8 +66,6 @@ MAX_STRIP_LENGTHS = 2000
 DEFAULT_GOOD_ENOUGH_FRACTION = 0.01
 #: strict mode (good-enough 0): residuals compared to this fraction of the correction (our choice)
 STRICT_RESOLUTION_FRACTION = 1e-4
-#: a best fit leaving more than this fraction of the correction gets a plain warning (our choice)
-POOR_FIT_FRACTION = 0.25
 
 
 def correction_vector(
@@ -176,8 +177,6 @@ def allocate(
     existing = tuple(existing)
     _validate_common(stock, strip, max_pieces_per_position, max_mass_per_position_g, good_enough_gmm, existing)
     if positions.continuous:
-        from runtrue.allocation.groove import allocate_groove
-
         T, r_c = correction_vector(correction, correction_radius_mm, positions.groove_radius_mm)
         if existing:
             raise AllocationError("old weights in a continuous groove: remove them and include their effect instead")
@@ -403,8 +402,6 @@ def _build(
 
 def _strip(prob: SearchProblem, strip: Strip, max_nodes: int) -> SearchResult:
     """Strip at fixed positions through the rounding-based exact search (one piece a position)."""
-    from runtrue.allocation.strip_search import strip_search
-
     n_sizes = len(prob.sizes_g)
     w0 = strip.grams_per_mm * strip.min_mm
     dw = strip.grams_per_mm * strip.step_mm
