@@ -38,6 +38,10 @@ from runtrue.readings.units import angle_between_deg
 MAX_GROOVE_PIECES = 12
 MAX_STRIP_PIECES = 8
 
+#: The objective in a groove, compared lexicographically: (residual level, pieces, mass, residual),
+#: each rounded to a whole number of its quantum.
+_Key = tuple[int, int, int, int]
+
 
 def magnitude_range(masses: list[float]) -> tuple[float, float]:
     """(smallest, largest) size of the resultant of point masses at free angles on one radius (in g)."""
@@ -92,7 +96,7 @@ def allocate_groove(
     target = abs(T)
     theta = cmath.phase(T) if target > 0 else 0.0
 
-    def key(rho: float, pieces: int, mass: float) -> tuple:
+    def key(rho: float, pieces: int, mass: float) -> _Key:
         return (round(max(rho, good_enough_gmm) / q), pieces, round(mass * 1e6), round(rho / q))
 
     if stock is not None:
@@ -101,7 +105,7 @@ def allocate_groove(
         for it in stock.items:
             avail[it.mass_g] += MAX_GROOVE_PIECES if it.count is None else it.count
         total_pieces = sum(min(avail[m], MAX_GROOVE_PIECES) for m in sizes)
-        best: tuple | None = None
+        best: _Key | None = None
         best_set: tuple[float, ...] = ()
         kmax = min(total_pieces, MAX_GROOVE_PIECES)
         for k in range(0, kmax + 1):

@@ -40,6 +40,8 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -309,6 +311,17 @@ def allocate(
     )
 
 
+@dataclass
+class _AtPosition:
+    """What the search put at one position: new pieces (g), a strip length (mm) and its mass
+    (g), and old weights moved here (indices into ``existing``)."""
+
+    pieces: list[float] = field(default_factory=list)
+    length: float | None = None
+    old: list[int] = field(default_factory=list)
+    strip_mass: float = 0.0
+
+
 def _build(
     T: complex,
     r_c: float,
@@ -327,40 +340,40 @@ def _build(
     nodes: int,
     g: float,
 ) -> Allocation:
-    by_pos: dict[int, dict] = {}
+    by_pos: dict[int, _AtPosition] = {}
     placed_old: set[int] = set()
     for (p_local, k), n in sorted(res.counts_per_slot.items()):
         pi = usable[p_local]
-        d = by_pos.setdefault(pi, {"pieces": [], "length": None, "old": [], "strip_mass": 0.0})
+        d = by_pos.setdefault(pi, _AtPosition())
         kind, v = size_kind[k]
         if kind == "stock":
-            d["pieces"].extend([v] * n)
+            d.pieces.extend([v] * n)
         elif kind == "strip":
-            d["length"] = v
-            d["strip_mass"] = sizes[k]
+            d.length = v
+            d.strip_mass = sizes[k]
         else:
             i = int(v)
             placed_old.add(i)
             if existing[i].position_index == pi:
                 kept.append(i)  # refitted where it was: it simply stays
             else:
-                d["old"].append(i)
+                d.old.append(i)
     placements = []
     moved_mass = 0.0
     fitted = 0j
     for pi in sorted(by_pos):
         d = by_pos[pi]
-        pieces = tuple(sorted(d["pieces"], reverse=True))
-        mass = sum(pieces) + sum(existing[i].mass_g for i in d["old"])
-        length = d["length"]
-        mass += d["strip_mass"]
-        moved_mass += sum(existing[i].mass_g for i in d["old"])
-        if not pieces and length is None and not d["old"]:
+        pieces = tuple(sorted(d.pieces, reverse=True))
+        mass = sum(pieces) + sum(existing[i].mass_g for i in d.old)
+        length = d.length
+        mass += d.strip_mass
+        moved_mass += sum(existing[i].mass_g for i in d.old)
+        if not pieces and length is None and not d.old:
             continue
         ub = weight_gmm(mass, positions.angles_deg[pi], positions.radii_mm[pi])
         fitted += ub
         placements.append(Placement(pi, positions.angles_deg[pi], positions.radii_mm[pi], pieces, length,
-                                    mass, tuple(d["old"]), ub))
+                                    mass, tuple(d.old), ub))
     removed_all = sorted(set(removed) | {i for i in movable if i not in placed_old})
     change = fitted - sum((existing[i].unbalance_gmm for i in removed_all), 0j)
     change -= sum((existing[i].unbalance_gmm for i in movable if i in placed_old and i not in kept), 0j)
@@ -419,7 +432,7 @@ def allocate_planes(
     *,
     stock: Stock | None = None,
     existing_per_plane: Sequence[Sequence[ExistingWeight]] | None = None,
-    **options,
+    **options: Any,
 ) -> list[Allocation]:
     """Allocate each plane of a multi-plane correction in turn, sharing one stock.
 
@@ -439,7 +452,7 @@ def allocate_planes(
     remaining = stock
     for i, (corr, pos) in enumerate(zip(corrections, plane_positions)):
         old = tuple(existing_per_plane[i]) if existing_per_plane is not None else ()
-        a = allocate(corr, pos, stock=remaining, existing=old, **options)  # type: ignore[arg-type]
+        a = allocate(corr, pos, stock=remaining, existing=old, **options)
         out.append(a)
         if remaining is not None:
             used: dict[float, int] = {}
