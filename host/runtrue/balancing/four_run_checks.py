@@ -25,6 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from runtrue.balancing.model import BalancingError
+from runtrue.readings.units import phasor
 
 #: The trial weight's effect (``|a| * |T|``) should reach this fraction of the reference amplitude;
 #: below it the circles of the graphical method nearly coincide and the intersection is poorly
@@ -166,7 +167,7 @@ def expected_relative_error(
     if noise_fraction <= 0 and relative_sd <= 0:
         return 0.0  # exact readings: no error
     rho = float(trial_ratio)
-    t = np.array([0j] + [rho * np.exp(1j * math.radians(a)) for a in trial_angles_deg])
+    t = np.array([0j] + [phasor(rho, a) for a in trial_angles_deg])
     total = 0.0
     angles = np.radians(np.arange(0.0, 360.0, 10.0))
     for phi in angles:
