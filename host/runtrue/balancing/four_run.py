@@ -18,6 +18,7 @@ is LINEAR in the four real unknowns ``c0 = s|u|^2``, ``s``, ``Re q``, ``Im q``. 
 run (T = 0) and each trial run give one equation.  Then ``u = q / s``, the correction is
 ``-u`` and ``|a| = sqrt(s)``.  The phase of ``a`` cannot be found without a phase reference (and
 is not needed).
+
 That linear solution is only the starting point: the estimate is the maximum-likelihood fit of
 the amplitudes themselves, every pickup at once, each weighted by its noise
 (``runtrue.balancing.amplitude_fit``, where its sources are).  The decisions a four-run cycle

@@ -23,6 +23,9 @@ Output: ``placements`` (``{"angle", "radius", "pieces": [masses]}`` or ``"length
 the stated objective), ``status`` ("optimal" or "best found"),
 ``residual_bound_gmm``, ``pieces``, ``added_mass``, ``kept_existing``, ``removed_existing``,
 ``warnings``, ``conventions``.
+
+The allocator is imported inside the functions that use it, so that listing the commands
+(``runtrue --help``) does not load numpy.
 """
 
 from __future__ import annotations

@@ -17,6 +17,9 @@ per plane), ``predicted``, ``warnings``; added keys: ``method``, ``condition_num
 ``uncertainty``, ``static_couple`` (two planes), ``conventions``, and, when the input gives
 ``speed_rpm`` (the highest speed the rotor will run), ``force_n`` on each correction (the
 centrifugal force the weight must withstand) and a ``safety`` sentence.
+
+The engine is imported inside the functions that use it, so that listing the commands
+(``runtrue --help``) does not load numpy.
 """
 
 from __future__ import annotations

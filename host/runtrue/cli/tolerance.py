@@ -6,6 +6,9 @@
 ``mass_kg``, ``speed_rpm``, ``permissible_unbalance_ozin``, ``per_plane_ozin``, ``rule``,
 ``warnings`` and, with ``--journal-load-kg``, ``api_limit_gmm`` (API-style 4W/N per journal).
 Formula and allocation: ``runtrue.balancing.tolerance`` (ISO 21940-11:2016 clauses 6 and 7).
+
+The engine is imported inside the functions that use it, so that listing the commands
+(``runtrue --help``) does not load numpy.
 """
 
 from __future__ import annotations
