@@ -229,7 +229,8 @@ def _amplitude_rotor(rng: np.random.Generator) -> tuple[complex, float, np.ndarr
 
 
 def bench_amplitude(n: int, seed: int) -> None:
-    from runtrue.balancing.four_run import Z95, _linear_start, amplitude_only, fit_amplitudes
+    from runtrue.balancing.amplitude_fit import _linear_start
+    from runtrue.balancing.four_run import Z95, amplitude_only, fit_amplitudes
 
     print(f"amplitude-only, {n} random rotors per noise level, trial at 0/120/240 deg (seed {seed}):")
     print(f"  {'noise':>5} {'linear median/p90':>18} {'fails':>6} {'fit median/p90':>15} {'ms per fit':>10}")

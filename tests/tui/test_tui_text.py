@@ -6,7 +6,8 @@ import math
 
 import pytest
 
-from runtrue.tui.format import amp_text, bar, centrifugal_force_n, force_text, time_left_text
+from runtrue.balancing.forces import force_at_speed_n as centrifugal_force_n
+from runtrue.tui.format import amp_text, bar, force_text, time_left_text
 from runtrue.tui.machine_form import FormError, fields_from_machine, machine_from_fields, parse_stock
 
 FAN = {

@@ -1,8 +1,9 @@
 """Turning a correction into pieces that can be fitted (the weight allocator).
 
 Exact (proven optimal) for the objective below, or it says what it guarantees: see
-``runtrue.allocation.search`` (fixed positions), ``strip_search`` (strip at fixed positions)
-and ``groove`` (continuous groove) for the methods and the arguments.
+``runtrue.allocation.search`` (fixed positions; its problem and bounds in ``search_model``, the
+slots and the local search in ``slots``), ``strip_search`` (strip at fixed positions) and
+``groove`` (continuous groove) for the methods and the arguments.
 
 Conventions (DEVELOPERS.md): weight angles in degrees from the reference mark **against**
 rotation; a weight is the complex unbalance ``mass_g·radius_mm·e^{+jθ}`` in g·mm.  Position
@@ -17,6 +18,9 @@ Public API (exact signatures)::
     Stock.of([(mass_g, count | None), ...]) -> Stock     # Stock(items=(StockItem(mass_g, count), ...))
     Strip(grams_per_mm, min_mm, step_mm, max_mm=None)    # lengths min_mm + k*step_mm
     ExistingWeight(mass_g, angle_deg, radius_mm, position_index=None, may_move=False, may_remove=False)
+    ExistingWeight.from_engine(weight, position_index=None, *, may_move=False, may_remove=False)
+        # from the engine's runtrue.balancing.Weight (or any weight with mass_g, angle_deg, radius_mm)
+    ExistingWeight.to_engine(plane) -> runtrue.balancing.Weight
 
     allocate(correction, positions, *, stock=None, strip=None, correction_radius_mm=None,
              max_pieces_per_position=None, max_mass_per_position_g=None,
@@ -47,7 +51,8 @@ Public API (exact signatures)::
         -> tuple[float, float]          # masses (g) at positions a and b, closed form
     convert_radius(mass_g, from_radius_mm, to_radius_mm) -> float
 
-    centrifugal_force_n(mass_g, radius_mm, speed_rpm) -> float     # F = m·r·ω², newtons
+    centrifugal_force_n(mass_g, radius_mm, speed_rpm) -> float     # F = m·r·ω², newtons, unchecked
+        # (runtrue.balancing.forces.force_at_speed_n under the allocator's name)
     fitting_sheet(allocation, speed_rpm, existing=()) -> list[SheetRow]
         # one "fit" row per placement; with the ``existing`` list, "remove" rows first
     SheetRow: .number (1-based position, None in a groove), .angle_deg, .radius_mm, .what (str),

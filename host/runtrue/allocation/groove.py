@@ -24,10 +24,23 @@ import math
 
 import numpy as np
 
-from runtrue.allocation.model import Allocation, AllocationError, Placement, Stock, Strip, angle_of_deg
+from runtrue.allocation.model import (
+    POOR_FIT_FRACTION,
+    Allocation,
+    AllocationError,
+    Placement,
+    Stock,
+    Strip,
+    angle_of_deg,
+)
+from runtrue.readings.units import angle_between_deg
 
 MAX_GROOVE_PIECES = 12
 MAX_STRIP_PIECES = 8
+
+#: The objective in a groove, compared lexicographically: (residual level, pieces, mass, residual),
+#: each rounded to a whole number of its quantum.
+_Key = tuple[int, int, int, int]
 
 
 def magnitude_range(masses: list[float]) -> tuple[float, float]:
@@ -83,7 +96,7 @@ def allocate_groove(
     target = abs(T)
     theta = cmath.phase(T) if target > 0 else 0.0
 
-    def key(rho: float, pieces: int, mass: float) -> tuple:
+    def key(rho: float, pieces: int, mass: float) -> _Key:
         return (round(max(rho, good_enough_gmm) / q), pieces, round(mass * 1e6), round(rho / q))
 
     if stock is not None:
@@ -92,7 +105,7 @@ def allocate_groove(
         for it in stock.items:
             avail[it.mass_g] += MAX_GROOVE_PIECES if it.count is None else it.count
         total_pieces = sum(min(avail[m], MAX_GROOVE_PIECES) for m in sizes)
-        best: tuple | None = None
+        best: _Key | None = None
         best_set: tuple[float, ...] = ()
         kmax = min(total_pieces, MAX_GROOVE_PIECES)
         for k in range(0, kmax + 1):
@@ -160,7 +173,7 @@ def _merge_same_angle(placements: list[Placement]) -> list[Placement]:
     out: list[Placement] = []
     for p in placements:
         for i, o in enumerate(out):
-            if abs(((o.angle_deg - p.angle_deg) + 180.0) % 360.0 - 180.0) < 1e-7:
+            if angle_between_deg(o.angle_deg, p.angle_deg) < 1e-7:
                 out[i] = Placement(None, o.angle_deg, o.radius_mm, tuple(sorted(o.pieces + p.pieces, reverse=True)),
                                    None, o.mass_g + p.mass_g, (), o.unbalance_gmm + p.unbalance_gmm)
                 break
@@ -170,8 +183,6 @@ def _merge_same_angle(placements: list[Placement]) -> list[Placement]:
 
 
 def _finish(T: complex, r_c: float, placements: list[Placement], optimal: bool, good_enough_gmm: float) -> Allocation:
-    from runtrue.allocation.solver import POOR_FIT_FRACTION
-
     fitted = sum((p.unbalance_gmm for p in placements), 0j)
     residual = T - fitted
     warnings = []

@@ -3,31 +3,57 @@
 Conventions (DEVELOPERS.md): a weight angle is measured in degrees from the reference mark
 **against** the direction of rotation; a weight is the complex unbalance
 ``mass_g * radius_mm * exp(+j*angle)`` in g·mm.  Position *indices* are 0-based in the API;
-the fitting sheet numbers positions from 1 (position 1 is the first angle given).
+the fitting sheet numbers positions from 1 (position 1 is the first angle given).  The phasor
+and the angle wrap are the readings layer's (``runtrue.readings.units``), as everywhere.
+
+One weight type per layer: the engine's is ``runtrue.balancing.model.Weight`` (a plane, a mass,
+an angle, a radius); the allocator's is :class:`ExistingWeight` (a weight already on the rotor,
+with where it sits and what may be done with it).  :meth:`ExistingWeight.from_engine` and
+:meth:`ExistingWeight.to_engine` convert between them.
 """
 
 from __future__ import annotations
 
-import cmath
-import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from typing import Protocol
+
+from runtrue.balancing.model import Weight
+from runtrue.readings.units import lag_deg, phasor
+
+#: A best fit leaving more than this fraction of the correction gets a plain warning (our choice).
+POOR_FIT_FRACTION = 0.25
 
 
 class AllocationError(ValueError):
     """Input the allocator cannot work with (negative mass, no usable position, empty stock)."""
 
 
+class PointWeight(Protocol):
+    """Anything that is a weight at a point: a mass at an angle and a radius (the engine's
+    ``Weight``, or a job's weight record)."""
+
+    @property
+    def mass_g(self) -> float: ...
+
+    @property
+    def angle_deg(self) -> float: ...
+
+    @property
+    def radius_mm(self) -> float: ...
+
+
 def weight_gmm(mass_g: float, angle_deg: float, radius_mm: float) -> complex:
     """The unbalance of a point mass, ``mass_g·radius_mm·e^{+j·angle}`` in g·mm."""
-    return mass_g * radius_mm * cmath.exp(1j * math.radians(angle_deg))
+    return phasor(mass_g * radius_mm, angle_deg)
 
 
 def angle_of_deg(vector: complex) -> float:
-    """Angle of a complex unbalance in degrees, 0 <= angle < 360 (0 for a zero vector)."""
+    """Angle of a complex unbalance in degrees, 0 <= angle < 360 (0 for a zero vector, and for
+    an angle within 1e-12 degree below 360)."""
     if vector == 0:
         return 0.0
-    a = math.degrees(cmath.phase(vector)) % 360.0
+    a = lag_deg(vector)
     return 0.0 if a >= 360.0 - 1e-12 else a
 
 
@@ -141,6 +167,25 @@ class ExistingWeight:
     @property
     def unbalance_gmm(self) -> complex:
         return weight_gmm(self.mass_g, self.angle_deg, self.radius_mm)
+
+    @classmethod
+    def from_engine(
+        cls,
+        weight: PointWeight,
+        position_index: int | None = None,
+        *,
+        may_move: bool = False,
+        may_remove: bool = False,
+    ) -> ExistingWeight:
+        """The allocator's view of a weight on the rotor (the engine's ``Weight`` or any weight
+        with ``mass_g``, ``angle_deg`` and ``radius_mm``), sitting at ``position_index``
+        (0-based; ``None`` when not at a numbered position)."""
+        return cls(float(weight.mass_g), float(weight.angle_deg), float(weight.radius_mm), position_index,
+                   may_move=may_move, may_remove=may_remove)
+
+    def to_engine(self, plane: int) -> Weight:
+        """The same weight as the engine's ``Weight`` in correction plane ``plane`` (from 1)."""
+        return Weight(plane, self.mass_g, self.angle_deg, self.radius_mm)
 
 
 @dataclass(frozen=True)

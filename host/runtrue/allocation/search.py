@@ -44,7 +44,9 @@ Method (classic depth-first branch and bound, e.g. Wolsey, *Integer Programming*
    the answer is then exactly optimal among allocations of at most ``complete_pieces``
    pieces, and ``relaxation_bound_gmm`` (support functions of the continuous relaxation) is a
    proven lower bound on any residual.  A local search (take off up to two pieces, put on up
-   to two) then improves the incumbent while it can; it proves nothing more.
+   to two; :mod:`runtrue.allocation.slots`) then improves the incumbent while it can; it
+   proves nothing more.  The problem, the result and the bounds are
+   :mod:`runtrue.allocation.search_model`'s.
 6. **Limits.**  At most :data:`MAX_TOTAL_PIECES` pieces in all are considered.
 
 Why a good-enough residual matters for speed: with many pieces the reachable unbalances
@@ -56,139 +58,34 @@ stops at the first piece count that reaches it, typically two to five pieces.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
 
 import numpy as np
 
-N_DIRECTIONS = 24
-_DIRS = np.exp(1j * np.linspace(0.0, 2.0 * np.pi, N_DIRECTIONS, endpoint=False))
-_DIR_RE = _DIRS.real.copy()
-_DIR_IM = _DIRS.imag.copy()
-
-
-@dataclass
-class SearchProblem:
-    """One search.  Arrays are over usable positions (P) and piece sizes (K)."""
-
-    target_gmm: complex
-    u: np.ndarray  # (P,) complex: radius_mm·e^{jθ} of each position
-    sizes_g: np.ndarray  # (K,) float
-    counts: np.ndarray  # (K,) int, pieces available (a large number for unlimited)
-    stack_limit: np.ndarray  # (P,) int, pieces that may still go at each position
-    mass_limit_g: np.ndarray  # (P,) float, mass that may still go at each position
-    size_stack_one: np.ndarray | None = None  # (K,) bool: at most one such piece per position (strip)
-    must_use: np.ndarray | None = None  # (K,) bool: every piece of this size must be fitted
-    good_enough_gmm: float = 0.0
-    prefer_fewer_positions: bool = False
-    base_pieces: int = 0  # pieces on the rotor the search does not place (old weights kept)
-    base_mass_g: float = 0.0
-    quantum_gmm: float = 1e-9
-
-
-@dataclass
-class SearchResult:
-    counts_per_slot: dict[tuple[int, int], int]  # (position, size) -> pieces
-    residual_gmm: complex
-    key: tuple
-    optimal: bool
-    complete_pieces: int  # every allocation with at most this many pieces was examined
-    nodes: int
-    relaxation_bound_gmm: float
-    found: bool = True
-    levels: list[float] = field(default_factory=list)
+from runtrue.allocation.search_model import (
+    DIR_IM,
+    DIR_RE,
+    MAX_TOTAL_PIECES,
+    SearchKey,
+    SearchProblem,
+    SearchResult,
+    max_pieces,
+    relaxation_bound_gmm,
+)
+from runtrue.allocation.slots import MAX_SLOTS_FOR_PAIRS, Slots
 
 
 class _BudgetSpent(Exception):
     pass
 
 
-def relaxation_bound_gmm(
-    target: complex, u: np.ndarray, cap_g: np.ndarray, total_mass_g: float
-) -> float:
-    """A lower bound on |T − Σ w_p u_p| over 0 ≤ w_p ≤ cap_p, Σ w_p ≤ total (support functions)."""
-    if len(u) == 0:
-        return abs(target)
-    dirs = np.exp(1j * np.linspace(0.0, 2.0 * np.pi, 720, endpoint=False))
-    proj = (u[None, :] * np.conj(dirs[:, None])).real  # (D, P)
-    pos = np.maximum(proj, 0.0)
-    h_zono = (pos * cap_g[None, :]).sum(axis=1)
-    h_mass = total_mass_g * pos.max(axis=1)
-    h = np.minimum(h_zono, h_mass)
-    t = (target * np.conj(dirs)).real
-    return float(max(0.0, np.max(t - h)))
-
-
-class _Searcher:
-    def __init__(self, prob: SearchProblem, max_nodes: int) -> None:
-        self.prob = prob
-        self.max_nodes = max_nodes
-        self.nodes = 0
-        P = len(prob.u)
-        K = len(prob.sizes_g)
-        T = prob.target_gmm
-        # order positions by angular distance from the correction, nearest first
-        if abs(T) > 0:
-            ang = np.abs(np.angle(prob.u * np.conj(T)))
-        else:
-            ang = np.zeros(P)
-        order = sorted(range(P), key=lambda p: (round(float(ang[p]), 9), p))
-        size_order = sorted(range(K), key=lambda k: (prob.sizes_g[k], k))
-        spos, ssize = [], []
-        for p in order:
-            for k in size_order:
-                if prob.counts[k] > 0 and prob.sizes_g[k] <= prob.mass_limit_g[p] + 1e-9 and prob.stack_limit[p] > 0:
-                    spos.append(p)
-                    ssize.append(k)
-        self.spos = np.array(spos, dtype=np.int64)
-        self.ssize = np.array(ssize, dtype=np.int64)
-        self.smass = prob.sizes_g[self.ssize] if len(ssize) else np.zeros(0)
-        self.svec = (self.smass * prob.u[self.spos]) if len(spos) else np.zeros(0, complex)
-        n = len(spos)
-        self.n = n
-        # suffix support h_s(d) = max(0, max_{t>=s} svec_t·d)
-        proj = (self.svec[:, None] * np.conj(_DIRS)[None, :]).real if n else np.zeros((0, N_DIRECTIONS))
-        h = np.zeros((n + 1, N_DIRECTIONS))
-        for s in range(n - 1, -1, -1):
-            h[s] = np.maximum(h[s + 1], proj[s])
-        self.h = h
-        # suffix minimum piece mass
-        mmin = np.full(n + 1, np.inf)
-        for s in range(n - 1, -1, -1):
-            mmin[s] = min(mmin[s + 1], self.smass[s])
-        self.mmin = mmin
-        self.stack_used = np.zeros(P, dtype=np.int64)
-        self.mass_used = np.zeros(P)
-        self.count_used = np.zeros(K, dtype=np.int64)
-        self.stack_one = prob.size_stack_one if prob.size_stack_one is not None else np.zeros(K, bool)
-        self.size_used_at = np.zeros((P, K), dtype=np.int64) if self.stack_one.any() else None
-        self.must = prob.must_use if prob.must_use is not None else np.zeros(K, bool)
-        self.q = prob.quantum_gmm
-        self.g = prob.good_enough_gmm
-        self.best_key: tuple | None = None
-        self.best_slots: list[int] = []
-        self.best_residual: complex = T
-        self.chosen: list[int] = []
-        self.found_here = False
-        self._pair_table: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None = None
-
-    # keys ---------------------------------------------------------------
-    def _qr(self, x: float) -> int:
-        return int(math.floor(x / self.q + 0.5))
-
-    def _qm(self, m: float) -> int:
-        return int(math.floor(m * 1e6 + 0.5))
-
-    def make_key(self, rho: float, pieces: int, mass: float, npos: int) -> tuple:
-        level = self._qr(max(rho, self.g))
-        if self.prob.prefer_fewer_positions:
-            return (level, npos, pieces, self._qm(mass), self._qr(rho))
-        return (level, pieces, self._qm(mass), self._qr(rho), npos)
+class _Searcher(Slots):
+    """The exact search over the slots of a problem (see the module docstring)."""
 
     # search ---------------------------------------------------------------
     def _lb(self, R: complex, b: int, s: int) -> float:
         if b == 0:
             return abs(R)
-        t = R.real * _DIR_RE + R.imag * _DIR_IM
+        t = R.real * DIR_RE + R.imag * DIR_IM
         return max(0.0, float(np.max(t - b * self.h[s])))
 
     def level(self, k: int) -> None:
@@ -203,7 +100,7 @@ class _Searcher:
             return
         self._dfs(0, k, T, prob.base_mass_g, 0, pieces)
 
-    def _offer(self, key: tuple, slots: list[int], R: complex) -> None:
+    def _offer(self, key: SearchKey, slots: list[int], R: complex) -> None:
         if self.best_key is None or key < self.best_key:
             self.found_here = True
             self.best_key = key
@@ -270,7 +167,7 @@ class _Searcher:
             return
         Rn = R - self.svec[sl][idx]
         # vectorised lower bound for every child
-        t = Rn.real[:, None] * _DIR_RE[None, :] + Rn.imag[:, None] * _DIR_IM[None, :]
+        t = Rn.real[:, None] * DIR_RE[None, :] + Rn.imag[:, None] * DIR_IM[None, :]
         lb = np.maximum(0.0, np.max(t - (b - 1) * self.h[i0 + idx], axis=1))
         mass_lb = mass + smass[idx] + (b - 1) * self.mmin[i0 + idx]
         # most promising children first, so that good incumbents come early and cut more;
@@ -301,135 +198,6 @@ class _Searcher:
                 self.count_used[k] -= 1
                 if self.size_used_at is not None:
                     self.size_used_at[p, k] -= 1
-
-    # improvement after the budget --------------------------------------------
-    def _keys(self, rho: np.ndarray, pieces: np.ndarray, mass: np.ndarray, npos: np.ndarray) -> np.ndarray:
-        """Indices sorting candidate moves by the objective (best first)."""
-        level = np.floor(np.maximum(rho, self.g) / self.q + 0.5)
-        rq = np.floor(rho / self.q + 0.5)
-        mq = np.floor(mass * 1e6 + 0.5)
-        if self.prob.prefer_fewer_positions:
-            return np.lexsort((rq, mq, pieces, npos, level))
-        return np.lexsort((npos, rq, mq, pieces, level))
-
-    def _set_state(self, slots: list[int]) -> None:
-        self.stack_used[:] = 0
-        self.mass_used[:] = 0.0
-        self.count_used[:] = 0
-        for s in slots:
-            self.stack_used[self.spos[s]] += 1
-            self.mass_used[self.spos[s]] += self.smass[s]
-            self.count_used[self.ssize[s]] += 1
-
-    def _add_feasible(self) -> np.ndarray:
-        prob = self.prob
-        return (
-            (self.stack_used[self.spos] < prob.stack_limit[self.spos])
-            & (self.count_used[self.ssize] < prob.counts[self.ssize])
-            & (self.mass_used[self.spos] + self.smass <= prob.mass_limit_g[self.spos] + 1e-9)
-        )
-
-    def improve(self, max_moves: int = 60) -> None:
-        """Local search from the incumbent once the exact search has run out of budget.
-
-        A move takes off zero, one or two of the pieces placed and puts on zero, one or two
-        pieces (pairs come from a table of all slot pairs sorted by their vector's x, so only
-        pairs landing near the residual are looked at).  The best move by the objective is
-        taken while it improves the incumbent.  This can only lower the incumbent; it proves
-        nothing (the guarantee stays that of the exact phase).
-        """
-        if self.n == 0 or self.best_key is None or self.n > MAX_SLOTS_FOR_PAIRS:
-            return
-        prob = self.prob
-        ia, ib, pv, xs = self._pairs()
-        slots = list(self.best_slots)
-        R = self.best_residual
-        for _ in range(max_moves):
-            width = max(abs(R), self.g) * (1 + 1e-9) + self.q
-            removable = sorted({c for c in slots if not self.must[self.ssize[c]]})
-            removal_sets: list[list[int]] = [[]] + [[c] for c in removable]
-            for i, c in enumerate(removable):
-                for d in removable[i:]:
-                    if c != d or slots.count(c) >= 2:
-                        removal_sets.append([c, d])
-            best: tuple | None = None
-            for rem in removal_sets:
-                rest = list(slots)
-                for c in rem:
-                    rest.remove(c)
-                Rr = R + sum((self.svec[c] for c in rem), 0j)
-                self._set_state(rest)
-                pieces = len(rest) + prob.base_pieces
-                mass = prob.base_mass_g + float(sum(self.smass[c] for c in rest))
-                npos = int((self.stack_used > 0).sum())
-                if rem:
-                    k0 = self.make_key(abs(Rr), pieces, mass, npos)
-                    if best is None or k0 < best[0]:
-                        best = (k0, rest, Rr)
-                newpos = (self.stack_used[self.spos] == 0).astype(np.int64)
-                idx = np.nonzero(self._add_feasible())[0]
-                if len(idx):
-                    rho1 = np.abs(Rr - self.svec[idx])
-                    o = self._keys(rho1, np.full(len(idx), pieces + 1), mass + self.smass[idx], npos + newpos[idx])
-                    j = int(idx[o[0]])
-                    k1 = self.make_key(abs(Rr - self.svec[j]), pieces + 1, mass + self.smass[j], npos + int(newpos[j]))
-                    if best is None or k1 < best[0]:
-                        best = (k1, rest + [j], Rr - self.svec[j])
-                lo = int(np.searchsorted(xs, Rr.real - width, "left"))
-                hi = int(np.searchsorted(xs, Rr.real + width, "right"))
-                if hi <= lo:
-                    continue
-                a, b = ia[lo:hi], ib[lo:hi]
-                rho2 = np.abs(Rr - pv[lo:hi])
-                keep = rho2 <= width
-                a, b, rho2 = a[keep], b[keep], rho2[keep]
-                if not len(a):
-                    continue
-                ok, same_pos = self._pair_fits(a, b)
-                if not ok.any():
-                    continue
-                a, b, rho2, same_pos = a[ok], b[ok], rho2[ok], same_pos[ok]
-                np2 = npos + newpos[a] + newpos[b] * (~same_pos)
-                m2 = mass + self.smass[a] + self.smass[b]
-                o2 = self._keys(rho2, np.full(len(a), pieces + 2), m2, np2)
-                jj = int(o2[0])
-                k2 = self.make_key(float(rho2[jj]), pieces + 2, float(m2[jj]), int(np2[jj]))
-                if best is None or k2 < best[0]:
-                    best = (k2, rest + [int(a[jj]), int(b[jj])], Rr - complex(pv[lo:hi][keep][ok][jj]))
-            if best is None or not best[0] < self.best_key:
-                break
-            self.best_key, slots, R = best
-            self.best_slots, self.best_residual = list(slots), R
-        self._set_state([])
-
-    def _pair_fits(self, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Which slot pairs (a[i], b[i]) can still be added: stack, stock-count and mass limits
-        of their positions, counting both pieces when they share a position or a size.  Also
-        returns whether each pair shares a position."""
-        prob = self.prob
-        pa, pb, ka, kb = self.spos[a], self.spos[b], self.ssize[a], self.ssize[b]
-        same_pos = pa == pb
-        same_size = ka == kb
-        ok = (
-            (self.stack_used[pa] + 1 + same_pos <= prob.stack_limit[pa])
-            & (self.stack_used[pb] + 1 + same_pos <= prob.stack_limit[pb])
-            & (self.count_used[ka] + 1 + same_size <= prob.counts[ka])
-            & (self.count_used[kb] + 1 + same_size <= prob.counts[kb])
-            & (self.mass_used[pa] + self.smass[a] + np.where(same_pos, self.smass[b], 0.0)
-               <= prob.mass_limit_g[pa] + 1e-9)
-            & (self.mass_used[pb] + self.smass[b] + np.where(same_pos, self.smass[a], 0.0)
-               <= prob.mass_limit_g[pb] + 1e-9)
-        )
-        return ok, same_pos
-
-    def _pairs(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """All slot pairs s <= t with their summed vectors, sorted by the x component."""
-        if self._pair_table is None:
-            ia, ib = np.triu_indices(self.n)
-            pv = self.svec[ia] + self.svec[ib]
-            order = np.argsort(pv.real, kind="stable")
-            self._pair_table = (ia[order], ib[order], pv[order], pv.real[order].copy())
-        return self._pair_table
 
     def _last_two(self, i0: int, R: complex, mass: float, npos: int, pieces: int) -> None:
         """The last two pieces of a level at once, from the sorted pair table (exact).
@@ -518,19 +286,7 @@ class _Searcher:
         return opt < self.best_key
 
 
-MAX_TOTAL_PIECES = 64
-#: the local search builds a table of all slot pairs; above this many slots it is skipped
-MAX_SLOTS_FOR_PAIRS = 700
-
-
-def max_pieces(prob: SearchProblem) -> int:
-    """The most pieces any allocation can hold (never more than MAX_TOTAL_PIECES)."""
-    total_stock = int(min(prob.counts.sum(), 10**9))
-    total_stack = int(min(prob.stack_limit.sum(), 10**9))
-    return min(total_stock, total_stack, MAX_TOTAL_PIECES)
-
-
-def search(prob: SearchProblem, max_nodes: int = 200_000, incumbent: tuple | None = None) -> SearchResult:
+def search(prob: SearchProblem, max_nodes: int = 200_000, incumbent: SearchKey | None = None) -> SearchResult:
     """Run the exact search; see the module docstring for what is guaranteed."""
     srch = _Searcher(prob, max_nodes)
     if incumbent is not None:
@@ -583,3 +339,6 @@ def search(prob: SearchProblem, max_nodes: int = 200_000, incumbent: tuple | Non
         found=srch.best_key is not None,
         levels=levels,
     )
+
+
+__all__ = ["MAX_TOTAL_PIECES", "SearchKey", "SearchProblem", "SearchResult", "max_pieces", "relaxation_bound_gmm", "search"]

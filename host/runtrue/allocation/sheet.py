@@ -3,23 +3,23 @@
 Centrifugal force of a point mass on a rotor: F = m·r·ω² with ω = 2π·n/60 (n in rev/min);
 with m in g and r in mm, F[N] = m/1000 · r/1000 · ω².  (Newton's second law for uniform
 circular motion, any dynamics text, e.g. Meriam & Kraige, *Engineering Mechanics: Dynamics*,
-normal acceleration a_n = r·ω²; from memory.)  Each weight's fixing (screw, clip, weld, glue)
+normal acceleration a_n = r·ω²; from memory.)  The formula's home is
+``runtrue.balancing.forces``; :func:`centrifugal_force_n` here is its unchecked form
+(``force_at_speed_n``) under the allocator's name.  Each weight's fixing (screw, clip, weld, glue)
 must hold at least this force with margin; follow the machine maker's instructions and local
 practice for securing weights, and stop and lock out the machine before fitting anything.
 """
 
 from __future__ import annotations
 
-import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
-from runtrue.allocation.model import Allocation
+from runtrue.allocation.model import Allocation, ExistingWeight
+from runtrue.balancing.forces import force_at_speed_n
 
-
-def centrifugal_force_n(mass_g: float, radius_mm: float, speed_rpm: float) -> float:
-    """F = m·r·ω² in newtons for ``mass_g`` at ``radius_mm`` turning at ``speed_rpm``."""
-    omega = 2.0 * math.pi * speed_rpm / 60.0
-    return (mass_g / 1000.0) * (radius_mm / 1000.0) * omega * omega
+#: F = m·r·ω² in newtons for ``mass_g`` at ``radius_mm`` turning at ``speed_rpm`` (no checks).
+centrifugal_force_n = force_at_speed_n
 
 
 @dataclass(frozen=True)
@@ -39,7 +39,9 @@ def _fmt_mass(m: float) -> str:
     return f"{m:g} g"
 
 
-def fitting_sheet(allocation: Allocation, speed_rpm: float, existing: tuple = ()) -> list[SheetRow]:
+def fitting_sheet(
+    allocation: Allocation, speed_rpm: float, existing: Sequence[ExistingWeight] = ()
+) -> list[SheetRow]:
     """Rows to fit, one per placement (removals of old weights first when ``existing`` is given)."""
     rows: list[SheetRow] = []
     for i in allocation.removed_existing:

@@ -40,10 +40,14 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
+from runtrue.allocation.groove import allocate_groove
 from runtrue.allocation.model import (
+    POOR_FIT_FRACTION,
     Allocation,
     AllocationError,
     ExistingWeight,
@@ -55,6 +59,7 @@ from runtrue.allocation.model import (
     weight_gmm,
 )
 from runtrue.allocation.search import SearchProblem, SearchResult, search
+from runtrue.allocation.strip_search import strip_search
 
 UNLIMITED = 10**6
 MAX_REMOVABLE_OLD_WEIGHTS = 8
@@ -63,8 +68,6 @@ MAX_STRIP_LENGTHS = 2000
 DEFAULT_GOOD_ENOUGH_FRACTION = 0.01
 #: strict mode (good-enough 0): residuals compared to this fraction of the correction (our choice)
 STRICT_RESOLUTION_FRACTION = 1e-4
-#: a best fit leaving more than this fraction of the correction gets a plain warning (our choice)
-POOR_FIT_FRACTION = 0.25
 
 
 def correction_vector(
@@ -176,8 +179,6 @@ def allocate(
     existing = tuple(existing)
     _validate_common(stock, strip, max_pieces_per_position, max_mass_per_position_g, good_enough_gmm, existing)
     if positions.continuous:
-        from runtrue.allocation.groove import allocate_groove
-
         T, r_c = correction_vector(correction, correction_radius_mm, positions.groove_radius_mm)
         if existing:
             raise AllocationError("old weights in a continuous groove: remove them and include their effect instead")
@@ -310,6 +311,17 @@ def allocate(
     )
 
 
+@dataclass
+class _AtPosition:
+    """What the search put at one position: new pieces (g), a strip length (mm) and its mass
+    (g), and old weights moved here (indices into ``existing``)."""
+
+    pieces: list[float] = field(default_factory=list)
+    length: float | None = None
+    old: list[int] = field(default_factory=list)
+    strip_mass: float = 0.0
+
+
 def _build(
     T: complex,
     r_c: float,
@@ -328,40 +340,40 @@ def _build(
     nodes: int,
     g: float,
 ) -> Allocation:
-    by_pos: dict[int, dict] = {}
+    by_pos: dict[int, _AtPosition] = {}
     placed_old: set[int] = set()
     for (p_local, k), n in sorted(res.counts_per_slot.items()):
         pi = usable[p_local]
-        d = by_pos.setdefault(pi, {"pieces": [], "length": None, "old": [], "strip_mass": 0.0})
+        d = by_pos.setdefault(pi, _AtPosition())
         kind, v = size_kind[k]
         if kind == "stock":
-            d["pieces"].extend([v] * n)
+            d.pieces.extend([v] * n)
         elif kind == "strip":
-            d["length"] = v
-            d["strip_mass"] = sizes[k]
+            d.length = v
+            d.strip_mass = sizes[k]
         else:
             i = int(v)
             placed_old.add(i)
             if existing[i].position_index == pi:
                 kept.append(i)  # refitted where it was: it simply stays
             else:
-                d["old"].append(i)
+                d.old.append(i)
     placements = []
     moved_mass = 0.0
     fitted = 0j
     for pi in sorted(by_pos):
         d = by_pos[pi]
-        pieces = tuple(sorted(d["pieces"], reverse=True))
-        mass = sum(pieces) + sum(existing[i].mass_g for i in d["old"])
-        length = d["length"]
-        mass += d["strip_mass"]
-        moved_mass += sum(existing[i].mass_g for i in d["old"])
-        if not pieces and length is None and not d["old"]:
+        pieces = tuple(sorted(d.pieces, reverse=True))
+        mass = sum(pieces) + sum(existing[i].mass_g for i in d.old)
+        length = d.length
+        mass += d.strip_mass
+        moved_mass += sum(existing[i].mass_g for i in d.old)
+        if not pieces and length is None and not d.old:
             continue
         ub = weight_gmm(mass, positions.angles_deg[pi], positions.radii_mm[pi])
         fitted += ub
         placements.append(Placement(pi, positions.angles_deg[pi], positions.radii_mm[pi], pieces, length,
-                                    mass, tuple(d["old"]), ub))
+                                    mass, tuple(d.old), ub))
     removed_all = sorted(set(removed) | {i for i in movable if i not in placed_old})
     change = fitted - sum((existing[i].unbalance_gmm for i in removed_all), 0j)
     change -= sum((existing[i].unbalance_gmm for i in movable if i in placed_old and i not in kept), 0j)
@@ -403,8 +415,6 @@ def _build(
 
 def _strip(prob: SearchProblem, strip: Strip, max_nodes: int) -> SearchResult:
     """Strip at fixed positions through the rounding-based exact search (one piece a position)."""
-    from runtrue.allocation.strip_search import strip_search
-
     n_sizes = len(prob.sizes_g)
     w0 = strip.grams_per_mm * strip.min_mm
     dw = strip.grams_per_mm * strip.step_mm
@@ -422,7 +432,7 @@ def allocate_planes(
     *,
     stock: Stock | None = None,
     existing_per_plane: Sequence[Sequence[ExistingWeight]] | None = None,
-    **options,
+    **options: Any,
 ) -> list[Allocation]:
     """Allocate each plane of a multi-plane correction in turn, sharing one stock.
 
@@ -442,7 +452,7 @@ def allocate_planes(
     remaining = stock
     for i, (corr, pos) in enumerate(zip(corrections, plane_positions)):
         old = tuple(existing_per_plane[i]) if existing_per_plane is not None else ()
-        a = allocate(corr, pos, stock=remaining, existing=old, **options)  # type: ignore[arg-type]
+        a = allocate(corr, pos, stock=remaining, existing=old, **options)
         out.append(a)
         if remaining is not None:
             used: dict[float, int] = {}

@@ -28,7 +28,7 @@ import math
 
 import numpy as np
 
-from runtrue.allocation.search import _DIR_IM, _DIR_RE, SearchResult, relaxation_bound_gmm
+from runtrue.allocation.search_model import DIR_IM, DIR_RE, SearchKey, SearchResult, relaxation_bound_gmm
 
 
 class _Budget(Exception):
@@ -59,18 +59,18 @@ class StripSearch:
         self.P = len(u)
         self.uu = np.abs(u) ** 2
         wmax = w0_g + dw_g * np.maximum(n_rungs - 1, 0)
-        proj = (u[:, None] * np.conj(_DIR_RE + 1j * _DIR_IM)[None, :]).real  # (P, J)
+        proj = (u[:, None] * np.conj(DIR_RE + 1j * DIR_IM)[None, :]).real  # (P, J)
         contrib = np.where(n_rungs[:, None] > 0, np.maximum(proj, 0.0) * wmax[:, None], 0.0)
         # h[p] = max over positions >= p of a piece's reach along each direction
-        h = np.zeros((self.P + 1, len(_DIR_RE)))
+        h = np.zeros((self.P + 1, len(DIR_RE)))
         for p in range(self.P - 1, -1, -1):
             h[p] = np.maximum(h[p + 1], contrib[p])
         self.h = h
-        self.best_key: tuple | None = None
+        self.best_key: SearchKey | None = None
         self.best: list[tuple[int, int]] = []
         self.best_R = target
 
-    def key(self, rho: float, pieces: int, mass: float) -> tuple:
+    def key(self, rho: float, pieces: int, mass: float) -> SearchKey:
         return (
             int(math.floor(max(rho, self.g) / self.q + 0.5)),
             pieces,
@@ -139,7 +139,7 @@ class StripSearch:
             wp = self.w0 + self.dw * ip
             R1 = R - wp * self.u[p]
             if self.best_key is not None:
-                t = R1.real[:, None] * _DIR_RE[None, :] + R1.imag[:, None] * _DIR_IM[None, :]
+                t = R1.real[:, None] * DIR_RE[None, :] + R1.imag[:, None] * DIR_IM[None, :]
                 lb = np.maximum(0.0, np.max(t - self.h[p + 1][None, :], axis=1))
                 keep = np.floor(np.maximum(lb, self.g) / self.q + 0.5) <= self.best_key[0]
                 if not keep.any():
@@ -175,7 +175,7 @@ class StripSearch:
             ip = np.arange(self.n_rungs[p])
             wp = self.w0 + self.dw * ip
             R1 = R - wp * self.u[p]
-            t = R1.real[:, None] * _DIR_RE[None, :] + R1.imag[:, None] * _DIR_IM[None, :]
+            t = R1.real[:, None] * DIR_RE[None, :] + R1.imag[:, None] * DIR_IM[None, :]
             lb = np.maximum(0.0, np.max(t - (b - 1) * self.h[p + 1][None, :], axis=1))
             if self.best_key is not None:
                 level = np.floor(np.maximum(lb, self.g) / self.q + 0.5)
@@ -192,7 +192,7 @@ class StripSearch:
     def can_improve(self, k: int) -> bool:
         if self.best_key is None:
             return True
-        t = self.T.real * _DIR_RE + self.T.imag * _DIR_IM
+        t = self.T.real * DIR_RE + self.T.imag * DIR_IM
         lb = max(0.0, float(np.max(t - k * self.h[0])))
         opt = self.key(lb, k, k * self.w0)
         return opt < self.best_key

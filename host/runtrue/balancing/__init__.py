@@ -35,6 +35,9 @@ Trial weights (``trial``)
     suggest_trial_weight(rotor_mass_kg, speed_rpm, radius_mm, n_planes=1, grade=None) -> TrialSuggestion
         10 % rotor-weight force (common practice); with grade, at least 5x the allowance (ours)
         TrialSuggestion: mass_g, radius_mm, force_n, rule (sentence, marked common practice)
+    rotor_weight_share_n(rotor_mass_kg, n_planes=1) -> float      m * g_n / planes
+    trial_force_limit_n(rotor_mass_kg, n_planes=1) -> float       30 % of that share (ours): above
+        it a job asks the user to confirm a weight
     check_trial_effect(reference: complex, trial: complex, spread: float,
         trial_spread: float | None = None) -> TrialVerdict
         TrialVerdict: ok: bool, ratio: float, message: str, suggested_scale: float
@@ -48,7 +51,8 @@ Uncertainty (``uncertainty``)
     propagate(func, y, sd, c0) -> (sd along, sd across) is the general tool (finite differences);
     propagate_jacobian(d_re, d_im, sd, c0) the same from known sensitivities.
 
-Amplitude only (``four_run``): maximum-likelihood fit of the amplitudes (linear solution as start)
+Amplitude only (``four_run``; the fit is ``amplitude_fit``, the cycle's decisions ``four_run_checks``,
+all offered by ``four_run``): maximum-likelihood fit of the amplitudes (linear solution as start)
     four_run(amplitudes: Sequence[float], trial_mass_g: float, trial_angles_deg: Sequence[float],
         radius_mm: float, plane: int = 1, correction_radius_mm: float | None = None) -> Solution
         amplitudes[0] is the reference run, then one per trial angle (3 or more angles).
@@ -63,11 +67,27 @@ Amplitude only (``four_run``): maximum-likelihood fit of the amplitudes (linear 
         upper 95 % bound of a check run's residual unbalance (inf when it cannot be bounded)
         NOTE: a four-run Solution's influence holds |a| only (phase unknown, shown as 0) and its
         predicted reading is an amplitude: never save it as a machine's stored coefficients.
+    four_run.pickup_gain(solution, pickup) -> (|a|, sd | None)
+    The decisions of a cycle (pickups numbered from 0):
+    four_run.loudest_pickup(reference_amps: Sequence[float]) -> int   (first on a tie)
+    four_run.amplitude_sd(spread) -> float                              spread / sqrt(2)
+    four_run.trial_effect_ratio(gain, trial_gmm, reference_amp) -> float   (inf for a 0 reference)
+    four_run.trial_effect(gain, trial_gmm, reference_amp) -> TrialEffect(ratio, ok, suggested_scale)
+        ok when ratio >= MIN_TRIAL_EFFECT_FRACTION (0.25)
+    four_run.first_trial_look(reference_amp, trial_amp) -> FirstTrialLook | None
+        FirstTrialLook(fraction, percent, large_enough, suggested_scale)
+    four_run.residual_check(amp, amp_sd, gain, gain_sd, permissible_gmm) -> ResidualCheck
+        ResidualCheck(residual_gmm, upper_gmm, uncertainty_gmm, passed)   passed: upper 95 % <= permissible
+    four_run.plan_amplitude_only(reference_amp, amp_sd, gain, permissible_gmm, max_trial_gmm,
+        relative_sd=0.0, max_angles=6) -> AmplitudePlan(trial_gmm, trial_angles_deg,
+        expected_relative_error, rule)
 
 Static / couple (``static_couple``)
     static_couple(corrections: Sequence[Weight], radius_mm: float | None = None) -> StaticCouple
         StaticCouple: static_gmm: complex, couple_gmm: complex, static: Weight (plane 0 = "both"),
         couple: tuple[Weight, Weight]
+    static_couple.split_kind(static_gmm, couple_gmm) -> str   "mostly static" | "mostly couple" |
+        "static + couple" (one part at least DOMINANT_RATIO = 2 times the other per plane; ours)
 
 Tolerance (``tolerance``)
     permissible_unbalance(grade: float, mass_kg: float, speed_rpm: float, planes: int = 1,
@@ -86,10 +106,16 @@ Units (``units``)
     convert_1x(value: complex, from_unit: str, to_unit: str, speed_rpm: float) -> complex
         units: "g", "m/s2", "mm/s", "in/s", "um", "mil"  (1x only; phase follows the lag convention)
 
-Safety (``forces``)
-    centrifugal_force_n(mass_g, radius_mm, speed_rpm) -> float        F = m * r * w^2
+Safety (``forces``: the one home of F = m * r * w^2)
+    centrifugal_force_n(mass_g, radius_mm, speed_rpm) -> float        F = m * r * w^2, checked
+    forces.force_at_speed_n(mass_g, radius_mm, speed_rpm) -> float    the same, unchecked (0 g -> 0 N)
+    forces.mass_for_force_g(force_n, radius_mm, speed_rpm) -> float   m = F / (r * w^2), unchecked
+    forces.shaft_speed_rad_s(speed_rpm) -> float                      w = 2*pi*n/60
     check_speed_rpm(speed_rpm) -> float; check_mass_g(mass_g, what="mass") -> float;
     check_radius_mm(radius_mm) -> float    (raise BalancingError with the reason)
+
+Grades (``grades``)
+    grades.parse_grade("G6.3" | "G 6.3" | "6.3" | 6.3) -> 6.3;  grades.grade_label("6.3") -> "G6.3"
 """
 
 from __future__ import annotations

@@ -4,6 +4,12 @@ Source: Newton's second law for uniform circular motion, F = m * r * w^2 with w 
 (any mechanics text, e.g. Meriam & Kraige, *Engineering Mechanics: Dynamics*, kinetics of
 particles, normal acceleration a_n = r*w^2).
 
+This module is the one home of that law in runtrue: the shaft's angular speed
+(:func:`shaft_speed_rad_s`), the force a weight pulls with (:func:`centrifugal_force_n`, which
+refuses nonsense input, and :func:`force_at_speed_n`, the bare formula for numbers already
+checked or for a display that may show 0 g) and its inverse, the mass that pulls a given force
+(:func:`mass_for_force_g`).
+
 Caution: rotating machinery can kill.  Every weight must be secured for the force it sees at
 the highest speed the rotor can reach; never exceed a wheel's or rotor's rated speed; stop and
 lock out the machine before fitting weights.  Local codes, the machine maker's instructions and
@@ -87,10 +93,29 @@ def check_radius_mm(radius_mm: float) -> float:
     return r
 
 
+def shaft_speed_rad_s(speed_rpm: float) -> float:
+    """The shaft's angular speed in rad/s at ``speed_rpm``: w = 2*pi*n/60 (no checks)."""
+    return 2.0 * math.pi * speed_rpm / 60.0
+
+
+def force_at_speed_n(mass_g: float, radius_mm: float, speed_rpm: float) -> float:
+    """F = m * r * w^2 in newtons (m in kg, r in m, w in rad/s) for ``mass_g`` at ``radius_mm``
+    turning at ``speed_rpm``, without checks: for numbers already checked, or a display that may
+    show a 0 g weight (0 N).  :func:`centrifugal_force_n` refuses nonsense input."""
+    w = shaft_speed_rad_s(speed_rpm)
+    return (mass_g / 1000.0) * (radius_mm / 1000.0) * w * w
+
+
 def centrifugal_force_n(mass_g: float, radius_mm: float, speed_rpm: float) -> float:
     """Force in newtons pulling a weight of ``mass_g`` at ``radius_mm`` outward at ``speed_rpm``:
-    F = m * r * w^2 (m in kg, r in m, w = 2*pi*n/60 rad/s)."""
-    m_kg = check_mass_g(mass_g) / 1000.0
-    r_m = check_radius_mm(radius_mm) / 1000.0
-    w = 2.0 * math.pi * check_speed_rpm(speed_rpm) / 60.0
-    return m_kg * r_m * w * w
+    F = m * r * w^2 (m in kg, r in m, w = 2*pi*n/60 rad/s).  :class:`BalancingError` when the
+    mass, radius or speed makes no sense (see ``check_mass_g`` and the others)."""
+    return force_at_speed_n(check_mass_g(mass_g), check_radius_mm(radius_mm), check_speed_rpm(speed_rpm))
+
+
+def mass_for_force_g(force_n: float, radius_mm: float, speed_rpm: float) -> float:
+    """The mass in g that pulls ``force_n`` newtons at ``radius_mm`` turning at ``speed_rpm``:
+    m = F / (r * w^2), the inverse of :func:`force_at_speed_n`.  No checks: give a radius and a
+    speed above zero (a zero one divides by zero)."""
+    w = shaft_speed_rad_s(speed_rpm)
+    return force_n / ((radius_mm / 1000.0) * w * w) * 1000.0

@@ -142,7 +142,8 @@ def _fit(x: np.ndarray, y: np.ndarray, wts: np.ndarray | None) -> tuple[np.ndarr
 
 def _correct(a: np.ndarray, r: np.ndarray) -> np.ndarray:
     """The unbalance C (g*mm per plane) minimising |r + a C|^2 (minimum norm if not unique)."""
-    return -np.linalg.lstsq(a, r, rcond=None)[0]
+    c: np.ndarray = -np.linalg.lstsq(a, r, rcond=None)[0]
+    return c
 
 
 def normalised_condition(a: np.ndarray) -> float:

@@ -6,6 +6,10 @@ and couple unbalance (a pair of equal and opposite unbalances in two planes) (fr
 Any two-plane unbalance splits uniquely as ``U1 = S/2 + C`` and ``U2 = S/2 - C``:
 ``S = U1 + U2`` is the resultant (static part, shown shared half and half between the planes)
 and ``C = (U1 - U2) / 2`` the couple pair (``+C`` in plane 1, ``-C`` in plane 2).
+
+What kind of unbalance it is (:func:`split_kind`, our rule of thumb, no standard): per plane,
+``|S|/2`` against ``|C|``; one at least DOMINANT_RATIO times the other is "mostly static" or
+"mostly couple", else "static + couple".
 """
 
 from __future__ import annotations
@@ -14,6 +18,12 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 from runtrue.balancing.model import BalancingError, Weight
+
+#: One part counts as dominant when it is at least this many times the other, per plane (our choice).
+DOMINANT_RATIO = 2.0
+MOSTLY_STATIC = "mostly static"
+MOSTLY_COUPLE = "mostly couple"
+STATIC_AND_COUPLE = "static + couple"
 
 
 @dataclass(frozen=True)
@@ -45,3 +55,15 @@ def static_couple(corrections: Sequence[Weight], radius_mm: float | None = None)
         static=Weight.from_unbalance(0, s, r),
         couple=(Weight.from_unbalance(1, c, r), Weight.from_unbalance(2, -c, r)),
     )
+
+
+def split_kind(static_gmm: complex, couple_gmm: complex) -> str:
+    """``MOSTLY_STATIC``, ``MOSTLY_COUPLE`` or ``STATIC_AND_COUPLE`` for a split (see the module
+    docstring): the static part per plane ``|S|/2`` against the couple ``|C|``."""
+    s_per_plane = abs(static_gmm) / 2.0
+    c = abs(couple_gmm)
+    if s_per_plane >= DOMINANT_RATIO * c:
+        return MOSTLY_STATIC
+    if c >= DOMINANT_RATIO * s_per_plane:
+        return MOSTLY_COUPLE
+    return STATIC_AND_COUPLE

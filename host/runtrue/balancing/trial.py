@@ -21,8 +21,11 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from runtrue.balancing.forces import centrifugal_force_n, check_radius_mm, check_speed_rpm
+from runtrue.balancing.forces import centrifugal_force_n, check_radius_mm, check_speed_rpm, mass_for_force_g
 from runtrue.balancing.model import BalancingError
+from runtrue.balancing.tolerance import permissible_unbalance
+from runtrue.balancing.units import STANDARD_GRAVITY_M_S2 as STANDARD_GRAVITY_M_S2  # re-exported: trial rules use it
+from runtrue.readings.numbers import force_text, unbalance_text
 
 #: Fraction of the rotor's weight (per plane share) the trial weight's force should reach.
 TRIAL_FORCE_FRACTION = 0.10
@@ -37,7 +40,6 @@ TRIAL_MIN_RATIO = 10.0
 #: rule of thumb asks the trial to change the amplitude by 30 % or the phase by 30 deg (common
 #: practice); either way the reading moves by at least 30 % of the reference as a vector.
 TRIAL_MIN_CHANGE_FRACTION = 0.30
-STANDARD_GRAVITY_M_S2 = 9.80665
 
 
 @dataclass(frozen=True)
@@ -61,6 +63,19 @@ class TrialVerdict:
     ratio: float
     message: str
     suggested_scale: float
+
+
+def rotor_weight_share_n(rotor_mass_kg: float, n_planes: int = 1) -> float:
+    """The rotor's weight in newtons shared between its correction planes: m * g_n / planes
+    (no checks: give a mass above 0 and planes from 1)."""
+    return rotor_mass_kg * STANDARD_GRAVITY_M_S2 / n_planes
+
+
+def trial_force_limit_n(rotor_mass_kg: float, n_planes: int = 1) -> float:
+    """The largest force a suggested weight may pull with, in newtons: TRIAL_FORCE_CAP_FRACTION
+    (30 %) of the rotor's weight share per plane (our choice, the cap of
+    :func:`suggest_trial_weight`); a job asks the user to confirm any weight above it.  No checks."""
+    return TRIAL_FORCE_CAP_FRACTION * rotor_mass_kg * STANDARD_GRAVITY_M_S2 / n_planes
 
 
 def suggest_trial_weight(
@@ -92,26 +107,19 @@ def suggest_trial_weight(
     r_mm = check_radius_mm(radius_mm)
     if isinstance(n_planes, bool) or not isinstance(n_planes, int) or n_planes < 1:
         raise BalancingError(f"number of planes must be a whole number from 1, got {n_planes!r}")
-    # the shared number format (every number a user reads); imported here, not at the top:
-    # runtrue.jobs builds on this package
-    from runtrue.readings.numbers import force_text, unbalance_text
-
-    w = 2.0 * math.pi * n / 60.0
-    weight_share_n = mass * STANDARD_GRAVITY_M_S2 / n_planes
+    weight_share_n = rotor_weight_share_n(mass, n_planes)
     force_n = TRIAL_FORCE_FRACTION * weight_share_n
-    mass_g = force_n / ((r_mm / 1000.0) * w * w) * 1000.0
+    mass_g = mass_for_force_g(force_n, r_mm, n)
     per_plane = " per plane" if n_planes > 1 else ""
     rule = (
         f"Trial weight sized so its centrifugal force at {n:g} rpm is {TRIAL_FORCE_FRACTION * 100:.0f} % of the "
         f"rotor's weight{per_plane} ({force_text(force_n)}) - common practice, not a standard."
     )
     if grade is not None:
-        from runtrue.balancing.tolerance import permissible_unbalance
-
         u_per = permissible_unbalance(grade, mass, n).permissible_unbalance_gmm / n_planes
         grade_mass_g = TRIAL_GRADE_MULTIPLE * u_per / r_mm
         if grade_mass_g > mass_g:
-            cap_mass_g = TRIAL_FORCE_CAP_FRACTION * weight_share_n / ((r_mm / 1000.0) * w * w) * 1000.0
+            cap_mass_g = mass_for_force_g(TRIAL_FORCE_CAP_FRACTION * weight_share_n, r_mm, n)
             capped = grade_mass_g > cap_mass_g
             mass_g = min(grade_mass_g, cap_mass_g)
             force_n = centrifugal_force_n(mass_g, r_mm, n)

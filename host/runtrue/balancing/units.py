@@ -16,13 +16,15 @@ from __future__ import annotations
 import cmath
 import math
 
-from runtrue.balancing.forces import check_speed_rpm
+from runtrue.balancing.forces import check_speed_rpm, shaft_speed_rad_s
 from runtrue.balancing.model import BalancingError
+from runtrue.readings.units import STANDARD_GRAVITY_MS2
 
 G_PER_OZ = 28.349523125
 MM_PER_IN = 25.4
 GMM_PER_OZIN = G_PER_OZ * MM_PER_IN  # 720.0778...
-STANDARD_GRAVITY_M_S2 = 9.80665
+#: Standard gravity, m/s^2 (the readings layer's constant, under the name this package uses).
+STANDARD_GRAVITY_M_S2 = STANDARD_GRAVITY_MS2
 
 
 def g_to_oz(mass_g: float) -> float:
@@ -75,7 +77,7 @@ def convert_1x(value: complex, from_unit: str, to_unit: str, speed_rpm: float) -
         raise BalancingError(
             f"unknown vibration unit {exc.args[0]!r}; use one of {', '.join(VIBRATION_UNITS)}"
         ) from None
-    w = 2.0 * math.pi * check_speed_rpm(speed_rpm) / 60.0
+    w = shaft_speed_rad_s(check_speed_rpm(speed_rpm))
     si = complex(value) * s_from
     steps = k_to - k_from  # number of integrations
     # In the lag convention, dividing by (j*w) multiplies the lag phasor by e^{+j*90deg} / w.

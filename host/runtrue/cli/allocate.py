@@ -23,6 +23,9 @@ Output: ``placements`` (``{"angle", "radius", "pieces": [masses]}`` or ``"length
 the stated objective), ``status`` ("optimal" or "best found"),
 ``residual_bound_gmm``, ``pieces``, ``added_mass``, ``kept_existing``, ``removed_existing``,
 ``warnings``, ``conventions``.
+
+The allocator is imported inside the functions that use it, so that listing the commands
+(``runtrue --help``) does not load numpy.
 """
 
 from __future__ import annotations
@@ -35,7 +38,7 @@ from typing import Any
 
 from runtrue import validation as v
 from runtrue.cli import UsageError
-from runtrue.cli.jsonio import LIMITS_HELP, load_json
+from runtrue.cli.jsonio import LIMITS_HELP, load_json, round_places
 
 MAX_NODES = v.MAX_SEARCH_NODES  # search nodes (default 5,000)
 STRIP_MIN_STEP_MM = 0.1
@@ -134,7 +137,7 @@ def _positions(spec: Any) -> Any:
         angles = [_limit(v.angle_deg, _num(p, "angle", f"positions[{i}]"), f"positions[{i}] angle")  # type: ignore[arg-type]
                   for i, p in enumerate(spec)]
         each = [_radius(_num(p, "radius", f"positions[{i}]"), f"positions[{i}] radius") for i, p in enumerate(spec)]
-        return Positions.at_angles(angles, each)  # type: ignore[arg-type]
+        return Positions.at_angles(angles, each)
     if not isinstance(spec, dict):
         raise UsageError("\"positions\" must be an object or a list of {\"angle\", \"radius\"}")
     if "exclude" in spec:
@@ -152,7 +155,7 @@ def _positions(spec: Any) -> Any:
         _count(count, v.MAX_POSITIONS, "positions")
         radius = _radius(_num(spec, "radius", where), "positions radius")
         first = _limit(v.angle_deg, _num(spec, "first_angle", where, required=False, default=0.0), "first_angle")  # type: ignore[arg-type]
-        pos = Positions.equally_spaced(count, radius, first)  # type: ignore[arg-type]
+        pos = Positions.equally_spaced(count, radius, first)
     elif "angles" in spec:
         angles = spec["angles"]
         if not isinstance(angles, list) or not angles:
@@ -167,7 +170,7 @@ def _positions(spec: Any) -> Any:
             radii: Any = [_radius(_num({"r": r}, "r", "positions radii"), "a position radius") for r in radii_raw]
         else:
             radii = _radius(_num(spec, "radius", where), "positions radius")
-        pos = Positions.at_angles(vals, radii)  # type: ignore[arg-type]
+        pos = Positions.at_angles(vals, radii)
     else:
         raise UsageError("positions: give \"count\" and \"radius\", \"angles\" and \"radius\", a list, "
                          "or {\"continuous\": true, \"radius\": R}")
@@ -224,7 +227,7 @@ def _build(data: Any) -> tuple[dict, Any]:
         s = data["strip"]
         vals = {k: _num(s, k, "strip") for k in ("grams_per_mm", "min_mm", "step_mm")}
         for k, x in vals.items():
-            _positive(x, f"strip {k}")  # type: ignore[arg-type]
+            _positive(x, f"strip {k}")
         g_mm, min_mm, step_mm = vals["grams_per_mm"], vals["min_mm"], vals["step_mm"]
         assert g_mm is not None and min_mm is not None and step_mm is not None
         if not (1e-4 <= g_mm <= 1000 and min_mm <= v.RADIUS_MAX_MM and STRIP_MIN_STEP_MM <= step_mm <= v.RADIUS_MAX_MM):
@@ -295,12 +298,9 @@ def _build(data: Any) -> tuple[dict, Any]:
     return {"correction": (mass, angle, radius), "positions": positions, "options": opts, "speed_rpm": speed}, existing
 
 
-def _r(x: float, nd: int = 6) -> float:
-    return float(round(x, nd))
-
-
 def run(args: argparse.Namespace) -> int:
-    from runtrue.allocation import AllocationError, allocate, centrifugal_force_n
+    from runtrue.allocation import AllocationError, allocate
+    from runtrue.balancing.forces import force_at_speed_n
 
     data = load_json(args.file)
     try:
@@ -313,30 +313,30 @@ def run(args: argparse.Namespace) -> int:
     for p in a.placements:
         item: dict[str, Any] = {
             "position": None if p.position_index is None else p.position_index + 1,
-            "angle": _r(p.angle_deg, 4),
-            "radius": _r(p.radius_mm, 4),
+            "angle": round_places(p.angle_deg, 4),
+            "radius": round_places(p.radius_mm, 4),
         }
         if p.length_mm is not None:
-            item["length_mm"] = _r(p.length_mm, 4)
+            item["length_mm"] = round_places(p.length_mm, 4)
         else:
-            item["pieces"] = [_r(m) for m in p.pieces]
+            item["pieces"] = [round_places(m) for m in p.pieces]
         if p.moved_existing:
             item["moved_existing"] = [i + 1 for i in p.moved_existing]
-        item["mass"] = _r(p.mass_g)
+        item["mass"] = round_places(p.mass_g)
         if speed is not None:
             r_cm = abs(p.unbalance_gmm) / p.mass_g if p.mass_g > 0 else p.radius_mm
-            item["force_n"] = _r(centrifugal_force_n(p.mass_g, r_cm, speed), 3)
+            item["force_n"] = round_places(force_at_speed_n(p.mass_g, r_cm, speed), 3)
         placements.append(item)
     out = {
         "placements": placements,
-        "residual": {"mass": _r(a.residual_mass_g), "angle": _r(a.residual_angle_deg, 4),
-                     "radius": _r(a.correction_radius_mm, 4)},
-        "residual_fraction": _r(a.residual_fraction, 6),
+        "residual": {"mass": round_places(a.residual_mass_g), "angle": round_places(a.residual_angle_deg, 4),
+                     "radius": round_places(a.correction_radius_mm, 4)},
+        "residual_fraction": round_places(a.residual_fraction, 6),
         "optimal": a.optimal,
         "status": a.status,
-        "residual_bound_gmm": _r(a.bound_gmm, 6),
+        "residual_bound_gmm": round_places(a.bound_gmm, 6),
         "pieces": a.piece_count,
-        "added_mass": _r(a.added_mass_g),
+        "added_mass": round_places(a.added_mass_g),
         "kept_existing": [i + 1 for i in a.kept_existing],
         "removed_existing": [i + 1 for i in a.removed_existing],
         "warnings": list(a.warnings),

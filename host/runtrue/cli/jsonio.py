@@ -1,7 +1,12 @@
 """Reading a JSON input file (or standard input) for the JSON-in/JSON-out sub-commands, with
-one-line messages for every way it can be wrong.  Limits: at most
-``runtrue.validation.MAX_JSON_BYTES`` bytes, nested at most ``MAX_JSON_DEPTH`` deep, finite
-numbers only."""
+one-line messages for every way it can be wrong, and rounding the numbers they print.  Limits:
+at most ``runtrue.validation.MAX_JSON_BYTES`` bytes, nested at most ``MAX_JSON_DEPTH`` deep,
+finite numbers only.
+
+Rounding for output (two meanings, both part of the commands' JSON contracts):
+:func:`round_sig` keeps significant figures (``solve``, ``tolerance``: values of any size),
+:func:`round_places` keeps decimal places (``allocate``: masses, angles and lengths a fitter
+reads off a scale or a protractor)."""
 
 from __future__ import annotations
 
@@ -14,6 +19,22 @@ from runtrue.validation import MAX_JSON_BYTES, MAX_JSON_DEPTH
 
 LIMITS_HELP = (f"Input limits: at most {MAX_JSON_BYTES // 1000} kB, nested at most {MAX_JSON_DEPTH} deep, "
                "finite numbers only.")
+
+
+def round_sig(x: float, figures: int = 6) -> float:
+    """``x`` to ``figures`` significant figures: ``round_sig(1234.5678, 3) == 1230.0``."""
+    return float(f"{x:.{figures}g}")
+
+
+def round_sig_angle_deg(angle_deg: float, figures: int = 6) -> float:
+    """An angle to ``figures`` significant figures, then into 0-360 degrees (359.9999999 prints
+    as 0.0, not 360.0)."""
+    return round_sig(angle_deg, figures) % 360.0
+
+
+def round_places(x: float, places: int = 6) -> float:
+    """``x`` to ``places`` decimal places: ``round_places(2.3456789, 4) == 2.3457``."""
+    return float(round(x, places))
 
 
 def _reject_constant(name: str) -> float:

@@ -17,6 +17,9 @@ per plane), ``predicted``, ``warnings``; added keys: ``method``, ``condition_num
 ``uncertainty``, ``static_couple`` (two planes), ``conventions``, and, when the input gives
 ``speed_rpm`` (the highest speed the rotor will run), ``force_n`` on each correction (the
 centrifugal force the weight must withstand) and a ``safety`` sentence.
+
+The engine is imported inside the functions that use it, so that listing the commands
+(``runtrue --help``) does not load numpy.
 """
 
 from __future__ import annotations
@@ -29,7 +32,7 @@ from typing import Any
 
 from runtrue import validation as v
 from runtrue.cli import UsageError
-from runtrue.cli.jsonio import LIMITS_HELP, load_json
+from runtrue.cli.jsonio import LIMITS_HELP, load_json, round_sig, round_sig_angle_deg
 
 MAX_WEIGHTS_PER_RUN = 16
 
@@ -195,20 +198,17 @@ def parse_runs(data: Any) -> tuple[list, dict[int, float] | None, bool]:
     return runs, radius, with_phase == {False}
 
 
-def _r(x: float, digits: int = 6) -> float:
-    return float(f"{x:.{digits}g}")
-
-
 def _ap(z: complex, phase_known: bool = True) -> dict[str, float | None]:
     from runtrue.balancing import amp_phase
 
     amp, phase = amp_phase(z)
-    ph = _r(phase) % 360.0 if phase_known else None
-    return {"amp": _r(amp), "phase": ph}
+    ph = round_sig_angle_deg(phase) if phase_known else None
+    return {"amp": round_sig(amp), "phase": ph}
 
 
 def _weight(w: Any) -> dict[str, float | int]:
-    return {"plane": w.plane, "mass": _r(w.mass_g), "angle": _r(w.angle_deg) % 360.0, "radius": _r(w.radius_mm)}
+    return {"plane": w.plane, "mass": round_sig(w.mass_g), "angle": round_sig_angle_deg(w.angle_deg),
+            "radius": round_sig(w.radius_mm)}
 
 
 def solution_json(sol: Any) -> dict[str, Any]:
@@ -225,20 +225,20 @@ def solution_json(sol: Any) -> dict[str, Any]:
         "predicted": [_ap(z, phase_known) for z in predicted],
         "warnings": list(sol.warnings),
         "method": sol.method,
-        "condition_number": _r(sol.condition_number) if math.isfinite(sol.condition_number) else None,
+        "condition_number": round_sig(sol.condition_number) if math.isfinite(sol.condition_number) else None,
         "uncertainty": None,
         "conventions": CONVENTIONS,
     }
     if sol.mass_sd_g is not None and sol.angle_sd_deg is not None:
         out["uncertainty"] = [
-            {"plane": w.plane, "mass_sd": _r(m), "angle_sd": _r(a)}
+            {"plane": w.plane, "mass_sd": round_sig(m), "angle_sd": round_sig(a)}
             for w, m, a in zip(sol.corrections, sol.mass_sd_g, sol.angle_sd_deg)
         ]
     if len(sol.corrections) == 2:
         sc = static_couple(sol.corrections)
         out["static_couple"] = {
-            "static": {"mass": _r(sc.static.mass_g), "angle": _r(sc.static.angle_deg) % 360.0,
-                       "radius": _r(sc.static.radius_mm)},
+            "static": {"mass": round_sig(sc.static.mass_g), "angle": round_sig_angle_deg(sc.static.angle_deg),
+                       "radius": round_sig(sc.static.radius_mm)},
             "couple": [_weight(w) for w in sc.couple],
         }
     return out
@@ -292,7 +292,7 @@ def run(args: argparse.Namespace) -> int:
     if speed is not None:
         for entry, w in zip(out["corrections"], sol.corrections):
             # Below the lightest weight (round-off of a zero correction) there is nothing to hold.
-            entry["force_n"] = (_r(centrifugal_force_n(w.mass_g, w.radius_mm, speed))
+            entry["force_n"] = (round_sig(centrifugal_force_n(w.mass_g, w.radius_mm, speed))
                                 if w.mass_g >= v.WEIGHT_MIN_G else 0.0)
         out["safety"] = SAFETY
     json.dump(out, sys.stdout, indent=2)

@@ -6,6 +6,9 @@
 ``mass_kg``, ``speed_rpm``, ``permissible_unbalance_ozin``, ``per_plane_ozin``, ``rule``,
 ``warnings`` and, with ``--journal-load-kg``, ``api_limit_gmm`` (API-style 4W/N per journal).
 Formula and allocation: ``runtrue.balancing.tolerance`` (ISO 21940-11:2016 clauses 6 and 7).
+
+The engine is imported inside the functions that use it, so that listing the commands
+(``runtrue --help``) does not load numpy.
 """
 
 from __future__ import annotations
@@ -18,6 +21,7 @@ from typing import Any
 
 from runtrue import validation as v
 from runtrue.cli import UsageError
+from runtrue.cli.jsonio import round_sig
 
 GRADE_MIN_MM_S = 0.1  # below the finest grade ISO 21940-11 lists (G 0.4) with room to spare
 GRADE_MAX_MM_S = 4000.0  # the coarsest grade it lists (G 4000)
@@ -62,10 +66,6 @@ def _num(text: str, option: str) -> float:
     return x
 
 
-def _r(x: float) -> float:
-    return float(f"{x:.6g}")
-
-
 def run(args: argparse.Namespace) -> int:
     from runtrue.balancing import BalancingError, api_limit_gmm, gmm_to_ozin, permissible_unbalance
     from runtrue.balancing.grades import parse_grade
@@ -106,19 +106,19 @@ def run(args: argparse.Namespace) -> int:
     except BalancingError as exc:
         raise UsageError(str(exc)) from None
     out: dict[str, Any] = {
-        "permissible_unbalance_gmm": _r(tol.permissible_unbalance_gmm),
-        "permissible_eccentricity_um": _r(tol.permissible_eccentricity_um),
-        "per_plane_gmm": [_r(u) for u in tol.per_plane_gmm],
+        "permissible_unbalance_gmm": round_sig(tol.permissible_unbalance_gmm),
+        "permissible_eccentricity_um": round_sig(tol.permissible_eccentricity_um),
+        "per_plane_gmm": [round_sig(u) for u in tol.per_plane_gmm],
         "grade": tol.grade,
         "mass_kg": tol.mass_kg,
         "speed_rpm": tol.speed_rpm,
-        "permissible_unbalance_ozin": _r(gmm_to_ozin(tol.permissible_unbalance_gmm)),
-        "per_plane_ozin": [_r(gmm_to_ozin(u)) for u in tol.per_plane_gmm],
+        "permissible_unbalance_ozin": round_sig(gmm_to_ozin(tol.permissible_unbalance_gmm)),
+        "per_plane_ozin": [round_sig(gmm_to_ozin(u)) for u in tol.per_plane_gmm],
         "rule": tol.rule,
         "warnings": list(tol.warnings),
     }
     if api is not None:
-        out["api_limit_gmm"] = _r(api)
+        out["api_limit_gmm"] = round_sig(api)
         out["api_rule"] = (
             "API-style limit U = 4W/N oz*in per journal (W static journal load in lb, N maximum "
             "continuous speed in rpm), shown in g*mm; use the edition your specification names"

@@ -12,7 +12,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from runtrue.tui.format import DEG, centrifugal_force_n
+from runtrue.balancing.forces import force_at_speed_n as centrifugal_force_n
+from runtrue.tui.format import DEG
 from runtrue.tui.units_text import METRIC, force_text, mass_text, radius_text
 
 

@@ -6,8 +6,12 @@ mark (0-360); weight angles are measured from the mark against the direction of 
 
 from __future__ import annotations
 
-import cmath
 import math
+
+from runtrue.readings.numbers import DEFAULT_VIB_UNIT, sig3
+from runtrue.readings.numbers import force_text as _force_text
+from runtrue.readings.numbers import mass_text as _mass_text
+from runtrue.readings.units import lag_deg
 
 DEG = "\N{DEGREE SIGN}"
 PHASE_NOTE = f"phase = lag after the mark, 0-360{DEG}"
@@ -26,8 +30,6 @@ SAFETY_START = (
 def amp_text(amp_g: float, unit: str = "g pk") -> str:
     """An acceleration amplitude with 3 significant figures and its detector, e.g.
     ``0.0412 g pk`` (never a bare "g", which reads as grams)."""
-    from runtrue.readings.numbers import sig3
-
     if not math.isfinite(amp_g):
         return "---"
     return f"{sig3(amp_g, 5)} {unit}"
@@ -35,8 +37,6 @@ def amp_text(amp_g: float, unit: str = "g pk") -> str:
 
 def vib_unit_of(app: object) -> str:
     """The vibration display unit chosen in the running application (default mm/s rms)."""
-    from runtrue.readings.numbers import DEFAULT_VIB_UNIT
-
     return str(getattr(app, "vib_unit", DEFAULT_VIB_UNIT))
 
 
@@ -45,27 +45,15 @@ def phase_text(phase_deg: float) -> str:
 
 
 def vector_text(v: complex, unit: str = "g") -> str:
-    amp = abs(v)
-    phase = math.degrees(cmath.phase(v)) % 360.0
-    return f"{amp_text(amp, unit)} @ {phase_text(phase).strip()}"
+    return f"{amp_text(abs(v), unit)} @ {phase_text(lag_deg(v)).strip()}"
 
 
 def mass_text(mass_g: float) -> str:
-    from runtrue.readings.numbers import mass_text as _mass_text
-
     return _mass_text(mass_g)
 
 
 def force_text(force_n: float) -> str:
-    from runtrue.readings.numbers import force_text as _force_text
-
     return _force_text(force_n)
-
-
-def centrifugal_force_n(mass_g: float, radius_mm: float, speed_rpm: float) -> float:
-    """F = m r omega^2 (Newton's second law for uniform circular motion), in newtons."""
-    omega = 2 * math.pi * speed_rpm / 60.0
-    return (mass_g / 1000.0) * (radius_mm / 1000.0) * omega * omega
 
 
 def bar(fraction: float, width: int) -> str:

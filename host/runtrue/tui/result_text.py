@@ -7,8 +7,9 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from runtrue.balancing.forces import force_at_speed_n as centrifugal_force_n
 from runtrue.readings.numbers import DEFAULT_VIB_UNIT, grade_row, percent_change_text, phase_text, vib_number
-from runtrue.tui.format import DEG, centrifugal_force_n
+from runtrue.tui.format import DEG
 from runtrue.tui.units_text import METRIC, force_text, mass_text, radius_text, unbalance_text
 
 

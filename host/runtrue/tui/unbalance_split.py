@@ -1,23 +1,23 @@
 """Static and couple parts of a two-plane correction, as three short lines for the runs screen:
 a technician's check on what kind of unbalance the rotor has.
 
-The split is ``runtrue.balancing.static_couple`` (ISO 21940-2 vocabulary): the static part
-``S = U1 + U2`` (the resultant, half in each plane) and the couple ``C = (U1 - U2) / 2`` (``+C``
-in plane 1, ``-C`` in plane 2).  Comparing per plane, ``|S|/2`` against ``|C|``: one at least
-twice the other is called "mostly static" or "mostly couple" (our rule of thumb), else "static +
-couple".  The angles are those of the correction weights (from the mark, against rotation).
+The split and the kind of unbalance are ``runtrue.balancing.static_couple``'s (ISO 21940-2
+vocabulary): the static part ``S = U1 + U2`` (the resultant, half in each plane), the couple
+``C = (U1 - U2) / 2`` (``+C`` in plane 1, ``-C`` in plane 2), and ``split_kind`` ("mostly
+static", "mostly couple" or "static + couple").  This module only writes the lines.  The angles
+are those of the correction weights (from the mark, against rotation).
 """
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
+from runtrue.balancing import BalancingError
+from runtrue.balancing.model import Weight
+from runtrue.balancing.static_couple import split_kind, static_couple
+from runtrue.readings.units import lag_deg
 from runtrue.tui.format import DEG
 from runtrue.tui.units_text import METRIC, unbalance_text
-
-#: One part counts as dominant when it is at least this many times the other, per plane (our choice).
-DOMINANT_RATIO = 2.0
 
 
 def gmm_text(u_gmm: float, units: str = METRIC) -> str:
@@ -25,32 +25,18 @@ def gmm_text(u_gmm: float, units: str = METRIC) -> str:
     return unbalance_text(u_gmm, units)
 
 
-def split_kind(static_gmm: complex, couple_gmm: complex) -> str:
-    s_per_plane = abs(static_gmm) / 2.0
-    c = abs(couple_gmm)
-    if s_per_plane >= DOMINANT_RATIO * c:
-        return "mostly static"
-    if c >= DOMINANT_RATIO * s_per_plane:
-        return "mostly couple"
-    return "static + couple"
-
-
 def static_couple_lines(plan: Any, units: str = METRIC) -> list[str]:
     """For a plan correcting planes 1 and 2: ``["Correction: mostly static", "static 245 g·mm @
     30°", "couple ±88 g·mm @ 200°"]``; no lines for anything else (one plane, no plan)."""
     if plan is None or len(plan.planes) != 2:
         return []
-    from runtrue.balancing import BalancingError
-    from runtrue.balancing.model import Weight
-    from runtrue.balancing.static_couple import static_couple
-
     ws = [Weight(pc.plane, pc.correction.mass_g, pc.correction.angle_deg, pc.correction.radius_mm) for pc in plan.planes]
     try:
         sc = static_couple(ws)
     except BalancingError:
         return []
-    s_ang = math.degrees(math.atan2(sc.static_gmm.imag, sc.static_gmm.real)) % 360.0
-    c_ang = math.degrees(math.atan2(sc.couple_gmm.imag, sc.couple_gmm.real)) % 360.0
+    s_ang = lag_deg(sc.static_gmm)
+    c_ang = lag_deg(sc.couple_gmm)
     return [
         f"Correction: {split_kind(sc.static_gmm, sc.couple_gmm)}",
         f"static {gmm_text(abs(sc.static_gmm), units)} @ {s_ang:.0f}{DEG}",

@@ -14,6 +14,9 @@ from __future__ import annotations
 from runtrue.balancing import g_to_oz, gmm_to_ozin, mm_to_in
 from runtrue.balancing.units import STANDARD_GRAVITY_M_S2
 from runtrue.readings.numbers import sig3
+from runtrue.readings.numbers import unbalance_text as metric_unbalance_text
+from runtrue.tui.format import force_text as metric_force_text
+from runtrue.tui.format import mass_text as metric_mass_text
 
 METRIC = "metric"
 IMPERIAL = "imperial"
@@ -36,13 +39,9 @@ def other_units(units: str) -> str:
     return IMPERIAL if check_units(units) == METRIC else METRIC
 
 
-
-
 def mass_text(mass_g: float, units: str = METRIC) -> str:
     """A weight's mass: ``12.0 g`` (as ``runtrue.tui.format.mass_text``) or ``0.423 oz``."""
     if check_units(units) == METRIC:
-        from runtrue.tui.format import mass_text as metric_mass_text
-
         return metric_mass_text(mass_g)
     return f"{sig3(g_to_oz(mass_g))} oz"
 
@@ -58,8 +57,6 @@ def unbalance_text(u_gmm: float, units: str = METRIC) -> str:
     """An unbalance amount without exponent: ``4.56 g·mm``, ``1880 g·mm``, ``12.3 kg·mm``;
     imperial ``0.0633 oz·in``, ``2.61 oz·in``, ``1250 oz·in``."""
     if check_units(units) == METRIC:
-        from runtrue.readings.numbers import unbalance_text as metric_unbalance_text
-
         return metric_unbalance_text(u_gmm)
     ozin = gmm_to_ozin(u_gmm)
     if ozin >= 1000:
@@ -74,8 +71,6 @@ def unbalance_unit(units: str = METRIC) -> str:
 def force_text(force_n: float, units: str = METRIC) -> str:
     """The force a weight must hold: ``850 N`` (as ``runtrue.tui.format.force_text``); imperial
     adds pounds-force in brackets, ``850 N (191 lbf)``."""
-    from runtrue.tui.format import force_text as metric_force_text
-
     text = metric_force_text(force_n)
     if check_units(units) == METRIC:
         return text

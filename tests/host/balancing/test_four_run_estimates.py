@@ -19,7 +19,8 @@ import numpy as np
 import pytest
 
 from runtrue.balancing import Run, Weight, phasor, solve_amplitude_only
-from runtrue.balancing.four_run import Z95, _linear_start, amplitude_only, fit_amplitudes, residual_upper_bound_gmm
+from runtrue.balancing.amplitude_fit import _linear_start
+from runtrue.balancing.four_run import Z95, amplitude_only, fit_amplitudes, residual_upper_bound_gmm
 
 
 def random_rotor(rng: np.random.Generator) -> tuple[complex, float, np.ndarray]:
