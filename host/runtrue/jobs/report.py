@@ -6,6 +6,10 @@ grade check against ISO 21940-11 (balance quality grade -> permissible residual 
 run log, warnings and the safety cautions.  The method is stated; an amplitude-only (four-run)
 job shows amplitudes only (no phase, no polar diagram) and says its residual is an estimate
 without phase.  No scripts, no external files: it prints as it shows.
+
+The page is the Jinja2 template ``templates/report.html.j2`` (autoescaped: every value is shown as
+text); this module gathers what it shows (:func:`report_context`) and draws the SVG figures, which
+reach the template as markup.
 """
 
 from __future__ import annotations
