@@ -113,6 +113,10 @@ _NUMPY_ON_32BIT_PI = (
 EXPECTED_SOURCE_BUILDS = {
     ("linux-armv7l", "numpy"): _NUMPY_ON_32BIT_PI,
     ("linux-armv6l", "numpy"): _NUMPY_ON_32BIT_PI,
+    ("linux-armv6l", "markupsafe"): (
+        "jinja2's markupsafe has no armv6l wheel on PyPI (piwheels has one); its source build needs no "
+        "compiler: without one it installs its pure-Python form"
+    ),
 }
 
 

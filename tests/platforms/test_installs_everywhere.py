@@ -17,7 +17,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import platform_matrix as pm  # noqa: E402
 
 CACHE_FOR_S = 24 * 3600
-APP = ("pyserial", "numpy", "textual", "platformdirs", "tomli")  # tomli on Python 3.10 only
+APP = ("pyserial", "numpy", "textual", "platformdirs", "jinja2", "tomli")  # tomli on Python 3.10 only
 
 
 def _names(target: pm.Target, groups: dict[str, list], python: str = "3.11") -> set[str]:

@@ -1,4 +1,5 @@
-"""What a balancing job is made of: machines, weights, runs — plain data that round-trips to JSON.
+"""What a balancing job is made of: machines, weights, runs — plain data that round-trips to JSON
+(through the one record codec, ``runtrue.jobs.codec``).
 
 Conventions (DEVELOPERS.md, stated on every screen and report):
 
@@ -15,7 +16,7 @@ Conventions (DEVELOPERS.md, stated on every screen and report):
 * Correction planes and pickups are numbered from 1 in everything a user sees and in
   :class:`Weight` (``plane=1`` is the first plane); Python lists are indexed from 0.
 
-Nothing here imports numpy, textual or the device layer: this module is cheap to import.
+Nothing here imports numpy, textual or the device layer at load: this module is cheap to import.
 """
 
 from __future__ import annotations
@@ -24,7 +25,9 @@ import cmath
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import Any, ClassVar, Literal
+
+from runtrue.jobs.codec import Record, StoredForm, decode
 
 Rotation = Literal["cw", "ccw"]
 #: Where the fitter stands to look at a correction plane: at the drive end, looking along the
@@ -37,6 +40,10 @@ METHODS: tuple[str, ...] = ("mark", "no mark")
 RunKind = Literal["reference", "trial", "correction", "trim"]
 RUN_KINDS: tuple[str, ...] = ("reference", "trial", "correction", "trim")
 
+#: The revolution count a typed-in spread is taken over when none is given: many (the confidence
+#: radius is then its large-count limit, about 1.73 x the spread at 95 %).
+MANY_REVS = 100_000
+
 #: ``RunReading.source`` of a reading typed in with amplitudes only (no phase reference).
 AMPLITUDE_ONLY_SOURCE = "manual, amplitude only"
 
@@ -46,16 +53,8 @@ ANGLE_CONVENTION = (
 )
 
 
-def _c2j(z: complex) -> list[float]:
-    return [float(z.real), float(z.imag)]
-
-
-def _j2c(v: Sequence[float]) -> complex:
-    return complex(float(v[0]), float(v[1]))
-
-
 @dataclass
-class PlaneSpec:
+class PlaneSpec(Record):
     """One correction plane and where weights can go in it.
 
     Positions, exactly one of:
@@ -130,84 +129,30 @@ class PlaneSpec:
         label = f"{self.name}: " if self.name else ""
         return f"{label}radius {self.radius_mm:g} mm, {where}"
 
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "radius_mm": self.radius_mm,
-            "name": self.name,
-            "count": self.count,
-            "first_angle_deg": self.first_angle_deg,
-            "angles_deg": self.angles_deg,
-            "continuous": self.continuous,
-            "excluded": list(self.excluded),
-            "max_pieces_per_position": self.max_pieces_per_position,
-            "max_mass_per_position_g": self.max_mass_per_position_g,
-            "view_side": self.view_side,
-        }
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> PlaneSpec:
-        return cls(
-            radius_mm=float(d["radius_mm"]),
-            name=str(d.get("name", "")),
-            count=d.get("count"),
-            first_angle_deg=float(d.get("first_angle_deg", 0.0)),
-            angles_deg=d.get("angles_deg"),
-            continuous=bool(d.get("continuous", False)),
-            excluded=[int(n) for n in d.get("excluded", [])],
-            max_pieces_per_position=d.get("max_pieces_per_position"),
-            max_mass_per_position_g=d.get("max_mass_per_position_g"),
-            view_side=str(d.get("view_side", "drive")),
-        )
-
-
 @dataclass
-class StockPiece:
+class StockPiece(Record):
     """A size of discrete weight in the shop's stock (washer, clip weight, set screw)."""
 
     mass_g: float
     count: int
 
-    def to_dict(self) -> dict[str, Any]:
-        return {"mass_g": self.mass_g, "count": self.count}
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> StockPiece:
-        return cls(mass_g=float(d["mass_g"]), count=int(d["count"]))
-
-
 @dataclass
-class StripSpec:
+class StripSpec(Record):
     """Heavy strip cut to length: mass per mm, the shortest useful piece and the cutting step."""
 
     grams_per_mm: float
     min_mm: float = 5.0
     step_mm: float = 1.0
 
-    def to_dict(self) -> dict[str, Any]:
-        return {"grams_per_mm": self.grams_per_mm, "min_mm": self.min_mm, "step_mm": self.step_mm}
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> StripSpec:
-        return cls(float(d["grams_per_mm"]), float(d.get("min_mm", 5.0)), float(d.get("step_mm", 1.0)))
-
-
 @dataclass
-class Pickup:
+class Pickup(Record):
     """A vibration pickup: a label the user recognises and its mounting angle (informative)."""
 
     label: str
     angle_deg: float = 0.0
 
-    def to_dict(self) -> dict[str, Any]:
-        return {"label": self.label, "angle_deg": self.angle_deg}
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> Pickup:
-        return cls(label=str(d["label"]), angle_deg=float(d.get("angle_deg", 0.0)))
-
-
 @dataclass
-class StoredInfluence:
+class StoredInfluence(Record):
     """Influence coefficients kept with a machine: ``coefficients[pickup][plane]`` in g per g·mm.
 
     Valid only near ``speed_rpm`` (the machine's response, and so the coefficients, change with
@@ -219,26 +164,8 @@ class StoredInfluence:
     measured_at: str = ""
     job_id: int | None = None
 
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "coefficients": [[_c2j(z) for z in row] for row in self.coefficients],
-            "speed_rpm": self.speed_rpm,
-            "measured_at": self.measured_at,
-            "job_id": self.job_id,
-        }
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> StoredInfluence:
-        return cls(
-            coefficients=[[_j2c(v) for v in row] for row in d["coefficients"]],
-            speed_rpm=float(d["speed_rpm"]),
-            measured_at=str(d.get("measured_at", "")),
-            job_id=d.get("job_id"),
-        )
-
-
 @dataclass
-class Machine:
+class Machine(Record):
     """A machine as the user describes it once and balances many times.
 
     ``rotation`` is seen from the drive end (see the module docstring).  ``grade`` is an
@@ -262,6 +189,17 @@ class Machine:
     id: int | None = None
     rated_speed_rpm: float | None = None  # the most the rotor, wheel or machine may run at (maker's plate)
     method: str = "mark"  # "mark" (reference mark, phase) or "no mark" (amplitude only), remembered
+
+    #: the id lives in the store's own column; the keys keep the order records were always written in
+    STORED: ClassVar[StoredForm] = StoredForm(
+        unstored=frozenset({"id"}),
+        order=("name", "rotor_mass_kg", "speed_rpm", "rotation", "grade", "planes"),
+    )
+
+    @classmethod
+    def from_dict(cls, d: Any, id: int | None = None) -> Machine:
+        """The machine stored as ``d``; ``id`` is its row in the store (None: not saved)."""
+        return decode(cls, d, id=id)
 
     def __post_init__(self) -> None:
         if self.rated_speed_rpm is not None:
@@ -325,45 +263,8 @@ class Machine:
             "(against the direction of rotation) from the reference mark."
         )
 
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "name": self.name,
-            "rotor_mass_kg": self.rotor_mass_kg,
-            "speed_rpm": self.speed_rpm,
-            "rotation": self.rotation,
-            "grade": self.grade,
-            "planes": [p.to_dict() for p in self.planes],
-            "pickups": [p.to_dict() for p in self.pickups],
-            "stock": [s.to_dict() for s in self.stock],
-            "strip": self.strip.to_dict() if self.strip else None,
-            "influence": self.influence.to_dict() if self.influence else None,
-            "notes": self.notes,
-            "rated_speed_rpm": self.rated_speed_rpm,
-            "method": self.method,
-        }
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any], id: int | None = None) -> Machine:
-        return cls(
-            name=str(d["name"]),
-            rotor_mass_kg=float(d["rotor_mass_kg"]),
-            speed_rpm=float(d["speed_rpm"]),
-            rotation=d.get("rotation", "cw"),
-            grade=str(d.get("grade", "G6.3")),
-            planes=[PlaneSpec.from_dict(p) for p in d["planes"]],
-            pickups=[Pickup.from_dict(p) for p in d.get("pickups", [{"label": "1"}])],
-            stock=[StockPiece.from_dict(s) for s in d.get("stock", [])],
-            strip=StripSpec.from_dict(d["strip"]) if d.get("strip") else None,
-            influence=StoredInfluence.from_dict(d["influence"]) if d.get("influence") else None,
-            notes=str(d.get("notes", "")),
-            id=id,
-            rated_speed_rpm=float(d["rated_speed_rpm"]) if d.get("rated_speed_rpm") is not None else None,
-            method=str(d.get("method", "mark")),
-        )
-
-
 @dataclass(frozen=True)
-class Weight:
+class Weight(Record):
     """A weight on the rotor, relative to the reference state.
 
     ``plane`` is the correction plane number (1-based); ``angle_deg`` from the reference mark
@@ -384,30 +285,8 @@ class Weight:
     def unbalance_gmm(self) -> complex:
         return self.mass_g * self.radius_mm * cmath.exp(1j * math.radians(self.angle_deg))
 
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "plane": self.plane,
-            "mass_g": self.mass_g,
-            "angle_deg": self.angle_deg,
-            "radius_mm": self.radius_mm,
-            "label": self.label,
-            "pieces": list(self.pieces),
-        }
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> Weight:
-        return cls(
-            plane=int(d["plane"]),
-            mass_g=float(d["mass_g"]),
-            angle_deg=float(d["angle_deg"]),
-            radius_mm=float(d["radius_mm"]),
-            label=str(d.get("label", "")),
-            pieces=tuple(float(m) for m in d.get("pieces", ())),
-        )
-
-
 @dataclass(frozen=True)
-class ChannelValue:
+class ChannelValue(Record):
     """One pickup's 1× vector in a run: ``mean`` in g (phase-lag convention) and its scatter."""
 
     mean: complex
@@ -424,28 +303,8 @@ class ChannelValue:
     def phase_deg(self) -> float:
         return math.degrees(cmath.phase(self.mean)) % 360.0
 
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "mean": _c2j(self.mean),
-            "spread_g": self.spread_g,
-            "confidence_g": self.confidence_g,
-            "h2": _c2j(self.h2) if self.h2 is not None else None,
-            "rms_g": self.rms_g,
-        }
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> ChannelValue:
-        return cls(
-            mean=_j2c(d["mean"]),
-            spread_g=float(d.get("spread_g", 0.0)),
-            confidence_g=float(d.get("confidence_g", 0.0)),
-            h2=_j2c(d["h2"]) if d.get("h2") is not None else None,
-            rms_g=d.get("rms_g"),
-        )
-
-
 @dataclass(frozen=True)
-class RunReading:
+class RunReading(Record):
     """A taken reading as stored: speed and one :class:`ChannelValue` per pickup.
 
     Build it from a live ``runtrue.readings.Reading`` with :meth:`from_reading`, or from numbers
@@ -459,6 +318,12 @@ class RunReading:
     source: str = "meter"
     frontend_note: str = ""  # the front-end correction made to the phase and amplitude ("" none)
     warnings: tuple[str, ...] = ()  # what the fit could not separate (e.g. line hum near an order)
+
+    #: the front-end note and the warnings are written only when there are some
+    STORED: ClassVar[StoredForm] = StoredForm(
+        omit_empty=frozenset({"frontend_note", "warnings"}),
+        order=("speed_rpm", "speed_sd_rpm", "n_revs", "source", "channels"),
+    )
 
     @classmethod
     def from_reading(cls, reading: Any) -> RunReading:
@@ -495,26 +360,39 @@ class RunReading:
         phases_deg: Sequence[float] | None,
         speed_rpm: float,
         spreads: Sequence[float] | None = None,
+        n_revs: int | None = None,
     ) -> RunReading:
         """A reading typed in from another instrument: amplitude and phase lag per pickup.
 
         ``phases_deg=None``: amplitudes only (an instrument with no phase reference, for the
         amplitude-only method); each value is stored as the amplitude at 0° and the source is
         :data:`AMPLITUDE_ONLY_SOURCE`, so nobody mistakes the 0° for a measured phase.
+
+        ``spreads`` (g, one per pickup) is the scatter of each mean as the meter states it
+        (``spread_g``), over ``n_revs`` revolutions; its 95 % confidence radius is the readings
+        layer's (``runtrue.readings.confidence.confidence_radius``), for many revolutions (about
+        1.73 x the spread) when the count is not given.
         """
         if phases_deg is not None and len(amps) != len(phases_deg):
             raise ValueError("give one phase for every amplitude")
         if spreads is not None and len(spreads) != len(amps):
             raise ValueError("give one spread for every amplitude")
+        if n_revs is not None and n_revs < 2:
+            raise ValueError("a spread needs at least 2 revolutions")
+        # numpy comes with the readings layer: imported here, when a reading is typed in, so that
+        # loading the records stays cheap
+        from runtrue.readings.confidence import confidence_radius
+
         chans = []
         for i, a in enumerate(amps):
             p = 0.0 if phases_deg is None else phases_deg[i]
             if not (math.isfinite(a) and a >= 0 and math.isfinite(p)):
                 raise ValueError(f"pickup {i + 1}: amplitude must be >= 0 and phase a number")
             sd = float(spreads[i]) if spreads is not None else 0.0
-            chans.append(ChannelValue(mean=a * cmath.exp(1j * math.radians(p)), spread_g=sd, confidence_g=2.45 * sd))
+            confidence_g = confidence_radius(sd, n_revs or MANY_REVS) if sd else 0.0
+            chans.append(ChannelValue(mean=a * cmath.exp(1j * math.radians(p)), spread_g=sd, confidence_g=confidence_g))
         source = "manual" if phases_deg is not None else AMPLITUDE_ONLY_SOURCE
-        return cls(speed_rpm=float(speed_rpm), channels=tuple(chans), source=source)
+        return cls(speed_rpm=float(speed_rpm), channels=tuple(chans), n_revs=n_revs or 0, source=source)
 
     @property
     def has_phase(self) -> bool:
@@ -534,32 +412,9 @@ class RunReading:
     def vector(self) -> list[complex]:
         return [c.mean for c in self.channels]
 
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "speed_rpm": self.speed_rpm,
-            "speed_sd_rpm": self.speed_sd_rpm,
-            "n_revs": self.n_revs,
-            "source": self.source,
-            "channels": [c.to_dict() for c in self.channels],
-            **({"frontend_note": self.frontend_note} if self.frontend_note else {}),
-            **({"warnings": list(self.warnings)} if self.warnings else {}),
-        }
-
-    @classmethod
-    def from_dict(cls, d: dict[str, Any]) -> RunReading:
-        return cls(
-            speed_rpm=float(d["speed_rpm"]),
-            channels=tuple(ChannelValue.from_dict(c) for c in d["channels"]),
-            speed_sd_rpm=float(d.get("speed_sd_rpm", 0.0)),
-            n_revs=int(d.get("n_revs", 0)),
-            source=str(d.get("source", "meter")),
-            frontend_note=str(d.get("frontend_note", "")),
-            warnings=tuple(str(w) for w in d.get("warnings", ())),
-        )
-
 
 @dataclass(frozen=True)
-class RunRecord:
+class RunRecord(Record):
     """A run as stored: its kind, when it was taken, the reading and every weight present then.
 
     ``weights`` are all weights on the rotor relative to the reference state (trial weights
@@ -575,13 +430,4 @@ class RunRecord:
     note: str = ""
     id: int | None = None
 
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "job_id": self.job_id,
-            "seq": self.seq,
-            "kind": self.kind,
-            "taken_at": self.taken_at,
-            "reading": self.reading.to_dict(),
-            "weights": [w.to_dict() for w in self.weights],
-            "note": self.note,
-        }
+    STORED: ClassVar[StoredForm] = StoredForm(unstored=frozenset({"id"}))  # the id is the row's own column

@@ -6,6 +6,10 @@ grade check against ISO 21940-11 (balance quality grade -> permissible residual 
 run log, warnings and the safety cautions.  The method is stated; an amplitude-only (four-run)
 job shows amplitudes only (no phase, no polar diagram) and says its residual is an estimate
 without phase.  No scripts, no external files: it prints as it shows.
+
+The page is the Jinja2 template ``templates/report.html.j2`` (autoescaped: every value is shown as
+text); this module gathers what it shows (:func:`report_context`) and draws the SVG figures, which
+reach the template as markup.
 """
 
 from __future__ import annotations
@@ -13,6 +17,9 @@ from __future__ import annotations
 import html
 import math
 from typing import Any
+
+import jinja2
+from markupsafe import Markup
 
 from runtrue import __version__
 from runtrue.jobs.model import ANGLE_CONVENTION, RunRecord
@@ -125,16 +132,6 @@ def polar_svg(runs: list[RunRecord], pickup: int, label: str, size_px: int = 300
     return "".join(parts)
 
 
-def _details_table(store: JobStore, job_id: int) -> list[str]:
-    details = report_details(store, job_id)
-    rows = [(label, details[key]) for key, label in REPORT_FIELDS if details[key]]
-    if not rows:
-        return []
-    return ['<table id="details">'] + [
-        f'<tr><th class="l">{_e(label)}</th><td class="l">{_e(value)}</td></tr>' for label, value in rows
-    ] + ["</table>"]
-
-
 def _side_words(machine: Any, plane: int) -> str:
     return "from the far end" if machine.planes[plane - 1].view_side == "far" else "from the drive end"
 
@@ -213,8 +210,28 @@ def _verdict(result: JobResult) -> tuple[str, str]:
 def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) -> str:
     """The report of job ``job_id`` as a complete HTML document (UTF-8 text).  Vibration is
     printed in ``vib_unit`` (default mm/s rms), every number through ``runtrue.readings.numbers``
-    so the report shows the digits the screens show."""
+    so the report shows the digits the screens show.  The page is the template
+    ``templates/report.html.j2``, filled with :func:`report_context`."""
+    return _template().render(report_context(store, job_id, vib_unit))
+
+
+def _template() -> jinja2.Template:
+    env = jinja2.Environment(
+        loader=jinja2.PackageLoader("runtrue.jobs", "templates"),
+        autoescape=True,  # every value is text to show; markup made here comes in as Markup
+        trim_blocks=True,
+        lstrip_blocks=True,
+        undefined=jinja2.StrictUndefined,
+    )
+    env.filters["fmt"] = format
+    return env.get_template("report.html.j2")
+
+
+def report_context(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) -> dict[str, Any]:
+    """Everything the report template shows for job ``job_id``: the job's records, and the numbers
+    formatted as the screens format them."""
     from runtrue.balancing import centrifugal_force_n
+    from runtrue.jobs.export import weights_text
 
     rec = store.get_job(job_id)
     if rec is None:
@@ -223,7 +240,7 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
     res = job.result()
     m = job.machine
     runs = job.runs
-    cls, verdict = _verdict(res)
+    verdict_class, verdict = _verdict(res)
     no_phase = res.method == "four-run"
     directions = m.angle_direction_words()
     convention = ANGLE_CONVENTION
@@ -241,211 +258,82 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
     else:
         method = (f"Method: influence-coefficient balancing without trial runs; coefficients {res.influence_source}; "
                   "1x amplitude and phase from a reference mark.")
-    out: list[str] = [
-        "<!DOCTYPE html>",
-        '<html lang="en"><head><meta charset="utf-8">',
-        f"<title>Balancing report: {_e(m.name)} (job {job_id})</title>",
-        f"<style>{_CSS}</style></head><body>",
-        f"<h1>Balancing report: {_e(m.name)}</h1>",
-        f'<p>Job {job_id}; started {_e(local_time_text(rec.started_at))}; '
-        f'finished {_e(local_time_text(rec.finished_at) or "not finished")}; '
-        f"report written {_e(local_time_text(now_iso()))} (local time).</p>",
-        f'<p class="verdict {cls}" id="verdict">{_e(verdict)}</p>',
-        *_details_table(store, job_id),
-        f'<p id="method">{_e(method)}</p>',
-    ]
-    # Machine
-    out += [
-        '<h2 id="machine">Machine</h2><table>',
-        f'<tr><th class="l">Name</th><td class="l">{_e(m.name)}</td></tr>',
-        f'<tr><th class="l">Rotor mass</th><td class="l">{m.rotor_mass_kg:g} kg</td></tr>',
-        f'<tr><th class="l">Running speed</th><td class="l">{m.speed_rpm:g} rpm</td></tr>',
-        f'<tr><th class="l">Rated speed</th><td class="l">'
-        f'{f"{m.rated_speed_rpm:g} rpm" if m.rated_speed_rpm is not None else "not given"}</td></tr>',
-        f'<tr><th class="l">Rotation</th><td class="l">{"clockwise" if m.rotation == "cw" else "counter-clockwise"}'
-        " seen from the drive end</td></tr>",
-        f'<tr><th class="l">Balance quality grade</th><td class="l">{_e(m.grade)} ({STANDARD})</td></tr>',
-    ]
-    for i, p in enumerate(m.planes, start=1):
-        out.append(f'<tr><th class="l">Correction plane {i}: {_e(m.plane_name(i))}</th><td class="l">'
-                   f'{_e(p.describe())}; seen {"from the far end" if p.view_side == "far" else "from the drive end"}</td></tr>')
-    for i in range(1, len(m.pickups) + 1):
-        out.append(f'<tr><th class="l">Pickup {i}</th><td class="l">{_e(m.pickup_name(i - 1))}</td></tr>')
-    out.append("</table>")
-    if m.notes:
-        out.append(f'<p class="note">{_e(m.notes)}</p>')
-    # Diagnosis: the job's diagnoses (first = before, last = after) and its last speed run
-    diagnoses = [e.data for e in store.events(job_id) if e.kind == "diagnosis"]
-    speed_runs = [e.data for e in store.events(job_id) if e.kind == "speed_run"]
+    events = store.events(job_id)
+    details = report_details(store, job_id)
+    # the job's diagnoses (first = before, last = after) and its last speed run
+    diagnoses = [e.data for e in events if e.kind == "diagnosis"]
+    speed_runs = [e.data for e in events if e.kind == "speed_run"]
+    diagnosis = None
     if diagnoses or speed_runs:
         from runtrue.jobs.diagnosis_section import diagnosis_section_html
 
-        out.append(diagnosis_section_html(diagnoses[0] if diagnoses else None,
-                                          diagnoses[-1] if len(diagnoses) > 1 else None,
-                                          speed_runs[-1] if speed_runs else None))
-    # Conventions
-    out += [
-        '<h2 id="conventions">Conventions</h2><ul>',
-        f"<li>Vibration: 1x (once per revolution) component in {_e(vib_unit)} at each run's measured speed "
-        "(the meter measures acceleration; velocity = acceleration / ω, rms = peak / √2).</li>",
-        "<li>Phase: not used (amplitude-only method).</li>" if no_phase else
-        "<li>Phase: lag in degrees of rotation after the reference mark, 0-360.</li>",
-        "<li>Weight angles: degrees from a mark chalked on the rotor as 0°, measured against the direction of "
-        "rotation.</li>" if no_phase else
-        "<li>Weight angles: degrees from the reference mark, measured against the direction of rotation.</li>",
-        f"<li>{_e(directions)}</li>",
-        "<li>Unbalance: mass x radius, g·mm. Masses in grams.</li>",
-        "</ul>",
-    ]
-    # Before / after
-    out += [
-        '<h2 id="before-after">Before and after</h2><table>',
-        f'<tr><th class="l">Pickup</th><th>Before ({_e(vib_unit)})</th><th>Phase</th><th>After ({_e(vib_unit)})</th>'
-        "<th>Phase</th><th>Change</th></tr>",
-    ]
+        diagnosis = Markup(diagnosis_section_html(diagnoses[0] if diagnoses else None,
+                                                  diagnoses[-1] if len(diagnoses) > 1 else None,
+                                                  speed_runs[-1] if speed_runs else None))
     before_speed = res.before_speed_rpm or m.speed_rpm
     after_speed = res.after_speed_rpm or m.speed_rpm
+    before_after = []
     for i, ch in enumerate(res.channels, start=1):
         ba, bp = _amp_phase(ch.before)
-        bps = "-" if no_phase else phase_text(bp)
+        row = {"n": i, "label": ch.label, "before": vib_number(ba, before_speed, vib_unit),
+               "before_phase": "-" if no_phase else phase_text(bp), "after": "-", "after_phase": "-", "change": "-"}
         if ch.after is not None:
             aa, ap = _amp_phase(ch.after)
-            aps = "-" if no_phase else phase_text(ap)
-            after = (f"<td>{vib_number(aa, after_speed, vib_unit)}</td><td>{aps}</td>"
-                     f"<td>{percent_change_text(ba, aa) or '-'}</td>")
-        else:
-            after = "<td>-</td><td>-</td><td>-</td>"
-        out.append(f'<tr><td class="l">{i}: {_e(ch.label)}</td><td>{vib_number(ba, before_speed, vib_unit)}</td>'
-                   f"<td>{bps}</td>{after}</tr>")
-    out.append("</table>")
-    # Polar diagrams
-    if runs and no_phase:
-        out.append('<h2 id="polar">Polar diagram</h2><p class="note">None: the amplitude-only method measures no '
-                   "phase; the amplitude of every run is in the run log below.</p>")
-    elif runs:
-        out.append('<h2 id="polar">Polar diagram</h2>')
-        for i, pk in enumerate(m.pickups):
-            out.append(
-                f"<figure>{polar_svg(runs, i, pk.label)}<figcaption>Pickup {i + 1} ({_e(pk.label)}): 1x vector "
-                "of every run, numbered in order; reference mark (0°) at the top, phase lag increasing "
-                "clockwise on the page; arrows from the centre show the first and the last run; dashed circles are each reading's 95 % "
-                "confidence radius. Colours: "
-                '<span style="color:#b23a3a">reference</span>, <span style="color:#8a6d00">trial</span>, '
-                '<span style="color:#1f5fa8">correction</span>, <span style="color:#1f7a4a">trim</span>.'
-                "</figcaption></figure>"
-            )
-    # Grade check
-    out += ['<h2 id="grade">Grade check</h2>']
-    out.append(
-        f"<p>Standard: {STANDARD}, balance quality grade {_e(m.grade)}, rotor mass {m.rotor_mass_kg:g} kg at "
-        f"{m.speed_rpm:g} rpm: permissible residual unbalance {res.permissible_total_gmm:.4g} g·mm in total.</p>"
-    )
-    if res.tolerance_rule:
-        out.append(f'<p class="note">{_e(res.tolerance_rule)}</p>')
-    out.append('<table><tr><th class="l">Plane</th><th>Residual, estimated</th><th>± (95 %)</th>'
-               "<th>Permissible</th><th>Ratio</th><th>Result</th></tr>")
+            row.update(after=vib_number(aa, after_speed, vib_unit), after_phase="-" if no_phase else phase_text(ap),
+                       change=percent_change_text(ba, aa) or "-")
+        before_after.append(row)
+    grade_rows = []
     residual = res.residual_unbalance_gmm or []
     unc = res.residual_uncertainty_gmm or [0.0] * len(residual)
     for i, perm in enumerate(res.permissible_unbalance_gmm, start=1):
-        name = _e(m.plane_name(i)) if len(res.permissible_unbalance_gmm) == m.n_planes else str(i)
+        name = m.plane_name(i) if len(res.permissible_unbalance_gmm) == m.n_planes else str(i)
         if i <= len(residual):
-            row = grade_row(residual[i - 1], unc[i - 1], perm)
-            out.append(f'<tr><td class="l">{name}</td><td>{row["residual"]}</td><td>{row["uncertainty"]}</td>'
-                       f'<td>{row["permissible"]}</td><td>{row["ratio"]}</td><td>{row["verdict"]}</td></tr>')
+            grade_rows.append({"name": name, **grade_row(residual[i - 1], unc[i - 1], perm)})
         else:
-            out.append(f'<tr><td class="l">{name}</td><td>-</td><td>-</td><td>{unbalance_text(perm)}</td>'
-                       "<td>-</td><td>-</td></tr>")
-    out.append("</table>")
-    out.append('<p class="note">Ratio: (residual + its 95 % uncertainty) / permissible; a plane passes at 1.00x '
-               "or less.</p>")
-    if no_phase:
-        h = ""
-        out.append(
-            '<p class="note">The residual unbalance is an estimate without phase: the last check run\'s amplitude '
-            f"divided by the influence magnitude |H| that its four-run cycle found{_e(h)}; it cannot tell "
-            "unbalance from other 1x vibration. ± reaches its upper 95 % bound, from the reading's scatter and the "
-            "uncertainty of |H|. The plane passes when that upper bound is within the permissible value.</p>"
-        )
-    else:
-        out.append(
-            '<p class="note">The residual unbalance is estimated from the last reading and the influence '
-            "coefficients fitted to every run of this job (least squares); ± is its 95 % uncertainty from the "
-            "reading's scatter. A plane passes when the residual plus that uncertainty is within the "
-            "permissible value.</p>"
-        )
-        out.append(f'<p id="coefficients">Influence coefficients: {_e(res.influence_source)}.</p>')
-    # What is on the rotor at the end
-    out += ['<h2 id="weights">On the rotor at the end</h2>']
-    if res.weights_at_start:
-        out.append("<p>At the start of this job these weights were already on the rotor (left by an earlier job "
-                   "and confirmed by the technician): "
-                   + _e("; ".join(f"{m.plane_name(w.plane)}: {mass_text(w.mass_g)} at {angle_text(w.angle_deg)}"
-                                  for w in res.weights_at_start)) + ".</p>")
-    if res.weights_on:
-        out.append('<table><tr><th class="l">Plane</th><th>Position</th><th>Angle</th><th>Mass</th>'
-                   '<th>Radius (mm)</th><th class="l">What</th><th>Force at speed</th></tr>')
-        for w in res.weights_on:
-            f_n = centrifugal_force_n(w.mass_g, w.radius_mm, m.speed_rpm)
-            what = w.label + (f" ({' + '.join(mass_text(p) for p in w.pieces)})" if w.pieces else "")
-            pos = position_number(m, w.plane, w.angle_deg)
-            out.append(
-                f'<tr><td class="l">{_e(m.plane_name(w.plane))}</td><td>{pos if pos is not None else "-"}</td>'
-                f"<td>{angle_text(w.angle_deg)}</td><td>{mass_text(w.mass_g)}</td><td>{w.radius_mm:g}</td>"
-                f'<td class="l">{_e(what)}</td><td>{force_text(f_n)}</td></tr>'
-            )
-        out.append("</table>")
-        out.append('<p class="note">Force: centrifugal force F = m·r·ω² at the running speed; every weight must '
-                   "be secured to hold it with margin.</p>")
-        for plane in sorted({w.plane for w in res.weights_on}):
-            mark = "chalk mark" if no_phase else "reference mark"
-            sketch = position_sketch_svg(m, plane, [w for w in res.weights_on if w.plane == plane],
-                                         mark="chalk" if no_phase else "mark")
-            out.append(f"<figure>{sketch}"
-                       f"<figcaption>{_e(m.plane_name(plane))}, seen {_e(_side_words(m, plane))}: {mark} at "
-                       "the top, positions numbered, the weights on the rotor at the end as filled dots.</figcaption>"
-                       "</figure>")
-    else:
-        out.append("<p>No weights are on the rotor.</p>")
-    # Run log
-    out += ['<h2 id="runs">Runs</h2><table><tr><th>Run</th><th class="l">Kind</th><th class="l">Taken</th>'
-            "<th>Speed (rpm)</th>"]
-    for i in range(m.n_pickups):
-        out.append(f"<th>{_e(m.pickup_name(i))} ({_e(vib_unit)})</th>" if no_phase else
-                   f"<th>{_e(m.pickup_name(i))} ({_e(vib_unit)} @ lag)</th>")
-    out.append('<th class="l">Weights on (relative to the reference run)</th></tr>')
-    from runtrue.jobs.export import weights_text
-
+            grade_rows.append({"name": name, "residual": "-", "uncertainty": "-", "permissible": unbalance_text(perm),
+                               "ratio": "-", "verdict": "-"})
+    weights_on = []
+    for w in res.weights_on:
+        pos = position_number(m, w.plane, w.angle_deg)
+        weights_on.append({
+            "plane": m.plane_name(w.plane), "position": pos if pos is not None else "-",
+            "angle": angle_text(w.angle_deg), "mass": mass_text(w.mass_g), "radius": format(w.radius_mm, "g"),
+            "what": w.label + (f" ({' + '.join(mass_text(p) for p in w.pieces)})" if w.pieces else ""),
+            "force": force_text(centrifugal_force_n(w.mass_g, w.radius_mm, m.speed_rpm)),
+        })
+    sketches = [
+        {"svg": Markup(position_sketch_svg(m, plane, [w for w in res.weights_on if w.plane == plane],
+                                           mark="chalk" if no_phase else "mark")),
+         "plane": m.plane_name(plane), "side": _side_words(m, plane)}
+        for plane in sorted({w.plane for w in res.weights_on})
+    ]
+    run_rows = []
     for run in runs:
         sp = run.reading.speed_rpm
-        cells = "".join(
-            f"<td>{vib_number(ch.amp_g, sp, vib_unit)} ± {vib_number(ch.confidence_g, sp, vib_unit)}</td>" if no_phase
-            else f"<td>{vib_number(ch.amp_g, sp, vib_unit)} @ {phase_text(ch.phase_deg)} ± "
-            f"{vib_number(ch.confidence_g, sp, vib_unit)}</td>"
+        cells = [
+            f"{vib_number(ch.amp_g, sp, vib_unit)} ± {vib_number(ch.confidence_g, sp, vib_unit)}" if no_phase
+            else f"{vib_number(ch.amp_g, sp, vib_unit)} @ {phase_text(ch.phase_deg)} ± "
+            f"{vib_number(ch.confidence_g, sp, vib_unit)}"
             for ch in run.reading.channels
-        )
-        out.append(
-            f'<tr><td>{run.seq}</td><td class="l">{_e(run.kind)}</td><td class="l">{_e(local_time_text(run.taken_at))}</td>'
-            f'<td>{sp:.0f}</td>{cells}<td class="l">{_e(weights_text(run.weights)) or "none"}</td></tr>'
-        )
-    out.append("</table>")
-    out.append('<p class="note">± is the 95 % confidence radius of each reading.</p>')
+        ]
+        run_rows.append({"seq": run.seq, "kind": run.kind, "taken": local_time_text(run.taken_at),
+                         "speed": f"{sp:.0f}", "cells": cells, "weights": weights_text(run.weights)})
     notes = sorted({r.reading.frontend_note for r in runs if r.reading.frontend_note and not no_phase})
-    if notes:  # one line when every run was corrected alike (same speed)
-        runs_of = {n: [r.seq for r in runs if r.reading.frontend_note == n] for n in notes}
-        text = "; ".join(n if len(notes) == 1 else f"run {', '.join(map(str, runs_of[n]))}: {n}" for n in notes)
-        out.append(f'<p class="note" id="frontend">Phases and amplitudes are the vibration itself: {_e(text)}.</p>')
-    hums = sorted({w for r in runs for w in r.reading.warnings})
-    if hums:
-        out.append('<p class="note" id="reading-warnings">' + "<br>".join(_e(w) for w in hums) + "</p>")
-    # Warnings
-    if res.warnings:
-        out.append('<h2 id="warnings">Warnings</h2><ul>')
-        out += [f"<li>{_e(w)}</li>" for w in res.warnings]
-        out.append("</ul>")
-    # Cautions
-    out.append('<h2 id="cautions">Safety</h2><ul class="cautions">')
-    out += [f"<li>{_e(c)}</li>" for c in CAUTIONS]
-    out.append("</ul>")
-    out.append(f'<p class="note">{_e(convention)} Written by runtrue {_e(__version__)}.</p>')
-    out.append("</body></html>")
-    return "\n".join(out)
+    runs_of = {n: [r.seq for r in runs if r.reading.frontend_note == n] for n in notes}
+    # one line when every run was corrected alike (same speed)
+    frontend = "; ".join(n if len(notes) == 1 else f"run {', '.join(map(str, runs_of[n]))}: {n}" for n in notes)
+    return {
+        "css": Markup(_CSS), "job_id": job_id, "m": m, "res": res, "no_phase": no_phase, "vib_unit": vib_unit,
+        "started": local_time_text(rec.started_at), "finished": local_time_text(rec.finished_at),
+        "written": local_time_text(now_iso()), "verdict_class": verdict_class, "verdict": verdict,
+        "details": [(label, details[key]) for key, label in REPORT_FIELDS if details[key]],
+        "method": method, "standard": STANDARD, "diagnosis": diagnosis, "directions": directions,
+        "convention": convention, "before_after": before_after, "runs": runs,
+        "polar": [{"svg": Markup(polar_svg(runs, i, pk.label)), "n": i + 1, "label": pk.label}
+                  for i, pk in enumerate(m.pickups)] if runs and not no_phase else [],
+        "grade_rows": grade_rows,
+        "weights_at_start": "; ".join(f"{m.plane_name(w.plane)}: {mass_text(w.mass_g)} at {angle_text(w.angle_deg)}"
+                                      for w in res.weights_at_start),
+        "weights_on": weights_on, "sketches": sketches, "run_rows": run_rows, "frontend": frontend,
+        "hums": sorted({w for r in runs for w in r.reading.warnings}), "cautions": CAUTIONS, "version": __version__,
+    }
