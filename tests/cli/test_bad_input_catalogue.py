@@ -197,6 +197,7 @@ def test_output_piped_into_a_reader_that_stops_ends_quietly(monkeypatch, capsys)
     assert capsys.readouterr().err == ""
 
 
+@pytest.mark.slow
 def test_a_real_pipe_into_head_ends_quietly(tmp_path) -> None:
     import subprocess
 

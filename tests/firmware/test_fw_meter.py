@@ -360,6 +360,7 @@ from hypothesis import given, settings  # noqa: E402
 from hypothesis import strategies as st  # noqa: E402
 
 
+@pytest.mark.slow
 @settings(max_examples=150, deadline=None)
 @given(st.lists(st.one_of(st.binary(max_size=40),
                           st.tuples(st.integers(0x80, 0x8A), st.binary(max_size=6))), max_size=12))
@@ -414,6 +415,7 @@ def test_counters_wrap_below_2_30_and_stay_small_ints() -> None:
     assert m.status_fields()[5] == len(revs) - 1                  # revs_sent wrapped too
 
 
+@pytest.mark.slow
 @settings(max_examples=40, deadline=None)
 @given(st.integers(1, 3), st.integers(0, 2900), st.integers(1, 900), st.sampled_from([20.3, 97.3125, 333.7]))
 def test_an_overrun_of_any_length_and_position_flags_every_revolution_it_touches(nch, drop_first, drop_len, spr) -> None:

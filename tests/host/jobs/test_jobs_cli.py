@@ -79,6 +79,7 @@ def test_missing_database_is_reported(tmp_path: Path, capsys: pytest.CaptureFixt
     assert "no job database" in capsys.readouterr().err
 
 
+@pytest.mark.slow
 def test_machine_history_shows_the_trend(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     from runtrue.jobs import JobStore
     from runtrue.jobs.demo_machine import machine_for_scenario

@@ -125,6 +125,7 @@ def test_the_apps_taken_reading_is_the_joint_fit_too() -> None:
     assert abs(state.done.channels[0].mean - truth) < 0.01 * abs(truth)
 
 
+@pytest.mark.slow
 def test_ten_revolution_readings_under_hum_scatter_as_the_bound_of_the_fitted_model() -> None:
     """60 readings of 10 revolutions through the simulator (real firmware sums), 100 Hz hum 20 dB
     above the 1x: the joint fit's scatter against the Cramer-Rao bound of the model it fits
