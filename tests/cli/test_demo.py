@@ -64,6 +64,7 @@ def test_same_seed_gives_the_same_job(capsys: pytest.CaptureFixture[str]) -> Non
     assert a == b
 
 
+@pytest.mark.slow
 def test_run_limit_stops_the_job_and_says_so(capsys: pytest.CaptureFixture[str]) -> None:
     d = demo_json(capsys, "--scenario", "roller", "--seed", "1", "--max-runs", "2")
     assert d["runs"] == 2 and d["passed"] is False

@@ -123,6 +123,7 @@ def test_uncorrected_round_robin_would_shift_the_last_channel_by_its_conversion_
     assert lag2 == pytest.approx(90.0 - 360.0 * (2 / 3) / SPR, abs=0.02)
 
 
+@pytest.mark.slow
 def test_edges_fed_before_or_after_their_samples_give_the_same_revolutions() -> None:
     out = []
     for late in (0, 3):
@@ -193,6 +194,7 @@ def test_shortest_revolution_is_summed_and_fitted() -> None:
         assert complex(*r["channels"][0]["h1"]) == pytest.approx(_phasor(0.5, 30.0), abs=5e-3)
 
 
+@pytest.mark.slow
 def test_slowest_supported_revolution_is_still_fitted() -> None:
     rpm = 4000 * 60 / (MAX_REV_SAMPLES - 1.5)
     revs = scenario(rpm=rpm, n_frames=3 * MAX_REV_SAMPLES + 1400, block=256)
@@ -272,6 +274,7 @@ def test_stop_ends_the_stream_and_start_restarts_the_count() -> None:
     assert revs[0]["rev"] == 0 and revs[0]["flags"] == fr.F_FIRST
 
 
+@pytest.mark.slow
 def test_status_comes_about_once_a_second_while_streaming() -> None:
     m, hw, host = _started()
     hw.dropped = 0

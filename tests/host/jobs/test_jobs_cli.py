@@ -19,6 +19,7 @@ def db(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return path
 
 
+@pytest.mark.slow
 def test_list_shows_the_job(db: Path, capsys: pytest.CaptureFixture[str]) -> None:
     capsys.readouterr()
     assert main(["jobs", "--db", str(db), "list"]) == 0

@@ -71,6 +71,7 @@ def test_spread_is_the_rms_error_of_the_mean() -> None:
     assert np.mean(spreads2) == pytest.approx(np.mean(errors2), rel=0.1)
 
 
+@pytest.mark.slow
 def test_f_quantile_closed_form_matches_scipy() -> None:
     stats = pytest.importorskip("scipy.stats", reason=SCIPY_MISSING)
     for nu in (1, 2, 3, 8, 30, 200):

@@ -168,6 +168,7 @@ def test_weights_can_be_removed_and_unknown_ids_are_refused():
         m.add_weight(0, -1.0, 0.0, 100.0)
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None)
 @given(
     rotation=st.sampled_from(["cw", "ccw"]),
