@@ -1,9 +1,9 @@
 """Shared test set-up: a clean environment for every test, and the `slow` marks of whole tiers.
 
-The quick loop is ``pytest -m "not slow"`` (well under 30 s); ``bash tests/run`` runs everything.
-A test that takes more than about 1 s carries ``@pytest.mark.slow`` (or its module a
-``pytestmark``); whole tiers whose every test is slow by its nature are marked here instead, so a
-new test in them needs no mark of its own:
+The quick loop is ``pytest -m "not slow"`` (about 20 s); ``bash tests/run`` runs everything.  A
+test that takes more than about 0.2 s on a quiet machine carries ``@pytest.mark.slow`` (or its
+module a ``pytestmark``); whole tiers whose every test is slow by its nature are marked here
+instead, so a new test in them needs no mark of its own:
 
 * tests/micropython, tests/unixport and every test marked ``micropython``: each starts a MicroPython
   interpreter (Node.js with the WebAssembly build, or the unix port) in a subprocess;
