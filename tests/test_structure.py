@@ -14,6 +14,8 @@ import structure_rules as rules
 
 REPO = Path(__file__).resolve().parents[1]
 HOST = REPO / "host"
+# (source root, package): the host application and the meter's firmware
+PACKAGES = [(HOST, "runtrue"), (REPO / "firmware", "runtrue_fw")]
 
 
 def _fail_with(title: str, problems: list[str]) -> None:
@@ -26,8 +28,9 @@ def test_lower_layers_never_import_higher_ones() -> None:
     _fail_with("imports against the layer order (module -> imported module)", problems)
 
 
-def test_no_import_cycles_even_through_imports_inside_functions() -> None:
-    cycles = rules.import_cycles(HOST)
+@pytest.mark.parametrize("root, package", PACKAGES, ids=[p for _, p in PACKAGES])
+def test_no_import_cycles_even_through_imports_inside_functions(root: Path, package: str) -> None:
+    cycles = rules.import_cycles(root, package)
     _fail_with("import cycles", [" -> ".join(c) for c in cycles])
 
 
@@ -36,8 +39,9 @@ def test_no_module_over_500_lines() -> None:
     _fail_with("modules to split", problems)
 
 
-def test_no_module_takes_a_private_name_from_another() -> None:
-    problems = rules.private_imports(HOST)
+@pytest.mark.parametrize("root, package", PACKAGES, ids=[p for _, p in PACKAGES])
+def test_no_module_takes_a_private_name_from_another(root: Path, package: str) -> None:
+    problems = rules.private_imports(root, package)
     _fail_with("private names imported from another module (make them public or move them)", problems)
 
 
