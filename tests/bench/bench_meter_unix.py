@@ -31,7 +31,7 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
 MP = shutil.which("micropython") or str(Path(sys.executable).with_name("micropython"))
-CHIP_FLOAT_US_PER_SAMPLE_CH = 158.0  # emulated RP2040, MicroPython 1.28: old float path (toolchain.md)
+CHIP_FLOAT_US_PER_SAMPLE_CH = 158.0  # emulated RP2040, MicroPython 1.28: old float path, measured
 CHIP_HZ = 125_000_000
 
 SCRIPT = r"""

@@ -144,6 +144,7 @@ def test_missing_file_is_one_line_and_exit_2(tmp_path: Path, capsys) -> None:
     assert err.count("\n") == 1 and "cannot read" in err
 
 
+@pytest.mark.slow
 def test_console_script_never_prints_a_traceback() -> None:
     proc = subprocess.run([sys.executable, "-m", "runtrue", "allocate", "-"], input='{"stock": "x"}',
                           capture_output=True, text=True, timeout=60)

@@ -159,6 +159,7 @@ def test_a_database_from_a_newer_runtrue_is_refused_not_changed(monkeypatch, cap
         assert c.execute("PRAGMA user_version").fetchone()[0] == 99
 
 
+@pytest.mark.slow
 def test_odd_records_are_named_and_the_other_jobs_still_listed(monkeypatch, capsys, tmp_path) -> None:
     db = tmp_path / "odd.sqlite"
     ids = make_odd_database(db)
@@ -197,6 +198,7 @@ def test_output_piped_into_a_reader_that_stops_ends_quietly(monkeypatch, capsys)
     assert capsys.readouterr().err == ""
 
 
+@pytest.mark.slow
 def test_a_real_pipe_into_head_ends_quietly(tmp_path) -> None:
     import subprocess
 

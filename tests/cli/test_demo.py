@@ -36,6 +36,7 @@ def demo_json(capsys: pytest.CaptureFixture[str], *argv: str) -> dict:
     return json.loads(lines[0])
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [1, 2])
 @pytest.mark.parametrize("scenario", sorted(SCENARIOS))
 def test_every_scenario_is_balanced_within_its_grade(capsys: pytest.CaptureFixture[str], scenario: str, seed: int) -> None:
@@ -55,6 +56,7 @@ def test_every_scenario_is_balanced_within_its_grade(capsys: pytest.CaptureFixtu
     assert d["run_kinds"][0] == "reference" and d["run_kinds"][-1] in ("correction", "trim")
 
 
+@pytest.mark.slow
 def test_same_seed_gives_the_same_job(capsys: pytest.CaptureFixture[str]) -> None:
     a = demo_json(capsys, "--scenario", "roller", "--seed", "7")
     b = demo_json(capsys, "--scenario", "roller", "--seed", "7")
@@ -62,12 +64,14 @@ def test_same_seed_gives_the_same_job(capsys: pytest.CaptureFixture[str]) -> Non
     assert a == b
 
 
+@pytest.mark.slow
 def test_run_limit_stops_the_job_and_says_so(capsys: pytest.CaptureFixture[str]) -> None:
     d = demo_json(capsys, "--scenario", "roller", "--seed", "1", "--max-runs", "2")
     assert d["runs"] == 2 and d["passed"] is False
     assert "run limit" in d["stopped_reason"]
 
 
+@pytest.mark.slow
 def test_demo_job_is_recorded_when_asked(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
     from runtrue.jobs import JobStore
 
@@ -94,6 +98,7 @@ def test_bad_options_get_one_clear_line(capsys: pytest.CaptureFixture[str], argv
     assert message in err and len(err.strip().splitlines()) == 1 and "Traceback" not in err
 
 
+@pytest.mark.slow
 def test_console_command_prints_the_contract() -> None:
     proc = subprocess.run(
         [sys.executable, "-m", "runtrue", "demo", "--auto", "--json", "--scenario", "fan", "--seed", "3"],
@@ -131,6 +136,7 @@ def test_without_auto_the_application_opens_on_the_simulator(monkeypatch: pytest
 # 1995, "balancing without phase" (from memory); engine: runtrue.balancing.four_run.
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [1, 2])
 @pytest.mark.parametrize("scenario", ["fan", "spindle"])
 def test_no_phase_demo_balances_one_plane_scenarios_by_amplitude_only(
@@ -152,6 +158,7 @@ def test_no_phase_demo_balances_one_plane_scenarios_by_amplitude_only(
     assert d["runs"] <= d["max_runs"]
 
 
+@pytest.mark.slow
 def test_no_phase_job_never_sees_a_phase(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
     from runtrue.jobs import JobStore
 

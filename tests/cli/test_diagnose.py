@@ -21,6 +21,7 @@ def run_cli(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, s
     return code, out, err
 
 
+@pytest.mark.slow
 def test_diagnose_json_of_an_unbalanced_fan(capsys: pytest.CaptureFixture[str]) -> None:
     code, out, err = run_cli(capsys, "diagnose", "--port", "sim:fan", "--json", "--seed", "2", "--spectrum")
     assert code == 0, err
@@ -33,6 +34,7 @@ def test_diagnose_json_of_an_unbalanced_fan(capsys: pytest.CaptureFixture[str]) 
     assert max(ch["spectrum"]["freq_hz"]) <= 1000.0 and ch["spectrum"]["window"] == "Hann"
 
 
+@pytest.mark.slow
 def test_diagnose_table_of_a_misaligned_pump_says_what_to_check_and_lets_the_user_go_on(
         capsys: pytest.CaptureFixture[str]) -> None:
     code, out, err = run_cli(capsys, "diagnose", "--port", MISALIGNED, "--channels", "0,1", "--seed", "1")
@@ -41,6 +43,7 @@ def test_diagnose_table_of_a_misaligned_pump_says_what_to_check_and_lets_the_use
     assert all(len(line) <= 200 for line in out.splitlines())
 
 
+@pytest.mark.slow
 def test_coastdown_json_warns_near_the_resonance(capsys: pytest.CaptureFixture[str]) -> None:
     code, out, err = run_cli(capsys, "coastdown", "--port", RESONANT, "--from-rpm", "1900", "--to-rpm", "1000",
                              "--rate", "150", "--json", "--seed", "3")
@@ -53,6 +56,7 @@ def test_coastdown_json_warns_near_the_resonance(capsys: pytest.CaptureFixture[s
     assert d["channels"][0]["curve"][0]["rpm"] < d["channels"][0]["curve"][-1]["rpm"]
 
 
+@pytest.mark.slow
 def test_coastdown_plots_fit_80_columns(capsys: pytest.CaptureFixture[str]) -> None:
     code, out, err = run_cli(capsys, "coastdown", "--port", RESONANT, "--from-rpm", "1900", "--to-rpm", "1000",
                              "--rate", "200", "--seed", "3")
@@ -75,6 +79,7 @@ def test_bad_input_gets_one_clear_line(capsys: pytest.CaptureFixture[str], argv:
     assert words in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
 
 
+@pytest.mark.slow
 def test_diagnose_before_and_after_gives_both_zones(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
     before = tmp_path / "before.json"
     code, out, err = run_cli(capsys, "diagnose", "--port", "sim:roller", "--json", "--seed", "5")

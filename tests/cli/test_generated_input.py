@@ -11,6 +11,8 @@ from cli_harness import assert_contract, no_application, run_cli
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
+pytestmark = pytest.mark.slow
+
 # RUNTRUE_FUZZ_EXAMPLES=2000 for a longer hunt by hand (random, not repeatable); CI runs 60, repeatable.
 _EXAMPLES = int(os.environ.get("RUNTRUE_FUZZ_EXAMPLES", "60"))
 SETTINGS = settings(max_examples=_EXAMPLES, deadline=None, derandomize="RUNTRUE_FUZZ_EXAMPLES" not in os.environ,

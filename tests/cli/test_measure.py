@@ -25,6 +25,7 @@ def vec(d: dict) -> complex:
     return cmath.rect(d["amp"], math.radians(d["phase"]))
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("scenario", ["fan", "roller", "spindle"])
 def test_measured_vectors_agree_with_the_simulator_truth(capsys: pytest.CaptureFixture[str], scenario: str) -> None:
     code, out, err = run_cli(capsys, "measure", "--port", f"sim:{scenario}", "--revs", "30", "--json", "--seed", "4")
@@ -42,6 +43,7 @@ def test_measured_vectors_agree_with_the_simulator_truth(capsys: pytest.CaptureF
     assert result["revs"] == 30 and result["lost_frames"] == 0
 
 
+@pytest.mark.slow
 def test_seed_makes_the_run_repeatable(capsys: pytest.CaptureFixture[str]) -> None:
     first = run_cli(capsys, "measure", "--port", "sim:sander", "--revs", "10", "--json", "--seed", "7")[1]
     second = run_cli(capsys, "measure", "--port", "sim:sander", "--revs", "10", "--json", "--seed", "7")[1]
@@ -104,6 +106,7 @@ class NoPulses(Transport):
         self.inner.write(data)
 
 
+@pytest.mark.slow
 def test_missing_reference_pulses_are_reported(capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch) -> None:
     import runtrue.device
     from runtrue.device import MeterClient

@@ -168,6 +168,7 @@ json_values = st.recursive(
 )
 
 
+@pytest.mark.slow
 @settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(value=json_values)
 def test_any_json_gives_a_result_or_a_one_line_error(value, monkeypatch, capsys) -> None:
@@ -177,6 +178,7 @@ def test_any_json_gives_a_result_or_a_one_line_error(value, monkeypatch, capsys)
         assert err.count("\n") == 1
 
 
+@pytest.mark.slow
 @settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(amp=st.floats(0, 100) | st.floats(allow_nan=False), phase=st.floats(-1e4, 1e4),
        mass=st.floats(-1e3, 1e6), radius=st.floats(-1e3, 1e4), angle=st.floats(-1e6, 1e6))
@@ -190,6 +192,7 @@ def test_mutated_numbers_never_raise(amp, phase, mass, radius, angle, monkeypatc
         assert err.count("\n") == 1
 
 
+@pytest.mark.slow
 @settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(amps=st.lists(st.floats(0, 1e300) | st.floats(allow_nan=False), min_size=4, max_size=4),
        angles=st.lists(st.floats(-1e3, 1e3), min_size=3, max_size=3), mass=st.floats(-1, 1e5))

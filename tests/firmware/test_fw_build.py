@@ -78,6 +78,7 @@ def _stub_dir(tmp_path: Path) -> tuple[Path, Path, list[str]]:
     return site, stubs, modules
 
 
+@pytest.mark.slow
 def test_firmware_typechecks_against_the_micropython_rp2_stubs(tmp_path: Path) -> None:
     site, stubs, modules = _stub_dir(tmp_path)
     assert (site / "stdlib" / "VERSIONS").exists(), "micropython-stdlib-stubs is not installed"

@@ -36,6 +36,7 @@ def test_capture_holds_exactly_the_samples_fed_and_the_edges_on_their_timebase(c
     assert raw["edges_q8"] == want and b["n_edges"] == len(want)
 
 
+@pytest.mark.slow
 def test_capture_is_sent_a_few_frames_per_pass_while_revolutions_keep_coming() -> None:
     raw, revs, per_pass, ack, shaft, edges = capture_scenario(channels=THREE, n_capture=4096, request_at=640,
                                                               n_frames=12000)

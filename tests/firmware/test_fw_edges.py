@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import pytest
+
 from runtrue_fw.edges import F_EXTRA_PULSE, F_FIRST, F_MISSING_PULSE, F_SPEED_JUMP, Q8_MASK, EdgeTracker, wrap_diff_q8
 
 P = 100 * 256 + 37          # a period of 100.14 samples, in 1/256 sample
@@ -104,6 +106,7 @@ from hypothesis import given, settings  # noqa: E402
 from hypothesis import strategies as st  # noqa: E402
 
 
+@pytest.mark.slow
 @settings(max_examples=300, deadline=None)
 @given(st.lists(st.tuples(st.floats(0.98, 1.02), st.sampled_from(["ok", "ok", "ok", "glitch", "miss"]),
                           st.floats(0.02, 0.98)), min_size=3, max_size=60),

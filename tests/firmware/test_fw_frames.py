@@ -5,6 +5,7 @@ from __future__ import annotations
 import struct
 import zlib
 
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -49,6 +50,7 @@ def test_cobs_matches_published_examples() -> None:
     assert _cobs(bytes(range(0, 255))) == b"\x01\xff" + bytes(range(1, 255))
 
 
+@pytest.mark.slow
 @settings(max_examples=300, deadline=None)
 @given(st.binary(max_size=700))
 def test_cobs_round_trip_and_no_zero_bytes(data: bytes) -> None:

@@ -2,7 +2,7 @@
 
 Under CPython the viper module is executed with `micropython.viper` replaced by the identity (a
 pure-Python reading of the same code); tests/micropython/test_mp_unix.py runs the real viper
-code under MicroPython's unix port.  toolchain.md: the WebAssembly build rejects the decorators.
+code under MicroPython's unix port.  MicroPython's WebAssembly build rejects the viper decorators.
 CRC: Greg Cook, "Catalogue of parametrised CRC algorithms", CRC-32/ISO-HDLC, check 0xCBF43926.
 """
 
@@ -153,6 +153,7 @@ def _traced_run(codes, f, length_q8, line_inc) -> tuple[int, int]:
     return worst[0], worst[1]
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("kind", ["low", "high", "square"])
 def test_every_intermediate_fits_31_bits_at_the_extremes(kind: str) -> None:
     """An instrumented run: the block sums reach their bound (32 products of 2**25 = 2**30) for

@@ -123,6 +123,7 @@ def test_uncorrected_round_robin_would_shift_the_last_channel_by_its_conversion_
     assert lag2 == pytest.approx(90.0 - 360.0 * (2 / 3) / SPR, abs=0.02)
 
 
+@pytest.mark.slow
 def test_edges_fed_before_or_after_their_samples_give_the_same_revolutions() -> None:
     out = []
     for late in (0, 3):
@@ -193,6 +194,7 @@ def test_shortest_revolution_is_summed_and_fitted() -> None:
         assert complex(*r["channels"][0]["h1"]) == pytest.approx(_phasor(0.5, 30.0), abs=5e-3)
 
 
+@pytest.mark.slow
 def test_slowest_supported_revolution_is_still_fitted() -> None:
     rpm = 4000 * 60 / (MAX_REV_SAMPLES - 1.5)
     revs = scenario(rpm=rpm, n_frames=3 * MAX_REV_SAMPLES + 1400, block=256)
@@ -272,6 +274,7 @@ def test_stop_ends_the_stream_and_start_restarts_the_count() -> None:
     assert revs[0]["rev"] == 0 and revs[0]["flags"] == fr.F_FIRST
 
 
+@pytest.mark.slow
 def test_status_comes_about_once_a_second_while_streaming() -> None:
     m, hw, host = _started()
     hw.dropped = 0
@@ -360,6 +363,7 @@ from hypothesis import given, settings  # noqa: E402
 from hypothesis import strategies as st  # noqa: E402
 
 
+@pytest.mark.slow
 @settings(max_examples=150, deadline=None)
 @given(st.lists(st.one_of(st.binary(max_size=40),
                           st.tuples(st.integers(0x80, 0x8A), st.binary(max_size=6))), max_size=12))
@@ -414,6 +418,7 @@ def test_counters_wrap_below_2_30_and_stay_small_ints() -> None:
     assert m.status_fields()[5] == len(revs) - 1                  # revs_sent wrapped too
 
 
+@pytest.mark.slow
 @settings(max_examples=40, deadline=None)
 @given(st.integers(1, 3), st.integers(0, 2900), st.integers(1, 900), st.sampled_from([20.3, 97.3125, 333.7]))
 def test_an_overrun_of_any_length_and_position_flags_every_revolution_it_touches(nch, drop_first, drop_len, spr) -> None:

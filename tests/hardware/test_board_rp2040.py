@@ -256,6 +256,7 @@ def test_edge_position_is_in_256ths_of_a_frame_since_start(rig: Rig) -> None:
     assert meter.edges == expected
 
 
+@pytest.mark.slow
 def test_timebase_stays_exact_over_a_long_run_without_long_integers(rig: Rig) -> None:
     """The anchor moves at every pass by an exact division: after an hour of passes every ~7 ms,
     an edge lands where the closed form puts it, and every stored number stays below 2**30."""

@@ -83,6 +83,7 @@ def test_a_weight_record_is_checked_field_by_field() -> None:
         v.check_weight(Weight(7, 12.0, 45.0, 120.0), n_planes=2)
 
 
+@pytest.mark.slow
 @settings(max_examples=200, deadline=None, derandomize=True)
 @given(st.one_of(st.floats(), st.integers(), st.text(max_size=12), st.booleans(), st.none()))
 def test_any_value_is_either_a_finite_number_in_range_or_a_one_line_refusal(value) -> None:

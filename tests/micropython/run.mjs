@@ -7,7 +7,7 @@
 // The script's stdin (everything Node reads from its stdin) is the file /stdin in the FS;
 // sys.argv is [SCRIPT, ARG...].  stdout is written byte for byte; an uncaught exception prints
 // its traceback on stderr and exits 1; sys.exit(n) exits n.  The bundled command line of the
-// package exits 0 even when the script raises, hence this runner (toolchain.md).
+// package exits 0 even when the script raises, hence this runner.
 import { loadMicroPython } from "@micropython/micropython-webassembly-pyscript";
 import fs from "node:fs";
 import path from "node:path";

@@ -92,7 +92,7 @@ def test_sampling_path_allocates_nothing_under_heap_lock(micropython) -> None:
     control, locked, kernels, n_revs, rejected, lost = res.text.split()
     assert control == "caught"
     assert locked == "no-allocation"
-    assert kernels == "portable"            # the WebAssembly port rejects viper (toolchain.md)
+    assert kernels == "portable"            # the WebAssembly port rejects viper
     # the burst of 80 glitches came before service() ran: the 64-edge queue took the first 64 of
     # the 4 real edges and the burst, the other 20 are counted as lost (not rejected); the edge
     # logic then rejected the 60 queued glitches; the later real edges went through service()

@@ -38,6 +38,7 @@ def test_strip_lengths_are_the_exact_split_rounded_to_the_cutting_step() -> None
     assert abs(a.residual_gmm) < 1.0  # under one cutting step's unbalance (1 g·mm)
 
 
+@pytest.mark.slow
 def test_strip_with_a_stated_good_enough_residual_is_the_lightest_pair_meeting_it() -> None:
     a = allocate((10.0, 45.0, 100.0), POS12, strip=STRIP, good_enough_gmm=10.0)
     assert a.optimal and abs(a.residual_gmm) <= 10.0
@@ -72,6 +73,7 @@ def _strip_key(rho: float, pieces: int, mass: float, g: float, q: float) -> tupl
     return (math.floor(max(rho, g) / q + 0.5), pieces, math.floor(mass * 1e6 + 0.5), math.floor(rho / q + 0.5))
 
 
+@pytest.mark.slow
 @settings(max_examples=40, deadline=None)
 @given(seed=st.integers(0, 10**6))
 def test_strip_optimal_is_never_beaten_by_exhaustive_search(seed: int) -> None:
@@ -121,6 +123,7 @@ def _random_stock_case(rng: random.Random) -> Case:
     return Case(target, angles, radii, sizes, counts, rng.choice([1, 2]), rng.choice([None, 6.0]), g)
 
 
+@pytest.mark.slow
 @settings(max_examples=40, deadline=None)
 @given(seed=st.integers(0, 10**6))
 def test_stock_optimal_is_never_beaten_by_exhaustive_search(seed: int) -> None:

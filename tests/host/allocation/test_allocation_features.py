@@ -40,6 +40,7 @@ def test_issue_example_fits_within_one_percent_with_four_pieces() -> None:
     assert a.residual_mass_g == pytest.approx(abs(a.residual_gmm) / 120.0)
 
 
+@pytest.mark.slow
 def test_placements_sit_on_real_positions_with_pieces_from_stock() -> None:
     a = allocate((9.4, 212.5, 120.0), RING, stock=BOX, max_pieces_per_position=3, good_enough_gmm=0.0,
                  max_nodes=5000)
@@ -62,6 +63,7 @@ def test_excluded_position_is_never_used() -> None:
     assert [(p.position_index, p.pieces) for p in b.placements] == [(3, (5.0,))]
 
 
+@pytest.mark.slow
 def test_stack_limit_and_mass_limit_per_position() -> None:
     stock = Stock.of([(1.0, None)])
     a = allocate((6.0, 0.0, 120.0), RING, stock=stock, max_pieces_per_position=2)

@@ -70,6 +70,7 @@ def test_equal_to_exhaustive_search_on_small_random_cases(seed: int) -> None:
     assert rho == pytest.approx(b_rho, abs=tol)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [0, 2, 3])
 def test_never_worse_than_milp_reference_on_larger_cases(seed: int) -> None:
     pytest.importorskip("scipy.optimize", reason="scipy is not installed (no build of it for this machine): "

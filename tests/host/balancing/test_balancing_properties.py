@@ -17,6 +17,8 @@ from hypothesis import strategies as st
 from runtrue.balancing import Run, Weight, solve
 from runtrue.balancing.influence import normalised_condition
 
+pytestmark = pytest.mark.slow   # property tests: hundreds of generated cases
+
 angles = st.floats(0, 360, allow_nan=False, exclude_max=True)
 
 

@@ -112,6 +112,7 @@ def test_amplitude_only_from_runs_uses_every_pickup() -> None:
         solve_amplitude_only(runs[:3] + [Run([Weight(2, 12, 240, 100)], [1.0, 1.0])])
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None)
 @given(a_amp=st.floats(1e-4, 1e-1), a_ph=st.floats(0, 360), u_amp=st.floats(50, 5000), u_ph=st.floats(0, 360),
        t_gmm=st.floats(100, 5000), start=st.floats(0, 360), step=st.floats(40, 140))

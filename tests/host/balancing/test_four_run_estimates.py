@@ -32,6 +32,7 @@ def random_rotor(rng: np.random.Generator) -> tuple[complex, float, np.ndarray]:
     return complex(u), a, t
 
 
+@pytest.mark.slow
 def test_fit_beats_the_linear_solution_at_5_percent_amplitude_noise() -> None:
     rng = np.random.default_rng(5)
     lin, ml = [], []
@@ -49,6 +50,7 @@ def test_fit_beats_the_linear_solution_at_5_percent_amplitude_noise() -> None:
     assert np.percentile(ml, 90) < 0.85 * np.percentile(lin, 90)
 
 
+@pytest.mark.slow
 def test_stated_95_percent_intervals_cover_the_true_correction_93_to_97_percent() -> None:
     # Reading error: 3 % of the amplitude (repeatability) and a floor of 1 % of the reference
     # amplitude (background vibration), the scatter the engine is told.
@@ -69,6 +71,7 @@ def test_stated_95_percent_intervals_cover_the_true_correction_93_to_97_percent(
     assert 0.93 <= hit_angle / n <= 0.97
 
 
+@pytest.mark.slow
 def test_residual_upper_bound_holds_the_true_residual_at_least_95_percent() -> None:
     # After a correction with the fitted value, a check run reads |a|·|u + C|; the bound from its
     # amplitude and the fitted |a| must lie above the true |u + C| in >= 95 % of cases.
@@ -89,6 +92,7 @@ def test_residual_upper_bound_holds_the_true_residual_at_least_95_percent() -> N
     assert under / n <= 0.05
 
 
+@pytest.mark.slow
 def test_no_false_pass_when_the_bound_decides() -> None:
     # Rotors whose correction leaves just over the allowance: the bound must never call them passed.
     rng = np.random.default_rng(17)
@@ -114,6 +118,7 @@ def test_unknown_scatter_gives_no_bound_and_no_pass() -> None:
     assert residual_upper_bound_gmm(1.0, 0.0, 0.01, 0.0) == pytest.approx(100.0)
 
 
+@pytest.mark.slow
 def test_a_quiet_second_pickup_improves_the_estimate_and_a_noisy_one_does_no_harm() -> None:
     rng = np.random.default_rng(23)
     one, two, noisy = [], [], []
@@ -142,6 +147,7 @@ def test_runs_with_spreads_give_the_uncertainty_of_the_correction() -> None:
     assert solve_amplitude_only([Run(r.weights, r.readings) for r in runs]).mass_sd_g is None
 
 
+@pytest.mark.slow
 def test_expected_error_used_for_planning_matches_simulation() -> None:
     from runtrue.balancing.four_run import expected_relative_error
 

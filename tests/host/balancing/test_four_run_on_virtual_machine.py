@@ -13,6 +13,8 @@ import pytest
 from runtrue.jobs.headless import run_demo
 from runtrue.sim.scenarios import SCENARIOS
 
+pytestmark = pytest.mark.slow
+
 ONE_PLANE = sorted(name for name, sc in SCENARIOS.items() if len(sc.planes) == 1)
 
 

@@ -87,6 +87,7 @@ def test_static_couple_split_recombines() -> None:
         static_couple(c[:1])
 
 
+@pytest.mark.slow
 def test_propagated_uncertainty_agrees_with_monte_carlo() -> None:
     # Two planes, two pickups; each reading scattered with spread s (circular Gaussian).
     a = np.array([[phasor(0.004, 30), phasor(0.0012, 190)], [phasor(0.0015, 250), phasor(0.005, 80)]])

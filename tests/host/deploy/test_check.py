@@ -21,6 +21,7 @@ def run_check(port: str, **kwargs: Any) -> tuple[int, str]:
     return rc, "\n".join(lines)
 
 
+@pytest.mark.slow
 def test_check_against_the_simulator_passes_and_says_it_is_a_simulator() -> None:
     rc, text = run_check("sim:fan", seed=3, stream_revs=5)
     assert rc == 0, text
@@ -31,6 +32,7 @@ def test_check_against_the_simulator_passes_and_says_it_is_a_simulator() -> None
     assert "5 revolutions at" in text and "all checks passed" in text
 
 
+@pytest.mark.slow
 def test_two_channel_simulator_reports_both_channels() -> None:
     rc, text = run_check("sim:roller", seed=1, stream_revs=0)
     assert rc == 0
@@ -160,6 +162,7 @@ def test_an_old_firmware_is_flagged_with_the_fix() -> None:
     assert "FAIL  firmware: the meter runs firmware 0.0.1" in text
 
 
+@pytest.mark.slow
 def test_cli_check_on_the_simulator(capsys: pytest.CaptureFixture[str]) -> None:
     assert main(["device", "check", "--port", "sim:sander", "--revs", "3", "--seed", "2"]) == 0
     assert "all checks passed" in capsys.readouterr().out

@@ -8,6 +8,7 @@ import pytest
 from runtrue.device import AllRevolutionsFlagged, NoRevolutions, open_meter
 
 
+@pytest.mark.slow
 def test_clipping_trial_weight_stops_with_advice_instead_of_waiting_for_ever() -> None:
     client = open_meter("sim:spindle", seed=1)
     try:
@@ -27,6 +28,7 @@ def test_clipping_trial_weight_stops_with_advice_instead_of_waiting_for_ever() -
     assert "exceeds the sensor's range" in str(err) and "trial weight" in str(err)
 
 
+@pytest.mark.slow
 def test_usable_revolutions_are_still_collected_among_a_few_flagged_ones() -> None:
     client = open_meter("sim:fan", seed=2)  # the fan's reference sensor glitches now and then
     try:

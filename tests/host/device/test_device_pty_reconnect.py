@@ -33,6 +33,7 @@ def test_pty_meter_streams_through_the_serial_transport(tmp_path: Path) -> None:
         device.close()
 
 
+@pytest.mark.slow
 def test_unplug_and_replug_resumes_the_session(tmp_path: Path) -> None:
     link = tmp_path / "meter"
     device = PtyMeter(link)
@@ -61,6 +62,7 @@ def test_unplug_and_replug_resumes_the_session(tmp_path: Path) -> None:
         device.close()
 
 
+@pytest.mark.slow
 def test_owner_reopening_the_port_gets_the_same_session_back(tmp_path: Path) -> None:
     # An application may run its own reconnect loop: reopen the transport, identify, start.
     link = tmp_path / "meter"

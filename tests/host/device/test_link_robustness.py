@@ -6,6 +6,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -106,6 +107,7 @@ def test_an_answer_after_silence_with_a_lower_number_is_a_restart() -> None:
     assert t.verdict(52, answer=False, now_s=5.1) == NEXT
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None, derandomize=True)
 @given(st.lists(st.tuples(st.integers(1, 3), st.booleans()), min_size=1, max_size=80))
 def test_repeats_are_dropped_and_gaps_counted_whatever_the_pattern(steps: list[tuple[int, bool]]) -> None:
@@ -125,6 +127,7 @@ def test_repeats_are_dropped_and_gaps_counted_whatever_the_pattern(steps: list[t
     assert t.duplicates == repeats and t.lost_frames == lost and t.restarts == 0
 
 
+@pytest.mark.slow
 @settings(max_examples=80, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(st.lists(st.tuples(st.sampled_from([INFO, REV, STATUS, ACK, SELFTEST, TEXT, 0x42]),
                           st.binary(max_size=240)), max_size=20))
@@ -156,6 +159,7 @@ class Scripted(Silent):
         return out
 
 
+@pytest.mark.slow
 def test_a_port_sending_bytes_that_are_not_frames_is_called_wrong_device_or_noise() -> None:
     garbage = bytes(range(1, 200)) * 3 + b"\x00" + b"hello world\r\n\x00" * 5
     client = MeterClient(Scripted(garbage), "usb0", command_timeout_s=0.3)

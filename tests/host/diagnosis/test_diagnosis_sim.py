@@ -34,6 +34,7 @@ def test_an_unbalanced_fan_is_called_unbalance() -> None:
     assert ch.severity_from == "capture"
 
 
+@pytest.mark.slow
 def test_a_misaligned_pump_is_not_called_unbalance_and_alignment_is_named() -> None:
     with _client(f"sim:{SCEN / 'misaligned_pump.toml'}", mask=3) as c:
         d = take_diagnosis(c, revs=30)
@@ -42,6 +43,7 @@ def test_a_misaligned_pump_is_not_called_unbalance_and_alignment_is_named() -> N
     assert "balance anyway" in d.to_dict()["go_on"]
 
 
+@pytest.mark.slow
 def test_a_loose_pedestal_names_looseness() -> None:
     with _client(f"sim:{SCEN / 'loose_pedestal.toml'}") as c:
         d = take_diagnosis(c, revs=30)
@@ -49,6 +51,7 @@ def test_a_loose_pedestal_names_looseness() -> None:
     assert any("looseness" in t for t in d.verdict.checks)
 
 
+@pytest.mark.slow
 def test_two_pickups_on_one_bearing_very_unequal_point_at_a_resonance() -> None:
     with _client(f"sim:{SCEN / 'resonant_fan.toml'}", mask=3) as c:
         d = take_diagnosis(c, revs=30)
@@ -57,6 +60,7 @@ def test_two_pickups_on_one_bearing_very_unequal_point_at_a_resonance() -> None:
     assert any("resonance" in t for t in d.verdict.checks)
 
 
+@pytest.mark.slow
 def test_a_resonance_10_percent_above_the_running_speed_gets_the_warning() -> None:
     with _client(f"sim:{SCEN / 'resonant_fan.toml'}", mask=3) as c:
         run = record_speed_change(c, from_rpm=1900, to_rpm=1000, rate_rpm_per_s=150)
@@ -70,6 +74,7 @@ def test_a_resonance_10_percent_above_the_running_speed_gets_the_warning() -> No
     assert len(a.warnings) == 1 and "10 % above the balancing speed" in a.warnings[0]
 
 
+@pytest.mark.slow
 def test_the_fan_coasts_through_its_resonances_far_below_running_speed_without_a_warning() -> None:
     with _client("sim:fan") as c:
         run = record_speed_change(c, to_rpm=350, rate_rpm_per_s=250)
@@ -79,6 +84,7 @@ def test_the_fan_coasts_through_its_resonances_far_below_running_speed_without_a
     assert a.warnings == []
 
 
+@pytest.mark.slow
 def test_severity_zone_falls_after_balancing_the_simulated_fan() -> None:
     with _client("sim:fan") as c:
         before = take_diagnosis(c, revs=20)
@@ -94,6 +100,7 @@ def test_severity_zone_falls_after_balancing_the_simulated_fan() -> None:
     assert va.zone == ZONE_TABLES["class-I"].zone(va.velocity_rms_mm_s)
 
 
+@pytest.mark.slow
 def test_raw_capture_in_g_matches_the_meters_1x_and_its_edges_give_the_speed() -> None:
     with _client("sim:roller", mask=3) as c:
         c.start()
@@ -116,6 +123,7 @@ def test_raw_capture_in_g_matches_the_meters_1x_and_its_edges_give_the_speed() -
         assert one_cap == pytest.approx(one_rev, rel=0.03)
 
 
+@pytest.mark.slow
 def test_a_linear_machine_passes_the_linearity_check_with_a_second_weight() -> None:
     import cmath
 
@@ -142,6 +150,7 @@ def test_a_linear_machine_passes_the_linearity_check_with_a_second_weight() -> N
     assert lin.ok and lin.value < 0.1
 
 
+@pytest.mark.slow
 def test_ctrl_c_ends_a_recording_and_keeps_what_was_recorded() -> None:
     with _client("sim:fan") as c:
         seen: list[float] = []

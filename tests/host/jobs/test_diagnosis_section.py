@@ -10,6 +10,7 @@ from html.parser import HTMLParser
 from pathlib import Path
 
 import numpy as np
+import pytest
 
 from runtrue.device import open_meter
 from runtrue.diagnosis.acquire import analyse_speed_run, record_speed_change, take_diagnosis
@@ -36,6 +37,7 @@ class _Check(HTMLParser):
         self.stack.pop()
 
 
+@pytest.mark.slow
 def test_section_shows_spectrum_zone_before_and_after_and_the_speed_plot() -> None:
     with open_meter("sim:fan", seed=5) as c:
         c.identify()
@@ -74,6 +76,7 @@ def test_section_without_a_diagnosis_says_so() -> None:
     assert "No diagnosis was taken" in html and html.startswith('<section id="diagnosis">')
 
 
+@pytest.mark.slow
 def test_a_job_keeps_its_diagnoses_and_its_report_shows_zones_before_and_after_and_the_spectrum() -> None:
     """The diagnoses are kept as job events (JSON with the spectrum); the report takes the first
     as "before" and the last as "after", right after the Machine table."""

@@ -19,6 +19,7 @@ def db(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return path
 
 
+@pytest.mark.slow
 def test_list_shows_the_job(db: Path, capsys: pytest.CaptureFixture[str]) -> None:
     capsys.readouterr()
     assert main(["jobs", "--db", str(db), "list"]) == 0
@@ -79,6 +80,7 @@ def test_missing_database_is_reported(tmp_path: Path, capsys: pytest.CaptureFixt
     assert "no job database" in capsys.readouterr().err
 
 
+@pytest.mark.slow
 def test_machine_history_shows_the_trend(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     from runtrue.jobs import JobStore
     from runtrue.jobs.demo_machine import machine_for_scenario

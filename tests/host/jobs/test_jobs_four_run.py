@@ -242,6 +242,7 @@ def test_phase_method_is_unchanged_by_default(store: JobStore) -> None:
     assert job.result().to_dict()["method"] == "influence-coefficient"
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("stop_after", [0, 1, 3, 4])
 def test_store_round_trip_resumes_the_same_step(tmp_path: Path, stop_after: int) -> None:
     db = tmp_path / "jobs.sqlite"
@@ -279,6 +280,7 @@ class _Crash(Exception):
     pass
 
 
+@pytest.mark.slow
 def test_demo_job_interrupted_mid_cycle_resumes_on_the_simulator(tmp_path: Path) -> None:
     from runtrue.jobs.headless import run_demo
 

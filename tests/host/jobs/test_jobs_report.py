@@ -206,6 +206,7 @@ def test_json_export_round_trips_and_states_conventions(finished_job: tuple[JobS
     assert [w["mass_g"] for w in last["weights"]] == [w.mass_g for w in job.runs[-1].weights]
 
 
+@pytest.mark.slow
 def test_report_states_the_front_end_correction_and_line_hum_of_simulated_readings(tmp_path) -> None:
     """A job on the simulated fan: the meter gives its front end, the host takes its lag out, and
     the report says so once under the run log (every run at the same speed)."""

@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import pytest
+
 from runtrue.jobs import JobStore
 from runtrue.jobs.demo_machine import machine_for_scenario
 from runtrue.jobs.headless import run_demo
 
 
+@pytest.mark.slow
 def test_two_plane_roll_with_trials_left_on_is_balanced() -> None:
     out = run_demo("roller", 11, trial_removed=False)
     d = out.to_json()
@@ -16,6 +19,7 @@ def test_two_plane_roll_with_trials_left_on_is_balanced() -> None:
     assert sum(w["label"].startswith("trial") for w in d["weights_fitted"]) == 2
 
 
+@pytest.mark.slow
 def test_second_balance_of_a_saved_machine_takes_one_run() -> None:
     with JobStore(":memory:") as store:
         machine = machine_for_scenario("fan")

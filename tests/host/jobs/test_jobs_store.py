@@ -157,6 +157,7 @@ def test_bad_machine_descriptions_say_what_is_wrong() -> None:
         Machine("x", 1, 1000, [PlaneSpec(50)] * 3)
 
 
+@pytest.mark.slow
 def test_one_store_can_be_written_from_several_threads(tmp_path: Path) -> None:
     import threading
 

@@ -11,12 +11,15 @@ from __future__ import annotations
 
 import math
 
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from jobs_fakes import LinearRotor, polar
 
 from runtrue.balancing import permissible_unbalance
 from runtrue.jobs import BalanceJob, JobStore, Machine, Pickup, PlaneSpec
+
+pytestmark = pytest.mark.slow
 
 angles = st.floats(0.0, 359.9)
 

@@ -4,10 +4,13 @@ good frame that follows the damage."""
 
 from __future__ import annotations
 
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from runtrue.protocol.frames import MAX_PAYLOAD, Frame, FrameDecoder, encode_frame
+
+pytestmark = pytest.mark.slow   # property tests: hundreds of generated cases
 
 FUZZ = settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 

@@ -129,6 +129,7 @@ _rev_like = st.builds(
 _payloads = st.one_of(st.binary(max_size=240), _json_payloads, _rev_like)
 
 
+@pytest.mark.slow
 @settings(max_examples=400, deadline=None)
 @given(st.sampled_from([0x01, 0x02, 0x03, 0x04, 0x05, 0x06, 0x7E]), _payloads)
 def test_any_payload_of_any_type_raises_only_message_error(ftype: int, payload: bytes) -> None:

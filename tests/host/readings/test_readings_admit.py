@@ -47,6 +47,7 @@ def _fan_missing_its_second_mark() -> scenarios.Scenario:
     return dataclasses.replace(scenarios.SCENARIOS["fan"], glitch_per_rev=0.0, missed_per_rev=0.0, missed_marks=(1,))
 
 
+@pytest.mark.slow
 def test_simulated_first_revolution_spans_the_missed_pulse_and_jobs_skip_it() -> None:
     transport = SimTransport(_fan_missing_its_second_mark(), seed=2)
     client = MeterClient(transport, transport.name)

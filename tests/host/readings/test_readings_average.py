@@ -71,6 +71,7 @@ def test_spread_is_the_rms_error_of_the_mean() -> None:
     assert np.mean(spreads2) == pytest.approx(np.mean(errors2), rel=0.1)
 
 
+@pytest.mark.slow
 def test_f_quantile_closed_form_matches_scipy() -> None:
     stats = pytest.importorskip("scipy.stats", reason=SCIPY_MISSING)
     for nu in (1, 2, 3, 8, 30, 200):
@@ -80,6 +81,7 @@ def test_f_quantile_closed_form_matches_scipy() -> None:
     assert hotelling_t2_critical(100_000) == pytest.approx(stats.chi2.ppf(0.95, 2), rel=1e-3)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("n", [3, 6, 20])
 def test_confidence_radius_covers_the_truth_95_percent_of_the_time(n: int) -> None:
     # Circular complex Gaussian scatter; the radius comes from Victor and Mast's circular T^2
@@ -95,6 +97,7 @@ def test_confidence_radius_covers_the_truth_95_percent_of_the_time(n: int) -> No
     assert 0.93 <= hits / trials <= 0.97
 
 
+@pytest.mark.slow
 def test_hotelling_ellipse_covers_95_percent_even_for_elongated_scatter() -> None:
     # Hotelling's T^2 (R. A. Johnson and D. W. Wichern, Applied Multivariate Statistical
     # Analysis, 6th ed., section 5.4): exact for any covariance.  Scatter 4:1 elongated.

@@ -48,6 +48,7 @@ def _ramp_phase_errors_deg(model: bool) -> list[float]:
     return errs
 
 
+@pytest.mark.slow
 def test_speed_change_within_a_revolution_is_modelled_through_the_simulator(monkeypatch: pytest.MonkeyPatch) -> None:
     modelled = _ramp_phase_errors_deg(True)
     assert len(modelled) >= 6
@@ -65,6 +66,7 @@ def _hum_fan() -> scenarios.Scenario:
     return dataclasses.replace(sc, planes=planes)
 
 
+@pytest.mark.slow
 def test_hum_20_db_above_the_1x_is_fitted_across_the_revolutions() -> None:
     t = SimTransport(_hum_fan(), seed=6)
     c = MeterClient(t, t.name)
@@ -83,6 +85,7 @@ def test_hum_20_db_above_the_1x_is_fitted_across_the_revolutions() -> None:
     assert max(single) > 0.05 * abs(truth)  # the hum leaks into every revolution's own 1x
 
 
+@pytest.mark.slow
 def test_measure_reports_the_1x_under_hum_with_the_front_end_taken_out(
         capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setitem(scenarios.SCENARIOS, "fan", _hum_fan())
@@ -96,6 +99,7 @@ def test_measure_reports_the_1x_under_hum_with_the_front_end_taken_out(
     assert fe["lag_deg"] == pytest.approx(1.62, abs=0.02) and fe["lag_tol_deg"] > 0  # 1470 rpm
 
 
+@pytest.mark.slow
 def test_measure_warns_when_too_few_revolutions_to_separate_the_hum(capsys: pytest.CaptureFixture[str],
                                                                     monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setitem(scenarios.SCENARIOS, "fan", _hum_fan())
@@ -107,6 +111,7 @@ def test_measure_warns_when_too_few_revolutions_to_separate_the_hum(capsys: pyte
     assert "100 Hz" not in out
 
 
+@pytest.mark.slow
 def test_the_apps_taken_reading_is_the_joint_fit_too() -> None:
     from runtrue.tui.live_state import LiveState
 
@@ -125,6 +130,7 @@ def test_the_apps_taken_reading_is_the_joint_fit_too() -> None:
     assert abs(state.done.channels[0].mean - truth) < 0.01 * abs(truth)
 
 
+@pytest.mark.slow
 def test_ten_revolution_readings_under_hum_scatter_as_the_bound_of_the_fitted_model() -> None:
     """60 readings of 10 revolutions through the simulator (real firmware sums), 100 Hz hum 20 dB
     above the 1x: the joint fit's scatter against the Cramer-Rao bound of the model it fits

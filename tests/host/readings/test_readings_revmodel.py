@@ -144,6 +144,7 @@ def test_modelling_the_speed_change_costs_almost_no_precision() -> None:
                 assert 0.0 <= fit.cov_unit[i, i] / fit.crlb_unit[i, i] - 1.0 < limit
 
 
+@pytest.mark.slow
 def test_monte_carlo_1x_scatter_meets_the_bound_under_a_speed_change() -> None:
     rng = np.random.default_rng(5)
     errs = []

@@ -4,8 +4,12 @@ shows it and fails above 60 %."""
 
 from __future__ import annotations
 
+import pytest
+
 from runtrue.device import open_meter
 from runtrue.sim import board as simboard
+
+pytestmark = pytest.mark.slow
 
 
 def _load(scenario: str, seconds: float = 2.5) -> int:

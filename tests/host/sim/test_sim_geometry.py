@@ -1,6 +1,6 @@
 """The virtual machine's geometry: weights, phase lag, rotation direction, sensor angles.
 
-The rule under test is brief.md's "Conventions": a weight at theta (from the mark, against
+The rule under test is runtrue's phase convention: a weight at theta (from the mark, against
 rotation) adds theta to the phase lag of its effect, whatever the rotation direction and the
 pickup and reference-sensor angles.  The simulator is built from the physical geometry; these
 tests check that the convention comes out of it, from the sampled signals themselves.
@@ -168,6 +168,7 @@ def test_weights_can_be_removed_and_unknown_ids_are_refused():
         m.add_weight(0, -1.0, 0.0, 100.0)
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None)
 @given(
     rotation=st.sampled_from(["cw", "ccw"]),

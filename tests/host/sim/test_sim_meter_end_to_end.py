@@ -43,6 +43,7 @@ def _lag_deg(z: complex) -> float:
     return math.degrees(cmath.phase(z)) % 360.0
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("name", sorted(SCENARIOS))
 def test_meter_reads_the_machines_true_1x_on_every_channel(name):
     # Noise, 2x line, harmonics and glitches as in the scenario; only the speed wander is off,
@@ -57,6 +58,7 @@ def test_meter_reads_the_machines_true_1x_on_every_channel(name):
         assert abs(m - e) < 5 * s + 0.003 * abs(e), (m, e, s)
 
 
+@pytest.mark.slow
 def test_two_channels_sampled_in_turn_still_agree_in_phase():
     # The ADC converts channel 1 half a sample after channel 0; the meter corrects that known
     # delay (round robin), so two pickups on the same quiet machine read their true lags.
@@ -70,6 +72,7 @@ def test_two_channels_sampled_in_turn_still_agree_in_phase():
         assert abs(m - e) < 2e-3 * abs(e)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("rotation", ["cw", "ccw"])
 def test_weight_at_90_deg_reads_90_deg_more_lag_through_the_meter(rotation):
     sc = dataclasses.replace(SCENARIOS["fan"], rotation=rotation)
@@ -111,6 +114,7 @@ def test_single_plane_balancing_job_on_the_fan_brings_the_vibration_down():
     assert machine.true_residual_unbalance_gmm()[0] < 0.1 * abs(sc.planes[0].initial_unbalance_gmm)
 
 
+@pytest.mark.slow
 def test_falling_edge_readings_refer_to_the_falling_edge():
     client = _client(quiet("fan"))
     client.set_edge("falling")
@@ -126,6 +130,7 @@ def _flags(client: MeterClient, n: int) -> list[int]:
     return [r.flags for r in client.revolutions(n)]
 
 
+@pytest.mark.slow
 def test_reference_glitches_reach_the_host_as_extra_pulse_flags():
     client = _client(quiet("fan", glitch_per_rev=0.3, glitch_width_us=200.0), seed=4)
     client.start()
@@ -134,6 +139,7 @@ def test_reference_glitches_reach_the_host_as_extra_pulse_flags():
     assert 10 < glitched < 80
 
 
+@pytest.mark.slow
 def test_missed_reference_pulses_reach_the_host_as_missing_pulse_flags():
     client = _client(quiet("fan", missed_per_rev=0.1), seed=5)
     client.start()
@@ -141,6 +147,7 @@ def test_missed_reference_pulses_reach_the_host_as_missing_pulse_flags():
     assert 4 < sum(1 for f in flags if f & FLAG_MISSING_PULSE) < 40
 
 
+@pytest.mark.slow
 def test_clipping_at_the_adc_end_stops_is_flagged_per_channel():
     sc = quiet("fan")
     sc = dataclasses.replace(sc, planes=(dataclasses.replace(sc.planes[0], initial_unbalance_gmm=40000.0 + 0j),))
@@ -151,6 +158,7 @@ def test_clipping_at_the_adc_end_stops_is_flagged_per_channel():
     assert not any(r.usable for r in revs)
 
 
+@pytest.mark.slow
 def test_a_sudden_speed_change_is_flagged_as_a_speed_jump():
     client = _client(quiet("fan"))
     client.start()
@@ -160,6 +168,7 @@ def test_a_sudden_speed_change_is_flagged_as_a_speed_jump():
     assert any(f & FLAG_SPEED_JUMP for f in flags)
 
 
+@pytest.mark.slow
 def test_lost_samples_on_the_board_are_flagged_as_dropped_samples():
     client = _client(quiet("fan"))
     client.start()
@@ -169,6 +178,7 @@ def test_lost_samples_on_the_board_are_flagged_as_dropped_samples():
     assert any(f & FLAG_DROPPED_SAMPLES for f in flags)
 
 
+@pytest.mark.slow
 def test_coast_down_is_followed_by_the_meter():
     client = _client(quiet("fan"))
     machine = client.transport.machine
@@ -184,6 +194,7 @@ def test_coast_down_is_followed_by_the_meter():
     assert (speeds[0] - speeds[-1]) / elapsed_s == pytest.approx(300.0, rel=0.03)
 
 
+@pytest.mark.slow
 def test_one_channel_of_two_at_an_odd_rate_reads_that_pickup():
     # Only the far-end pickup (channel 1) enabled, at a rate the RP2040 divider cannot hit
     # exactly: the meter reports the actual rate and still reads channel 1's true 1x.

@@ -144,6 +144,7 @@ def test_glitches_and_missed_pulses_happen_at_their_rates():
     assert revs - mark == pytest.approx(0.1 * revs, rel=0.3)
 
 
+@pytest.mark.slow
 def test_speed_drifts_around_nominal_and_coasts_down_at_its_rate():
     sc = get_scenario("sander")
     m = VirtualMachine(sc, seed=3)

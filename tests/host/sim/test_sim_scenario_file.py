@@ -142,6 +142,7 @@ def test_rotor_harmonics_follow_the_rotor() -> None:
     assert int(np.argmax(np.abs(np.fft.rfft(sig[:, 0])))) == 60  # 3 x 20 Hz
 
 
+@pytest.mark.slow
 def test_file_scenario_through_measure_scenarios_and_demo(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
     data = example_dict()
     data["speed"].pop("start_rpm")

@@ -28,6 +28,7 @@ def _frames(t: SimTransport, sim_s: float) -> list:
     return out
 
 
+@pytest.mark.slow
 def test_is_a_transport_named_after_its_scenario():
     t = SimTransport("roller", seed=1)
     assert isinstance(t, Transport)
@@ -53,6 +54,7 @@ def test_identify_answers_info_then_ack_in_protocol_v2():
     assert (cmd_seq, cmd_type, result) == (7, IDENTIFY, 0)
 
 
+@pytest.mark.slow
 def test_streaming_sends_a_revolution_per_turn_and_status_about_once_a_second():
     t = SimTransport("fan", seed=1)
     t.write(encode_frame(START, 0))
@@ -68,12 +70,14 @@ def test_streaming_sends_a_revolution_per_turn_and_status_about_once_a_second():
     assert (n_ch, mask, n_sums) == (1, 1, 14)
 
 
+@pytest.mark.slow
 def test_read_times_out_with_nothing_when_the_meter_is_quiet():
     t = SimTransport("fan", seed=1)
     assert t.read(100, 0.5) == b""
     assert t.machine.t_s == pytest.approx(0.5)
 
 
+@pytest.mark.slow
 def test_closed_transport_raises_transport_lost():
     t = SimTransport("fan", seed=1)
     t.close()
@@ -83,6 +87,7 @@ def test_closed_transport_raises_transport_lost():
         t.write(b"\x00")
 
 
+@pytest.mark.slow
 def test_same_seed_gives_the_same_bytes():
     def run(seed):
         t = SimTransport("sander", seed=seed)
@@ -96,6 +101,7 @@ def test_same_seed_gives_the_same_bytes():
     assert run(9) != run(10)
 
 
+@pytest.mark.slow
 def test_realtime_mode_keeps_to_the_wall_clock():
     t = SimTransport("fan", seed=1, realtime=True)
     t.write(encode_frame(START, 0))
@@ -107,6 +113,7 @@ def test_realtime_mode_keeps_to_the_wall_clock():
     assert sim_elapsed == pytest.approx(time.monotonic() - wall0, abs=0.08)
 
 
+@pytest.mark.slow
 def test_weights_change_while_it_streams():
     t = SimTransport(quiet("fan"), seed=1)  # steady speed: the 1x changes only with the weights
     t.write(encode_frame(START, 0))
@@ -119,6 +126,7 @@ def test_weights_change_while_it_streams():
     assert t.machine.expected_1x()[0] == before
 
 
+@pytest.mark.slow
 def test_unplugged_meter_is_lost_then_comes_back_restarted():
     t = SimTransport(quiet("fan"), seed=1)
     t.write(encode_frame(START, 0))
@@ -134,6 +142,7 @@ def test_unplugged_meter_is_lost_then_comes_back_restarted():
     assert frames[0].type == T_INFO and frames[0].seq == 0
 
 
+@pytest.mark.slow
 def test_host_client_rides_through_an_unplug_of_the_simulated_meter():
     from runtrue.device.client import MeterClient
 
