@@ -276,7 +276,8 @@ ISSUE_REFERENCE = re.compile(
 _COLOUR_BEFORE = re.compile(r"""(?:[:="']|\b(?:solid|dashed|dotted|double))\s*$""")
 TEXT_SUFFIXES = frozenset({".py", ".md", ".toml", ".txt", ".json", ".tcss", ".mjs", ".js", ".sh", ".cfg",
                            ".ini", ".html", ".css", ".csv", ".kicad_sch", ".yaml", ".yml"})
-SKIP_DIRS = frozenset({"node_modules", "__pycache__", "__snapshots__", ".venv", ".git"})
+# fixtures hold what the program wrote (its messages number stored records "#5"), not prose
+SKIP_DIRS = frozenset({"node_modules", "__pycache__", "__snapshots__", ".venv", ".git", "fixtures"})
 DOC_ROOTS = ("host", "firmware", "tests", "hardware", "examples", "README.md", "DEVELOPERS.md", "pyproject.toml")
 
 
