@@ -15,9 +15,12 @@ import math
 from typing import Any
 
 from runtrue import __version__
+from runtrue.jobs.job import BalanceJob
 from runtrue.jobs.model import ANGLE_CONVENTION, RunRecord
+from runtrue.jobs.results import STANDARD, JobResult
 from runtrue.jobs.store import JobStore, now_iso
-from runtrue.jobs.workflow import CAUTIONS, STANDARD, BalanceJob, JobResult, position_number
+from runtrue.jobs.weights import position_number
+from runtrue.jobs.wording import AMPLITUDE_ONLY_CONVENTION, CAUTIONS
 from runtrue.readings.numbers import (
     DEFAULT_VIB_UNIT,
     angle_text,
@@ -228,8 +231,6 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
     directions = m.angle_direction_words()
     convention = ANGLE_CONVENTION
     if no_phase:
-        from runtrue.jobs.four_run_job import AMPLITUDE_ONLY_CONVENTION
-
         directions = directions.replace("the reference mark", "the chalk mark (0°)")
         convention = AMPLITUDE_ONLY_CONVENTION
     if no_phase:

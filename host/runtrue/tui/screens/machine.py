@@ -16,6 +16,7 @@ from textual.widget import Widget
 from textual.widgets import Footer, Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
+from runtrue.jobs.weights import weights_left_on
 from runtrue.readings.numbers import local_time_text, vib_number, vib_text
 from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields
 from runtrue.tui.method import TWO_PLANES_REFUSED, is_four_run, method_hint
@@ -326,7 +327,6 @@ class MachineScreen(StepScreen):
         if machine.method != method:  # remembered for the next job on this machine
             machine.method = method
             store.save_machine(machine)
-        from runtrue.jobs.workflow import weights_left_on
 
         left = weights_left_on(store, machine)
         if left is None:

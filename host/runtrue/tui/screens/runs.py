@@ -19,6 +19,8 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
+from runtrue.jobs.limits import ForceLimitExceeded, OverSpeed, force_limit_basis
+from runtrue.jobs.results import ForceCheck
 from runtrue.readings.numbers import DEG, phase_text, vib_number, vib_text
 from runtrue.tui.fitting_list import imperial_lines
 from runtrue.tui.format import SAFETY_FIT, SAFETY_START, vib_unit_of
@@ -289,7 +291,6 @@ class RunsScreen(StepScreen):
 
     def _confirm_forces(self, then: Any) -> None:
         """Ask before a run whose weights pull harder than the force limit; ``then`` on yes."""
-        from runtrue.jobs.workflow import force_limit_basis
         from runtrue.tui.screens.dialogs import ConfirmDialog, force_confirm_lines
 
         job = self.session.job
@@ -313,7 +314,6 @@ class RunsScreen(StepScreen):
             rr = RunReading.from_reading(reading)
             if rr.has_phase:  # the meter's phase is not part of this method: keep the amplitudes only
                 reading = rr.amplitudes_only()
-        from runtrue.jobs.workflow import OverSpeed
 
         try:
             run = job.record_run(reading, over_speed_confirmed=over_speed_confirmed)
@@ -363,7 +363,6 @@ class RunsScreen(StepScreen):
         def chosen(value: tuple[float, float] | None) -> None:
             if value is None:
                 return
-            from runtrue.jobs.workflow import ForceCheck, ForceLimitExceeded, force_limit_basis
 
             try:
                 job.set_trial(value[0], value[1])
