@@ -26,7 +26,7 @@ from runtrue.allocation import (
 from runtrue.jobs.model import Machine, PlaneSpec, Weight
 from runtrue.jobs.results import PlaneCorrection
 from runtrue.readings.numbers import angle_text, mass_text
-from runtrue.readings.units import angle_between_deg, lag_deg
+from runtrue.readings.units import angle_between_deg, lag_deg, wrap_deg
 
 
 def positions_for(spec: PlaneSpec) -> Positions:
@@ -96,7 +96,7 @@ def trial_weight(
     lighter than ``mass_g`` when the stock allows.
     """
     spec = machine.planes[plane - 1]
-    angle = first_usable_angle_deg(spec) if angle_deg is None else angle_deg % 360.0
+    angle = first_usable_angle_deg(spec) if angle_deg is None else wrap_deg(angle_deg)
     label = f"trial weight, plane {plane}"
     try:
         material = _material(machine, in_use)

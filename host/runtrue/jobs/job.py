@@ -56,6 +56,7 @@ from runtrue.jobs.store import JobStore, now_iso
 from runtrue.jobs.weights import is_trial, start_weights_options, trial_label, weight_key
 from runtrue.jobs.wording import CAUTIONS
 from runtrue.readings.numbers import unbalance_text
+from runtrue.readings.units import wrap_deg
 from runtrue.validation import WEIGHT_MIN_G
 
 DEFAULT_MAX_TRIM_RUNS = 5
@@ -257,11 +258,11 @@ class BalanceJob:
         if not (mass_g > 0 and math.isfinite(mass_g)):
             raise ValueError("the trial mass must be a positive number of grams")
         radius = radius_mm if radius_mm is not None else self.machine.planes[s.plane - 1].radius_mm
-        candidate = Weight(s.plane, mass_g, angle_deg % 360.0, radius, trial_label(s.plane))
+        candidate = Weight(s.plane, mass_g, wrap_deg(angle_deg), radius, trial_label(s.plane))
         force, limit = self.force_n(candidate), self.force_limit_n
         if force > limit and not confirm_over_limit:
             raise ForceLimitExceeded(candidate, force, limit)
-        data = {"plane": s.plane, "mass_g": mass_g, "angle_deg": angle_deg % 360.0, "radius_mm": radius}
+        data = {"plane": s.plane, "mass_g": mass_g, "angle_deg": wrap_deg(angle_deg), "radius_mm": radius}
         self.store.add_event(self.job_id, "trial_set", {**data, "n_runs": len(self.runs)})
         self._apply_event("trial_set", data)
         if force > limit:

@@ -9,11 +9,26 @@ reference mark) and ``method_four_run.FourRunMethod`` (amplitude only).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any, Protocol
 
 from runtrue.jobs.model import RunRecord, Weight
 from runtrue.jobs.results import ChannelResult
+
+#: A trial found too small is repeated this much larger than the bare minimum the check asks
+#: for (the next reading's scatter is random too), and at least :data:`MIN_TRIAL_GROWTH` times
+#: larger; when the check cannot say how much larger, :data:`UNKNOWN_TRIAL_SCALE` (our choices).
+TRIAL_MARGIN = 1.2
+MIN_TRIAL_GROWTH = 1.5
+UNKNOWN_TRIAL_SCALE = 4.0
+
+
+def next_trial_scale(needed_scale: float) -> float:
+    """How much larger the next trial weight is than one found too small, given the factor
+    ``needed_scale`` its check asked for (not finite: unknown)."""
+    scale = needed_scale if math.isfinite(needed_scale) else UNKNOWN_TRIAL_SCALE
+    return max(scale * TRIAL_MARGIN, MIN_TRIAL_GROWTH)
 
 
 @dataclass(frozen=True)

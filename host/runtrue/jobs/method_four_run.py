@@ -54,13 +54,18 @@ from runtrue.balancing.four_run import (
 from runtrue.balancing.grades import parse_grade
 from runtrue.jobs.fitting import plan_plane, trial_weight
 from runtrue.jobs.limits import capped_trial_mass, within_force_limit
-from runtrue.jobs.method import GradeOutcome
+from runtrue.jobs.method import UNKNOWN_TRIAL_SCALE, GradeOutcome, next_trial_scale
 from runtrue.jobs.model import Machine, RunRecord, Weight
 from runtrue.jobs.results import FOUR_RUN_METHOD, CorrectionPlan, TrialCheck
 from runtrue.jobs.weights import is_trial, plane_sums, trial_label
-from runtrue.jobs.wording import four_run_instructions, trial_change_words
-from runtrue.readings.numbers import force_text, unbalance_text
-from runtrue.readings.units import angle_between_deg
+from runtrue.jobs.wording import (
+    TRIAL_CHOSEN_BY_USER,
+    first_trial_words,
+    four_run_instructions,
+    trial_change_words,
+)
+from runtrue.readings.numbers import unbalance_text
+from runtrue.readings.units import angle_between_deg, wrap_deg
 
 if TYPE_CHECKING:
     from runtrue.jobs.job import BalanceJob
@@ -82,16 +87,16 @@ def three_trial_angles_deg(machine: Machine, plane: int, first_deg: float) -> li
     spec = machine.planes[plane - 1]
     angles = spec.position_angles_deg()
     if angles is None:
-        return [(first_deg + a) % 360.0 for a in CLASSIC_TRIAL_ANGLES_DEG]
-    usable = [a % 360.0 for n, a in enumerate(angles, start=1) if n not in spec.excluded]
+        return [wrap_deg(first_deg + a) for a in CLASSIC_TRIAL_ANGLES_DEG]
+    usable = [wrap_deg(a) for n, a in enumerate(angles, start=1) if n not in spec.excluded]
     if len(usable) < 3:
         raise ValueError(
             f"plane {plane} has {len(usable)} usable position(s); the four-run method needs the trial "
             "weight at three different angles: free more positions"
         )
-    chosen = [first_deg % 360.0]
+    chosen = [wrap_deg(first_deg)]
     for target in CLASSIC_TRIAL_ANGLES_DEG[1:]:
-        want = (first_deg + target) % 360.0
+        want = wrap_deg(first_deg + target)
         left = [a for a in usable if all(angle_between_deg(a, c) > 1e-6 for c in chosen)]
         chosen.append(min(left, key=lambda a: (angle_between_deg(a, want), a)))
     return chosen
@@ -269,7 +274,7 @@ class FourRunMethod:
             s.trial_number = 1
             s.trial_angles_deg = angles
             s.trial = w
-            s.message = "Trial weight chosen by the user."
+            s.message = TRIAL_CHOSEN_BY_USER
         elif kind == "trial_accepted":
             chk = s.last_trial_check
             if chk is not None:
@@ -332,8 +337,7 @@ class FourRunMethod:
             sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=1,
                                        grade=parse_grade(m.grade))
             mass, angle = float(sug.mass_g), None
-            message = (f"Trial weight sized to move the reading clearly (common practice) and kept under the "
-                       f"{force_text(job.force_limit_n)} force limit.")
+            message = first_trial_words(job.force_limit_n)
         staying = [w for w in ref.weights if not is_trial(w)]
         if user is not None:
             trial = Weight(1, user.mass_g, user.angle_deg, user.radius_mm, trial_label(1))
@@ -414,7 +418,7 @@ class FourRunMethod:
         t_max = max(abs(plane_sums(r.weights).get(1, 0j) - u0) for r in job.runs[base:])
         ratio = trial_effect_ratio(h_mag, t_max, v0)
         ok = ratio >= MIN_TRIAL_EFFECT_FRACTION
-        scale = MIN_TRIAL_EFFECT_FRACTION / ratio if ratio > 0 else 4.0
+        scale = MIN_TRIAL_EFFECT_FRACTION / ratio if ratio > 0 else UNKNOWN_TRIAL_SCALE
         msg = (
             f"the trial weight changed the amplitude by about {ratio:.0%} of the cycle's reference amplitude"
             f" (at least {MIN_TRIAL_EFFECT_FRACTION:.0%} is needed)"
@@ -424,7 +428,7 @@ class FourRunMethod:
             self._after_trial_accepted()
             return
         prev = s.trial
-        self._start_cycle(base, s.cycle, max(scale * 1.2, 1.5), prev)
+        self._start_cycle(base, s.cycle, next_trial_scale(scale), prev)
         s.message = (
             f"The trial weight was too small to trust: {msg}. Take the three trial runs again with this larger "
             "trial weight (the runs already taken are kept in the solution), or accept the weak trial."

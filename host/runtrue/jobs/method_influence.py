@@ -32,12 +32,17 @@ from runtrue.balancing.grades import parse_grade
 from runtrue.jobs.engine import engine_run, influence_rows
 from runtrue.jobs.fitting import plan_plane, trial_weight
 from runtrue.jobs.limits import capped_trial_mass, speeds_differ, within_force_limit
-from runtrue.jobs.method import GradeOutcome
+from runtrue.jobs.method import GradeOutcome, next_trial_scale
 from runtrue.jobs.model import Machine, RunRecord, Weight
 from runtrue.jobs.results import INFLUENCE_METHOD, CorrectionPlan, PlaneCorrection, TrialCheck
 from runtrue.jobs.weights import is_trial, plane_sums, same_sums, trial_label
-from runtrue.jobs.wording import influence_instructions, trial_change, trial_change_words
-from runtrue.readings.numbers import force_text
+from runtrue.jobs.wording import (
+    TRIAL_CHOSEN_BY_USER,
+    first_trial_words,
+    influence_instructions,
+    trial_change,
+    trial_change_words,
+)
 
 if TYPE_CHECKING:
     from runtrue.jobs.job import BalanceJob
@@ -196,9 +201,7 @@ class InfluenceMethod:
         else:
             prev = trial_ws[0] if trial_ws else s.trial
             self._trial_override.pop(plane, None)
-            scale = chk.suggested_scale if math.isfinite(chk.suggested_scale) else 4.0
-            # 20 % margin over the bare minimum: the next reading's scatter is random too.
-            self._enter_trial(plane, max(scale * 1.2, 1.5), prev)
+            self._enter_trial(plane, next_trial_scale(chk.suggested_scale), prev)
             bigger = f"fit {s.trial.mass_g:.3g} g instead" if s.trial is not None else "fit a larger trial"
             s.message = (f"Trial in {m.plane_name(plane)} TOO SMALL - {change}; {bigger} and run again. "
                          f"{chk.message}")
@@ -213,7 +216,7 @@ class InfluenceMethod:
             self._trial_override[plane] = w
             if s.step == "trial" and s.plane == plane:
                 s.trial = w
-                s.message = "Trial weight chosen by the user."
+                s.message = TRIAL_CHOSEN_BY_USER
         elif kind == "trial_accepted":
             plane = int(data["plane"])
             chk = s.last_trial_check
@@ -243,10 +246,7 @@ class InfluenceMethod:
             sug = suggest_trial_weight(m.rotor_mass_kg, m.speed_rpm, spec.radius_mm, n_planes=m.n_planes,
                                        grade=parse_grade(m.grade))
             mass = float(sug.mass_g)
-            job.state.message = (
-                f"Trial weight sized to move the reading clearly (common practice) and kept under the "
-                f"{force_text(job.force_limit_n)} force limit."
-            )
+            job.state.message = first_trial_words(job.force_limit_n)
             angle = None
         else:
             mass, self._capped_note = capped_trial_mass(m, previous.mass_g * scale, previous.mass_g, spec.radius_mm)

@@ -15,6 +15,9 @@ import math
 from typing import Any
 
 from runtrue import __version__
+from runtrue.balancing import centrifugal_force_n
+from runtrue.jobs.diagnosis_section import diagnosis_section_html
+from runtrue.jobs.export import weights_text
 from runtrue.jobs.job import BalanceJob
 from runtrue.jobs.model import ANGLE_CONVENTION, RunRecord
 from runtrue.jobs.results import STANDARD, JobResult
@@ -217,8 +220,6 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
     """The report of job ``job_id`` as a complete HTML document (UTF-8 text).  Vibration is
     printed in ``vib_unit`` (default mm/s rms), every number through ``runtrue.readings.numbers``
     so the report shows the digits the screens show."""
-    from runtrue.balancing import centrifugal_force_n
-
     rec = store.get_job(job_id)
     if rec is None:
         raise ValueError(f"there is no job {job_id}; `runtrue jobs list` shows the jobs")
@@ -279,8 +280,6 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
     diagnoses = [e.data for e in store.events(job_id) if e.kind == "diagnosis"]
     speed_runs = [e.data for e in store.events(job_id) if e.kind == "speed_run"]
     if diagnoses or speed_runs:
-        from runtrue.jobs.diagnosis_section import diagnosis_section_html
-
         out.append(diagnosis_section_html(diagnoses[0] if diagnoses else None,
                                           diagnoses[-1] if len(diagnoses) > 1 else None,
                                           speed_runs[-1] if speed_runs else None))
@@ -414,7 +413,6 @@ def render_html(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) 
         out.append(f"<th>{_e(m.pickup_name(i))} ({_e(vib_unit)})</th>" if no_phase else
                    f"<th>{_e(m.pickup_name(i))} ({_e(vib_unit)} @ lag)</th>")
     out.append('<th class="l">Weights on (relative to the reference run)</th></tr>')
-    from runtrue.jobs.export import weights_text
 
     for run in runs:
         sp = run.reading.speed_rpm

@@ -45,6 +45,16 @@ TRIAL_GOOD_CHANGE_PCT = 30.0
 TRIAL_GOOD_CHANGE_DEG = 30.0
 
 
+#: Said when the user chose the trial weight instead of the suggestion.
+TRIAL_CHOSEN_BY_USER = "Trial weight chosen by the user."
+
+
+def first_trial_words(force_limit_n: float) -> str:
+    """Said with the first suggested trial weight of a job (or of a four-run cycle)."""
+    return (f"Trial weight sized to move the reading clearly (common practice) and kept under the "
+            f"{force_text(force_limit_n)} force limit.")
+
+
 def trial_change(before: complex, after: complex) -> tuple[float, float]:
     """(amplitude change in percent, phase change in degrees, -180..180) from one run to the next."""
     pct = (abs(after) / abs(before) - 1.0) * 100.0 if abs(before) > 0 else math.inf
