@@ -8,9 +8,9 @@ import json
 from pathlib import Path
 
 from runtrue.jobs.demo_machine import machine_for_scenario
+from runtrue.jobs.job import BalanceJob
 from runtrue.jobs.model import RunReading
 from runtrue.jobs.store import JobStore
-from runtrue.jobs.workflow import BalanceJob
 
 
 def make_odd_database(path: str | Path) -> dict[str, int]:

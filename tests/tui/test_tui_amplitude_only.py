@@ -2,7 +2,7 @@
 correction.
 
 The four-run method (reference run, one trial weight at three angles, correction, check) is
-``runtrue.jobs.four_run_job``; the application chooses it with F7 on the machine screen when the
+``runtrue.jobs.method_four_run``; the application chooses it with F7 on the machine screen when the
 rotor has no usable reference mark.  The whole job runs on the simulator, whose virtual rotor
 carries each weight by its geometry, so the simulator's own residual unbalance is the check.
 """

@@ -576,11 +576,11 @@ async def test_the_resume_list_says_when_each_job_started_its_runs_and_the_weigh
 
 
 async def test_weights_left_on_can_be_moved_by_the_correction(monkeypatch: pytest.MonkeyPatch) -> None:
-    import runtrue.jobs.workflow as workflow
+    import runtrue.tui.screens.machine as machine_screen
     from runtrue.jobs.model import Weight
 
     left = Weight(1, 10.0, 45.0, 160.0, "left by job 7")
-    monkeypatch.setattr(workflow, "weights_left_on", lambda store, machine: (7, "2026-11-30T10:00:00Z", [left]))
+    monkeypatch.setattr(machine_screen, "weights_left_on", lambda store, machine: (7, "2026-11-30T10:00:00Z", [left]))
     app = make_app("manual")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("n")

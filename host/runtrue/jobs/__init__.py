@@ -47,14 +47,21 @@ Store (``store``)
                passed, speed_rpm)
     default_db_path() -> Path
 
-Workflow (``workflow``; imports numpy and the engine lazily)
+The job (``job``: the state machine; ``method``, ``method_influence``, ``method_four_run``: its
+balancing methods; ``results``: the records it fills; ``wording``: what it says; ``limits``: the
+force and speed rules; ``weights``: weights on the rotor; ``engine``: the converters to the
+balancing engine's types; ``fitting``: computed weights to placements)
+    A job is one small state machine (steps reference -> trial -> correction -> trim -> done; every
+    run and decision recorded, replayed by ``resume``) that calls its balancing METHOD for all that
+    is method-specific: ``InfluenceMethod`` (reference mark, influence coefficients, one or more
+    planes) or ``FourRunMethod`` (amplitudes only, the four-run method, one plane).
     BalanceJob.start(store, machine, *, trial_removed=True, use_stored_influence=None, max_trim_runs=5,
                      amplitude_only=False)
-        amplitude_only=True: the four-run method without phase (``four_run_job.AmplitudeOnlyJob``, a
-        BalanceJob with the same API); one plane only (ValueError otherwise); readings' phase ignored;
-        max_trim_runs limits the extra four-run cycles; BalanceJob.resume returns one for such a job.
+        amplitude_only=True: the four-run method without phase (an ``AmplitudeOnlyJob``: a BalanceJob
+        whose method is ``FourRunMethod``); one plane only (ValueError otherwise); readings' phase
+        ignored; max_trim_runs limits the extra four-run cycles; BalanceJob.resume returns one for such a job.
     BalanceJob.resume(store, job_id)
-        .job_id, .machine, .runs: list[RunRecord], .state: JobState, .step -> str, .influence
+        .job_id, .machine, .runs: list[RunRecord], .state: JobState, .step -> str, .influence, .method
         .instructions() -> list[str]   (what to do now; convention and cautions included)
         .cautions() -> list[str]
         .planned_weights() -> list[Weight]   (all weights that should be on for the next run)
@@ -94,14 +101,17 @@ Simulator helpers (``demo_machine``, ``headless``; import the simulator lazily)
              machine=None, trial_removed=True, amplitude_only=False) -> DemoOutcome
         (.job, .to_json(): the demo's JSON, with "method"); amplitude_only feeds the job amplitudes only
 
-Amplitude-only (``four_run_job``)
-    AmplitudeOnlyJob (see BalanceJob.start(amplitude_only=True)); three_trial_angles_deg(machine, plane, first_deg)
+Amplitude-only (``method_four_run``, ``wording``)
+    three_trial_angles_deg(machine, plane, first_deg) -> list[float]
     AMPLITUDE_ONLY_CONVENTION: str (the sentence shown instead of ANGLE_CONVENTION)
+
+Safety (``limits``)
+    force_limit_n(machine), force_limit_basis(machine) -> str; ForceLimitExceeded, OverSpeed (ValueError)
 """
 
 from __future__ import annotations
 
-from runtrue.jobs.four_run_job import AMPLITUDE_ONLY_CONVENTION, AmplitudeOnlyJob
+from runtrue.jobs.job import AmplitudeOnlyJob, BalanceJob
 from runtrue.jobs.model import (
     ANGLE_CONVENTION,
     ChannelValue,
@@ -115,11 +125,8 @@ from runtrue.jobs.model import (
     StripSpec,
     Weight,
 )
-from runtrue.jobs.store import JobRecord, JobStore, JobSummary, TrendPoint, default_db_path
-from runtrue.jobs.workflow import (
-    CAUTIONS,
+from runtrue.jobs.results import (
     STANDARD,
-    BalanceJob,
     ChannelResult,
     CorrectionPlan,
     JobResult,
@@ -127,6 +134,8 @@ from runtrue.jobs.workflow import (
     PlaneCorrection,
     TrialCheck,
 )
+from runtrue.jobs.store import JobRecord, JobStore, JobSummary, TrendPoint, default_db_path
+from runtrue.jobs.wording import AMPLITUDE_ONLY_CONVENTION, CAUTIONS
 
 __all__ = [
     "ANGLE_CONVENTION", "ChannelValue", "Machine", "Pickup", "PlaneSpec", "RunReading", "RunRecord",

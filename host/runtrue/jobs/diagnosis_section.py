@@ -148,7 +148,9 @@ def diagnosis_section_html(before: Any, after: Any = None, speed: Any = None) ->
     chans_after = {c["channel"]: c for c in (a or {}).get("channels", [])}
     for ch in sorted(set(chans) | set(chans_after)):
         cb, ca = chans.get(ch), chans_after.get(ch)
-        name = (cb or ca)["name"]
+        either = cb or ca
+        assert either is not None  # ch is a key of one of them
+        name = either["name"]
 
         def cell(c: dict[str, Any] | None) -> str:
             if c is None:

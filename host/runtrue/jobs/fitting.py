@@ -12,13 +12,25 @@ from collections.abc import Sequence
 from dataclasses import replace
 from typing import Any
 
+from runtrue.allocation import (
+    ExistingWeight,
+    Positions,
+    SheetRow,
+    Stock,
+    Strip,
+    allocate,
+    centrifugal_force_n,
+    fitting_sheet,
+    split_two_positions,
+)
 from runtrue.jobs.model import Machine, PlaneSpec, Weight
+from runtrue.jobs.results import PlaneCorrection
+from runtrue.readings.numbers import angle_text, mass_text
+from runtrue.readings.units import angle_between_deg, lag_deg, wrap_deg
 
 
-def positions_for(spec: PlaneSpec) -> Any:
+def positions_for(spec: PlaneSpec) -> Positions:
     """The allocator's ``Positions`` for a plane (excluded positions are 1-based in a PlaneSpec)."""
-    from runtrue.allocation import Positions
-
     excluded = [n - 1 for n in spec.excluded]
     if spec.continuous:
         return Positions.groove(spec.radius_mm)
@@ -39,8 +51,6 @@ def available_stock(machine: Machine, in_use: Sequence[float] = ()) -> list[tupl
 
 
 def _material(machine: Machine, in_use: Sequence[float] = ()) -> dict[str, Any]:
-    from runtrue.allocation import Stock, Strip
-
     if machine.strip is not None:
         s = machine.strip
         return {"strip": Strip(s.grams_per_mm, s.min_mm, s.step_mm)}
@@ -86,7 +96,7 @@ def trial_weight(
     lighter than ``mass_g`` when the stock allows.
     """
     spec = machine.planes[plane - 1]
-    angle = first_usable_angle_deg(spec) if angle_deg is None else angle_deg % 360.0
+    angle = first_usable_angle_deg(spec) if angle_deg is None else wrap_deg(angle_deg)
     label = f"trial weight, plane {plane}"
     try:
         material = _material(machine, in_use)
@@ -94,8 +104,6 @@ def trial_weight(
         material = {}
     if not material:
         return Weight(plane, _round_up_2sig(mass_g), angle, spec.radius_mm, label)
-    from runtrue.allocation import Positions, allocate
-
     if "stock" in material:
         step = min(item.mass_g for item in material["stock"].items)
     else:
@@ -141,7 +149,7 @@ def plan_plane(
     permissible_gmm: float | None = None,
     in_use: Sequence[float] = (),
     existing: Sequence[Weight] = (),
-) -> Any:
+) -> PlaneCorrection:
     """The correction for one plane as placements and a fitting sheet (a ``PlaneCorrection``).
 
     With ``permissible_gmm`` (the plane's share of the permissible residual unbalance) the
@@ -150,13 +158,9 @@ def plan_plane(
     so in ``correction_gmm``) that may stay, be moved to another position or be taken off; the
     ones that come off their place are the result's ``taken_off``.
     """
-    from runtrue.allocation import allocate, centrifugal_force_n, fitting_sheet
-    from runtrue.allocation.sheet import SheetRow
-    from runtrue.jobs.workflow import PlaneCorrection
-
     spec = machine.planes[plane - 1]
     mag = abs(correction_gmm)
-    angle = math.degrees(math_phase(correction_gmm)) % 360.0
+    angle = lag_deg(correction_gmm)
     correction = Weight(plane, mag / spec.radius_mm, angle, spec.radius_mm, f"{kind} plane {plane}")
     label = f"{kind} {number}" if kind == "trim" else "correction"
     if mag == 0.0:
@@ -192,8 +196,6 @@ def plan_plane(
         if note:
             pc.warnings = note
         return pc
-    from runtrue.readings.numbers import mass_text
-
     sheet = list(fitting_sheet(alloc, machine.speed_rpm))
     fit = []
     taken_off = [existing[i] for i in alloc.removed_existing]
@@ -222,17 +224,15 @@ def _position_index(spec: PlaneSpec, w: Weight) -> int | None:
     if spec.continuous or abs(w.radius_mm - spec.radius_mm) > 0.5:
         return None
     for i, a in enumerate(positions_for(spec).angles_deg):
-        if abs((w.angle_deg - a + 180.0) % 360.0 - 180.0) <= 0.5:
+        if angle_between_deg(w.angle_deg, a) <= 0.5:
             return i
     return None
 
 
-def _existing_weights(spec: PlaneSpec, existing: Sequence[Weight]) -> list[Any]:
+def _existing_weights(spec: PlaneSpec, existing: Sequence[Weight]) -> list[ExistingWeight]:
     """The allocator's view of weights already on: each may come off; one sitting at a known
     position may also be moved to another (the allocator needs its position to do that)."""
-    from runtrue.allocation import ExistingWeight
-
-    out = []
+    out: list[ExistingWeight] = []
     if spec.continuous:  # in a groove they stay where they are (the correction allows for them)
         return out
     for w in existing:
@@ -244,21 +244,15 @@ def _existing_weights(spec: PlaneSpec, existing: Sequence[Weight]) -> list[Any]:
 
 def _old_text(spec: PlaneSpec, w: Weight) -> str:
     index = _position_index(spec, w)
-    from runtrue.readings.numbers import angle_text, mass_text
-
     where = f"position {index + 1}" if index is not None else angle_text(w.angle_deg)
     return f"{mass_text(w.mass_g)} from {where}"
 
 
 def _split_without_stock(
     machine: Machine, spec: PlaneSpec, plane: int, correction: Weight, correction_gmm: complex, label: str
-) -> Any:
+) -> PlaneCorrection:
     """No stock described, fixed positions: the classic split between the two usable positions
     either side of the correction angle (closed form, ``runtrue.allocation.split_two_positions``)."""
-    from runtrue.allocation import centrifugal_force_n, split_two_positions
-    from runtrue.allocation.sheet import SheetRow
-    from runtrue.jobs.workflow import PlaneCorrection
-
     angles = spec.position_angles_deg() or []
     usable = [(n, a) for n, a in enumerate(angles, start=1) if n not in spec.excluded]
     if not usable:
@@ -286,8 +280,3 @@ def _split_without_stock(
     warn = [f"Plane {plane}: no stock or strip described; masses are exact values, make up pieces to match."]
     return PlaneCorrection(plane, correction, fit, rows, residual, frac, warn)
 
-
-def math_phase(z: complex) -> float:
-    import cmath
-
-    return cmath.phase(z)

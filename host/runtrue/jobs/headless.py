@@ -1,13 +1,13 @@
 """A whole balancing job on the simulator with nobody at the keyboard (``runtrue demo --auto``).
 
-The same :class:`~runtrue.jobs.workflow.BalanceJob` the application uses, fed by the same
+The same :class:`~runtrue.jobs.job.BalanceJob` the application uses, fed by the same
 ``MeterClient`` over ``SimTransport``: reference run, trial run(s), correction, trim runs until
 the grade is met.  Every weight the workflow asks for is fitted to the virtual rotor by its
 physical geometry (``machine.add_weight`` at the placement's angle, from the mark against
 rotation, and radius), never by the convention under test; so a wrong angle convention anywhere
 shows up as vibration that does not drop.
 
-With ``amplitude_only=True`` the job is the four-run method (``runtrue.jobs.four_run_job``): the
+With ``amplitude_only=True`` the job is the four-run method (``runtrue.jobs.method_four_run``): the
 simulator still has its reference sensor, but every reading is stripped to amplitudes before the
 job sees it, so the job cannot use phase even by mistake.
 """
@@ -19,9 +19,9 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
-from runtrue.jobs.model import Machine, Weight
+from runtrue.jobs.job import BalanceJob
+from runtrue.jobs.model import Machine, RunReading, Weight
 from runtrue.jobs.store import JobStore
-from runtrue.jobs.workflow import BalanceJob
 
 DEFAULT_REVS = 40  # revolutions averaged per reading (enough for steadiness on every scenario)
 SETTLE_REVS = 4  # revolutions skipped after the weights change
@@ -178,8 +178,6 @@ def run_demo(
             fitter.fit(job.planned_weights())
             reading = take_reading(client, revs, SETTLE_REVS_AMPLITUDE_ONLY if no_phase else SETTLE_REVS)
             if no_phase:
-                from runtrue.jobs.model import RunReading
-
                 reading = RunReading.from_reading(reading).amplitudes_only()
             job.record_run(reading)
             if on_run is not None:

@@ -22,9 +22,15 @@ import jinja2
 from markupsafe import Markup
 
 from runtrue import __version__
+from runtrue.balancing import centrifugal_force_n
+from runtrue.jobs.diagnosis_section import diagnosis_section_html
+from runtrue.jobs.export import weights_text
+from runtrue.jobs.job import BalanceJob
 from runtrue.jobs.model import ANGLE_CONVENTION, RunRecord
+from runtrue.jobs.results import STANDARD, JobResult
 from runtrue.jobs.store import JobStore, now_iso
-from runtrue.jobs.workflow import CAUTIONS, STANDARD, BalanceJob, JobResult, position_number
+from runtrue.jobs.weights import position_number
+from runtrue.jobs.wording import AMPLITUDE_ONLY_CONVENTION, CAUTIONS
 from runtrue.readings.numbers import (
     DEFAULT_VIB_UNIT,
     angle_text,
@@ -230,8 +236,6 @@ def _template() -> jinja2.Template:
 def report_context(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNIT) -> dict[str, Any]:
     """Everything the report template shows for job ``job_id``: the job's records, and the numbers
     formatted as the screens format them."""
-    from runtrue.balancing import centrifugal_force_n
-    from runtrue.jobs.export import weights_text
 
     rec = store.get_job(job_id)
     if rec is None:
@@ -245,8 +249,6 @@ def report_context(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNI
     directions = m.angle_direction_words()
     convention = ANGLE_CONVENTION
     if no_phase:
-        from runtrue.jobs.four_run_job import AMPLITUDE_ONLY_CONVENTION
-
         directions = directions.replace("the reference mark", "the chalk mark (0°)")
         convention = AMPLITUDE_ONLY_CONVENTION
     if no_phase:
@@ -265,8 +267,6 @@ def report_context(store: JobStore, job_id: int, vib_unit: str = DEFAULT_VIB_UNI
     speed_runs = [e.data for e in events if e.kind == "speed_run"]
     diagnosis = None
     if diagnoses or speed_runs:
-        from runtrue.jobs.diagnosis_section import diagnosis_section_html
-
         diagnosis = Markup(diagnosis_section_html(diagnoses[0] if diagnoses else None,
                                                   diagnoses[-1] if len(diagnoses) > 1 else None,
                                                   speed_runs[-1] if speed_runs else None))

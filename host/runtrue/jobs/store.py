@@ -4,7 +4,7 @@ Every write is its own committed transaction, made before the call returns, with
 write-ahead log and ``synchronous=FULL``: a crash, a ``kill -9`` or a pulled cable loses at most a
 call that had not returned, and never tears a row (a run is one row, written in one
 transaction).  A job's state is rebuilt from its runs and decisions (see
-``runtrue.jobs.workflow.BalanceJob.resume``).
+``runtrue.jobs.job.BalanceJob.resume``).
 
 Where the file lives: ``$RUNTRUE_DATA_DIR/runtrue.sqlite`` when that variable is set, else
 ``platformdirs.user_data_dir("runtrue")/runtrue.sqlite``.

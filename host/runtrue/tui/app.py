@@ -12,11 +12,14 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from textual.app import App
+from rich.text import Text
+from textual.app import App, ScreenStackError
 from textual.binding import Binding
 from textual.scrollbar import ScrollBar, ScrollBarRender
 from textual.theme import Theme
 
+from runtrue.errorlog import log_exception, one_line
+from runtrue.jobs.headless import VirtualRotorFitter
 from runtrue.tui.link import MeterLink
 from runtrue.tui.messages import (
     CommandFailed,
@@ -28,7 +31,12 @@ from runtrue.tui.messages import (
 )
 from runtrue.tui.screens.connect import ConnectScreen
 from runtrue.tui.screens.diagnosis import DiagnosisScreen
+from runtrue.tui.screens.help import HelpScreen
+from runtrue.tui.screens.machine import MachineScreen
+from runtrue.tui.screens.result import ResultScreen
+from runtrue.tui.screens.runs import RunsScreen
 from runtrue.tui.session import MANUAL_PORT, Session
+from runtrue.tui.settings import saved_vib_unit, settings_path
 from runtrue.tui.units_text import METRIC
 from runtrue.tui.widgets.braille import plain_wanted, use_plain
 
@@ -113,7 +121,6 @@ class RuntrueApp(App):
         self.trial_removed = True  # take each trial weight off before the next run
         self.amplitude_only = False  # no reference mark: the four-run method (machine screen, F7)
         self.units = METRIC  # display units, metric or imperial (machine screen, F8); jobs stay metric
-        from runtrue.tui.settings import saved_vib_unit, settings_path
 
         self.settings_path = settings_path(store_path)  # settings.json beside the job database
         self.vib_unit = saved_vib_unit(self.settings_path)  # u on the reading screen; kept between sessions
@@ -144,11 +151,6 @@ class RuntrueApp(App):
         what happened, where the details are, and that the job is kept (every run and decision is
         in the job database before the screen shows it, so the job resumes from the Machine
         screen).  Textual stops the message loop that raised, so carrying on is not safe."""
-        from rich.text import Text
-        from textual.app import ScreenStackError
-
-        from runtrue.errorlog import log_exception, one_line
-
         if isinstance(error, ScreenStackError) and (self._exit or self._closing or not self._screen_stack):
             return  # a key still queued while the application closes: nothing went wrong
         where = log_exception(error, "runtrue app")
@@ -235,8 +237,6 @@ class RuntrueApp(App):
         link's thread; returns the epoch of the revolutions measured after the change."""
 
         def fit(client: Any) -> None:
-            from runtrue.jobs.headless import VirtualRotorFitter
-
             rotor = client.transport.machine
             if self._fitter is None or self._fitter.machine is not rotor:
                 self._fitter = VirtualRotorFitter(rotor)
@@ -328,8 +328,6 @@ class RuntrueApp(App):
         return text
 
     def action_help(self) -> None:
-        from runtrue.tui.screens.help import HelpScreen
-
         if not isinstance(self.screen, HelpScreen):
             self.push_screen(HelpScreen())
 
@@ -338,16 +336,10 @@ class RuntrueApp(App):
         self.switch_screen(ConnectScreen())
 
     def show_machine(self) -> None:
-        from runtrue.tui.screens.machine import MachineScreen
-
         self.switch_screen(MachineScreen())
 
     def show_runs(self) -> None:
-        from runtrue.tui.screens.runs import RunsScreen
-
         self.switch_screen(RunsScreen())
 
     def show_result(self) -> None:
-        from runtrue.tui.screens.result import ResultScreen
-
         self.switch_screen(ResultScreen())

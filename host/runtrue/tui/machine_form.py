@@ -16,6 +16,7 @@ import re
 
 from runtrue.balancing.grades import grade_label, parse_grade
 from runtrue.jobs.model import Machine, Pickup, PlaneSpec, StockPiece, StripSpec
+from runtrue.validation import ValidationError, check_machine
 
 FIELDS: tuple[tuple[str, str, str], ...] = (
     # id, label, placeholder
@@ -204,7 +205,6 @@ def machine_from_fields(values: dict[str, str], machine_id: int | None = None, b
         )
     except ValueError as exc:
         raise FormError("name", str(exc)) from None
-    from runtrue.validation import ValidationError, check_machine
 
     try:
         check_machine(machine)  # the shared limits (rotor mass, speed, radius, sizes)

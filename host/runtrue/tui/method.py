@@ -1,7 +1,7 @@
 """Which balancing method a job uses, and the words the screens show for the amplitude-only one.
 
 The influence-coefficient method needs the reference mark (phase); the amplitude-only method is
-the four-run method (``runtrue.jobs.four_run_job``): a chalk mark for angles, one plane, and only
+the four-run method (``runtrue.jobs.method_four_run``): a chalk mark for angles, one plane, and only
 the 1x amplitude of each run.  Pure text, no Textual.
 """
 

@@ -4,11 +4,12 @@
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
 from runtrue.balancing.forces import force_at_speed_n as centrifugal_force_n
+from runtrue.jobs.weights import position_number
 from runtrue.readings.numbers import DEFAULT_VIB_UNIT, grade_row, percent_change_text, phase_text, vib_number
+from runtrue.readings.units import lag_deg
 from runtrue.tui.format import DEG
 from runtrue.tui.units_text import METRIC, force_text, mass_text, radius_text, unbalance_text
 
@@ -42,9 +43,9 @@ def channel_lines(result: Any, unit: str = DEFAULT_VIB_UNIT) -> list[str]:
         b = vib_number(abs(c.before), before_speed, unit)
         a = vib_number(abs(c.after), after_speed, unit) if c.after is not None else "-"
         if not four_run:  # with phase
-            b += f" {phase_text(math.degrees(math.atan2(c.before.imag, c.before.real))):>4}"
+            b += f" {phase_text(lag_deg(c.before)):>4}"
             if c.after is not None:
-                a += f" {phase_text(math.degrees(math.atan2(c.after.imag, c.after.real))):>4}"
+                a += f" {phase_text(lag_deg(c.after)):>4}"
         change = percent_change_text(abs(c.before), abs(c.after)) if c.after is not None else ""
         lines.append(f"{c.label[:20]:<20} {b:>14} {a:>14} {change:>7}")
     return lines
@@ -94,7 +95,6 @@ def weights_lines(result: Any, units: str = METRIC, machine: Any = None) -> list
     force it must hold at speed."""
     if not result.weights_on:
         return ["No weights added."]
-    from runtrue.jobs.report import position_number
 
     out = []
     for w in result.weights_on:

@@ -8,6 +8,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
+from runtrue.jobs.store import JobStore
 from runtrue.tui.live_state import LiveState
 
 MANUAL_PORT = "manual"
@@ -47,8 +48,6 @@ class Session:
     def store(self) -> Any:
         """The job store (opened on first use, so start-up stays quick)."""
         if self._store is None:
-            from runtrue.jobs.store import JobStore
-
             self._store = JobStore(self.store_path)
         return self._store
 

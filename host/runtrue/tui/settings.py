@@ -10,6 +10,9 @@ import os
 from pathlib import Path
 from typing import Any
 
+from runtrue.jobs.store import default_db_path
+from runtrue.readings.numbers import DEFAULT_VIB_UNIT, check_vib_unit
+
 SETTINGS_FILE = "settings.json"
 
 
@@ -20,7 +23,6 @@ def settings_path(store_path: str | None) -> Path | None:
         return None
     if store_path:
         return Path(store_path).expanduser().parent / SETTINGS_FILE
-    from runtrue.jobs.store import default_db_path
 
     return default_db_path().parent / SETTINGS_FILE
 
@@ -55,8 +57,6 @@ def save_setting(path: Path | None, key: str, value: Any) -> str:
 
 def saved_vib_unit(path: Path | None) -> str:
     """The vibration unit chosen last time, or the default (mm/s rms) if none or not known."""
-    from runtrue.readings.numbers import DEFAULT_VIB_UNIT, check_vib_unit
-
     value = load_settings(path).get("vib_unit")
     try:
         return check_vib_unit(str(value)) if isinstance(value, str) else DEFAULT_VIB_UNIT

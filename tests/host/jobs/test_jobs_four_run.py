@@ -23,7 +23,8 @@ from jobs_fakes import LinearRotor, polar
 from runtrue.balancing import permissible_unbalance
 from runtrue.jobs import BalanceJob, JobStore, Machine, Pickup, PlaneSpec, RunReading, StockPiece, Weight
 from runtrue.jobs.export import job_json, runs_csv
-from runtrue.jobs.four_run_job import AmplitudeOnlyJob, three_trial_angles_deg
+from runtrue.jobs.job import AmplitudeOnlyJob
+from runtrue.jobs.method_four_run import three_trial_angles_deg
 from runtrue.jobs.model import ChannelValue
 from runtrue.jobs.report import render_html
 

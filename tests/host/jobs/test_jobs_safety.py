@@ -9,7 +9,7 @@ import pytest
 from jobs_fakes import LinearRotor, polar
 
 from runtrue.jobs import BalanceJob, JobStore, Machine, PlaneSpec
-from runtrue.jobs.workflow import ForceLimitExceeded, OverSpeed, force_limit_basis, force_limit_n
+from runtrue.jobs.limits import ForceLimitExceeded, OverSpeed, force_limit_basis, force_limit_n
 
 FAN_H = [[polar(2.0e-4, 63.0)]]
 
@@ -60,7 +60,7 @@ def test_a_larger_trial_after_a_weak_one_never_exceeds_the_limit_silently(store:
     if over:  # the stock could only make a little more than the limit: it must be confirmed
         assert not job.forces_confirmed
     else:
-        assert job._force_n(again) <= limit + 1e-9
+        assert job.force_n(again) <= limit + 1e-9
     assert "force limit" in job.state.message
 
 

@@ -301,7 +301,7 @@ def test_weights_left_by_the_last_job_are_offered_and_can_stay_or_be_combined(st
     """The repeat job on a machine: what the last job left on the rotor is known; kept on, the
     reference run includes it; combined, the correction replaces it with fewer pieces."""
     from runtrue.jobs.report import render_html
-    from runtrue.jobs.workflow import weights_left_on
+    from runtrue.jobs.weights import weights_left_on
 
     m = fan(stock=[StockPiece(1.0, 12), StockPiece(2.0, 12), StockPiece(5.0, 8), StockPiece(10.0, 4)])
     m.id = store.save_machine(m)

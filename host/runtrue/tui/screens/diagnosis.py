@@ -14,6 +14,7 @@ The meter work runs in the link's worker thread (``MeterLink.call``); results co
 
 from __future__ import annotations
 
+import sqlite3
 from collections.abc import Iterable
 from typing import Any
 
@@ -22,8 +23,11 @@ from textual.containers import VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
-from runtrue.diagnosis.severity import ZONE_TABLES
+from runtrue.device.errors import MeterError
+from runtrue.diagnosis.acquire import SpeedAnalysis, analyse_speed_run, record_speed_change, take_diagnosis
+from runtrue.diagnosis.severity import ZONE_TABLES, assess
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.widgets.speedplot import spectrum_text, speed_plot_text, waveform_text
 
 CLASS_KEYS = list(ZONE_TABLES)
 
@@ -77,8 +81,6 @@ class DiagnosisScreen(StepScreen):
         return head
 
     def _body_text(self) -> str:
-        from runtrue.tui.widgets.speedplot import spectrum_text, speed_plot_text, waveform_text
-
         lines: list[str] = []
         d = self.diagnosis
         if self.view == "speed":
@@ -131,8 +133,6 @@ class DiagnosisScreen(StepScreen):
         app = self.app
 
         def job(client: Any) -> None:
-            from runtrue.device.errors import MeterError
-
             was = client.streaming
             try:
                 result = work(client)
@@ -152,8 +152,6 @@ class DiagnosisScreen(StepScreen):
         self._redraw()
 
     def _done(self, result: Any) -> None:
-        from runtrue.diagnosis.acquire import SpeedAnalysis
-
         self.busy = ""
         if isinstance(result, SpeedAnalysis):
             self.speed, self.view = result, "speed"
@@ -166,22 +164,16 @@ class DiagnosisScreen(StepScreen):
 
     def _keep_with_job(self) -> None:
         """The open job keeps each diagnosis and speed run for its report (job events)."""
-        import sqlite3
-
         try:
             self.session.record_diagnoses()
         except (OSError, ValueError, sqlite3.Error) as exc:
             self.notify(f"Shown, but not kept with the job: {exc}", title="Diagnosis", severity="warning")
 
     def action_diagnose(self) -> None:
-        from runtrue.diagnosis.acquire import take_diagnosis
-
         cls = self.machine_class
         self._start("diagnosing", lambda client: take_diagnosis(client, revs=30, machine_class=cls))
 
     def action_speed_run(self) -> None:
-        from runtrue.diagnosis.acquire import analyse_speed_run, record_speed_change
-
         machine_record = getattr(self.session, "machine", None)
         wanted = self.balancing_rpm or getattr(machine_record, "speed_rpm", None)
 
@@ -208,8 +200,6 @@ class DiagnosisScreen(StepScreen):
         self._redraw()
 
     def action_machine_class(self) -> None:
-        from runtrue.diagnosis.severity import assess
-
         i = CLASS_KEYS.index(self.machine_class)
         self.machine_class = CLASS_KEYS[(i + 1) % len(CLASS_KEYS)]
         if self.diagnosis is not None:       # the zones again for the new class (same measurement)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import cmath
 import math
 from typing import Any
 
@@ -12,6 +11,11 @@ from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Input, Label, Static
 
+from runtrue.balancing import BalancingError, convert_1x
+from runtrue.jobs.model import RunReading
+from runtrue.jobs.report import REPORT_FIELDS, position_number
+from runtrue.readings.numbers import angle_text, force_text, local_time_text, mass_text
+from runtrue.readings.units import lag_deg, phasor, wrap_deg
 from runtrue.tui.format import DEG
 
 
@@ -112,14 +116,11 @@ class ManualReadingForm(_Form):
         return out
 
     def build(self) -> Any:
-        from runtrue.jobs.model import RunReading
-
         speed = parse_float(self.value("speed"), "speed (rpm)", minimum=1.0)
         amps = [parse_float(self.value(f"amp{i}"), f"pickup {i + 1} amplitude") for i in range(len(self.labels))]
         typed_unit = self.value("unit").strip() or "g pk"
         unit, to_peak = parse_vib_unit(typed_unit)
         amps = [a * to_peak for a in amps]
-        from runtrue.balancing import BalancingError, convert_1x
 
         if self.amplitude_only:
             self.chosen_unit = typed_unit
@@ -129,16 +130,16 @@ class ManualReadingForm(_Form):
                 raise ValueError(str(exc)) from None
             return RunReading.manual(amps_g, None, speed)
         phases = [
-            parse_float(self.value(f"phase{i}"), f"pickup {i + 1} phase", minimum=None) % 360.0
+            wrap_deg(parse_float(self.value(f"phase{i}"), f"pickup {i + 1} phase", minimum=None))
             for i in range(len(self.labels))
         ]
         self.chosen_unit = typed_unit
         try:
-            in_g = [convert_1x(cmath.rect(a, math.radians(p)), unit, "g", speed) for a, p in zip(amps, phases)]
+            in_g = [convert_1x(phasor(a, p), unit, "g", speed) for a, p in zip(amps, phases)]
         except BalancingError as exc:
             raise ValueError(str(exc)) from None
         return RunReading.manual(
-            [abs(z) for z in in_g], [math.degrees(cmath.phase(z)) % 360.0 for z in in_g], speed
+            [abs(z) for z in in_g], [lag_deg(z) for z in in_g], speed
         )
 
 
@@ -162,7 +163,7 @@ class TrialWeightForm(_Form):
         mass = parse_float(self.value("mass"), "trial mass (g)")
         if mass <= 0:
             raise ValueError("trial mass must be more than 0 g")
-        return mass, parse_float(self.value("angle"), "angle", minimum=None) % 360.0
+        return mass, wrap_deg(parse_float(self.value("angle"), "angle", minimum=None))
 
 
 class ConfirmDialog(ModalScreen[bool]):
@@ -193,8 +194,6 @@ class ConfirmDialog(ModalScreen[bool]):
 
 def force_confirm_lines(checks: list[Any], limit_text: str, speed_rpm: float) -> list[str]:
     """One line per weight over the force limit (force and multiple of the limit), then the basis."""
-    from runtrue.readings.numbers import force_text, mass_text
-
     out = []
     for c in checks:
         w = c.weight
@@ -209,9 +208,6 @@ def force_confirm_lines(checks: list[Any], limit_text: str, speed_rpm: float) ->
 
 def weights_left_lines(machine: Any, job_id: int, when: str, weights: list[Any]) -> list[str]:
     """What the last job left on the rotor, one weight a line, with plane name and position."""
-    from runtrue.jobs.report import position_number
-    from runtrue.readings.numbers import angle_text, local_time_text, mass_text
-
     out = [f"Job {job_id} ({local_time_text(when)[:16]}) left these on the rotor:"]
     for w in weights:
         pos = position_number(machine, w.plane, w.angle_deg) if 1 <= w.plane <= machine.n_planes else None
@@ -270,11 +266,7 @@ class ReportDetailsForm(_Form):
         self.values = values
 
     def fields(self) -> list[tuple[str, str, str]]:
-        from runtrue.jobs.report import REPORT_FIELDS
-
         return [(key, label, self.values.get(key, "")) for key, label in REPORT_FIELDS]
 
     def build(self) -> dict[str, str]:
-        from runtrue.jobs.report import REPORT_FIELDS
-
         return {key: self.value(key) for key, _ in REPORT_FIELDS}

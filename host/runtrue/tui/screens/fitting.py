@@ -15,9 +15,12 @@ from textual.widget import Widget
 from textual.widgets import OptionList, Static
 from textual.widgets.option_list import Option
 
+from runtrue.jobs.model import VIEW_SIDE_WORDS
 from runtrue.tui.fitting_list import FitItem, fit_items
 from runtrue.tui.format import SAFETY_FIT, rotation_words
+from runtrue.tui.method import is_four_run
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.screens.dialogs import ConfirmDialog
 from runtrue.tui.units_text import radius_text
 from runtrue.tui.widgets.dial import DialData, FittingDial
 
@@ -73,8 +76,6 @@ class FittingScreen(StepScreen):
         self.query_one("#fit-plane", Static).update(
             f"{m.plane_name(self.plane)}{of}: r {radius_text(spec.radius_mm, self.rt_app.units)}, {where}"
         )
-        from runtrue.jobs.model import VIEW_SIDE_WORDS
-        from runtrue.tui.method import is_four_run
 
         self.query_one(FittingDial).show(
             DialData(m.turns_seen_from(self.plane), spec.position_angles_deg() or [], placements,
@@ -140,7 +141,6 @@ class FittingScreen(StepScreen):
         if not left:
             self.dismiss("run")
             return
-        from runtrue.tui.screens.dialogs import ConfirmDialog
 
         lines = [f"{len(left)} of {len(self.items)} item(s) not ticked off:"]
         lines += ["  " + i.text.splitlines()[0].strip() for i in left[:6]]

@@ -9,6 +9,8 @@ from textual.containers import VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
+from runtrue.jobs import ANGLE_CONVENTION, CAUTIONS
+
 STEPS = (
     "1 Connect: the meter, a simulated machine, or manual entry of readings from another instrument.",
     "2 Machine: describe it once (mass, speed, rotation, planes, positions, stock, grade, pickups).",
@@ -97,8 +99,6 @@ STEP_HELP: dict[str, tuple[str, ...]] = {
 
 
 def help_text(topic: str = "") -> str:
-    from runtrue.jobs import ANGLE_CONVENTION, CAUTIONS
-
     lines = list(STEP_HELP.get(topic, ()))
     if lines:
         lines.append("")

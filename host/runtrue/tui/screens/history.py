@@ -3,8 +3,6 @@ influence coefficients kept for the next job.  Esc closes it."""
 
 from __future__ import annotations
 
-import cmath
-import math
 from typing import Any
 
 from textual.app import ComposeResult
@@ -14,6 +12,7 @@ from textual.screen import ModalScreen
 from textual.widgets import Static
 
 from runtrue.readings.numbers import local_time_text, phase_text, vib_number, vib_text
+from runtrue.readings.units import lag_deg
 
 
 def history_lines(store: Any, machine: Any) -> list[str]:
@@ -44,7 +43,7 @@ def history_lines(store: Any, machine: Any) -> list[str]:
         for i, row in enumerate(inf.coefficients):
             cells = "  ".join(
                 f"{machine.plane_name(p)}: {vib_text(abs(z) * 100.0, inf.speed_rpm)} "
-                f"{phase_text(math.degrees(cmath.phase(z)))}"
+                f"{phase_text(lag_deg(z))}"
                 for p, z in enumerate(row, start=1)
             )
             lines.append(f"  {machine.pickup_name(i)}: {cells}")

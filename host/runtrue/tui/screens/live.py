@@ -17,6 +17,7 @@ from textual.containers import Horizontal, Vertical
 from textual.widget import Widget
 from textual.widgets import Footer, Static
 
+from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT
 from runtrue.readings.numbers import (
     DEFAULT_VIB_UNIT,
     VIB_G_PK,
@@ -30,6 +31,7 @@ from runtrue.readings.numbers import (
 from runtrue.tui.format import PHASE_NOTE, bar, time_left_text, vib_unit_of
 from runtrue.tui.method import PHASE_NOT_USED_NOTE
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.settings import save_setting
 from runtrue.tui.widgets.polar import PolarData, PolarPlot
 
 NO_REVS_S = 3.0  # say so when no revolution came for this long
@@ -244,7 +246,6 @@ class LiveScreen(StepScreen):
                 "No revolutions: is the machine running, and does the reference sensor see its mark "
                 "once per revolution (sensor LED, gap, mark contrast)?"
             )
-        from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT
 
         if live.busy and live.refused_while_taking >= FLAGGED_LIMIT:
             names = [f.replace("_", " ").lower() for f in live.last_flags]
@@ -330,8 +331,6 @@ class LiveScreen(StepScreen):
 
     def action_vib_unit(self) -> None:
         """Show vibration as mm/s rms, mm/s pk or g pk (display only: the job stores g pk)."""
-        from runtrue.tui.settings import save_setting
-
         unit = next_vib_unit(vib_unit_of(self.app))
         self.app.vib_unit = unit  # type: ignore[attr-defined]
         problem = save_setting(getattr(self.app, "settings_path", None), "vib_unit", unit)

@@ -7,6 +7,7 @@ correction.  The grade table (F3) lists typical balance quality grades by rotor 
 from __future__ import annotations
 
 import math
+import sqlite3
 from collections.abc import Iterable
 from typing import Any
 
@@ -16,10 +17,18 @@ from textual.widget import Widget
 from textual.widgets import Footer, Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
+from runtrue.balancing import permissible_unbalance
+from runtrue.balancing.grades import parse_grade
+from runtrue.jobs import BalanceJob
+from runtrue.jobs.demo_machine import machine_for_scenario
+from runtrue.jobs.weights import weights_left_on
 from runtrue.readings.numbers import local_time_text, vib_number, vib_text
 from runtrue.tui.machine_form import FIELDS, FormError, fields_from_machine, machine_from_fields
 from runtrue.tui.method import TWO_PLANES_REFUSED, is_four_run, method_hint
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.screens.dialogs import WeightsLeftDialog, weights_left_lines
+from runtrue.tui.screens.grades import GradeTable
+from runtrue.tui.screens.history import HistoryScreen, history_lines
 from runtrue.tui.units_text import IMPERIAL, METRIC, UNITS_WORDS, other_units, unbalance_text
 
 NEW = "new"
@@ -28,9 +37,6 @@ NEW = "new"
 def tolerance_text(values: dict[str, str], units: str = METRIC) -> str:
     """The permissible residual unbalance for what is typed so far (or what is missing)."""
     try:
-        from runtrue.balancing import permissible_unbalance
-        from runtrue.balancing.grades import parse_grade
-
         grade = parse_grade(values.get("grade", "") or "G6.3")
         mass = float(values.get("mass", "").replace(",", "."))
         speed = float(values.get("speed", "").replace(",", "."))
@@ -122,8 +128,6 @@ class MachineScreen(StepScreen):
             self._load(self.session.machine)
         elif port.startswith("sim:"):
             try:
-                from runtrue.jobs.demo_machine import machine_for_scenario
-
                 m = machine_for_scenario(port[4:])
                 saved = self.session.store.get_machine(m.name)
                 self._load(saved or m)
@@ -227,8 +231,6 @@ class MachineScreen(StepScreen):
         self.query_one("#hint", Static).update("\n".join(lines))
 
     def action_grades(self) -> None:
-        from runtrue.tui.screens.grades import GradeTable
-
         def chosen(grade: str | None) -> None:
             if grade:
                 self.query_one("#f_grade", Input).value = grade
@@ -246,7 +248,6 @@ class MachineScreen(StepScreen):
             return
         if machine is None:
             return
-        from runtrue.tui.screens.history import HistoryScreen, history_lines
 
         self.app.push_screen(HistoryScreen("\n".join(history_lines(self.session.store, machine))))
 
@@ -326,13 +327,11 @@ class MachineScreen(StepScreen):
         if machine.method != method:  # remembered for the next job on this machine
             machine.method = method
             store.save_machine(machine)
-        from runtrue.jobs.workflow import weights_left_on
 
         left = weights_left_on(store, machine)
         if left is None:
             self._start(machine, [], False)
             return
-        from runtrue.tui.screens.dialogs import WeightsLeftDialog, weights_left_lines
 
         job_id, when, weights = left
 
@@ -346,8 +345,6 @@ class MachineScreen(StepScreen):
                                                can_combine=not amplitude_only), answered)
 
     def _start(self, machine: Any, weights_at_start: list[Any], combine: bool, move: bool = False) -> None:
-        from runtrue.jobs import BalanceJob
-
         store = self.session.store
         self.session.machine = machine
         try:
@@ -366,16 +363,12 @@ class MachineScreen(StepScreen):
 
     def _keep_diagnoses(self) -> None:
         """Diagnoses taken before the job started are its "before" (job events, for the report)."""
-        import sqlite3
-
         try:
             self.session.record_diagnoses()
         except (OSError, ValueError, sqlite3.Error) as exc:
             self.notify(f"The diagnosis is not kept with the job: {exc}", title="Diagnosis", severity="warning")
 
     def _resume(self, job_id: int) -> None:
-        from runtrue.jobs import BalanceJob
-
         try:
             job = BalanceJob.resume(self.session.store, job_id)
         except ValueError as exc:

@@ -15,10 +15,13 @@ from textual.containers import VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
+from runtrue.jobs.export import job_json, runs_csv
+from runtrue.jobs.report import render_html, report_details, save_report_details
 from runtrue.tui.format import ANGLE_NOTE, PHASE_NOTE, vib_unit_of
 from runtrue.tui.method import CHALK_ANGLE_NOTE, PHASE_NOT_USED_NOTE
 from runtrue.tui.result_text import channel_lines, is_four_run_result, method_lines, plane_lines, verdict, weights_lines
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.screens.dialogs import ReportDetailsForm
 
 
 def _slug(name: str) -> str:
@@ -97,8 +100,6 @@ class ResultScreen(StepScreen):
         return folder / f"job-{job.job_id}-{_slug(job.machine.name)}{suffix}"
 
     def action_report(self) -> None:
-        from runtrue.jobs.report import render_html
-
         job = self.session.job
         if job is None:
             return
@@ -113,8 +114,6 @@ class ResultScreen(StepScreen):
         self.notify(f"Report written: {path}", title="Report", timeout=6)
 
     def action_export(self) -> None:
-        from runtrue.jobs.export import job_json, runs_csv
-
         job = self.session.job
         if job is None:
             return
@@ -132,9 +131,6 @@ class ResultScreen(StepScreen):
     def action_details(self) -> None:
         """Technician, site, asset tag, work order and notes for the report; technician and
         site start from the machine's previous job."""
-        from runtrue.jobs.report import report_details, save_report_details
-        from runtrue.tui.screens.dialogs import ReportDetailsForm
-
         job = self.session.job
         if job is None:
             return

@@ -19,11 +19,17 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
+from runtrue.jobs import RunReading
+from runtrue.jobs.limits import ForceLimitExceeded, OverSpeed, force_limit_basis
+from runtrue.jobs.results import ForceCheck
 from runtrue.readings.numbers import DEG, phase_text, vib_number, vib_text
 from runtrue.tui.fitting_list import imperial_lines
 from runtrue.tui.format import SAFETY_FIT, SAFETY_START, vib_unit_of
 from runtrue.tui.method import is_four_run
 from runtrue.tui.screens.base import StepScreen
+from runtrue.tui.screens.dialogs import ConfirmDialog, ManualReadingForm, TrialWeightForm, force_confirm_lines
+from runtrue.tui.screens.fitting import FittingScreen
+from runtrue.tui.screens.live import LiveScreen
 from runtrue.tui.unbalance_split import static_couple_lines
 
 RUN_LETTER = {"reference": "R", "trial": "T", "correction": "C", "trim": "t"}
@@ -248,8 +254,6 @@ class RunsScreen(StepScreen):
             self._confirm_forces(then=self.action_reading)
             return
         if s.manual:
-            from runtrue.tui.screens.dialogs import ManualReadingForm
-
             speed = job.runs[-1].reading.speed_rpm if job.runs else job.machine.speed_rpm
             form = ManualReadingForm([p.label for p in job.machine.pickups], speed, s.manual_unit,
                                      amplitude_only=is_four_run(job))
@@ -268,7 +272,6 @@ class RunsScreen(StepScreen):
             self._fit_on_simulator(job.planned_weights())
         # only revolutions measured after every change asked for so far (channels, weights)
         s.live.reset(s.link.latest_epoch)
-        from runtrue.tui.screens.live import LiveScreen
 
         four_run = is_four_run(job)
         self.app.push_screen(
@@ -289,9 +292,6 @@ class RunsScreen(StepScreen):
 
     def _confirm_forces(self, then: Any) -> None:
         """Ask before a run whose weights pull harder than the force limit; ``then`` on yes."""
-        from runtrue.jobs.workflow import force_limit_basis
-        from runtrue.tui.screens.dialogs import ConfirmDialog, force_confirm_lines
-
         job = self.session.job
         lines = force_confirm_lines(job.weights_over_limit(), force_limit_basis(job.machine), job.machine.speed_rpm)
 
@@ -308,18 +308,13 @@ class RunsScreen(StepScreen):
             return
         job = self.session.job
         if is_four_run(job):
-            from runtrue.jobs import RunReading
-
             rr = RunReading.from_reading(reading)
             if rr.has_phase:  # the meter's phase is not part of this method: keep the amplitudes only
                 reading = rr.amplitudes_only()
-        from runtrue.jobs.workflow import OverSpeed
 
         try:
             run = job.record_run(reading, over_speed_confirmed=over_speed_confirmed)
         except OverSpeed as exc:
-            from runtrue.tui.screens.dialogs import ConfirmDialog
-
             lines = [f"Measured {exc.speed_rpm:.0f} rpm; the machine's rated speed is {exc.rated_rpm:g} rpm.",
                      "STOP the machine. Record this run only if the maker allows this speed."]
 
@@ -344,8 +339,6 @@ class RunsScreen(StepScreen):
         self.redraw()
 
     def action_fitting(self) -> None:
-        from runtrue.tui.screens.fitting import FittingScreen
-
         def back(choice: str | None) -> None:
             if choice == "run":  # everything ticked off (or confirmed): take the reading
                 self.action_reading()
@@ -358,18 +351,14 @@ class RunsScreen(StepScreen):
         if t is None:
             return
         t = getattr(job, "early_larger_trial", None) or t  # four-run: the larger trial after a weak run 1
-        from runtrue.tui.screens.dialogs import TrialWeightForm
 
         def chosen(value: tuple[float, float] | None) -> None:
             if value is None:
                 return
-            from runtrue.jobs.workflow import ForceCheck, ForceLimitExceeded, force_limit_basis
 
             try:
                 job.set_trial(value[0], value[1])
             except ForceLimitExceeded as exc:
-                from runtrue.tui.screens.dialogs import ConfirmDialog, force_confirm_lines
-
                 check = ForceCheck(exc.weight, exc.force_n, exc.limit_n)
                 lines = force_confirm_lines([check], force_limit_basis(job.machine), job.machine.speed_rpm)
 

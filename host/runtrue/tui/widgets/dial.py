@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 from rich.text import Text
 from textual.widget import Widget
 
+from runtrue.readings.units import wrap_deg
 from runtrue.tui.widgets.braille import BrailleCanvas, new_canvas
 from runtrue.tui.widgets.polar import canvas_text
 
@@ -34,7 +35,7 @@ class DialData:
 
 def screen_angle_deg(angle_deg: float, rotation: str) -> float:
     """Clockwise-from-top screen angle of a weight at ``angle_deg`` against rotation."""
-    return (-angle_deg if rotation == "cw" else angle_deg) % 360.0
+    return wrap_deg(-angle_deg if rotation == "cw" else angle_deg)
 
 
 def draw_dial(data: DialData, width_chars: int, height_chars: int) -> BrailleCanvas:

@@ -16,6 +16,7 @@ from typing import Any
 
 import numpy as np
 
+from runtrue.diagnosis.severity import band_hz
 from runtrue.tui.widgets import braille as _braille
 from runtrue.tui.widgets.braille import nice_full_scale
 
@@ -129,8 +130,6 @@ def spectrum_text(spec: Any, speed_rpm: float, *, width: int = 80, rows: int = 7
     """Velocity spectrum (mm/s pk) from the severity band's low edge (``band_lo_hz``, default
     that of ISO 20816-3 for the speed) up to ``fmax_hz`` (default 10.5 orders), running-speed
     orders marked 1-9 above their lines, the window named."""
-    from runtrue.diagnosis.severity import band_hz
-
     lo = band_hz(speed_rpm)[0] if band_lo_hz is None else band_lo_hz
     label_w = 6
     plot_w = width - label_w - 1
