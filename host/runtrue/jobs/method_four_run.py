@@ -48,13 +48,17 @@ from runtrue.balancing import BalancingError, Solution, suggest_trial_weight
 from runtrue.balancing.four_run import (
     MIN_TRIAL_EFFECT_FRACTION,
     amplitude_only,
+    amplitude_sd,
+    first_trial_look,
+    loudest_pickup,
     plan_amplitude_only,
-    residual_upper_bound_gmm,
+    residual_check,
+    trial_effect,
 )
 from runtrue.balancing.grades import parse_grade
 from runtrue.jobs.fitting import plan_plane, trial_weight
 from runtrue.jobs.limits import capped_trial_mass, within_force_limit
-from runtrue.jobs.method import UNKNOWN_TRIAL_SCALE, GradeOutcome, next_trial_scale
+from runtrue.jobs.method import GradeOutcome, next_trial_scale
 from runtrue.jobs.model import Machine, RunRecord, Weight
 from runtrue.jobs.results import FOUR_RUN_METHOD, CorrectionPlan, TrialCheck
 from runtrue.jobs.weights import is_trial, plane_sums, trial_label
@@ -100,33 +104,6 @@ def three_trial_angles_deg(machine: Machine, plane: int, first_deg: float) -> li
         left = [a for a in usable if all(angle_between_deg(a, c) > 1e-6 for c in chosen)]
         chosen.append(min(left, key=lambda a: (angle_between_deg(a, want), a)))
     return chosen
-
-
-def loudest_pickup(run: RunRecord) -> int:
-    """The pickup (0-based) with the largest 1x amplitude in ``run``: the one the method judges on."""
-    amps = [c.amp_g for c in run.reading.channels]
-    return max(range(len(amps)), key=lambda i: amps[i])
-
-
-def amplitude_sd_g(spread_g: float) -> float:
-    """The standard deviation of a reading's amplitude from its spread (a 2-D scatter, so over
-    the square root of 2)."""
-    return spread_g / math.sqrt(2.0)
-
-
-def residual_check(amp_g: float, spread_g: float, h_mag: float, h_sd: float | None,
-                   permissible_gmm: float) -> tuple[float, float, bool]:
-    """A check run's residual unbalance estimated from its amplitude alone (``amp / |H|``), the
-    margin to its upper 95 % bound (the amplitude's scatter AND the fitted ``|H|``'s
-    uncertainty) and whether that bound is within ``permissible_gmm``."""
-    residual = amp_g / h_mag
-    upper = residual_upper_bound_gmm(amp_g, amplitude_sd_g(spread_g), h_mag, h_sd)
-    return residual, upper - residual, upper <= permissible_gmm
-
-
-def trial_effect_ratio(h_mag: float, trial_gmm: float, reference_amp_g: float) -> float:
-    """The trial's effect ``|H|·|T|`` as a fraction of the cycle's reference amplitude."""
-    return h_mag * trial_gmm / reference_amp_g if reference_amp_g > 0 else math.inf
 
 
 class FourRunMethod:
@@ -287,8 +264,8 @@ class FourRunMethod:
         self, run: RunRecord, pick: int, h_mag: float, h_sd: float | None
     ) -> tuple[list[float], list[float], bool]:
         ch = run.reading.channels[pick]
-        residual, margin, passed = residual_check(ch.amp_g, ch.spread_g, h_mag, h_sd, self.job.plane_permissible(1))
-        return [residual], [margin], passed
+        check = residual_check(ch.amp_g, amplitude_sd(ch.spread_g), h_mag, h_sd, self.job.plane_permissible(1))
+        return [check.residual_gmm], [check.uncertainty_gmm], check.passed
 
     def _cycle_solution(self, base: int, end: int) -> tuple[Solution, int]:
         """The four-run solution from runs ``base`` (the cycle's reference) up to ``end`` and the
@@ -296,11 +273,11 @@ class FourRunMethod:
         relative to the cycle's reference run."""
         runs = self.job.runs[base:end]
         ref = runs[0]
-        pick = loudest_pickup(ref)
+        pick = loudest_pickup([c.amp_g for c in ref.reading.channels])
         u0 = plane_sums(ref.weights).get(1, 0j)
         trials = [plane_sums(r.weights).get(1, 0j) - u0 for r in runs]
         amps = [[c.amp_g for c in r.reading.channels] for r in runs]
-        sds = [[amplitude_sd_g(c.spread_g) for c in r.reading.channels] for r in runs]
+        sds = [[amplitude_sd(c.spread_g) for c in r.reading.channels] for r in runs]
         sol = amplitude_only(amps, trials, self.job.machine.planes[0].radius_mm, plane=1, amp_sd=sds)
         return sol, pick
 
@@ -329,7 +306,7 @@ class FourRunMethod:
             # never above the first cycle's trial.
             ch = ref.reading.channels[pick]
             limit = abs(first.unbalance_gmm) if first is not None else max(LATER_TRIAL_MULTIPLE * u_est, perm)
-            sd = amplitude_sd_g(ch.spread_g) if math.isfinite(ch.spread_g) else 0.0
+            sd = amplitude_sd(ch.spread_g) if math.isfinite(ch.spread_g) else 0.0
             plan = plan_amplitude_only(ch.amp_g, sd, h_mag, perm, limit, max_angles=3)
             mass, angle = plan.trial_gmm / spec.radius_mm, None
             message = plan.rule
@@ -368,21 +345,18 @@ class FourRunMethod:
         90 degrees from the heavy spot - the user may fit a larger one now instead of two more runs."""
         job, s = self.job, self.job.state
         ref = job.runs[self._cycle_base]
-        pick = loudest_pickup(ref)
-        a0, a1 = ref.reading.channels[pick].amp_g, run.reading.channels[pick].amp_g
-        if a0 <= 0:
+        pick = loudest_pickup([c.amp_g for c in ref.reading.channels])
+        look = first_trial_look(ref.reading.channels[pick].amp_g, run.reading.channels[pick].amp_g)
+        if look is None:
             return
-        frac = abs(a1 - a0) / a0
-        pct = (a1 / a0 - 1.0) * 100.0
-        words = f"{job.machine.pickup_name(pick)}: {trial_change_words(pct, 0.0, with_phase=False)}"
+        words = f"{job.machine.pickup_name(pick)}: {trial_change_words(look.percent, 0.0, with_phase=False)}"
         self._early_larger = None
-        if frac >= MIN_TRIAL_EFFECT_FRACTION:
+        if look.large_enough:
             s.message = f"Trial run 1 GOOD - {words}: the trial is large enough; go on with trial run 2."
             return
         t = s.trial
         assert t is not None
-        scale = min(4.0, 1.2 * MIN_TRIAL_EFFECT_FRACTION / max(frac, 0.05))
-        mass, note = capped_trial_mass(job.machine, t.mass_g * scale, t.mass_g, t.radius_mm)
+        mass, note = capped_trial_mass(job.machine, t.mass_g * look.suggested_scale, t.mass_g, t.radius_mm)
         held = f" (held at the {job.force_limit_n:.3g} N force limit)" if note else ""
         self._early_larger = Weight(1, round(mass, 1), t.angle_deg, t.radius_mm, trial_label(1))
         s.message = (
@@ -416,9 +390,8 @@ class FourRunMethod:
         v0 = job.runs[base].reading.channels[pick].amp_g
         u0 = plane_sums(job.runs[base].weights).get(1, 0j)
         t_max = max(abs(plane_sums(r.weights).get(1, 0j) - u0) for r in job.runs[base:])
-        ratio = trial_effect_ratio(h_mag, t_max, v0)
-        ok = ratio >= MIN_TRIAL_EFFECT_FRACTION
-        scale = MIN_TRIAL_EFFECT_FRACTION / ratio if ratio > 0 else UNKNOWN_TRIAL_SCALE
+        effect = trial_effect(h_mag, t_max, v0)
+        ratio, ok, scale = effect.ratio, effect.ok, effect.suggested_scale
         msg = (
             f"the trial weight changed the amplitude by about {ratio:.0%} of the cycle's reference amplitude"
             f" (at least {MIN_TRIAL_EFFECT_FRACTION:.0%} is needed)"
