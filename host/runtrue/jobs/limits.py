@@ -14,7 +14,7 @@ import math
 from collections.abc import Callable
 
 from runtrue.balancing import centrifugal_force_n
-from runtrue.balancing.trial import STANDARD_GRAVITY_M_S2, TRIAL_FORCE_CAP_FRACTION
+from runtrue.balancing.trial import TRIAL_FORCE_CAP_FRACTION, trial_force_limit_n
 from runtrue.jobs.model import Machine, Weight
 
 #: Runs more than 5 % apart in speed get a warning (common practice).
@@ -24,7 +24,7 @@ SPEED_TOLERANCE = 0.05
 def force_limit_n(machine: Machine) -> float:
     """The largest centrifugal force a weight may pull with before the user must confirm it:
     ``TRIAL_FORCE_CAP_FRACTION`` (30 %) of the rotor's weight share per plane, in newtons."""
-    return TRIAL_FORCE_CAP_FRACTION * machine.rotor_mass_kg * STANDARD_GRAVITY_M_S2 / machine.n_planes
+    return trial_force_limit_n(machine.rotor_mass_kg, machine.n_planes)
 
 
 def force_limit_basis(machine: Machine) -> str:
