@@ -13,8 +13,8 @@ from __future__ import annotations
 from typing import Any
 
 from runtrue.balancing import BalancingError
-from runtrue.balancing.model import Weight
 from runtrue.balancing.static_couple import split_kind, static_couple
+from runtrue.jobs.engine import engine_weight
 from runtrue.readings.units import lag_deg
 from runtrue.tui.format import DEG
 from runtrue.tui.units_text import METRIC, unbalance_text
@@ -30,7 +30,7 @@ def static_couple_lines(plan: Any, units: str = METRIC) -> list[str]:
     30°", "couple ±88 g·mm @ 200°"]``; no lines for anything else (one plane, no plan)."""
     if plan is None or len(plan.planes) != 2:
         return []
-    ws = [Weight(pc.plane, pc.correction.mass_g, pc.correction.angle_deg, pc.correction.radius_mm) for pc in plan.planes]
+    ws = [engine_weight(pc.correction) for pc in plan.planes]
     try:
         sc = static_couple(ws)
     except BalancingError:
