@@ -22,6 +22,8 @@ import sys
 from collections.abc import Callable
 from typing import Any, NoReturn
 
+from runtrue import plugins
+
 # Sub-command name -> module.  Order is the order shown in --help.
 COMMANDS: dict[str, str] = {
     "demo": "runtrue.cli.demo",
@@ -131,6 +133,7 @@ def main(argv: list[str] | None = None) -> int:
     traceback.  An unexpected error is logged with its traceback (``runtrue.errorlog``)."""
     command: str | None = None
     try:
+        plugins.load()
         parser, modules = build_parser()
         args = parser.parse_args(argv)
         command = args.command

@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from runtrue.deploy.install import OpenClient, Out, _default_open_client, _describe, local_firmware_version
+from runtrue.device.admit import counts
 from runtrue.device.advice import FLAG_ADVICE
 
 STREAM_REVS = 20
@@ -116,7 +117,7 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
                        and set(r.flag_names) <= {"first", "speed jump"})]
     if settled:
         revs = settled
-    usable = [r for r in revs if r.usable]
+    usable = [r for r in revs if counts(r)]
     flagged: dict[str, int] = {}
     for r in revs:
         for name in r.flag_names:

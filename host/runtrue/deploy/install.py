@@ -85,7 +85,7 @@ def identify_once(port: str, open_client: OpenClient, timeout_s: float) -> tuple
 def request_repl(port: str, open_client: OpenClient, out: Out) -> Any | None:
     """Identify a running meter and send it the REPL command; returns its INFO (or None)."""
     from runtrue.device import MeterError
-    from runtrue.protocol.messages import CMD_REPL
+    from runtrue.protocol.commands import CMD_REPL
     from runtrue.transport import PortError, TransportLost
 
     try:

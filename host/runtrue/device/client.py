@@ -22,15 +22,13 @@ import time
 from collections.abc import Callable
 from typing import Any
 
-from runtrue.device import revfit
+import runtrue.device.revfit as revfit
+from runtrue.device.admit import counts, why_left_out
 from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning, link_diagnosis
 from runtrue.device.capture import CaptureError, RawAssembler, RawCapture
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.device.sequence import DUPLICATE, RESTART, STALE, SequenceTracker
-from runtrue.protocol.errors import MessageError
-from runtrue.protocol.frames import FrameDecoder
-from runtrue.protocol.messages import (
-    ACK,
+from runtrue.protocol.commands import (
     CMD_IDENTIFY,
     CMD_RAW,
     CMD_SELFTEST,
@@ -42,28 +40,34 @@ from runtrue.protocol.messages import (
     CMD_STATUS,
     CMD_STOP,
     COMMAND_NAMES,
-    INFO,
-    Ack,
     CommandEncoder,
-    DeviceInfo,
-    InfoAssembler,
-    InfoPart,
-    Message,
-    RawPart,
-    Revolution,
-    RevStats,
-    SelfTest,
-    Status,
-    Text,
-    parse_message,
     raw_payload,
     set_channels_payload,
     set_edge_payload,
     set_line_payload,
     set_rate_payload,
 )
-from runtrue.readings.admit import counts, why_left_out
+from runtrue.protocol.errors import MessageError
+from runtrue.protocol.frames import FrameDecoder
+from runtrue.protocol.messages import (
+    ACK,
+    INFO,
+    Ack,
+    DeviceInfo,
+    InfoAssembler,
+    InfoPart,
+    Message,
+    Revolution,
+    RevStats,
+    SelfTest,
+    Status,
+    Text,
+    parse_message,
+)
+from runtrue.protocol.raw import RawPart
+from runtrue.transport import open_transport
 from runtrue.transport.base import Transport, TransportLost
+from runtrue_fw import basis
 
 READ_CHUNK = 4096
 POLL_S = 0.05
@@ -334,10 +338,10 @@ class MeterClient:
         if self.info is None and not self._wait(lambda: self.info is not None, self.command_timeout_s):
             raise MeterError(f"the meter on {self.port} acknowledged IDENTIFY but sent no INFO")
         assert self.info is not None
-        if self.info.basis != revfit.basis.BASIS_ID:
+        if self.info.basis != basis.BASIS_ID:
             raise MeterError(
                 f"the meter on {self.port} sums on basis {self.info.basis or 'unknown'!r}, this runtrue "
-                f"fits {revfit.basis.BASIS_ID!r}: update the firmware: runtrue device install")
+                f"fits {basis.BASIS_ID!r}: update the firmware: runtrue device install")
         return self.info
 
     def start(self) -> None:
@@ -502,7 +506,5 @@ def open_meter(
 ) -> MeterClient:
     """Open ``port`` (a serial device, or ``sim:NAME``) and return a client (not yet identified).
     ``spy``: a file to hex-dump the traffic into."""
-    from runtrue.transport import open_transport
-
     transport = open_transport(port, seed=seed, realtime=realtime, spy=spy)
     return MeterClient(transport, port, command_timeout_s=command_timeout_s)

@@ -93,8 +93,8 @@ def record_speed_change(client: Any, *, from_rpm: float | None = None, to_rpm: f
     (default: the scenario's coast-down).  Real meter: the recording waits for the user to change
     the speed, and ends at ``to_rpm`` or when revolutions stop coming for ``timeout_s``.
     ``on_rev(speed_rpm)`` is called for each revolution (progress)."""
+    from runtrue.device.admit import counts
     from runtrue.device.errors import NoRevolutions
-    from runtrue.readings.admit import counts
 
     machine = getattr(client.transport, "machine", None)
     if not client.streaming:

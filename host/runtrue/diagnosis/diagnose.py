@@ -155,7 +155,7 @@ def diagnose(revs: Sequence[Any], capture: Any = None, machine_class: str = "cla
     ``pair``: two physical channels on one bearing, 90 deg apart; ``linearity``: (reference,
     expected, measured) 1x of the loudest pickup after a known weight (see ``verdict.judge``);
     ``line_hz``: the mains frequency (INFO's), so that hum is counted as electrical."""
-    from runtrue.readings.admit import counts
+    from runtrue.device.admit import counts
 
     good = [r for r in revs if counts(r)]
     if len(good) < 3:

@@ -1,6 +1,6 @@
 """Vector averaging of revolutions into a reading (DEVELOPERS.md, "Readings").
 
-Only revolutions that count (:func:`runtrue.readings.admit.counts`: nothing flagged that
+Only revolutions that count (:func:`runtrue.device.admit.counts`: nothing flagged that
 disqualifies them, and not the FIRST after START) are averaged, and only those with the channel
 set of the first that counts.  Per channel:
 
@@ -36,8 +36,8 @@ from typing import Any
 
 import numpy as np
 
+from runtrue.device.admit import counts
 from runtrue.protocol.messages import Revolution, line_hum_warning
-from runtrue.readings.admit import counts
 from runtrue.readings.confidence import ConfidenceEllipse, confidence_ellipse, confidence_radius
 from runtrue.readings.units import amp_phase
 

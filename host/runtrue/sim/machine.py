@@ -35,6 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from runtrue.readings.units import phasor
 from runtrue.sim.frontend import lowpass_response
 from runtrue.sim.rotor import G0_M_PER_S2, pickup_acceleration_phasors
 from runtrue.sim.scenarios import Scenario, get_scenario
@@ -53,7 +54,7 @@ class Weight:
 
     @property
     def unbalance_gmm(self) -> complex:
-        return self.mass_g * self.radius_mm * cmath.exp(1j * math.radians(self.angle_deg))
+        return phasor(self.mass_g * self.radius_mm, self.angle_deg)
 
 
 @dataclass

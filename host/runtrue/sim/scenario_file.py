@@ -17,8 +17,9 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
+from runtrue.readings.units import phasor
 from runtrue.sim.rotor import RigidRotor, support_for
-from runtrue.sim.scenarios import FrontEnd, Pickup, Plane, Scenario, SpeedStep
+from runtrue.sim.scenario import FrontEnd, Pickup, Plane, Scenario, SpeedStep
 
 SUFFIXES = (".toml", ".json")
 
@@ -219,8 +220,6 @@ def scenario_from_dict(data: dict[str, Any], source: str = "scenario") -> Scenar
                            what="the number of equally spaced holes, or \"continuous\" for a groove or rim")
         amount = pl.number("unbalance_gmm", "the initial unbalance in g.mm", low=0.0)
         angle = pl.number("unbalance_deg", "its angle from the mark against rotation, deg", default=0.0)
-        import cmath
-
         planes.append(Plane(
             pl.text("name", "a name for the plane, e.g. \"drive-end disc\""),
             pl.number("axial_mm", "the plane's axial position in mm"),
@@ -228,7 +227,7 @@ def scenario_from_dict(data: dict[str, Any], source: str = "scenario") -> Scenar
             positions,
             pl.text("positions_note", "a note on the fixing positions", default="continuous" if positions is None
                     else f"{positions} holes"),
-            complex(amount * cmath.exp(1j * math.radians(angle))),
+            phasor(amount, angle),
             pl.number("first_position_deg", "the angle of position 0 from the mark, deg", default=0.0),
         ))
         pl.done()
