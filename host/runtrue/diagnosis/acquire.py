@@ -25,6 +25,7 @@ from runtrue.diagnosis.resonance import (
     speed_curve,
     warning_text,
 )
+from runtrue.readings.units import angle_between_deg
 
 CAPTURE_FRAMES = 4096
 
@@ -37,7 +38,7 @@ def same_bearing_pairs(machine: Any, channels: list[int]) -> tuple[int, int] | N
     for i in channels:
         for j in channels:
             if i < j < len(pk) and abs(pk[i].axial_mm - pk[j].axial_mm) < 1.0:
-                d = abs((pk[i].angle_deg - pk[j].angle_deg + 180.0) % 360.0 - 180.0)
+                d = angle_between_deg(pk[i].angle_deg, pk[j].angle_deg)
                 if 60.0 <= d <= 120.0:
                     return (i, j)
     return None

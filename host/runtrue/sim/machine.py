@@ -5,7 +5,7 @@ ADC in :mod:`runtrue.sim.frontend`.  This module adds time: the speed (nominal, 
 wander as an Ornstein-Uhlenbeck process (G. E. Uhlenbeck and L. S. Ornstein, Phys. Rev. 36,
 1930), ramps and coast-down), the rotor angle, the pickups' signals and the reference edges.
 
-Geometry (brief.md, "Conventions"; built from it, not from the meter's convention): the rotor
+Geometry (the physical convention of :mod:`runtrue.sim.rotor`, not the meter's convention): the rotor
 angle ``Theta(t)`` is zero when the mark's leading edge passes the reference sensor; a point at
 rotor angle theta (from the mark, against rotation) passes a fixed sensor theta/Omega later.  The
 unbalance is a force rotating with the rotor; each pickup reads ``Re(P e^{j Theta})`` with P from

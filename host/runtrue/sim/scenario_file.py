@@ -239,7 +239,7 @@ def scenario_from_dict(data: dict[str, Any], source: str = "scenario") -> Scenar
             order = h.get("order", _order, what="the running-speed order, a whole number 2 to 8")
             amp = h.number("g", "its amplitude at running speed, g peak", low=0.0)
             lag = h.number("lag_deg", "its phase lag, deg of that order's cycle", default=0.0)
-            harmonics.append((order, complex(amp * math.cos(math.radians(lag)), amp * math.sin(math.radians(lag)))))
+            harmonics.append((order, phasor(amp, lag)))
             h.done()
         hum = []
         for h in pk.subs("line_hum"):

@@ -22,7 +22,7 @@ from textual.containers import VerticalScroll
 from textual.widget import Widget
 from textual.widgets import Static
 
-from runtrue.diagnosis.severity import ZONE_TABLES
+from runtrue.diagnosis.zones import ZONE_TABLES
 from runtrue.tui.screens.base import StepScreen
 
 CLASS_KEYS = list(ZONE_TABLES)
