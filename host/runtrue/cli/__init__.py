@@ -51,7 +51,7 @@ EXIT_FAILURE = 2
 class _Parser(argparse.ArgumentParser):
     """argparse with its errors turned into one line (instead of usage plus a line) and exit 2."""
 
-    def error(self, message: str) -> NoReturn:  # type: ignore[override]
+    def error(self, message: str) -> NoReturn:
         raise UsageError(f"{message}; see `{self.prog} --help`")
 
 
@@ -101,7 +101,7 @@ def build_parser() -> tuple[argparse.ArgumentParser, dict[str, object]]:
             if exc.name == module_name:
                 continue  # sub-command not built yet
             raise
-        module.register(sub)  # type: ignore[attr-defined]
+        module.register(sub)
         modules[name] = module
     return parser, modules
 

@@ -24,7 +24,7 @@ from typing import Any
 
 import runtrue.device.revfit as revfit
 from runtrue.device.admit import counts, why_left_out
-from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning, link_diagnosis
+from runtrue.device.advice import FLAGGED_LIMIT, envelope_warning, flagged_advice, link_diagnosis, no_answer_text
 from runtrue.device.capture import CaptureError, RawAssembler, RawCapture
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.device.sequence import DUPLICATE, RESTART, STALE, SequenceTracker
@@ -72,18 +72,6 @@ from runtrue_fw import basis
 READ_CHUNK = 4096
 POLL_S = 0.05
 REV_QUEUE_MAX = 100_000  # about 30 min at 3,600 rpm; the oldest go first beyond that
-
-
-def _no_answer_text(port: str, cause: str) -> str:
-    return f"no answer from the meter on {port}: {cause}"
-
-
-def _flagged_advice(port: str, n_flagged: int, n_good: int, n_wanted: int, flagged: dict[str, int]) -> str:
-    names = sorted(flagged, key=lambda k: -flagged[k])
-    seen = ", ".join(f"{k} x{flagged[k]}" for k in names) or "unknown flags"
-    advice = "; ".join(f"{k}: {FLAG_ADVICE[k]}" for k in names if k in FLAG_ADVICE) or "run `runtrue device check`"
-    return (f"{n_flagged} revolutions from the meter on {port} were flagged and left out "
-            f"({n_good} of {n_wanted} usable so far; {seen}): {advice}")
 
 
 class MeterClient:
@@ -318,7 +306,7 @@ class MeterClient:
                                  f"{self.decoder.last_error}")
             cause = self.diagnose(counts_before, revolutions=1, waited_s=timeout)
             if self._frames_seen == frames_before and self.decoder.frames_ok == 0:
-                raise NoAnswer(_no_answer_text(self.port, cause))
+                raise NoAnswer(no_answer_text(self.port, cause))
             raise MeterError(
                 f"the meter on {self.port} did not acknowledge {name} within {timeout:g} s "
                 f"(frames lost so far: {self.lost_frames}): {cause}"
@@ -475,7 +463,7 @@ class MeterClient:
                 for name in why_left_out(rev):
                     flagged[name] = flagged.get(name, 0) + 1
                 if n_flagged >= limit:
-                    raise AllRevolutionsFlagged(_flagged_advice(self.port, n_flagged, len(out), n, flagged), flagged)
+                    raise AllRevolutionsFlagged(flagged_advice(self.port, n_flagged, len(out), n, flagged), flagged)
                 continue
             out.append(rev)
         return out

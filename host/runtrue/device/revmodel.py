@@ -115,7 +115,8 @@ def cos_q14(a: np.ndarray) -> np.ndarray:
     t = _table()
     i = a >> 20
     v = t[i]
-    return v + (((t[i + 1] - v) * ((a >> 6) & 0x3FFF)) >> 14)
+    out: np.ndarray = v + (((t[i + 1] - v) * ((a >> 6) & 0x3FFF)) >> 14)  # numpy's operators are untyped
+    return out
 
 
 def sin_q14(a: np.ndarray) -> np.ndarray:

@@ -111,9 +111,10 @@ def record_speed_change(client: Any, *, from_rpm: float | None = None, to_rpm: f
     start_rpm = start.speed_rpm
     up = to_rpm is not None and to_rpm > start_rpm
     floor = to_rpm if to_rpm is not None else 0.2 * start_rpm
+    ceiling = to_rpm if to_rpm is not None else math.inf  # reached only when running up
     if machine is not None:
         if up:
-            machine.set_speed_rpm(float(to_rpm), rate_rpm_per_s or machine.scenario.coast_down_rpm_per_s)
+            machine.set_speed_rpm(ceiling, rate_rpm_per_s or machine.scenario.coast_down_rpm_per_s)
         elif rate_rpm_per_s is not None or to_rpm is not None:
             machine.set_speed_rpm(float(to_rpm or 0.0), rate_rpm_per_s or machine.scenario.coast_down_rpm_per_s)
         else:
@@ -133,7 +134,7 @@ def record_speed_change(client: Any, *, from_rpm: float | None = None, to_rpm: f
             run.one_x_g.append(list(rev.h1))
             if on_rev is not None:
                 on_rev(s)
-            if (up and s >= float(to_rpm)) or (not up and s <= floor):
+            if (up and s >= ceiling) or (not up and s <= floor):
                 break
     except KeyboardInterrupt:
         run.interrupted = True          # the user ended the recording: keep what is recorded

@@ -96,4 +96,4 @@ class SteadinessDetector:
         return self.state()
 
     def state(self) -> Steadiness:
-        return steadiness(list(self._revs), window=self.window, **self.limits)  # type: ignore[arg-type]
+        return steadiness(list(self._revs), window=self.window, **self.limits)

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import json
 import math
+import sys
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -128,10 +129,10 @@ def _read_text(path: Path) -> dict[str, Any]:
         if suffix == ".json":
             data = json.loads(raw.decode("utf-8"))
         elif suffix == ".toml":
-            try:
+            if sys.version_info >= (3, 11):
                 import tomllib
-            except ModuleNotFoundError:  # Python 3.10: the same parser from PyPI (pyproject.toml)
-                import tomli as tomllib  # type: ignore[no-redef]
+            else:  # Python 3.10: the same parser from PyPI (pyproject.toml)
+                import tomli as tomllib
 
             data = tomllib.loads(raw.decode("utf-8"))
         else:
