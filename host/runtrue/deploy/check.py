@@ -14,8 +14,8 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from runtrue.deploy.install import OpenClient, Out, _default_open_client, _describe, local_firmware_version
-from runtrue.device.admit import counts
 from runtrue.device.advice import FLAG_ADVICE
+from runtrue.protocol.admit import counts
 
 STREAM_REVS = 20
 STREAM_TIMEOUT_S = 3.0

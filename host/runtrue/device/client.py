@@ -23,11 +23,11 @@ from collections.abc import Callable
 from typing import Any
 
 import runtrue.device.revfit as revfit
-from runtrue.device.admit import counts, why_left_out
 from runtrue.device.advice import FLAGGED_LIMIT, envelope_warning, flagged_advice, link_diagnosis, no_answer_text
 from runtrue.device.capture import CaptureError, RawAssembler, RawCapture
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.device.sequence import DUPLICATE, RESTART, STALE, SequenceTracker
+from runtrue.protocol.admit import counts, why_left_out
 from runtrue.protocol.commands import (
     CMD_IDENTIFY,
     CMD_RAW,

@@ -61,6 +61,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from runtrue.protocol.messages import line_hum_warning
 from runtrue_fw import basis as fwb
 
 N_HARMONICS = fwb.N_HARMONICS
@@ -232,8 +233,6 @@ class LineCollision:
 
     @property
     def message(self) -> str:
-        from runtrue.protocol.messages import line_hum_warning
-
         return line_hum_warning(self.line_hz, self.order, self.gap_pct)
 
 

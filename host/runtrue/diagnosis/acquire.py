@@ -16,6 +16,7 @@ from typing import Any
 
 import numpy as np
 
+from runtrue.device.errors import NoRevolutions
 from runtrue.diagnosis.diagnose import Diagnosis, diagnose
 from runtrue.diagnosis.resonance import (
     Resonance,
@@ -25,6 +26,7 @@ from runtrue.diagnosis.resonance import (
     speed_curve,
     warning_text,
 )
+from runtrue.protocol.admit import counts
 from runtrue.readings.units import angle_between_deg
 
 CAPTURE_FRAMES = 4096
@@ -94,9 +96,6 @@ def record_speed_change(client: Any, *, from_rpm: float | None = None, to_rpm: f
     (default: the scenario's coast-down).  Real meter: the recording waits for the user to change
     the speed, and ends at ``to_rpm`` or when revolutions stop coming for ``timeout_s``.
     ``on_rev(speed_rpm)`` is called for each revolution (progress)."""
-    from runtrue.device.admit import counts
-    from runtrue.device.errors import NoRevolutions
-
     machine = getattr(client.transport, "machine", None)
     if not client.streaming:
         client.start()

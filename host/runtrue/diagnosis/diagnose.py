@@ -28,6 +28,7 @@ from runtrue.diagnosis.severity import (
 )
 from runtrue.diagnosis.spectral import OrderContent, order_content
 from runtrue.diagnosis.verdict import Verdict, circular_sd_deg, judge
+from runtrue.protocol.admit import counts
 from runtrue.readings.units import lag_deg
 
 GO_ON_TEXT = ("The verdict is advice: you can balance anyway, but weights rarely fix what is listed "
@@ -155,8 +156,6 @@ def diagnose(revs: Sequence[Any], capture: Any = None, machine_class: str = "cla
     ``pair``: two physical channels on one bearing, 90 deg apart; ``linearity``: (reference,
     expected, measured) 1x of the loudest pickup after a known weight (see ``verdict.judge``);
     ``line_hz``: the mains frequency (INFO's), so that hum is counted as electrical."""
-    from runtrue.device.admit import counts
-
     good = [r for r in revs if counts(r)]
     if len(good) < 3:
         raise ValueError(f"only {len(good)} usable revolutions: steady the speed and check the reference "

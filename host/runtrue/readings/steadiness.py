@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from runtrue.device.admit import counts
+from runtrue.protocol.admit import counts
 from runtrue.protocol.messages import Revolution
 from runtrue.readings.average import spread_of_mean
 

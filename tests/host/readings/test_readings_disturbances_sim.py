@@ -14,7 +14,7 @@ import pytest
 
 from runtrue.cli import main
 from runtrue.device import MeterClient, revfit
-from runtrue.device.admit import counts
+from runtrue.protocol.admit import counts
 from runtrue.readings import vector_average
 from runtrue.sim import scenarios
 from runtrue.sim.scenarios import SpeedStep

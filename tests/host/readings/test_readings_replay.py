@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 from runtrue.device import MeterClient, revfit
-from runtrue.device.admit import counts
+from runtrue.protocol.admit import counts
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import DeviceInfo, InfoAssembler, InfoPart, RevStats, parse_message
 from runtrue.readings import vector_average

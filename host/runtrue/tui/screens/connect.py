@@ -14,6 +14,7 @@ from textual.widget import Widget
 from textual.widgets import OptionList, Static
 from textual.widgets.option_list import Option, OptionDoesNotExist
 
+from runtrue.protocol.admit import counts, why_left_out
 from runtrue.transport import SIM_SCHEME
 from runtrue.transport.registry import listed_sources
 from runtrue.tui.format import amp_text
@@ -112,7 +113,6 @@ def signal_check_text(revs: list[Any], labels: list[str] | None = None) -> str:
     and 2x - the noise floor plus everything at other frequencies.  For a DC-free signal the mean
     square is the sum of each harmonic's (peak^2)/2 and the rest (Parseval's theorem), so
     rest = sqrt(rms^2 - |1x|^2/2 - |2x|^2/2)."""
-    from runtrue.device.admit import counts, why_left_out  # the device package loads numpy: not at start-up
     from runtrue.device.advice import FLAG_ADVICE
 
     if not revs:
