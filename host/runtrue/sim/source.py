@@ -57,5 +57,5 @@ def describe_scenario(name: str) -> Any:
 
 def register() -> None:
     """Offer the simulator's machines as ``sim:NAME`` ports."""
-    register_scheme(SourceScheme(scheme=SCHEME, title="the simulator", open=open_scenario,
-                                 sources=builtin_sources, describe=describe_scenario))
+    register_scheme(SourceScheme(scheme=SCHEME, open=open_scenario, sources=builtin_sources,
+                                 describe=describe_scenario))

@@ -27,7 +27,6 @@ class SourceScheme:
     """
 
     scheme: str
-    title: str  # what the scheme is, in a few words ("the simulator")
     open: Callable[..., Transport]
     sources: Callable[[], list[tuple[str, str]]]
     describe: Callable[[str], Any]
