@@ -23,6 +23,12 @@ from pathlib import Path
 import pytest
 from hypothesis import settings
 
+from runtrue import plugins
+
+# The tests are a program that puts runtrue together, like the command line: the simulator's
+# sim:NAME ports are registered once for all of them.
+plugins.load()
+
 # Under CI the generated-input tests draw the same examples every run (derandomize), so a red CI
 # is a regression in the code, not a new random draw; run by hand they explore new examples.
 settings.register_profile("ci", derandomize=True, print_blob=True)

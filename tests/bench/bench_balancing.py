@@ -270,8 +270,11 @@ def bench_amplitude(n: int, seed: int) -> None:
 
 
 def bench_jobs(n: int) -> None:
+    from runtrue import plugins
     from runtrue.jobs.headless import run_demo
     from runtrue.sim.scenarios import SCENARIOS
+
+    plugins.load()  # the sim:NAME ports
 
     print(f"amplitude-only demo jobs (run_demo(..., amplitude_only=True)), seeds 1..{n}:")
     print(f"  {'scenario':<9} {'passed':>8} {'false passes':>12} {'runs <= 5':>9} {'runs median/max':>15} {'s':>6}")

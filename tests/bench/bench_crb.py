@@ -62,8 +62,9 @@ sys.path.insert(0, str(_ROOT / "firmware"))  # firmware package first (see tests
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from disturbances import Machine, accels, synth  # noqa: E402
 
+from runtrue.device import revmodel as rm  # noqa: E402
 from runtrue.device.client import MeterClient  # noqa: E402
-from runtrue.readings import revmodel as rm  # noqa: E402
+from runtrue.readings import joint as jf  # noqa: E402
 from runtrue.readings import vector_average  # noqa: E402
 from runtrue.sim.scenarios import SCENARIOS, Scenario  # noqa: E402
 from runtrue.sim.transport import SimTransport  # noqa: E402
@@ -234,7 +235,7 @@ CASES = [
 
 
 
-# ---- the host's disturbance model (runtrue.readings.revmodel) ------------------------------------
+# ---- the host's disturbance model (runtrue.device.revmodel) ------------------------------------
 
 @dataclasses.dataclass(frozen=True)
 class DCase:
@@ -279,7 +280,7 @@ def run_dcase(case: DCase, trials: int, seed: int) -> dict:
             cov2 = fit.crlb_unit[np.ix_([i_c, i_s], [i_c, i_s])] * s2
             warned += bool(fit.collisions)
         else:
-            j = rm.fit_joint([rm.RevInput(r.geom, r.sums, a, r.first_sample) for r, a in zip(inner, acc_in)],
+            j = jf.fit_joint([jf.RevInput(r.geom, r.sums, a, r.first_sample) for r, a in zip(inner, acc_in)],
                              orders=case.orders, line_hz=m.line_hz, speed_hz=m.speed_hz)
             est = j.orders[1]
             ic, is_ = j.index["cos1x"], j.index["sin1x"]
@@ -347,7 +348,7 @@ def dcases() -> list[DCase]:
 
 
 def main_model(trials: int, seed: int) -> None:
-    print("Host fit from the meter's exact sums (runtrue.readings.revmodel) against the Cramer-Rao bound of")
+    print("Host fit from the meter's exact sums (runtrue.device.revmodel) against the Cramer-Rao bound of")
     print("the model being fitted: one revolution: dc, 1x..4x, the two line tones; 10 revolutions: a dc each,")
     print("1x..4x and each line tone common to all (joint fit); the angle quadratic through the edges; synthetic")
     print(f"signals (tests/bench/disturbances.py), 1x = {A_CODES:g} codes, whole-code samples, 4 kS/s.")

@@ -12,11 +12,13 @@ import statistics
 import sys
 import time
 
+from runtrue import plugins
 from runtrue.jobs.headless import run_demo
 from runtrue.sim.scenarios import SCENARIOS
 
 
 def main() -> None:
+    plugins.load()  # the sim:NAME ports
     seeds = int(sys.argv[1]) if len(sys.argv) > 1 else 20
     print(f"{'scenario':9} {'revs':>4} {'passed':>7} {'runs':>9} {'true/perm':>15} {'left 1x':>8} {'wall s':>13}")
     print(f"{'':9} {'':>4} {'':>7} {'med/max':>9} {'median/worst':>15} {'median':>8} {'median/max':>13}")

@@ -33,8 +33,11 @@ FIRST_SCREEN = r"""
 import time
 t0 = time.perf_counter()
 import json, sys
+from runtrue import plugins
 from runtrue.tui import make_app
 from runtrue.tui.app import RuntrueApp
+
+plugins.load()  # the sim:NAME ports
 
 PORT = sys.argv[1] or None
 

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from runtrue.readings import revmodel as rm
+from runtrue.device import revmodel as rm
 from runtrue_fw import basis as fwb
 
 

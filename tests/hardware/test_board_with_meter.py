@@ -15,21 +15,17 @@ import pytest
 from rp2040_fake import Rig
 
 from runtrue.device import revfit
-from runtrue.protocol.frames import FrameDecoder
-from runtrue.protocol.messages import (
+from runtrue.protocol.commands import (
     CMD_IDENTIFY,
     CMD_SET_CHANNELS,
     CMD_SET_RATE,
     CMD_START,
     CommandEncoder,
-    DeviceInfo,
-    InfoAssembler,
-    InfoPart,
-    RevStats,
-    parse_message,
     set_channels_payload,
     set_rate_payload,
 )
+from runtrue.protocol.frames import FrameDecoder
+from runtrue.protocol.messages import DeviceInfo, InfoAssembler, InfoPart, RevStats, parse_message
 
 LAGS_DEG = (30.0, 100.0, 250.0)
 AMP_G = 0.5

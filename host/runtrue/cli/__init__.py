@@ -22,6 +22,8 @@ import sys
 from collections.abc import Callable
 from typing import Any, NoReturn
 
+from runtrue import plugins
+
 # Sub-command name -> module.  Order is the order shown in --help.
 COMMANDS: dict[str, str] = {
     "demo": "runtrue.cli.demo",
@@ -49,7 +51,7 @@ EXIT_FAILURE = 2
 class _Parser(argparse.ArgumentParser):
     """argparse with its errors turned into one line (instead of usage plus a line) and exit 2."""
 
-    def error(self, message: str) -> NoReturn:  # type: ignore[override]
+    def error(self, message: str) -> NoReturn:
         raise UsageError(f"{message}; see `{self.prog} --help`")
 
 
@@ -99,7 +101,7 @@ def build_parser() -> tuple[argparse.ArgumentParser, dict[str, object]]:
             if exc.name == module_name:
                 continue  # sub-command not built yet
             raise
-        module.register(sub)  # type: ignore[attr-defined]
+        module.register(sub)
         modules[name] = module
     return parser, modules
 
@@ -131,6 +133,7 @@ def main(argv: list[str] | None = None) -> int:
     traceback.  An unexpected error is logged with its traceback (``runtrue.errorlog``)."""
     command: str | None = None
     try:
+        plugins.load()
         parser, modules = build_parser()
         args = parser.parse_args(argv)
         command = args.command

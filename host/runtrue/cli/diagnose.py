@@ -26,9 +26,9 @@ from typing import Any
 from runtrue import validation as v
 from runtrue.cli import UsageError, checked
 from runtrue.cli.measure import _channels_mask
+from runtrue.diagnosis.zones import ZONE_TABLES
 
-CLASSES = ("class-I", "class-II", "class-III", "class-IV", "group2-rigid", "group2-flexible",
-           "group1-rigid", "group1-flexible")
+CLASSES = tuple(ZONE_TABLES)  # the machine classes' keys, from the numpy-free zone tables
 
 
 def _pair(text: str) -> tuple[int, int]:

@@ -96,8 +96,8 @@ def _pick_port(port: str | None) -> str:
 
 def _measure(args: Any, port: str) -> dict[str, Any]:
     from runtrue.device import MeterError, Revolution, open_meter
+    from runtrue.protocol.admit import counts, why_left_out
     from runtrue.readings import amp_phase, vector_average
-    from runtrue.readings.admit import counts, why_left_out
     from runtrue.readings.units import convert_1x
     from runtrue.transport import PortError, TransportLost
 

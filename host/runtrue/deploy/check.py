@@ -14,7 +14,10 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from runtrue.deploy.install import OpenClient, Out, _default_open_client, _describe, local_firmware_version
+from runtrue.device import MeterError
 from runtrue.device.advice import FLAG_ADVICE
+from runtrue.protocol.admit import counts
+from runtrue.transport import PortError, TransportLost
 
 STREAM_REVS = 20
 STREAM_TIMEOUT_S = 3.0
@@ -116,7 +119,7 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
                        and set(r.flag_names) <= {"first", "speed jump"})]
     if settled:
         revs = settled
-    usable = [r for r in revs if r.usable]
+    usable = [r for r in revs if counts(r)]
     flagged: dict[str, int] = {}
     for r in revs:
         for name in r.flag_names:
@@ -142,9 +145,6 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
 def check(port: str, *, open_client: OpenClient | None = None, out: Out = print,
           stream_revs: int = STREAM_REVS, seed: int | None = None) -> int:
     """Run the checks on ``port`` and print them; 0 if all pass, 1 otherwise."""
-    from runtrue.device import MeterError
-    from runtrue.transport import PortError, TransportLost
-
     open_client = open_client or _default_open_client
     if port.startswith("sim:"):
         out(f"{port} is the simulator: these results come from a virtual machine, not from hardware.")

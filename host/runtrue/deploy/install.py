@@ -23,6 +23,9 @@ from typing import Any
 
 from runtrue.deploy.build import SOURCE_COST, BuildError, have_module, stage_firmware, stage_sources
 from runtrue.deploy.mpremote import Runner, mpremote_cmd, run_tool
+from runtrue.device import MeterError, open_meter
+from runtrue.protocol.commands import CMD_REPL
+from runtrue.transport import PortError, TransportLost
 
 MPREMOTE_TIMEOUT_S = 120.0
 REPL_ACK_WAIT_S = 1.0
@@ -50,8 +53,6 @@ def local_firmware_version() -> str:
 
 
 def _default_open_client(port: str, **kwargs: Any) -> Any:
-    from runtrue.device import open_meter
-
     return open_meter(port, **kwargs)
 
 
@@ -64,9 +65,6 @@ def _describe(info: Any) -> str:
 
 def identify_once(port: str, open_client: OpenClient, timeout_s: float) -> tuple[Any | None, str]:
     """(INFO, "") if a runtrue meter answers on ``port``, else (None, why not in plain words)."""
-    from runtrue.device import MeterError
-    from runtrue.transport import PortError, TransportLost
-
     try:
         client = open_client(port, command_timeout_s=timeout_s)
     except PortError as exc:
@@ -84,10 +82,6 @@ def identify_once(port: str, open_client: OpenClient, timeout_s: float) -> tuple
 
 def request_repl(port: str, open_client: OpenClient, out: Out) -> Any | None:
     """Identify a running meter and send it the REPL command; returns its INFO (or None)."""
-    from runtrue.device import MeterError
-    from runtrue.protocol.messages import CMD_REPL
-    from runtrue.transport import PortError, TransportLost
-
     try:
         client = open_client(port, command_timeout_s=REPL_ACK_WAIT_S)
     except PortError as exc:

@@ -69,3 +69,18 @@ def link_diagnosis(*, bytes_in: int, frames_ok: int, framing_errors: int, crc_er
                 "machine is running and the reference sensor sees its mark once per revolution (its gap, "
                 "its LED, the edge setting)")
     return "the meter answers, but not in time: try again, or unplug and re-plug the meter"
+
+
+def no_answer_text(port: str, cause: str) -> str:
+    """Why the meter on ``port`` gave no answer, in one line."""
+    return f"no answer from the meter on {port}: {cause}"
+
+
+def flagged_advice(port: str, n_flagged: int, n_good: int, n_wanted: int, flagged: dict[str, int]) -> str:
+    """What to check when too many revolutions came flagged while ``n_wanted`` usable ones were
+    being collected (``flagged``: flag name -> how many)."""
+    names = sorted(flagged, key=lambda k: -flagged[k])
+    seen = ", ".join(f"{k} x{flagged[k]}" for k in names) or "unknown flags"
+    advice = "; ".join(f"{k}: {FLAG_ADVICE[k]}" for k in names if k in FLAG_ADVICE) or "run `runtrue device check`"
+    return (f"{n_flagged} revolutions from the meter on {port} were flagged and left out "
+            f"({n_good} of {n_wanted} usable so far; {seen}): {advice}")

@@ -15,7 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from runtrue.device.errors import MeterError
-from runtrue.protocol.messages import RAW_BEGIN, RAW_EDGES, RAW_END, RAW_SAMPLES, DeviceInfo, RawPart, channels_of_mask
+from runtrue.protocol.messages import DeviceInfo, channels_of_mask
+from runtrue.protocol.raw import RAW_BEGIN, RAW_EDGES, RAW_END, RAW_SAMPLES, RawPart
 
 END_MEANING = {
     0: "complete",

@@ -22,15 +22,13 @@ import time
 from collections.abc import Callable
 from typing import Any
 
-from runtrue.device import revfit
-from runtrue.device.advice import FLAG_ADVICE, FLAGGED_LIMIT, envelope_warning, link_diagnosis
+import runtrue.device.revfit as revfit
+from runtrue.device.advice import FLAGGED_LIMIT, envelope_warning, flagged_advice, link_diagnosis, no_answer_text
 from runtrue.device.capture import CaptureError, RawAssembler, RawCapture
 from runtrue.device.errors import AllRevolutionsFlagged, CommandRejected, MeterError, NoAnswer, NoRevolutions
 from runtrue.device.sequence import DUPLICATE, RESTART, STALE, SequenceTracker
-from runtrue.protocol.errors import MessageError
-from runtrue.protocol.frames import FrameDecoder
-from runtrue.protocol.messages import (
-    ACK,
+from runtrue.protocol.admit import counts, why_left_out
+from runtrue.protocol.commands import (
     CMD_IDENTIFY,
     CMD_RAW,
     CMD_SELFTEST,
@@ -42,44 +40,38 @@ from runtrue.protocol.messages import (
     CMD_STATUS,
     CMD_STOP,
     COMMAND_NAMES,
-    INFO,
-    Ack,
     CommandEncoder,
-    DeviceInfo,
-    InfoAssembler,
-    InfoPart,
-    Message,
-    RawPart,
-    Revolution,
-    RevStats,
-    SelfTest,
-    Status,
-    Text,
-    parse_message,
     raw_payload,
     set_channels_payload,
     set_edge_payload,
     set_line_payload,
     set_rate_payload,
 )
-from runtrue.readings.admit import counts, why_left_out
+from runtrue.protocol.errors import MessageError
+from runtrue.protocol.frames import FrameDecoder
+from runtrue.protocol.messages import (
+    ACK,
+    INFO,
+    Ack,
+    DeviceInfo,
+    InfoAssembler,
+    InfoPart,
+    Message,
+    Revolution,
+    RevStats,
+    SelfTest,
+    Status,
+    Text,
+    parse_message,
+)
+from runtrue.protocol.raw import RawPart
+from runtrue.transport import open_transport
 from runtrue.transport.base import Transport, TransportLost
+from runtrue_fw import basis
 
 READ_CHUNK = 4096
 POLL_S = 0.05
 REV_QUEUE_MAX = 100_000  # about 30 min at 3,600 rpm; the oldest go first beyond that
-
-
-def _no_answer_text(port: str, cause: str) -> str:
-    return f"no answer from the meter on {port}: {cause}"
-
-
-def _flagged_advice(port: str, n_flagged: int, n_good: int, n_wanted: int, flagged: dict[str, int]) -> str:
-    names = sorted(flagged, key=lambda k: -flagged[k])
-    seen = ", ".join(f"{k} x{flagged[k]}" for k in names) or "unknown flags"
-    advice = "; ".join(f"{k}: {FLAG_ADVICE[k]}" for k in names if k in FLAG_ADVICE) or "run `runtrue device check`"
-    return (f"{n_flagged} revolutions from the meter on {port} were flagged and left out "
-            f"({n_good} of {n_wanted} usable so far; {seen}): {advice}")
 
 
 class MeterClient:
@@ -314,7 +306,7 @@ class MeterClient:
                                  f"{self.decoder.last_error}")
             cause = self.diagnose(counts_before, revolutions=1, waited_s=timeout)
             if self._frames_seen == frames_before and self.decoder.frames_ok == 0:
-                raise NoAnswer(_no_answer_text(self.port, cause))
+                raise NoAnswer(no_answer_text(self.port, cause))
             raise MeterError(
                 f"the meter on {self.port} did not acknowledge {name} within {timeout:g} s "
                 f"(frames lost so far: {self.lost_frames}): {cause}"
@@ -334,10 +326,10 @@ class MeterClient:
         if self.info is None and not self._wait(lambda: self.info is not None, self.command_timeout_s):
             raise MeterError(f"the meter on {self.port} acknowledged IDENTIFY but sent no INFO")
         assert self.info is not None
-        if self.info.basis != revfit.basis.BASIS_ID:
+        if self.info.basis != basis.BASIS_ID:
             raise MeterError(
                 f"the meter on {self.port} sums on basis {self.info.basis or 'unknown'!r}, this runtrue "
-                f"fits {revfit.basis.BASIS_ID!r}: update the firmware: runtrue device install")
+                f"fits {basis.BASIS_ID!r}: update the firmware: runtrue device install")
         return self.info
 
     def start(self) -> None:
@@ -471,7 +463,7 @@ class MeterClient:
                 for name in why_left_out(rev):
                     flagged[name] = flagged.get(name, 0) + 1
                 if n_flagged >= limit:
-                    raise AllRevolutionsFlagged(_flagged_advice(self.port, n_flagged, len(out), n, flagged), flagged)
+                    raise AllRevolutionsFlagged(flagged_advice(self.port, n_flagged, len(out), n, flagged), flagged)
                 continue
             out.append(rev)
         return out
@@ -502,7 +494,5 @@ def open_meter(
 ) -> MeterClient:
     """Open ``port`` (a serial device, or ``sim:NAME``) and return a client (not yet identified).
     ``spy``: a file to hex-dump the traffic into."""
-    from runtrue.transport import open_transport
-
     transport = open_transport(port, seed=seed, realtime=realtime, spy=spy)
     return MeterClient(transport, port, command_timeout_s=command_timeout_s)

@@ -25,7 +25,7 @@ Round robin: with ``DeviceInfo.round_robin`` the channel of rank r in a frame is
 of a sample after the frame's first conversion, that is at rotor angle phi_i + delta with
 delta = (r/n_ch) * 2 pi * 256/length_q8; its order-k phasor is rotated by e^{+j k delta}.
 
-Disturbance model (:mod:`runtrue.readings.revmodel`, which cites its sources): the speed change
+Disturbance model (:mod:`runtrue.device.revmodel`, which cites its sources): the speed change
 within a revolution is modelled from the previous revolution's period (rotor angle quadratic
 through the edges, instrumental-variable form x = (Phi^T Theta)^-1 b, Phi the meter's basis,
 Theta the basis at the modelled angle); line tones within ``revmodel.COLLISION_CYCLES`` of a
@@ -45,6 +45,7 @@ from functools import lru_cache
 
 import numpy as np
 
+import runtrue.device.revmodel as revmodel
 from runtrue.protocol.messages import (
     FLAG_DROPPED_SAMPLES,
     FLAG_EXTRA_PULSE,
@@ -55,7 +56,6 @@ from runtrue.protocol.messages import (
     Revolution,
     RevStats,
 )
-from runtrue.readings import revmodel
 from runtrue_fw import basis
 
 N_ORDERS = basis.N_HARMONICS  # 4

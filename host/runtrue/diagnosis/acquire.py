@@ -16,6 +16,7 @@ from typing import Any
 
 import numpy as np
 
+from runtrue.device.errors import NoRevolutions
 from runtrue.diagnosis.diagnose import Diagnosis, diagnose
 from runtrue.diagnosis.resonance import (
     Resonance,
@@ -25,6 +26,8 @@ from runtrue.diagnosis.resonance import (
     speed_curve,
     warning_text,
 )
+from runtrue.protocol.admit import counts
+from runtrue.readings.units import angle_between_deg
 
 CAPTURE_FRAMES = 4096
 
@@ -37,7 +40,7 @@ def same_bearing_pairs(machine: Any, channels: list[int]) -> tuple[int, int] | N
     for i in channels:
         for j in channels:
             if i < j < len(pk) and abs(pk[i].axial_mm - pk[j].axial_mm) < 1.0:
-                d = abs((pk[i].angle_deg - pk[j].angle_deg + 180.0) % 360.0 - 180.0)
+                d = angle_between_deg(pk[i].angle_deg, pk[j].angle_deg)
                 if 60.0 <= d <= 120.0:
                     return (i, j)
     return None
@@ -93,9 +96,6 @@ def record_speed_change(client: Any, *, from_rpm: float | None = None, to_rpm: f
     (default: the scenario's coast-down).  Real meter: the recording waits for the user to change
     the speed, and ends at ``to_rpm`` or when revolutions stop coming for ``timeout_s``.
     ``on_rev(speed_rpm)`` is called for each revolution (progress)."""
-    from runtrue.device.errors import NoRevolutions
-    from runtrue.readings.admit import counts
-
     machine = getattr(client.transport, "machine", None)
     if not client.streaming:
         client.start()
@@ -110,9 +110,10 @@ def record_speed_change(client: Any, *, from_rpm: float | None = None, to_rpm: f
     start_rpm = start.speed_rpm
     up = to_rpm is not None and to_rpm > start_rpm
     floor = to_rpm if to_rpm is not None else 0.2 * start_rpm
+    ceiling = to_rpm if to_rpm is not None else math.inf  # reached only when running up
     if machine is not None:
         if up:
-            machine.set_speed_rpm(float(to_rpm), rate_rpm_per_s or machine.scenario.coast_down_rpm_per_s)
+            machine.set_speed_rpm(ceiling, rate_rpm_per_s or machine.scenario.coast_down_rpm_per_s)
         elif rate_rpm_per_s is not None or to_rpm is not None:
             machine.set_speed_rpm(float(to_rpm or 0.0), rate_rpm_per_s or machine.scenario.coast_down_rpm_per_s)
         else:
@@ -132,7 +133,7 @@ def record_speed_change(client: Any, *, from_rpm: float | None = None, to_rpm: f
             run.one_x_g.append(list(rev.h1))
             if on_rev is not None:
                 on_rev(s)
-            if (up and s >= float(to_rpm)) or (not up and s <= floor):
+            if (up and s >= ceiling) or (not up and s <= floor):
                 break
     except KeyboardInterrupt:
         run.interrupted = True          # the user ended the recording: keep what is recorded

@@ -10,7 +10,6 @@ is advice: the user may balance anyway.
 
 from __future__ import annotations
 
-import cmath
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -29,13 +28,15 @@ from runtrue.diagnosis.severity import (
 )
 from runtrue.diagnosis.spectral import OrderContent, order_content
 from runtrue.diagnosis.verdict import Verdict, circular_sd_deg, judge
+from runtrue.protocol.admit import counts
+from runtrue.readings.units import lag_deg
 
 GO_ON_TEXT = ("The verdict is advice: you can balance anyway, but weights rarely fix what is listed "
               "and may have to come off again.")
 
 
 def _amp_phase(z: complex) -> dict[str, float]:
-    return {"amp_g": round(abs(z), 6), "phase_deg": round(math.degrees(cmath.phase(z)) % 360.0, 2)}
+    return {"amp_g": round(abs(z), 6), "phase_deg": round(lag_deg(z), 2)}
 
 
 @dataclass
@@ -155,8 +156,6 @@ def diagnose(revs: Sequence[Any], capture: Any = None, machine_class: str = "cla
     ``pair``: two physical channels on one bearing, 90 deg apart; ``linearity``: (reference,
     expected, measured) 1x of the loudest pickup after a known weight (see ``verdict.judge``);
     ``line_hz``: the mains frequency (INFO's), so that hum is counted as electrical."""
-    from runtrue.readings.admit import counts
-
     good = [r for r in revs if counts(r)]
     if len(good) < 3:
         raise ValueError(f"only {len(good)} usable revolutions: steady the speed and check the reference "

@@ -21,7 +21,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from runtrue.diagnosis.severity import STANDARD_GRAVITY_MS2, _hann, band_hz
+from runtrue.diagnosis.severity import _hann, band_hz
+from runtrue.readings.units import STANDARD_GRAVITY_MS2
 
 LOBE_BINS = 2            # Hann main lobe half-width, bins
 MIN_BINS_PER_ORDER = 5   # orders closer than this many bins cannot be told apart

@@ -15,7 +15,6 @@ levels very different.
 
 from __future__ import annotations
 
-import cmath
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -163,10 +162,6 @@ def judge(*, one_x_g: complex, orders_g: Sequence[complex] = (), overall_rms_g: 
             "check looseness, a resonance or a changing speed before trusting the coefficients"))
     ok = all(f.ok for f in findings) and a1 > 0.0
     return Verdict(ok, findings)
-
-
-def phase_of(z: complex) -> float:
-    return math.degrees(cmath.phase(z)) % 360.0
 
 
 def predicted_after_weight(reference_g: complex, trial_g: complex, trial_gmm: complex,

@@ -1,5 +1,8 @@
 """The simulator's scenarios as machines a job can run on, with a demo shop stock for each.
 
+A scenario is found through the transport layer's source registry (``sim:NAME``), where the
+simulator registers itself; this module does not name the simulator.
+
 The stock below is INVENTED for the demo scenarios (like the scenarios themselves): plausible
 washers, clip weights and set screws for each kind of machine, nothing from a real catalogue.
 """
@@ -9,6 +12,8 @@ from __future__ import annotations
 from typing import Any
 
 from runtrue.jobs.model import Machine, Pickup, PlaneSpec, StockPiece
+from runtrue.transport import SIM_SCHEME
+from runtrue.transport.registry import describe_source
 
 # Demo stock per scenario: (pieces [(mass_g, count)], max pieces per position).  Invented.
 DEMO_STOCK: dict[str, tuple[list[tuple[float, int]], int]] = {
@@ -30,9 +35,7 @@ def _drive_end_rotation(rotation: str, viewed_from: str) -> str:
 def machine_for_scenario(scenario: Any, *, stock: bool = True) -> Machine:
     """A :class:`Machine` describing simulator scenario ``scenario`` (a Scenario or its name)."""
     if isinstance(scenario, str):
-        from runtrue.sim.scenarios import get_scenario
-
-        scenario = get_scenario(scenario)
+        scenario = describe_source(SIM_SCHEME, scenario)
     planes = []
     pieces, max_pieces = DEMO_STOCK.get(scenario.name, ([], 3))
     for p in scenario.planes:

@@ -14,7 +14,7 @@ import html
 import math
 from typing import Any
 
-from runtrue.diagnosis.severity import ZONE_MEANING
+from runtrue.diagnosis.zones import ZONE_MEANING
 
 
 def _e(x: Any) -> str:

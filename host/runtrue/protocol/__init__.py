@@ -8,6 +8,7 @@ IEEE/ACM Transactions on Networking 7(2), 1999) and checked with CRC-32/ISO-HDLC
 from __future__ import annotations
 
 from runtrue.protocol.cobs import cobs_decode, cobs_encode
+from runtrue.protocol.commands import CommandEncoder
 from runtrue.protocol.crc import CRC32_CHECK, crc32
 from runtrue.protocol.errors import (
     CobsError,
@@ -29,7 +30,6 @@ from runtrue.protocol.frames import (
 )
 from runtrue.protocol.messages import (
     Ack,
-    CommandEncoder,
     DeviceInfo,
     InfoAssembler,
     InfoPart,

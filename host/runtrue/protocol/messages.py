@@ -1,6 +1,7 @@
-"""Messages of protocol version 2: device -> host payloads parsed into dataclasses, and the
-host -> device command frames.  Implements the tables of firmware/PROTOCOL.md
-("Device -> host", "Host -> device commands"); all numbers little-endian.
+"""Messages of protocol version 2: device -> host payloads parsed into dataclasses.  Implements
+the table "Device -> host" of firmware/PROTOCOL.md; all numbers little-endian.  The host's
+commands are in :mod:`runtrue.protocol.commands`, the raw capture parts in
+:mod:`runtrue.protocol.raw`.
 
 A REV frame carries the meter's exact integer sums of one revolution (:class:`RevStats`); the
 host finishes the least-squares fit (:mod:`runtrue.device.revfit`) into a :class:`Revolution`.
@@ -18,7 +19,8 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from runtrue.protocol.errors import MessageError
-from runtrue.protocol.frames import SEQ_MODULO, Frame, encode_frame
+from runtrue.protocol.frames import Frame
+from runtrue.protocol.raw import RawPart, parse_raw
 
 # Device -> host frame types.
 INFO = 0x01
@@ -28,33 +30,6 @@ ACK = 0x04
 SELFTEST = 0x05
 TEXT = 0x06
 RAW = 0x07  # raw capture parts (firmware/PROTOCOL.md, "Raw capture")
-
-# Host -> device command types.
-CMD_IDENTIFY = 0x81
-CMD_START = 0x82
-CMD_STOP = 0x83
-CMD_SET_RATE = 0x84
-CMD_SET_CHANNELS = 0x85
-CMD_SET_EDGE = 0x86
-CMD_SELFTEST = 0x87
-CMD_STATUS = 0x88
-CMD_REPL = 0x89
-CMD_SET_LINE = 0x8A
-CMD_RAW = 0x8B
-
-COMMAND_NAMES = {
-    CMD_IDENTIFY: "IDENTIFY",
-    CMD_START: "START",
-    CMD_STOP: "STOP",
-    CMD_SET_RATE: "SET_RATE",
-    CMD_SET_CHANNELS: "SET_CHANNELS",
-    CMD_SET_EDGE: "SET_EDGE",
-    CMD_SELFTEST: "SELFTEST",
-    CMD_STATUS: "STATUS",
-    CMD_REPL: "REPL",
-    CMD_SET_LINE: "SET_LINE",
-    CMD_RAW: "RAW",
-}
 
 # ACK results.
 ACK_OK = 0
@@ -105,7 +80,6 @@ INT40_LEN = 5  # lo:u24 then hi:i16, little-endian
 REV_CHANNEL_LEN = N_SUMS * INT40_LEN  # 70 bytes
 _STATUS = struct.Struct("<IHIIIIIB")  # 27 bytes
 _ACK = struct.Struct("<HBB")
-LINE_HZ_CHOICES = (0, 50, 60)
 
 
 def channels_of_mask(mask: int) -> list[int]:
@@ -172,8 +146,24 @@ class InfoAssembler:
         return info_from_dict(merged)
 
 
+class RevFlags:
+    """What a revolution's flags and channel mask say: one home for the meter's sums
+    (:class:`RevStats`) and the host's fitted revolution (:class:`Revolution`)."""
+
+    flags: int
+    channel_mask: int
+
+    @property
+    def channels(self) -> list[int]:
+        return channels_of_mask(self.channel_mask)
+
+    @property
+    def flag_names(self) -> list[str]:
+        return [name for bit, name in FLAG_NAMES.items() if self.flags & bit]
+
+
 @dataclass(frozen=True)
-class RevStats:
+class RevStats(RevFlags):
     """REV: the meter's exact integer sums of one completed revolution.
 
     ``length_q8`` is the revolution between its reference edges in 1/256 sample,
@@ -191,17 +181,9 @@ class RevStats:
     first_off_q8: int
     sums: tuple[tuple[int, ...], ...]
 
-    @property
-    def channels(self) -> list[int]:
-        return channels_of_mask(self.channel_mask)
-
-    @property
-    def flag_names(self) -> list[str]:
-        return [name for bit, name in FLAG_NAMES.items() if self.flags & bit]
-
 
 @dataclass(frozen=True)
-class Revolution:
+class Revolution(RevFlags):
     """REV: one completed revolution measured by the meter.
 
     ``h1``/``h2`` are the 1x/2x phasors per enabled channel (ascending), in g peak, phase-lag
@@ -217,7 +199,7 @@ class Revolution:
     h2: list[complex]
     rms_g: list[float]
     h3: list[complex] = field(default_factory=list)  # 3x phasors (empty where not fitted)
-    # What the host's fit modelled (runtrue.readings.revmodel); defaults: nothing modelled.
+    # What the host's fit modelled (runtrue.device.revmodel); defaults: nothing modelled.
     line_collisions: tuple[tuple[float, int, float], ...] = ()  # (line tone Hz, order k, gap %) not separable
     fe_lag_deg: float = 0.0  # front-end lag taken out of the 1x (already corrected in h1)
     fe_lag_tol_deg: float = 0.0  # its spread over the parts' tolerances
@@ -238,14 +220,6 @@ class Revolution:
         """True unless a flag (bits 0-4, or any flag not known to be harmless) says this
         revolution must not be averaged."""
         return not self.flags & UNUSABLE_FLAGS and self.period_us > 0
-
-    @property
-    def channels(self) -> list[int]:
-        return channels_of_mask(self.channel_mask)
-
-    @property
-    def flag_names(self) -> list[str]:
-        return [name for bit, name in FLAG_NAMES.items() if self.flags & bit]
 
     @property
     def warnings(self) -> list[str]:
@@ -305,69 +279,6 @@ class Text:
     """TEXT: a log line from the firmware."""
 
     text: str
-
-
-@dataclass(frozen=True)
-class RawPart:
-    """RAW: one part of a raw capture (``kind`` 0 BEGIN, 1 SAMPLES, 2 EDGES, 3 END).
-
-    BEGIN: ``start_frame``, ``n_frames``, ``n_ch``, ``channel_mask``, ``n_edges``;
-    SAMPLES: ``index`` (first frame of the block) and ``codes`` (count x n_ch ADC codes, interleaved);
-    EDGES: ``index`` (first edge) and ``edges_q8`` (1/256 sample from the block's first frame);
-    END: ``status`` (0 complete, 1 samples overwritten before sent, 2 streaming stopped).
-    """
-
-    cap_id: int
-    kind: int
-    index: int = 0
-    count: int = 0
-    start_frame: int = 0
-    n_frames: int = 0
-    n_ch: int = 0
-    channel_mask: int = 0
-    n_edges: int = 0
-    codes: tuple[int, ...] = ()
-    edges_q8: tuple[int, ...] = ()
-    status: int = 0
-
-
-RAW_BEGIN, RAW_SAMPLES, RAW_EDGES, RAW_END = 0, 1, 2, 3
-_RAW_HEAD = struct.Struct("<BBHB")
-_RAW_BEGIN = struct.Struct("<IHBBH")
-
-
-def parse_raw(payload: bytes) -> RawPart:
-    if len(payload) < _RAW_HEAD.size:
-        raise MessageError(f"RAW payload of {len(payload)} bytes; the header alone is {_RAW_HEAD.size}")
-    cap_id, kind, index, count = _RAW_HEAD.unpack_from(payload)
-    data = payload[_RAW_HEAD.size :]
-    if kind == RAW_BEGIN:
-        if len(data) != _RAW_BEGIN.size:
-            raise MessageError(f"RAW BEGIN of {len(payload)} bytes; it should be {_RAW_HEAD.size + _RAW_BEGIN.size}")
-        start, n, n_ch, mask, n_edges = _RAW_BEGIN.unpack(data)
-        if not 1 <= n_ch <= 3 or bin(mask).count("1") != n_ch:
-            raise MessageError(f"RAW BEGIN channel mask {mask:#04x} does not match {n_ch} channel(s)")
-        return RawPart(cap_id, kind, start_frame=start, n_frames=n, n_ch=n_ch, channel_mask=mask, n_edges=n_edges)
-    if kind == RAW_SAMPLES:
-        if len(data) % 2 or len(data) == 0:
-            raise MessageError(f"RAW SAMPLES with {len(data)} data bytes (u16 codes expected)")
-        return RawPart(cap_id, kind, index, count, codes=struct.unpack(f"<{len(data) // 2}H", data))
-    if kind == RAW_EDGES:
-        if len(data) != 4 * count:
-            raise MessageError(f"RAW EDGES of {count} edge(s) should carry {4 * count} bytes, got {len(data)}")
-        return RawPart(cap_id, kind, index, count, edges_q8=struct.unpack(f"<{count}i", data))
-    if kind == RAW_END:
-        if len(data) != 1:
-            raise MessageError(f"RAW END should carry one status byte, got {len(data)}")
-        return RawPart(cap_id, kind, status=data[0])
-    raise MessageError(f"RAW part of unknown kind {kind}")
-
-
-def raw_payload(n_frames: int) -> bytes:
-    """The RAW command's payload: the number of sample frames to capture (16-4096)."""
-    if not 16 <= int(n_frames) <= 4096:
-        raise ValueError(f"capture of {n_frames!r} frames: use 16 to 4096")
-    return struct.pack("<H", int(n_frames))
 
 
 @dataclass(frozen=True)
@@ -527,41 +438,3 @@ def parse_message(frame: Frame) -> Message:
     if frame.type == TEXT:
         return Text(frame.payload.decode("utf-8", errors="replace"))
     return Unknown(frame.type, frame.payload)
-
-
-# ---- host -> device -------------------------------------------------------------------------
-
-
-def set_rate_payload(rate_hz: int) -> bytes:
-    return struct.pack("<I", int(rate_hz))
-
-
-def set_channels_payload(mask: int) -> bytes:
-    if not 1 <= mask <= 0b111:
-        raise ValueError(f"channel mask {mask:#x}: use bits 0-2, at least one channel")
-    return struct.pack("<B", mask)
-
-
-def set_line_payload(line_hz: int) -> bytes:
-    if line_hz not in LINE_HZ_CHOICES:
-        raise ValueError(f"line frequency {line_hz!r} Hz: use 50, 60 or 0 (off)")
-    return struct.pack("<B", line_hz)
-
-
-def set_edge_payload(edge: str) -> bytes:
-    if edge not in ("rising", "falling"):
-        raise ValueError(f"edge {edge!r}: use 'rising' or 'falling'")
-    return struct.pack("<B", 1 if edge == "falling" else 0)
-
-
-class CommandEncoder:
-    """Numbers the host's command frames (from 0, wrapping at 65536) and encodes them."""
-
-    def __init__(self, first_seq: int = 0) -> None:
-        self.next_seq = first_seq % SEQ_MODULO
-
-    def encode(self, cmd_type: int, payload: bytes = b"") -> tuple[int, bytes]:
-        """Return ``(seq, wire bytes)`` of the next command frame."""
-        seq = self.next_seq
-        self.next_seq = (seq + 1) % SEQ_MODULO
-        return seq, encode_frame(cmd_type, seq, payload)

@@ -1,6 +1,6 @@
 """Vector averaging of revolutions into a reading (DEVELOPERS.md, "Readings").
 
-Only revolutions that count (:func:`runtrue.readings.admit.counts`: nothing flagged that
+Only revolutions that count (:func:`runtrue.protocol.admit.counts`: nothing flagged that
 disqualifies them, and not the FIRST after START) are averaged, and only those with the channel
 set of the first that counts.  Per channel:
 
@@ -36,8 +36,8 @@ from typing import Any
 
 import numpy as np
 
+from runtrue.protocol.admit import counts
 from runtrue.protocol.messages import Revolution, line_hum_warning
-from runtrue.readings.admit import counts
 from runtrue.readings.confidence import ConfidenceEllipse, confidence_ellipse, confidence_radius
 from runtrue.readings.units import amp_phase
 
@@ -118,7 +118,7 @@ def vector_average(revs: Iterable[Revolution], level: float = 0.95, info: Any = 
     rms = np.array([r.rms_g for r in kept], dtype=float)
     joint = None
     if info is not None:
-        from runtrue.readings.joint import joint_1x
+        from runtrue.readings.joint import joint_1x  # start-up: loads the device layer's fit and numpy.linalg
 
         joint = joint_1x(kept, info)
     channels: list[ChannelReading] = []

@@ -43,7 +43,7 @@ def f_quantile_2(nu: float, p: float) -> float:
     """Quantile ``p`` of the F distribution with (2, ``nu``) degrees of freedom (closed form)."""
     if nu <= 0 or not 0 < p < 1:
         raise ValueError("need nu > 0 and 0 < p < 1")
-    return nu / 2.0 * ((1.0 - p) ** (-2.0 / nu) - 1.0)
+    return nu / 2.0 * (float((1.0 - p) ** (-2.0 / nu)) - 1.0)
 
 
 def hotelling_t2_critical(n: int, level: float = 0.95) -> float:

@@ -22,8 +22,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from runtrue.protocol.admit import counts
 from runtrue.protocol.messages import Revolution
-from runtrue.readings.admit import counts
 from runtrue.readings.average import spread_of_mean
 
 
@@ -96,4 +96,4 @@ class SteadinessDetector:
         return self.state()
 
     def state(self) -> Steadiness:
-        return steadiness(list(self._revs), window=self.window, **self.limits)  # type: ignore[arg-type]
+        return steadiness(list(self._revs), window=self.window, **self.limits)

@@ -26,3 +26,7 @@ reference conditioning delay, with the ADC's
 round-robin skew removed (the firmware corrects it).  Lag grows with speed through the filter
 and the support dynamics, so compare at the speed measured.
 """
+
+from runtrue.sim.source import register
+
+__all__ = ["register"]

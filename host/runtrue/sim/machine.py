@@ -5,7 +5,7 @@ ADC in :mod:`runtrue.sim.frontend`.  This module adds time: the speed (nominal, 
 wander as an Ornstein-Uhlenbeck process (G. E. Uhlenbeck and L. S. Ornstein, Phys. Rev. 36,
 1930), ramps and coast-down), the rotor angle, the pickups' signals and the reference edges.
 
-Geometry (the project's conventions, as DEVELOPERS.md states them; built from them, not from the meter's convention): the rotor
+Geometry (the physical convention of :mod:`runtrue.sim.rotor`, not the meter's convention): the rotor
 angle ``Theta(t)`` is zero when the mark's leading edge passes the reference sensor; a point at
 rotor angle theta (from the mark, against rotation) passes a fixed sensor theta/Omega later.  The
 unbalance is a force rotating with the rotor; each pickup reads ``Re(P e^{j Theta})`` with P from
@@ -35,6 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from runtrue.readings.units import phasor
 from runtrue.sim.frontend import lowpass_response
 from runtrue.sim.rotor import G0_M_PER_S2, pickup_acceleration_phasors
 from runtrue.sim.scenarios import Scenario, get_scenario
@@ -53,7 +54,7 @@ class Weight:
 
     @property
     def unbalance_gmm(self) -> complex:
-        return self.mass_g * self.radius_mm * cmath.exp(1j * math.radians(self.angle_deg))
+        return phasor(self.mass_g * self.radius_mm, self.angle_deg)
 
 
 @dataclass

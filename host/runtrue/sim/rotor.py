@@ -16,7 +16,7 @@ flexible supports" (from memory)):
 * Gyroscopic coupling between the x and y tilts is neglected (it only matters for conical
   motion of discs with a large polar inertia near the conical critical speed).
 
-Unbalance and the rotor's geometry (the project's conventions, as DEVELOPERS.md states them): the rotor angle theta is measured
+Unbalance and the rotor's geometry (the conventions of the whole program): the rotor angle theta is measured
 from the reference mark AGAINST the direction of rotation, so a point at theta passes a fixed
 sensor theta/Omega seconds after the mark.  Lab angles (pickups, reference sensor) are measured
 counter-clockwise looking at the rotor from the end the scenario names; rotation ``s = +1`` is

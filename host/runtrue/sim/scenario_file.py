@@ -13,12 +13,14 @@ from __future__ import annotations
 
 import json
 import math
+import sys
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
+from runtrue.readings.units import phasor
 from runtrue.sim.rotor import RigidRotor, support_for
-from runtrue.sim.scenarios import FrontEnd, Pickup, Plane, Scenario, SpeedStep
+from runtrue.sim.scenario import FrontEnd, Pickup, Plane, Scenario, SpeedStep
 
 SUFFIXES = (".toml", ".json")
 
@@ -127,10 +129,10 @@ def _read_text(path: Path) -> dict[str, Any]:
         if suffix == ".json":
             data = json.loads(raw.decode("utf-8"))
         elif suffix == ".toml":
-            try:
+            if sys.version_info >= (3, 11):
                 import tomllib
-            except ModuleNotFoundError:  # Python 3.10: the same parser from PyPI (pyproject.toml)
-                import tomli as tomllib  # type: ignore[no-redef]
+            else:  # Python 3.10: the same parser from PyPI (pyproject.toml)
+                import tomli as tomllib
 
             data = tomllib.loads(raw.decode("utf-8"))
         else:
@@ -219,8 +221,6 @@ def scenario_from_dict(data: dict[str, Any], source: str = "scenario") -> Scenar
                            what="the number of equally spaced holes, or \"continuous\" for a groove or rim")
         amount = pl.number("unbalance_gmm", "the initial unbalance in g.mm", low=0.0)
         angle = pl.number("unbalance_deg", "its angle from the mark against rotation, deg", default=0.0)
-        import cmath
-
         planes.append(Plane(
             pl.text("name", "a name for the plane, e.g. \"drive-end disc\""),
             pl.number("axial_mm", "the plane's axial position in mm"),
@@ -228,7 +228,7 @@ def scenario_from_dict(data: dict[str, Any], source: str = "scenario") -> Scenar
             positions,
             pl.text("positions_note", "a note on the fixing positions", default="continuous" if positions is None
                     else f"{positions} holes"),
-            complex(amount * cmath.exp(1j * math.radians(angle))),
+            phasor(amount, angle),
             pl.number("first_position_deg", "the angle of position 0 from the mark, deg", default=0.0),
         ))
         pl.done()
@@ -240,7 +240,7 @@ def scenario_from_dict(data: dict[str, Any], source: str = "scenario") -> Scenar
             order = h.get("order", _order, what="the running-speed order, a whole number 2 to 8")
             amp = h.number("g", "its amplitude at running speed, g peak", low=0.0)
             lag = h.number("lag_deg", "its phase lag, deg of that order's cycle", default=0.0)
-            harmonics.append((order, complex(amp * math.cos(math.radians(lag)), amp * math.sin(math.radians(lag)))))
+            harmonics.append((order, phasor(amp, lag)))
             h.done()
         hum = []
         for h in pk.subs("line_hum"):

@@ -14,7 +14,7 @@ from collections import deque
 from collections.abc import Callable
 from typing import Any
 
-from runtrue.readings.admit import counts, why_left_out
+from runtrue.protocol.admit import counts, why_left_out
 from runtrue.tui.steady import Steadiness, judge_steadiness
 
 

@@ -19,7 +19,8 @@ from runtrue.deploy.build import stage_firmware
 from runtrue.deploy.install import WIPE_OLD_FIRMWARE, local_firmware_version, request_repl
 from runtrue.deploy.mpremote import ToolResult, run_tool
 from runtrue.device import NoAnswer
-from runtrue.protocol.messages import CMD_REPL, DeviceInfo
+from runtrue.protocol.commands import CMD_REPL
+from runtrue.protocol.messages import DeviceInfo
 
 PORT = "/dev/ttyACM7"
 FW_DIR = Path(__file__).parents[3] / "firmware" / "runtrue_fw"

@@ -21,8 +21,7 @@ import time
 from pathlib import Path
 
 from runtrue.device.revfit import basis_q14
-from runtrue.protocol.frames import FrameDecoder, encode_frame
-from runtrue.protocol.messages import (
+from runtrue.protocol.commands import (
     CMD_IDENTIFY,
     CMD_SELFTEST,
     CMD_SET_CHANNELS,
@@ -31,9 +30,9 @@ from runtrue.protocol.messages import (
     CMD_START,
     CMD_STATUS,
     CMD_STOP,
-    RevStats,
-    rev_payload,
 )
+from runtrue.protocol.frames import FrameDecoder, encode_frame
+from runtrue.protocol.messages import RevStats, rev_payload
 from runtrue.transport.base import Transport, TransportLost
 from runtrue_fw import basis
 

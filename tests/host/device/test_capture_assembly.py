@@ -9,8 +9,10 @@ import numpy as np
 import pytest
 
 from runtrue.device.capture import CaptureError, RawAssembler
+from runtrue.protocol.commands import raw_payload
 from runtrue.protocol.errors import MessageError
-from runtrue.protocol.messages import DeviceInfo, RawPart, parse_raw, raw_payload
+from runtrue.protocol.messages import DeviceInfo
+from runtrue.protocol.raw import RawPart, parse_raw
 
 INFO = DeviceInfo(fw="t", board="sim", proto=2, channels_max=3, channel_mask=0b101, rate_hz=4000.0,
                   counts_per_g=[400.0, 300.0, 200.0], zero_code=[2048.0, 2000.0, 2100.0])

@@ -11,7 +11,7 @@ import pytest
 
 from runtrue.device import open_meter
 from runtrue.diagnosis.acquire import analyse_speed_run, record_speed_change, take_diagnosis
-from runtrue.diagnosis.severity import ZONE_TABLES
+from runtrue.diagnosis.zones import ZONE_TABLES
 
 ROOT = Path(__file__).resolve().parents[3]
 SCEN = ROOT / "examples" / "scenarios"

@@ -14,8 +14,11 @@ import os
 import sys
 from pathlib import Path
 
+from runtrue import plugins
 from runtrue.jobs import BalanceJob, JobStore
 from runtrue.jobs.headless import run_demo
+
+plugins.load()  # the sim:NAME ports
 
 SCENARIOS = ("fan", "roller", "sander")
 

@@ -18,13 +18,13 @@ from runtrue.protocol.messages import (
     DeviceInfo,
     InfoAssembler,
     InfoPart,
-    RawPart,
     RevStats,
     SelfTest,
     Status,
     Text,
     parse_message,
 )
+from runtrue.protocol.raw import RawPart
 
 VECTORS = Path(__file__).resolve().parents[2] / "vectors" / "frames.json"
 

@@ -9,14 +9,12 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from runtrue.protocol.commands import CMD_SET_EDGE, CMD_SET_RATE, CommandEncoder, set_channels_payload, set_line_payload
 from runtrue.protocol.errors import MessageError
 from runtrue.protocol.frames import Frame, FrameDecoder, encode_frame
 from runtrue.protocol.messages import (
-    CMD_SET_EDGE,
-    CMD_SET_RATE,
     REV,
     Ack,
-    CommandEncoder,
     DeviceInfo,
     InfoAssembler,
     InfoPart,
@@ -28,8 +26,6 @@ from runtrue.protocol.messages import (
     encode_int40,
     parse_message,
     rev_payload,
-    set_channels_payload,
-    set_line_payload,
 )
 
 

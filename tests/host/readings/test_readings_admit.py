@@ -13,9 +13,9 @@ from readings_revs import make_revs
 
 from runtrue.cli import main
 from runtrue.device import MeterClient
+from runtrue.protocol.admit import counts, why_left_out
 from runtrue.protocol.messages import FLAG_CLIPPED, FLAG_FIRST, FLAG_MISSING_PULSE, FLAG_SPEED_JUMP
 from runtrue.readings import phasor, vector_average
-from runtrue.readings.admit import counts, why_left_out
 from runtrue.sim import scenarios
 from runtrue.sim.transport import SimTransport
 from runtrue.tui.live_state import LiveState

@@ -14,8 +14,8 @@ import pytest
 
 from runtrue.cli import main
 from runtrue.device import MeterClient, revfit
+from runtrue.protocol.admit import counts
 from runtrue.readings import vector_average
-from runtrue.readings.admit import counts
 from runtrue.sim import scenarios
 from runtrue.sim.scenarios import SpeedStep
 from runtrue.sim.transport import SimTransport
@@ -136,7 +136,8 @@ def test_ten_revolution_readings_under_hum_scatter_as_the_bound_of_the_fitted_mo
     above the 1x: the joint fit's scatter against the Cramer-Rao bound of the model it fits
     (Kay 1993, ch. 3), white noise 0.02 g plus the ADC's rounding.  60 readings estimate the
     ratio to about +-9 %."""
-    from runtrue.readings import revmodel as rm
+    from runtrue.device import revmodel as rm
+    from runtrue.readings import joint as jf
 
     t = SimTransport(_hum_fan(), seed=9)
     c = MeterClient(t, t.name)
@@ -151,9 +152,9 @@ def test_ten_revolution_readings_under_hum_scatter_as_the_bound_of_the_fitted_mo
         revs = c.revolutions(10, usable_only=True)
         if len({r.run_id for r in revs}) > 1:
             continue
-        inputs = [rm.RevInput(rm.RevGeometry(r.stats.n_samples, r.stats.length_q8, r.stats.first_off_q8, info.line_inc),
+        inputs = [jf.RevInput(rm.RevGeometry(r.stats.n_samples, r.stats.length_q8, r.stats.first_off_q8, info.line_inc),
                               r.stats.sums[0], r.accel, r.first_sample) for r in revs]
-        fit = rm.fit_joint(inputs, line_hz=info.line_hz, speed_hz=float(np.mean([r.speed_rpm for r in revs])) / 60)
+        fit = jf.fit_joint(inputs, line_hz=info.line_hz, speed_hz=float(np.mean([r.speed_rpm for r in revs])) / 60)
         z = fit.orders[1] * complex(np.mean([r.h1_per_code[0] for r in revs]))
         i = [fit.index["cos1x"], fit.index["sin1x"]]
         cov = fit.crlb_unit[np.ix_(i, i)] * sigma2_codes / cpg**2

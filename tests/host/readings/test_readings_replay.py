@@ -11,10 +11,10 @@ from pathlib import Path
 import pytest
 
 from runtrue.device import MeterClient, revfit
+from runtrue.protocol.admit import counts
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import DeviceInfo, InfoAssembler, InfoPart, RevStats, parse_message
 from runtrue.readings import vector_average
-from runtrue.readings.admit import counts
 from runtrue.transport.base import Transport
 
 FIXTURES = Path(__file__).resolve().parents[2] / "fixtures"

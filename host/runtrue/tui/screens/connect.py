@@ -14,6 +14,9 @@ from textual.widget import Widget
 from textual.widgets import OptionList, Static
 from textual.widgets.option_list import Option, OptionDoesNotExist
 
+from runtrue.protocol.admit import counts, why_left_out
+from runtrue.transport import SIM_SCHEME
+from runtrue.transport.registry import listed_sources
 from runtrue.tui.format import amp_text
 from runtrue.tui.messages import MeterConnected, MeterFailed, MeterLost, SelfTestDone
 from runtrue.tui.screens.base import StepScreen
@@ -40,14 +43,7 @@ def find_sources() -> tuple[list[tuple[str, str]], list[tuple[str, str]]]:
             ports = [(p.device, p.description or "") for p in _lp.comports() if p.vid is not None]
         except ImportError:
             ports = []
-    sims: list[tuple[str, str]] = []
-    try:
-        from runtrue.sim.scenarios import SCENARIOS
-
-        for name, sc in SCENARIOS.items():
-            sims.append((f"sim:{name}", str(getattr(sc, "description", ""))))
-    except ImportError:
-        pass
+    sims = listed_sources(SIM_SCHEME)  # what the registered simulator offers (none when absent)
     return ports, sims
 
 
@@ -127,8 +123,10 @@ def signal_check_text(revs: list[Any], labels: list[str] | None = None) -> str:
         for name in getattr(r, "flag_names", []):
             if name.lower() != "first":
                 flagged[name] = flagged.get(name, 0) + 1
-    usable = [r for r in revs if r.usable]
-    share = 1.0 - len(usable) / len(revs)
+    usable = [r for r in revs if counts(r)]
+    # the first revolution after START is left out of every average, but it is no fault of the tape
+    judged = [r for r in revs if counts(r) or why_left_out(r) != ["first"]]
+    share = 1.0 - len(usable) / len(judged) if judged else 0.0
     lines = []
     speed = ""
     if usable:
@@ -136,7 +134,7 @@ def signal_check_text(revs: list[Any], labels: list[str] | None = None) -> str:
         speed = f", {sum(speeds) / len(speeds):.0f} rpm"
     clean = share <= CLEAN_FLAGGED_SHARE
     if clean:
-        lines.append(f"Reference: tape seen cleanly{speed} ({len(usable)}/{len(revs)} revs).")
+        lines.append(f"Reference: tape seen cleanly{speed} ({len(usable)}/{len(judged)} revs).")
     else:
         lines.append(f"Reference: NOT CLEAN - {share:.0%} of revolutions flagged{speed}.")
         for k, v in sorted(flagged.items()):  # what to do about each flag

@@ -25,7 +25,8 @@ from textual.widgets import Static
 
 from runtrue.device.errors import MeterError
 from runtrue.diagnosis.acquire import SpeedAnalysis, analyse_speed_run, record_speed_change, take_diagnosis
-from runtrue.diagnosis.severity import ZONE_TABLES, assess
+from runtrue.diagnosis.severity import assess
+from runtrue.diagnosis.zones import ZONE_TABLES
 from runtrue.tui.screens.base import StepScreen
 from runtrue.tui.widgets.speedplot import spectrum_text, speed_plot_text, waveform_text
 

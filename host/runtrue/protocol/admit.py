@@ -3,7 +3,8 @@
 ``runtrue measure``, the application's live screen and reading, the balancing jobs (through
 ``MeterClient.revolutions(usable_only=True)``), the steadiness judge and
 :func:`runtrue.readings.vector_average` all ask :func:`counts`, so they agree on which
-revolutions make a reading.
+revolutions make a reading.  It lives with the messages because it reads nothing but a
+revolution's flags, so every layer above the protocol can use it.
 
 A revolution counts when the meter flagged nothing that disqualifies it (``Revolution.usable``:
 no missing or extra pulse, speed jump, clipping, dropped samples or failed fit) AND it is not

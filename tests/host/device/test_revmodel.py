@@ -15,7 +15,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from runtrue.readings import revmodel as rm
+from runtrue.device import revmodel as rm
+from runtrue.readings import joint as jf
 from runtrue.sim.frontend import METER_A1_S, METER_A2_S2, lowpass_response
 from runtrue_fw import basis as fwb
 
@@ -266,7 +267,7 @@ def test_joint_fit_separates_100_hz_hum_from_the_4x_that_one_revolution_cannot()
     revs = d.synth(m, 10, rng)
     single = rm.fit_revolution(revs[4].geom, revs[4].sums, line_hz=50.0, speed_hz=m.speed_hz)
     assert single.collisions and abs(single.orders[1] - revs[4].truth) > 5.0
-    joint = rm.fit_joint([rm.RevInput(r.geom, r.sums, 0.0, r.first_sample) for r in revs],
+    joint = jf.fit_joint([jf.RevInput(r.geom, r.sums, 0.0, r.first_sample) for r in revs],
                          line_hz=50.0, speed_hz=m.speed_hz)
     truth = np.mean([r.truth for r in revs])
     i = joint.index["cos1x"]
@@ -281,7 +282,7 @@ def test_joint_fit_of_a_steady_reading_is_the_mean_of_the_revolutions() -> None:
     rng = np.random.default_rng(9)
     m = d.Machine(speed_hz=1100 / 60, amp_codes=300.0, line_hz=0.0, sigma_codes=3.0)
     revs = d.synth(m, 8, rng)
-    joint = rm.fit_joint([rm.RevInput(r.geom, r.sums, 0.0, r.first_sample) for r in revs])
+    joint = jf.fit_joint([jf.RevInput(r.geom, r.sums, 0.0, r.first_sample) for r in revs])
     singles = [rm.fit_revolution(r.geom, r.sums).orders[1] for r in revs]
     assert joint.orders[1] == pytest.approx(np.mean(singles), abs=0.05)
 
@@ -293,7 +294,7 @@ def test_joint_fit_under_a_speed_ramp_gives_the_1x_at_the_reference_speed() -> N
     revs = d.synth(m, 12, rng)
     acc = d.accels(revs)
     inner = revs[1:-1]
-    joint = rm.fit_joint([rm.RevInput(r.geom, r.sums, a, r.first_sample) for r, a in zip(inner, acc[1:-1])],
+    joint = jf.fit_joint([jf.RevInput(r.geom, r.sums, a, r.first_sample) for r, a in zip(inner, acc[1:-1])],
                          line_hz=50.0, speed_hz=24.5)
     truth = np.mean([r.truth for r in inner])  # the 1x scales with speed squared: mean = at the RMS speed
     assert abs(math.degrees(cmath.phase(joint.orders[1] / truth))) < 0.02
