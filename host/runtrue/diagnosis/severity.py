@@ -87,7 +87,7 @@ class Spectrum:
         return [(k, k * f) for k in range(1, 64) if k * f <= top]
 
 
-def _hann(n: int) -> np.ndarray:
+def hann_window(n: int) -> np.ndarray:
     # Periodic Hann window, w[i] = 0.5 - 0.5 cos(2 pi i / n) (F. J. Harris, "On the use of windows
     # for harmonic analysis with the discrete Fourier transform", Proc. IEEE 66(1), 1978).
     i = np.arange(n)
@@ -102,7 +102,7 @@ def spectrum(samples_g: Sequence[float] | np.ndarray, rate_hz: float) -> Spectru
         raise ValueError("a spectrum needs at least 16 samples")
     if not math.isfinite(rate_hz) or rate_hz <= 0.0:
         raise ValueError(f"sample rate must be positive, not {rate_hz!r}")
-    w = _hann(n)
+    w = hann_window(n)
     xf = np.fft.rfft((x - x.mean()) * w)
     freq = np.fft.rfftfreq(n, 1.0 / rate_hz)
     amp = 2.0 * np.abs(xf) / w.sum()           # coherent gain of the window divided out
@@ -126,7 +126,7 @@ def broadband_velocity_rms_mm_s(samples_g: Sequence[float] | np.ndarray, rate_hz
     lo, hi = band
     if not (0.0 <= lo < hi):
         raise ValueError(f"band must be low < high, not {band!r}")
-    w = _hann(n)
+    w = hann_window(n)
     xf = np.fft.rfft((x - x.mean()) * w)
     freq = np.fft.rfftfreq(n, 1.0 / rate_hz)
     inside = (freq >= lo) & (freq <= hi) & (freq > 0)

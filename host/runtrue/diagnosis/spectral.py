@@ -21,7 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from runtrue.diagnosis.severity import _hann, band_hz
+from runtrue.diagnosis.severity import band_hz, hann_window
 from runtrue.readings.units import STANDARD_GRAVITY_MS2
 
 LOBE_BINS = 2            # Hann main lobe half-width, bins
@@ -87,7 +87,7 @@ def order_content(samples_g: Sequence[float] | np.ndarray, rate_hz: float, speed
         need = int(math.ceil(MIN_BINS_PER_ORDER * rate_hz / f1))
         raise ValueError(f"the capture is too short to separate the orders at {speed_rpm:.0f} rpm: "
                          f"capture at least {need} frames (or a lower sample rate)")
-    w = _hann(n)
+    w = hann_window(n)
     xf = np.fft.rfft((x - x.mean()) * w)
     freq = np.fft.rfftfreq(n, 1.0 / rate_hz)
     inside = (freq >= lo) & (freq <= hi) & (freq > 0)

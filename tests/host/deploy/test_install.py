@@ -196,10 +196,10 @@ def test_install_against_the_simulator_only_identifies(capsys: pytest.CaptureFix
 
 
 def test_repl_command_reaches_the_simulated_meter() -> None:
-    from runtrue.deploy.install import _default_open_client
+    from runtrue.deploy.install import default_open_client
 
     lines: list[str] = []
-    info = request_repl("sim:fan", _default_open_client, lines.append)
+    info = request_repl("sim:fan", default_open_client, lines.append)
     assert info is not None and info.board == "sim"
     assert "handed the board back to the MicroPython REPL" in "\n".join(lines)
 
