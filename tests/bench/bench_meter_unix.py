@@ -37,7 +37,8 @@ CHIP_HZ = 125_000_000
 SCRIPT = r"""
 import gc, time, json, micropython
 from array import array
-from runtrue_fw.meter import Meter, KERNELS
+from runtrue_fw.acquisition import KERNELS
+from runtrue_fw.meter import Meter
 from runtrue_fw import frames as fr
 
 class Board:

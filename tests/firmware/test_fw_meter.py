@@ -20,7 +20,8 @@ from rtlib.fakeboard import FakeBoard, Shaft  # type: ignore[import-not-found]
 from runtrue.device import revfit
 from runtrue.protocol.messages import RevStats
 from runtrue_fw import frames as fr
-from runtrue_fw.meter import MAX_REV_SAMPLES, MIN_REV_SAMPLES, Meter
+from runtrue_fw.acquisition import MAX_REV_SAMPLES, MIN_REV_SAMPLES
+from runtrue_fw.meter import Meter
 
 SPR = 97.3125                       # samples per revolution: not whole, exact in 1/256 sample
 RPM = 4000 * 60 / SPR               # 2466.24 rpm at 4 kHz

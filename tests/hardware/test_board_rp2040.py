@@ -18,6 +18,8 @@ from pathlib import Path
 import pytest
 from rp2040_fake import ADC_CS, ADC_DIV, ADC_FCS, DMA_BASE, RAM_ADDRESS_OF_RING, RecordingMeter, Rig
 
+from runtrue_fw.rp2040_timebase import EDGE_LATENCY_US, START_READ_OFFSET_US
+
 ADC_CLOCK_HZ = 48_000_000  # datasheet 4.9: clk_adc 48 MHz
 DREQ_ADC = 36  # datasheet 2.5.3.1, DREQ table
 
@@ -189,7 +191,7 @@ def test_whole_frames_reach_the_meter_in_order_across_the_ring_wrap(rig: Rig) ->
 def test_count_reload_keeps_the_sample_count_exact(rig: Rig) -> None:
     board = started(rig, 0b001)
     dma = DmaSim(rig, board)
-    rig.module._DMA_RELOAD_COUNT = 50  # a small reload so that it happens several times
+    rig.module.DMA_RELOAD_COUNT = 50  # a small reload so that it happens several times
     dma.reload = 50
     rig.mem.values[dma.count_addr] = 50
     board._last_count = 50
@@ -251,7 +253,7 @@ def test_edge_position_is_in_256ths_of_a_frame_since_start(rig: Rig) -> None:
         board.poll(meter)
     # frames = (elapsed - IRQ latency - START read offset) / frame period - one conversion period
     # (the first sampling instant), in 1/256 frame, rounded down
-    lat = rig.module.EDGE_LATENCY_US + rig.module.START_READ_OFFSET_US
+    lat = EDGE_LATENCY_US + START_READ_OFFSET_US
     expected = [math.floor(((dt - lat) / 200.0 - 1 / 3) * 256) for dt in (1000, 2_500_000)]
     assert meter.edges == expected
 
@@ -266,15 +268,17 @@ def test_timebase_stays_exact_over_a_long_run_without_long_integers(rig: Rig) ->
     step_us = 6_997
     for _ in range(3600 * 1_000_000 // step_us):
         rig.clock.now_us += step_us
-        board._advance_anchor(rig.clock.ticks_us())
+        board._timebase.advance(rig.clock.ticks_us())
     rig.clock.now_us += 1234
     board._on_edge(None)
     board.poll(meter)
-    elapsed = rig.clock.now_us - t_start - rig.module.EDGE_LATENCY_US - rig.module.START_READ_OFFSET_US
+    elapsed = rig.clock.now_us - t_start - EDGE_LATENCY_US - START_READ_OFFSET_US
     frame_us = board._period_q8 / 256 * 3 / 48
     want = math.floor((elapsed / frame_us - 1 / 3) * 256) % (1 << 30)
     assert meter.edges == [want]
-    for name in ("_anc_q8", "_anc_rem", "_edge_head", "_edge_tail", "_dropped", "_rpos", "_backlog", "_frames_fed"):
+    for name in ("_anc_q8", "_anc_rem"):
+        assert abs(getattr(board._timebase, name)) < 1 << 30, name
+    for name in ("_edge_head", "_edge_tail", "_dropped", "_rpos", "_backlog", "_frames_fed"):
         assert abs(getattr(board, name)) < 1 << 30, name
 
 

@@ -26,6 +26,7 @@ from runtrue.protocol.commands import (
 )
 from runtrue.protocol.frames import FrameDecoder
 from runtrue.protocol.messages import DeviceInfo, InfoAssembler, InfoPart, RevStats, parse_message
+from runtrue_fw.rp2040_timebase import EDGE_LATENCY_US, START_READ_OFFSET_US
 
 LAGS_DEG = (30.0, 100.0, 250.0)
 AMP_G = 0.5
@@ -50,8 +51,8 @@ def test_meter_on_the_board_reports_the_true_1x_lag_of_every_channel(rig: Rig) -
     # The chip as measured: the ADC starts START_READ_OFFSET_US after the board read its start time,
     # and the hard IRQ stamps an edge EDGE_LATENCY_US after the mark passed; the board takes both
     # back, so the residual is the stamp's whole-microsecond rounding (firmware/README.md, timing).
-    t_start_us = rig.clock.now_us + rig.module.START_READ_OFFSET_US  # the ADC's real start
-    latency_us = rig.module.EDGE_LATENCY_US
+    t_start_us = rig.clock.now_us + START_READ_OFFSET_US  # the ADC's real start
+    latency_us = EDGE_LATENCY_US
     period_cycles = board._period_q8 / 256.0
     conv_us = period_cycles / 48.0
     count_addr = 0x50000000 + 0x40 * rig.dmas[0].channel + 0x08

@@ -16,7 +16,8 @@ import gc
 import micropython
 from rtlib.fakeboard import FakeBoard, Shaft
 from rtlib.drive import Host, revs_of
-from runtrue_fw.meter import Meter, KERNELS
+from runtrue_fw.acquisition import KERNELS
+from runtrue_fw.meter import Meter
 from runtrue_fw import frames as fr
 
 hw = FakeBoard(channels_max=3)

@@ -78,7 +78,8 @@ from runtrue_fw import buffers
 RING = buffers.meter_ring(3)        # first, as main.py does
 from rtlib.fakeboard import FakeBoard, Shaft
 from rtlib.drive import Host, revs_of
-from runtrue_fw.meter import Meter, KERNELS
+from runtrue_fw.acquisition import KERNELS
+from runtrue_fw.meter import Meter
 from runtrue_fw import frames as fr
 
 hw = FakeBoard(channels_max=3, out_capacity=1 << 14)
