@@ -47,6 +47,7 @@ import dataclasses
 import math
 import sys
 import time
+from pathlib import Path
 
 import numpy as np
 
@@ -60,6 +61,9 @@ from runtrue.balancing import (
     solve,
     suggest_trial_weight,
 )
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from random_rotors import amplitude_only_rotor  # noqa: E402
 
 REPEATABILITY = 0.03
 SPEED_JITTER = 0.003
@@ -219,17 +223,8 @@ def _table(title: str, results: list[Result]) -> None:
               f"{np.median([r.ratio_trim for r in sub]):>7.3f} {np.mean([r.resized for r in sub]):>13.1%}")
 
 
-def _amplitude_rotor(rng: np.random.Generator) -> tuple[complex, float, np.ndarray]:
-    u = math.exp(rng.uniform(math.log(100), math.log(10_000))) * np.exp(1j * rng.uniform(0, 2 * math.pi))
-    a = math.exp(rng.uniform(-8, -4))
-    ratio = math.exp(rng.uniform(math.log(0.7), math.log(2.0)))
-    start = rng.uniform(0, 360)
-    t = np.array([0j] + [abs(u) * ratio * np.exp(1j * math.radians(start + x)) for x in (0, 120, 240)])
-    return complex(u), a, t
-
-
 def bench_amplitude(n: int, seed: int) -> None:
-    from runtrue.balancing.amplitude_fit import _linear_start
+    from runtrue.balancing.amplitude_fit import linear_solution
     from runtrue.balancing.four_run import Z95, amplitude_only, fit_amplitudes
 
     print(f"amplitude-only, {n} random rotors per noise level, trial at 0/120/240 deg (seed {seed}):")
@@ -238,10 +233,10 @@ def bench_amplitude(n: int, seed: int) -> None:
         rng = np.random.default_rng(seed)
         lin, ml, fails, t_fit = [], [], 0, 0.0
         for _ in range(n):
-            u, a, t = _amplitude_rotor(rng)
+            u, a, t = amplitude_only_rotor(rng)
             true = a * np.abs(u + t)
             v = np.abs(true * (1 + noise * rng.normal(size=4)))
-            ls = _linear_start(v, t)
+            ls = linear_solution(v, t)
             if ls is None:
                 fails += 1
                 lin.append(math.inf)
@@ -256,7 +251,7 @@ def bench_amplitude(n: int, seed: int) -> None:
     rng = np.random.default_rng(seed + 1)
     hit_m = hit_a = 0
     for _ in range(n):
-        u, a, t = _amplitude_rotor(rng)
+        u, a, t = amplitude_only_rotor(rng)
         true = a * np.abs(u + t)
         sd = np.hypot(0.03 * true, 0.01 * true[0])
         v = np.abs(true + sd * rng.normal(size=4))

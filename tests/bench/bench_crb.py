@@ -59,7 +59,7 @@ import numpy as np
 _ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(_ROOT / "firmware"))  # firmware package first (see tests/host/sim/conftest.py)
 
-sys.path.insert(0, str(Path(__file__).resolve().parent))
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from disturbances import Machine, accels, synth  # noqa: E402
 
 from runtrue.device import revmodel as rm  # noqa: E402
@@ -351,7 +351,7 @@ def main_model(trials: int, seed: int) -> None:
     print("Host fit from the meter's exact sums (runtrue.device.revmodel) against the Cramer-Rao bound of")
     print("the model being fitted: one revolution: dc, 1x..4x, the two line tones; 10 revolutions: a dc each,")
     print("1x..4x and each line tone common to all (joint fit); the angle quadratic through the edges; synthetic")
-    print(f"signals (tests/bench/disturbances.py), 1x = {A_CODES:g} codes, whole-code samples, 4 kS/s.")
+    print(f"signals (tests/disturbances.py), 1x = {A_CODES:g} codes, whole-code samples, 4 kS/s.")
     print("ratio = std / sqrt(CRLB) (amplitude, phase); cost = sqrt(CRLB / bound of a 1x-only fit);")
     print("bias of the phase +- its standard error; warned = share of readings with a line-hum warning")
     print(f"readings: {trials} of one revolution, {max(50, trials // 2)} of ten per case; a ratio estimated from "

@@ -423,26 +423,7 @@ def test_counters_wrap_below_2_30_and_stay_small_ints() -> None:
 @settings(max_examples=40, deadline=None)
 @given(st.integers(1, 3), st.integers(0, 2900), st.integers(1, 900), st.sampled_from([20.3, 97.3125, 333.7]))
 def test_an_overrun_of_any_length_and_position_flags_every_revolution_it_touches(nch, drop_first, drop_len, spr) -> None:
-    hw = FakeBoard(channels_max=nch)
-    m = Meter(hw)
-    host = Host(m, hw)
-    host.command(fr.C_START)
-    host.frames()
-    sh = Shaft(4000, 4000 * 60 / spr, [(0.5, 30.0, 0.0, 0.0, 0.0)] * nch, t0_samples=0.375)
-    n = 3000
-    edges = sh.edges_q8(n)
-    k = 0
-    for f in range(0, n, 50):
-        while k < len(edges) and edges[k] < (f + 50) * 256:
-            m.feed_edge(edges[k])
-            k += 1
-        m.feed_samples(sh.block(f, 50, hw.counts_per_g, hw.zero_code), 50)
-        lo, hi = max(drop_first, f), min(drop_first + drop_len, f + 50)
-        if lo < hi:
-            m.mark_dropped(lo, hi)
-        m.service()
-    m.service()
-    revs = drive.revs_of(host.frames())
+    revs, edges = drive.run_with_overrun(nch, drop_first, drop_len, spr)
     assert revs
     for r in revs:
         e0, e1 = edges[r["rev"]] / 256, edges[r["rev"] + 1] / 256

@@ -77,7 +77,7 @@ import gc, json, micropython
 from runtrue_fw import buffers
 RING = buffers.meter_ring(3)        # first, as main.py does
 from rtlib.fakeboard import FakeBoard, Shaft
-from rtlib.drive import Host, revs_of
+from rtlib.drive import Host, feed_blocks, revs_of
 from runtrue_fw.acquisition import KERNELS
 from runtrue_fw.meter import Meter
 from runtrue_fw import frames as fr
@@ -95,16 +95,7 @@ gc.collect()
 def locked():
     micropython.heap_lock()
     try:
-        k = 0
-        b = 0
-        while b < NB:
-            while k < len(edges) and edges[k] < (b + 1) * 64 * 256:
-                m.feed_edge(edges[k])
-                k += 1
-            m.feed_samples(blocks[b], 64)
-            m.service()
-            hw.ms += 16
-            b += 1
+        feed_blocks(m, hw, blocks, edges, 0, NB)
         i = 0
         while i < 100:          # idle passes, a STATUS among them
             m.service()
@@ -163,42 +154,14 @@ def test_viper_meter_sends_the_same_revolutions_as_cpython(unix_mp) -> None:
 
 OVERRUN_SCRIPT = r"""
 import json
-from rtlib.fakeboard import FakeBoard, Shaft
-from rtlib.drive import Host, revs_of
-from runtrue_fw.meter import Meter
-from runtrue_fw import frames as fr
-
-def run(nch, drop_first, drop_len, spr):
-    hw = FakeBoard(channels_max=nch)
-    m = Meter(hw)
-    host = Host(m, hw)
-    host.command(fr.C_START)
-    host.frames()
-    sh = Shaft(4000, 4000 * 60 / spr, [(0.5, 30.0, 0.0, 0.0, 0.0)] * nch, t0_samples=0.375)
-    n = 3000
-    edges = sh.edges_q8(n)
-    k = 0
-    f = 0
-    while f < n:
-        b = 50
-        while k < len(edges) and edges[k] < (f + b) * 256:
-            m.feed_edge(edges[k]); k += 1
-        m.feed_samples(sh.block(f, b, hw.counts_per_g, hw.zero_code), b)
-        # the board lost frames [drop_first, drop_first + drop_len) inside this block: it says so
-        lo = drop_first if drop_first > f else f
-        hi = drop_first + drop_len if drop_first + drop_len < f + b else f + b
-        if lo < hi:
-            m.mark_dropped(lo, hi)
-        m.service()
-        f += b
-    m.service()
-    return [[r["rev"], r["flags"], r["length_q8"]] for r in revs_of(host.frames())], edges
+from rtlib.drive import run_with_overrun
 
 out = []
 for nch in (1, 2, 3):
     for drop_first, drop_len in ((500, 1), (731, 40), (1000, 333), (1499, 260), (2222, 3)):
-        revs, edges = run(nch, drop_first, drop_len, 97.3125)
-        out.append({"nch": nch, "drop": [drop_first, drop_len], "revs": revs, "edges": edges})
+        revs, edges = run_with_overrun(nch, drop_first, drop_len, 97.3125)
+        out.append({"nch": nch, "drop": [drop_first, drop_len], "edges": edges,
+                    "revs": [[r["rev"], r["flags"], r["length_q8"]] for r in revs]})
 print(json.dumps(out))
 """
 

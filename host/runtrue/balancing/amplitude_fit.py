@@ -73,7 +73,7 @@ class AmplitudeFit:
         return math.sqrt(max(float(self.cov[2 + pickup, 2 + pickup]), 0.0))
 
 
-def _linear_start(v: np.ndarray, t: np.ndarray) -> tuple[complex, float] | None:
+def linear_solution(v: np.ndarray, t: np.ndarray) -> tuple[complex, float] | None:
     """The linear least-squares solution on V^2 for one pickup: (u, |a|), or None if it fails."""
     x = np.column_stack([np.ones(len(v)), np.abs(t) ** 2, 2.0 * t.real, 2.0 * t.imag])
     try:
@@ -197,7 +197,7 @@ def fit_amplitudes(
     lin: complex | None = None
     loud = int(np.argmax(v[0]))
     for i in [loud] + [i for i in range(n_pick) if i != loud]:
-        ls = _linear_start(v[:, i], t)
+        ls = linear_solution(v[:, i], t)
         if ls is not None:
             starts.append(ls[0])
             if lin is None:

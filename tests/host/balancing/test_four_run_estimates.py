@@ -2,9 +2,10 @@
 
 Model that runs (the one the method assumes): a linear single-plane rotor, ``V_k = |a|·|u + T_k|``
 with the trial weight at 0/120/240 deg from a random start, and random amplitude errors.
-Random rotors (invented): ``|u|`` log-uniform 100-10,000 g·mm at any angle, ``|a|`` log-uniform
-over e^-8..e^-4 per g·mm, the trial unbalance 0.7-2 times ``|u|`` (log-uniform).  The same rotors
-as ``tests/bench/bench_balancing.py --amplitude-only`` at a smaller count.
+Random rotors (invented) from ``tests/random_rotors.py``: ``|u|`` log-uniform 100-10,000 g·mm at
+any angle, ``|a|`` log-uniform over e^-8..e^-4 per g·mm, the trial unbalance 0.7-2 times ``|u|``
+(log-uniform).  The same rotors as ``tests/bench/bench_balancing.py --part amplitude`` at a smaller
+count.
 
 Yardsticks: the linear least-squares solution on V^2 (the classic algebra of the three-circle
 construction), which the fit must beat; the truth, which the stated 95 % intervals and the
@@ -14,22 +15,18 @@ residual's upper bound must hold as often as they claim (fixed seeds).
 from __future__ import annotations
 
 import math
+import sys
+from pathlib import Path
 
 import numpy as np
 import pytest
 
 from runtrue.balancing import Run, Weight, phasor, solve_amplitude_only
-from runtrue.balancing.amplitude_fit import _linear_start
+from runtrue.balancing.amplitude_fit import linear_solution
 from runtrue.balancing.four_run import Z95, amplitude_only, fit_amplitudes, residual_upper_bound_gmm
 
-
-def random_rotor(rng: np.random.Generator) -> tuple[complex, float, np.ndarray]:
-    u = math.exp(rng.uniform(math.log(100), math.log(10_000))) * np.exp(1j * rng.uniform(0, 2 * math.pi))
-    a = math.exp(rng.uniform(-8, -4))
-    ratio = math.exp(rng.uniform(math.log(0.7), math.log(2.0)))
-    start = rng.uniform(0, 360)
-    t = np.array([0j] + [abs(u) * ratio * np.exp(1j * math.radians(start + x)) for x in (0, 120, 240)])
-    return complex(u), a, t
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+from random_rotors import amplitude_only_rotor  # noqa: E402
 
 
 @pytest.mark.slow
@@ -37,10 +34,10 @@ def test_fit_beats_the_linear_solution_at_5_percent_amplitude_noise() -> None:
     rng = np.random.default_rng(5)
     lin, ml = [], []
     for _ in range(400):
-        u, a, t = random_rotor(rng)
+        u, a, t = amplitude_only_rotor(rng)
         true = a * np.abs(u + t)
         v = np.abs(true * (1 + 0.05 * rng.normal(size=4)))
-        ls = _linear_start(v, t)
+        ls = linear_solution(v, t)
         lin.append(abs(ls[0] - u) / abs(u) if ls else math.inf)
         ml.append(abs(fit_amplitudes(v, t, 0.05 * true).unbalance_gmm - u) / abs(u))
     # Done-when figures (bench: 3,000 rotors): median <= 0.09, 90th percentile <= 0.23.
@@ -57,7 +54,7 @@ def test_stated_95_percent_intervals_cover_the_true_correction_93_to_97_percent(
     rng = np.random.default_rng(11)
     n, hit_mass, hit_angle = 800, 0, 0
     for _ in range(n):
-        u, a, t = random_rotor(rng)
+        u, a, t = amplitude_only_rotor(rng)
         true = a * np.abs(u + t)
         sd = np.hypot(0.03 * true, 0.01 * true[0])
         v = np.abs(true + sd * rng.normal(size=4))
@@ -78,7 +75,7 @@ def test_residual_upper_bound_holds_the_true_residual_at_least_95_percent() -> N
     rng = np.random.default_rng(3)
     n, under = 600, 0
     for _ in range(n):
-        u, a, t = random_rotor(rng)
+        u, a, t = amplitude_only_rotor(rng)
         true = a * np.abs(u + t)
         sd = np.hypot(0.03 * true, 0.01 * true[0])
         v = np.abs(true + sd * rng.normal(size=4))
@@ -98,7 +95,7 @@ def test_no_false_pass_when_the_bound_decides() -> None:
     rng = np.random.default_rng(17)
     false_pass = 0
     for _ in range(300):
-        u, a, t = random_rotor(rng)
+        u, a, t = amplitude_only_rotor(rng)
         true = a * np.abs(u + t)
         sd = np.hypot(0.03 * true, 0.01 * true[0])
         v = np.abs(true + sd * rng.normal(size=4))
@@ -123,7 +120,7 @@ def test_a_quiet_second_pickup_improves_the_estimate_and_a_noisy_one_does_no_har
     rng = np.random.default_rng(23)
     one, two, noisy = [], [], []
     for _ in range(150):
-        u, a, t = random_rotor(rng)
+        u, a, t = amplitude_only_rotor(rng)
         true = a * np.abs(u + t)
         sd = 0.05 * true
         v1 = np.abs(true + sd * rng.normal(size=4))

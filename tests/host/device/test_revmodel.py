@@ -20,6 +20,9 @@ from runtrue.readings import joint as jf
 from runtrue.sim.frontend import METER_A1_S, METER_A2_S2, lowpass_response
 from runtrue_fw import basis as fwb
 
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+import disturbances  # noqa: E402
+
 RATE_HZ = 4000.0
 
 
@@ -29,38 +32,15 @@ def synth_revs(speed_hz: float, change_per_rev: float, *, lag_deg: float = 30.0,
                line_hz: float = 50.0, start: float = 50.3):
     """Revolutions of a rotor accelerating at a constant rate (relative speed change
     ``change_per_rev`` per revolution), 1x of ``amp_codes`` scaling with speed squared, sampled
-    at RATE_HZ into integer codes; edges at 1/256 sample.  Returns [(geometry, sums, truth 1x)]."""
-    rng = rng or np.random.default_rng(0)
-    w0 = speed_hz / RATE_HZ  # turns per sample
-    alpha = change_per_rev * w0 * w0
-
-    def crossing(n: float) -> float:  # w0 t + alpha t^2 / 2 = n, in the form without cancellation
-        return 2 * n / (w0 + math.sqrt(w0 * w0 + 2 * alpha * n))
-
-    edges = [start + crossing(n) for n in range(n_revs + 1)]
-    t = np.arange(int(edges[-1]) + 2, dtype=float)
-    tt = t - start
-    angle = w0 * tt + 0.5 * alpha * tt * tt
-    rel = (w0 + alpha * tt) / w0
-    y = amp_codes * rel**2 * np.cos(2 * math.pi * angle - math.radians(lag_deg))
-    for k, z in (extra_orders or {}).items():
-        y += rel**2 * (np.conj(z) * np.exp(2j * math.pi * k * angle)).real
-    if line:
-        y += line[0] * np.cos(2 * math.pi * line[1] / RATE_HZ * t + 0.3)
-    if sigma_codes:
-        y = y + rng.normal(0.0, sigma_codes, len(t))
-    codes = np.rint(y).astype(np.int64)
-    e_q8 = [int(round(e * 256)) for e in edges]
-    li = fwb.line_increment(line_hz, RATE_HZ)
-    out = []
-    for r in range(n_revs):
-        e0, e1 = e_q8[r], e_q8[r + 1]
-        first, end = -(-e0 // 256), -(-e1 // 256)
-        geom = rm.RevGeometry(end - first, e1 - e0, first * 256 - e0, li)
-        w_mean = 256.0 / (e1 - e0)
-        truth = amp_codes * (w_mean / w0) ** 2 * cmath.exp(1j * math.radians(lag_deg))
-        out.append((geom, rm.meter_sums(geom, codes[first:end]), truth))
-    return out
+    at RATE_HZ into integer codes; edges at 1/256 sample, the first at sample ``start``; a line
+    tone ``line`` = (codes, Hz).  Returns [(geometry, sums, truth 1x)]."""
+    m = disturbances.Machine(rate_hz=RATE_HZ, speed_hz=speed_hz, change_per_rev=change_per_rev,
+                             amp_codes=amp_codes, lag_deg=lag_deg,
+                             orders=tuple((extra_orders or {}).items()),
+                             line_codes=line[0] if line else 0.0, line_tone_hz=line[1] if line else 100.0,
+                             line_hz=line_hz, sigma_codes=sigma_codes)
+    revs = disturbances.synth(m, n_revs, rng or np.random.default_rng(0), start=start, line_phase_rad=0.3)
+    return [(r.geom, r.sums, r.truth) for r in revs]
 
 
 # ---- the meter's basis ---------------------------------------------------------------------------
@@ -250,21 +230,13 @@ def test_front_end_correction_gives_back_the_vibration_before_the_filter() -> No
 
 # ---- several revolutions fitted together ------------------------------------------------------
 
-def _bench_synth():
-    sys.path.insert(0, str(Path(__file__).parents[2] / "bench"))
-    import disturbances
-
-    return disturbances
-
-
 def test_joint_fit_separates_100_hz_hum_from_the_4x_that_one_revolution_cannot() -> None:
     """1470 rpm: 100 Hz is 2 % from 4x.  A tone ten times the 1x (20 dB) wrecks a single
     revolution's 1x (the line term must be dropped); ten revolutions fitted together with the
     tone common to all give the 1x to within the noise, with no warning left."""
-    d = _bench_synth()
     rng = np.random.default_rng(8)
-    m = d.Machine(speed_hz=1470 / 60, amp_codes=100.0, line_codes=1000.0, sigma_codes=1.0)
-    revs = d.synth(m, 10, rng)
+    m = disturbances.Machine(speed_hz=1470 / 60, amp_codes=100.0, line_codes=1000.0, sigma_codes=1.0)
+    revs = disturbances.synth(m, 10, rng)
     single = rm.fit_revolution(revs[4].geom, revs[4].sums, line_hz=50.0, speed_hz=m.speed_hz)
     assert single.collisions and abs(single.orders[1] - revs[4].truth) > 5.0
     joint = jf.fit_joint([jf.RevInput(r.geom, r.sums, 0.0, r.first_sample) for r in revs],
@@ -278,21 +250,19 @@ def test_joint_fit_separates_100_hz_hum_from_the_4x_that_one_revolution_cannot()
 
 
 def test_joint_fit_of_a_steady_reading_is_the_mean_of_the_revolutions() -> None:
-    d = _bench_synth()
     rng = np.random.default_rng(9)
-    m = d.Machine(speed_hz=1100 / 60, amp_codes=300.0, line_hz=0.0, sigma_codes=3.0)
-    revs = d.synth(m, 8, rng)
+    m = disturbances.Machine(speed_hz=1100 / 60, amp_codes=300.0, line_hz=0.0, sigma_codes=3.0)
+    revs = disturbances.synth(m, 8, rng)
     joint = jf.fit_joint([jf.RevInput(r.geom, r.sums, 0.0, r.first_sample) for r in revs])
     singles = [rm.fit_revolution(r.geom, r.sums).orders[1] for r in revs]
     assert joint.orders[1] == pytest.approx(np.mean(singles), abs=0.05)
 
 
 def test_joint_fit_under_a_speed_ramp_gives_the_1x_at_the_reference_speed() -> None:
-    d = _bench_synth()
     rng = np.random.default_rng(10)
-    m = d.Machine(speed_hz=24.5, amp_codes=400.0, change_per_rev=0.1, line_hz=50.0)
-    revs = d.synth(m, 12, rng)
-    acc = d.accels(revs)
+    m = disturbances.Machine(speed_hz=24.5, amp_codes=400.0, change_per_rev=0.1, line_hz=50.0)
+    revs = disturbances.synth(m, 12, rng)
+    acc = disturbances.accels(revs)
     inner = revs[1:-1]
     joint = jf.fit_joint([jf.RevInput(r.geom, r.sums, a, r.first_sample) for r, a in zip(inner, acc[1:-1])],
                          line_hz=50.0, speed_hz=24.5)

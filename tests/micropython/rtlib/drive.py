@@ -90,6 +90,52 @@ def stream(meter, hw, shaft, n_frames, block=64, slots=None, edges=None, edges_l
     meter.service()
 
 
+def feed_blocks(meter, hw, blocks, edges, first, last, block=64, ms_per_block=16):
+    """Feed prepared blocks[first:last] (each `block` frames) and the edges that fall in them,
+    one service pass a block.  Allocates nothing itself, so tests can hold heap_lock() across it."""
+    k = 0
+    while k < len(edges) and edges[k] < first * block * 256:
+        k += 1
+    b = first
+    while b < last:
+        while k < len(edges) and edges[k] < (b + 1) * block * 256:
+            meter.feed_edge(edges[k])
+            k += 1
+        meter.feed_samples(blocks[b], block)
+        meter.service()
+        hw.ms += ms_per_block
+        b += 1
+
+
+def run_with_overrun(nch, drop_first, drop_len, samples_per_rev, n_frames=3000, block=50):
+    """A started `nch`-channel meter fed `n_frames` of a shaft turning once in `samples_per_rev`
+    frames, the board reporting frames [drop_first, drop_first + drop_len) lost.  Returns
+    (revolutions, edges)."""
+    hw = FakeBoard(channels_max=nch)
+    m = Meter(hw)
+    host = Host(m, hw)
+    host.command(fr.C_START)
+    host.frames()
+    sh = Shaft(4000, 4000 * 60 / samples_per_rev, [(0.5, 30.0, 0.0, 0.0, 0.0)] * nch, t0_samples=0.375)
+    edges = sh.edges_q8(n_frames)
+    k = 0
+    f = 0
+    while f < n_frames:
+        while k < len(edges) and edges[k] < (f + block) * 256:
+            m.feed_edge(edges[k])
+            k += 1
+        m.feed_samples(sh.block(f, block, hw.counts_per_g, hw.zero_code), block)
+        # the board lost frames [drop_first, drop_first + drop_len) inside this block: it says so
+        lo = drop_first if drop_first > f else f
+        hi = drop_first + drop_len if drop_first + drop_len < f + block else f + block
+        if lo < hi:
+            m.mark_dropped(lo, hi)
+        m.service()
+        f += block
+    m.service()
+    return revs_of(host.frames()), edges
+
+
 def scenario(rate_hz=4000, rpm=2466.42, channels=None, n_frames=1200, round_robin=False,
              noise_codes=0.0, block=64, adc_bits=12, counts_per_g=400.0, with_meter=False):
     """A started meter fed with a shaft; returns the revolutions it reported (and the meter

@@ -1,4 +1,4 @@
-"""Synthetic revolutions for the disturbance benchmark and tests: a rotor whose speed changes at a
+"""Synthetic revolutions for the revolution-model tests and the disturbance benchmark: a rotor whose speed changes at a
 constant rate, its 1x (and 2x, 3x) scaling with speed squared, a non-synchronous line tone and
 white noise, sampled into whole ADC codes; the meter's exact integer sums per revolution.
 
@@ -40,12 +40,16 @@ class SynthRev:
     first_sample: int
 
 
-def synth(m: Machine, n_revs: int, rng: np.random.Generator) -> list[SynthRev]:
-    """``n_revs`` consecutive revolutions (the first edge at a random fraction of a sample)."""
+def synth(m: Machine, n_revs: int, rng: np.random.Generator, *, start: float | None = None,
+          line_phase_rad: float | None = None) -> list[SynthRev]:
+    """``n_revs`` consecutive revolutions, the first edge at sample ``start`` (default: 20 and a
+    random fraction), the line tone at phase ``line_phase_rad`` at sample 0 (default: random)."""
     w0 = m.speed_hz / m.rate_hz
     alpha = m.change_per_rev * w0 * w0
-    start = 20.0 + float(rng.uniform())
-    theta0 = float(rng.uniform())  # the rotor angle at t = start is a whole turn: edge there
+    if start is None:
+        start = 20.0 + float(rng.uniform())
+    if line_phase_rad is None:
+        line_phase_rad = 2 * math.pi * float(rng.uniform())
 
     def crossing(n: float) -> float:
         return 2 * n / (w0 + math.sqrt(w0 * w0 + 2 * alpha * n))
@@ -60,7 +64,7 @@ def synth(m: Machine, n_revs: int, rng: np.random.Generator) -> list[SynthRev]:
     for k, z in m.orders:
         y += scale * (np.conj(z) * np.exp(2j * math.pi * k * angle)).real
     if m.line_codes:
-        y += m.line_codes * np.cos(2 * math.pi * m.line_tone_hz / m.rate_hz * t + 2 * math.pi * theta0)
+        y += m.line_codes * np.cos(2 * math.pi * m.line_tone_hz / m.rate_hz * t + line_phase_rad)
     if m.sigma_codes:
         y += rng.normal(0.0, m.sigma_codes, len(t))
     codes = np.rint(y).astype(np.int64)
