@@ -90,18 +90,14 @@ class BrailleCanvas:
 
     def rows(self) -> list[list[tuple[str, str]]]:
         """Each row as (character, style) pairs."""
-        out: list[list[tuple[str, str]]] = []
-        for r in range(self.height_chars):
-            row: list[tuple[str, str]] = []
-            for c in range(self.width_chars):
-                if (c, r) in self._labels:
-                    row.append(self._labels[(c, r)])
-                    continue
-                bits = self._cells[r][c]
-                ch = chr(_BRAILLE_BASE + bits) if bits else " "
-                row.append((ch, self._styles.get((c, r), "")))
-            out.append(row)
-        return out
+        return [[self.cell(c, r) for c in range(self.width_chars)] for r in range(self.height_chars)]
+
+    def cell(self, col: int, row: int) -> tuple[str, str]:
+        """What cell (col, row) shows: a label's character, else its braille dots."""
+        if (col, row) in self._labels:
+            return self._labels[(col, row)]
+        bits = self._cells[row][col]
+        return (chr(_BRAILLE_BASE + bits) if bits else " ", self._styles.get((col, row), ""))
 
     def lines(self) -> list[str]:
         """Plain text lines (no styles): handy for tests."""
@@ -177,21 +173,15 @@ class PlainCanvas(BrailleCanvas):
     def label(self, col: int, row: int, text: str, style: str = "") -> None:
         super().label(col, row, plain_text(text), style)
 
-    def rows(self) -> list[list[tuple[str, str]]]:
-        out: list[list[tuple[str, str]]] = []
-        for r in range(self.height_chars):
-            row: list[tuple[str, str]] = []
-            for c in range(self.width_chars):
-                if (c, r) in self._labels:
-                    row.append(self._labels[(c, r)])
-                elif (c, r) in self._symbols:
-                    row.append(self._symbols[(c, r)])
-                else:
-                    cells = self._cells[r]
-                    east_west = 0 < c < self.width_chars - 1 and bool(cells[c - 1]) and bool(cells[c + 1])
-                    row.append((_plain_stroke(cells[c], east_west), self._styles.get((c, r), "")))
-            out.append(row)
-        return out
+    def cell(self, col: int, row: int) -> tuple[str, str]:
+        """What cell (col, row) shows: a label's character, a point's symbol, else the stroke of its dots."""
+        if (col, row) in self._labels:
+            return self._labels[(col, row)]
+        if (col, row) in self._symbols:
+            return self._symbols[(col, row)]
+        cells = self._cells[row]
+        east_west = 0 < col < self.width_chars - 1 and bool(cells[col - 1]) and bool(cells[col + 1])
+        return (_plain_stroke(cells[col], east_west), self._styles.get((col, row), ""))
 
 
 Canvas = BrailleCanvas  # the interface both canvases offer
