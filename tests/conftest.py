@@ -6,7 +6,8 @@ module a ``pytestmark``); whole tiers whose every test is slow by its nature are
 instead, so a new test in them needs no mark of its own:
 
 * tests/micropython, tests/unixport and every test marked ``micropython``: each starts a MicroPython
-  interpreter (Node.js with the WebAssembly build, or the unix port) in a subprocess;
+  interpreter (Node.js with the WebAssembly build, or the unix port) or the RP2040 emulator in a
+  subprocess;
 * tests/platforms: resolves the installs for every platform against the package index;
 * tests/tui: a test that starts the application (a coroutine test driving Textual's pilot, or a
   snapshot taken with ``snap_compare``) takes a second or more; the pure text and widget tests

@@ -16,9 +16,9 @@ prints, for 1 to 3 channels:
   the ratio of the two is this machine's bytecode-to-chip factor, used for the chip estimate.
 
 The chip figures printed are ESTIMATES: unix-port times multiplied by that factor.  Native viper
-code and bytecode may scale differently between x86-64 and the Cortex-M0+; the bytecode factor is
-the larger of the two in practice (a viper loop is a few machine instructions per operation on both),
-so the estimate is on the safe side for the viper parts.  Measured here only; never on hardware.
+code and bytecode may scale differently between x86-64 and the Cortex-M0+: the kernels' own cycles on
+an emulated Cortex-M0+ (tests/bench/bench_kernels_m0plus.py) come out inside this estimate per frame at
+1 and 3 channels and above it at 2, so it is not always on the safe side.  Never measured on hardware.
 """
 
 from __future__ import annotations
