@@ -1,5 +1,5 @@
 """The viper kernels' machine code on an emulated RP2040 core: bit for bit with the portable
-kernels, 32-bit words, and no call into the runtime inside their loops.
+kernels (and the raw-capture copy with its portable loop), 32-bit words, and no call into the runtime inside their loops.
 
 mpy-cross compiles firmware/runtrue_fw/kernels_viper.py for armv6m (the RP2040's Cortex-M0+);
 m0plus.mjs runs each function's machine code on rp2040js's Cortex-M0+ core.  Unlike MicroPython's
@@ -20,7 +20,7 @@ import m0plus
 import pytest
 
 from runtrue.protocol.cobs import cobs_decode
-from runtrue_fw import basis, kernels
+from runtrue_fw import basis, capture, kernels
 
 pytestmark = pytest.mark.skipif(m0plus.missing() is not None, reason=str(m0plus.missing()))
 
@@ -156,3 +156,18 @@ def test_the_emulated_core_has_32_bit_words_where_the_unix_port_has_64(tmp_path:
     wrapped, small = m0plus.run(add, [[0x7FFFFFFF, 1], [2, 3]])
     assert wrapped.r0 == -(1 << 31)
     assert small.r0 == 5
+
+
+def test_the_raw_capture_copy_equals_the_portable_loop() -> None:
+    code = m0plus.viper_kernels(Path(capture.__file__).with_name("capture_viper.py"))["copy_frames"]
+    rnd = random.Random(11)
+    calls, want = [], []
+    for nch, n, w in ((1, 100, 8000), (3, 37, 8190), (2, 64, 0)):
+        ring = array("H", [rnd.randrange(4096) for _ in range(8192 * nch)])
+        body = bytearray(12 + 2 * n * nch)
+        p = array("i", [n, nch, w, 8192, 12])
+        calls.append([ring, body, p])
+        ref = bytearray(body)
+        capture.copy_frames_portable(ring, ref, p)
+        want.append(bytes(ref))
+    assert [r.buffers[1] for r in m0plus.run(code, calls)] == want
