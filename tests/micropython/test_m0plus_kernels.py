@@ -1,5 +1,6 @@
 """The viper kernels' machine code on an emulated RP2040 core: bit for bit with the portable
-kernels (and the raw-capture copy with its portable loop), 32-bit words, and no call into the runtime inside their loops.
+kernels (and the raw-capture copy with its portable loop), 32-bit words, and no call into the
+runtime inside their loops.
 
 mpy-cross compiles firmware/runtrue_fw/kernels_viper.py for armv6m (the RP2040's Cortex-M0+);
 m0plus.mjs runs each function's machine code on rp2040js's Cortex-M0+ core.  Unlike MicroPython's
