@@ -33,6 +33,7 @@ ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "firmware"))
 sys.path.insert(0, str(ROOT / "tests" / "micropython"))
 import m0plus  # noqa: E402
+from rtlib.revinputs import rev_inputs  # noqa: E402
 
 from runtrue_fw import basis, kernels  # noqa: E402
 
@@ -42,14 +43,8 @@ FRAMES = (24, 60, 200, 400, 2000)
 
 
 def rev_call(nch: int, n: int) -> list:
-    ring = array("H", [(37 * i) % 4096 for i in range(SLOT * nch)])
-    p = kernels.make_params()
-    inc1 = basis.rev_increment(n * 256 + 77)
-    for k, v in ((kernels.P_N, n), (kernels.P_NCH, nch), (kernels.P_START, 100), (kernels.P_MASK, SLOT - 1),
-                 (kernels.P_SLOT, SLOT), (kernels.P_OFFSET, 2048), (kernels.P_INC, inc1),
-                 (kernels.P_A1, basis.first_angle(inc1, 31)), (kernels.P_LINE, basis.line_increment(50.0, RATE_HZ)),
-                 (kernels.P_OUT, 20)):
-        p[k] = v
+    codes = [[(37 * i + 500 * c) % 4096 for i in range(n)] for c in range(nch)]
+    ring, p = rev_inputs(codes, n * 256 + 77, 31, basis.line_increment(50.0, RATE_HZ), 100, SLOT)
     return [ring, kernels.make_kernel_table(), p, bytearray(240)]
 
 

@@ -19,6 +19,7 @@ from pathlib import Path
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from rtlib.revinputs import rev_inputs  # type: ignore[import-not-found]
 
 from runtrue.protocol.cobs import cobs_decode
 from runtrue_fw import basis, kernels
@@ -57,23 +58,7 @@ def _int40(out: bytearray, o: int) -> int:
 def run_kernel(fn, codes: list[list[int]], f: int, length_q8: int, line_inc: int, start: int = 5000):
     """Put the channels' codes in a ring (wrapping), run `fn` (a rev_sums), return sums, min, max, p."""
     nch = len(codes)
-    n = len(codes[0])
-    ring = array("H", bytes(2 * SLOT * nch))
-    for c in range(nch):
-        for i in range(n):
-            ring[c * SLOT + ((start + i) & (SLOT - 1))] = codes[c][i]
-    p = kernels.make_params()
-    inc1 = basis.rev_increment(length_q8)
-    p[kernels.P_N] = n
-    p[kernels.P_NCH] = nch
-    p[kernels.P_START] = start & (SLOT - 1)
-    p[kernels.P_MASK] = SLOT - 1
-    p[kernels.P_SLOT] = SLOT
-    p[kernels.P_OFFSET] = 2048
-    p[kernels.P_INC] = inc1
-    p[kernels.P_A1] = basis.first_angle(inc1, f)
-    p[kernels.P_LINE] = line_inc
-    p[kernels.P_OUT] = 20
+    ring, p = rev_inputs(codes, length_q8, f, line_inc, start, SLOT)
     out = bytearray(240)
     fn(ring, KTAB, p, out)
     sums = [[_int40(out, 20 + 70 * c + 5 * j) for j in range(14)] for c in range(nch)]

@@ -19,6 +19,7 @@ from pathlib import Path
 
 import m0plus
 import pytest
+from rtlib.revinputs import rev_inputs
 
 from runtrue.protocol.cobs import cobs_decode
 from runtrue_fw import basis, capture, kernels
@@ -31,24 +32,7 @@ CTAB = kernels.make_crc_table()
 
 
 def rev_case(codes: list[list[int]], length_q8: int, first_q8: int, line_inc: int, start: int) -> tuple[array, array]:
-    nch, n = len(codes), len(codes[0])
-    ring = array("H", bytes(2 * SLOT * nch))
-    for c in range(nch):
-        for i in range(n):
-            ring[c * SLOT + ((start + i) & (SLOT - 1))] = codes[c][i]
-    p = kernels.make_params()
-    inc1 = basis.rev_increment(length_q8)
-    p[kernels.P_N] = n
-    p[kernels.P_NCH] = nch
-    p[kernels.P_START] = start & (SLOT - 1)
-    p[kernels.P_MASK] = SLOT - 1
-    p[kernels.P_SLOT] = SLOT
-    p[kernels.P_OFFSET] = 2048
-    p[kernels.P_INC] = inc1
-    p[kernels.P_A1] = basis.first_angle(inc1, first_q8)
-    p[kernels.P_LINE] = line_inc
-    p[kernels.P_OUT] = 20
-    return ring, p
+    return rev_inputs(codes, length_q8, first_q8, line_inc, start, SLOT)
 
 
 def rev_cases() -> list[tuple[array, array]]:
