@@ -40,12 +40,13 @@ from runtrue_fw import basis, kernels  # noqa: E402
 RATE_HZ = 4000
 SLOT = 8192
 FRAMES = (24, 60, 200, 400, 2000)
+KTAB = kernels.make_kernel_table()
 
 
 def rev_call(nch: int, n: int) -> list:
     codes = [[(37 * i + 500 * c) % 4096 for i in range(n)] for c in range(nch)]
     ring, p = rev_inputs(codes, n * 256 + 77, 31, basis.line_increment(50.0, RATE_HZ), 100, SLOT)
-    return [ring, kernels.make_kernel_table(), p, bytearray(240)]
+    return [ring, KTAB, p, bytearray(240)]
 
 
 def main() -> int:
@@ -73,11 +74,10 @@ def main() -> int:
                                               array("i", [4090, 64 * nch, 4096])]])
         ring_copy = c[0].cycles / 64
         body = 4 + 16 + 70 * nch
-        crc = m0plus.run(code["crc32_into"], [[bytearray(bytes(range(body % 251)) * 2)[:body] + bytearray(4), body,
-                                               kernels.make_crc_table()]])[0].cycles
+        data = bytearray((i * 7 + 1) % 256 for i in range(body + 4))  # the frame, room for its CRC
+        crc = m0plus.run(code["crc32_into"], [[data, body, kernels.make_crc_table()]])[0].cycles
         wire = bytearray((body + 4) + 8)
-        cobs = m0plus.run(code["cobs_encode_into"], [[bytearray((i * 7 + 1) % 256 for i in range(body + 4)), body + 4,
-                                                      wire]])[0].cycles
+        cobs = m0plus.run(code["cobs_encode_into"], [[data, body + 4, wire]])[0].cycles
         frame_cyc = per_frame + deint + ring_copy
         rev_cyc = per_rev + crc + cobs
         us_frame, us_rev = frame_cyc / m0plus.CLOCK_HZ * 1e6, rev_cyc / m0plus.CLOCK_HZ * 1e6

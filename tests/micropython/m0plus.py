@@ -75,9 +75,10 @@ Arg = int | bytes | bytearray | array
 def run(code: bytes, calls: list[list[Arg]], timeout: float = 300) -> list[Run]:
     """Run ``code`` once per entry of ``calls`` (its arguments: ints, or buffers copied into SRAM)."""
     job: dict = {"code_hex": code.hex(), "calls": []}
-    is_buffer = [[not isinstance(a, int) for a in args] for args in calls]
+    is_buffer: list[list[bool]] = []
     for args in calls:
         spec, buffers, reads, off = [], [], [], 0
+        is_buffer.append([not isinstance(a, int) for a in args])
         for a in args:
             if isinstance(a, int):
                 spec.append({"int": a & 0xFFFFFFFF})

@@ -31,22 +31,18 @@ KTAB = kernels.make_kernel_table()
 CTAB = kernels.make_crc_table()
 
 
-def rev_case(codes: list[list[int]], length_q8: int, first_q8: int, line_inc: int, start: int) -> tuple[array, array]:
-    return rev_inputs(codes, length_q8, first_q8, line_inc, start, SLOT)
-
-
 def rev_cases() -> list[tuple[array, array]]:
     rnd = random.Random(7)
     cases = []
     for nch in (1, 2, 3):
         for n, line_hz in ((24, 50.0), (97, 60.0), (400, 0.0), (2000, 50.0)):
             codes = [[rnd.randrange(4096) for _ in range(n)] for _ in range(nch)]
-            cases.append(rev_case(codes, n * 256 + rnd.randrange(256), rnd.randrange(256),
-                                  basis.line_increment(line_hz, 4000.0), rnd.randrange(SLOT)))
+            cases.append(rev_inputs(codes, n * 256 + rnd.randrange(256), rnd.randrange(256),
+                                    basis.line_increment(line_hz, 4000.0), rnd.randrange(SLOT), SLOT))
     # the extremes: full-scale codes (0 and 4095), wrapping the ring, 8 samples and 8,000 samples
     for n in (8, 8000):
         codes = [[4095 if (i // 3) % 2 else 0 for i in range(n)] for _ in range(3)]
-        cases.append(rev_case(codes, n * 256, 255, basis.line_increment(60.0, 4000.0), SLOT - 5))
+        cases.append(rev_inputs(codes, n * 256, 255, basis.line_increment(60.0, 4000.0), SLOT - 5, SLOT))
     return cases
 
 
@@ -70,7 +66,7 @@ def test_the_kernels_call_the_runtime_only_on_entry_whatever_the_revolutions_len
     # The loops run with no call into MicroPython's runtime (so nothing there can allocate): the
     # same entry calls (argument checks and conversions) for 8 samples as for 8,000.
     code = m0plus.viper_kernels()["rev_sums"]
-    short, long_ = (rev_case([[(37 * i) % 4096 for i in range(n)]], n * 256, 0, 0, 0) for n in (8, 8000))
+    short, long_ = (rev_inputs([[(37 * i) % 4096 for i in range(n)]], n * 256, 0, 0, 0, SLOT) for n in (8, 8000))
     runs = m0plus.run(code, [[short[0], KTAB, short[1], bytearray(240)], [long_[0], KTAB, long_[1], bytearray(240)]])
     assert runs[0].runtime_calls == runs[1].runtime_calls
     assert len(runs[0].runtime_calls) <= 4 + 1        # one per argument, and the argument check
